@@ -1,0 +1,83 @@
+"""irseg: defect lists from building-envelope thermograms.
+
+Subpackages and modules, one line each:
+
+- ``irseg.io``        -- readers for open radiometric formats (TIFF, PNG 16-bit, CSV/TXT, NPY).
+- ``irseg.metadata``  -- survey.toml / sidecar TOML loading and validation.
+- ``irseg.radiometry``-- band-limited Planck radiance, emissivity and reflected-temperature correction.
+- ``irseg.segment``   -- Ambrosio–Tortorelli phase-field segmentation (smooth field + jump set + regions).
+- ``irseg.analysis``  -- local sound reference, cause, area, excess heat loss, f_Rsi, confidence.
+- ``irseg.render``    -- annotated overlay and label images (arrays; saving lives in irseg.outputs).
+- ``irseg.outputs``   -- atomic writers for CSV/JSON/PNG outputs.
+- ``irseg.report``    -- the self-contained HTML survey report.
+- ``irseg.pipeline``  -- one image end to end (the only place the stages are chained).
+- ``irseg.batch``     -- a whole survey: process pool or dask.distributed, resume, failures.
+- ``irseg.scenes``    -- physics-based synthetic scenes and the bundled sample survey.
+- ``irseg.cli``       -- the ``irseg`` command, a thin layer over the above.
+
+Public names are loaded lazily so that ``import irseg`` stays cheap in worker
+processes.
+"""
+
+from __future__ import annotations
+
+import importlib
+from typing import Any
+
+from ._version import __version__
+from .errors import (
+    CalibrationError,
+    ConfigError,
+    ConvergenceWarning,
+    InputError,
+    IrsegError,
+    IrsegWarning,
+    MetadataError,
+    MetadataWarning,
+    OutputError,
+    SolverError,
+    UnsupportedFormatError,
+)
+
+# public name -> module that defines it
+_LAZY = {
+    "segment": "irseg.segment",
+    "Segmentation": "irseg.segment",
+    "read_thermogram": "irseg.io",
+    "load_metadata": "irseg.metadata",
+    "calibrate": "irseg.radiometry",
+    "analyse": "irseg.analysis",
+    "Analysis": "irseg.analysis",
+    "Anomaly": "irseg.analysis",
+    "process_image": "irseg.pipeline",
+    "run_survey": "irseg.batch",
+}
+
+__all__ = [
+    "__version__",
+    "IrsegError",
+    "ConfigError",
+    "MetadataError",
+    "InputError",
+    "UnsupportedFormatError",
+    "CalibrationError",
+    "SolverError",
+    "OutputError",
+    "IrsegWarning",
+    "ConvergenceWarning",
+    "MetadataWarning",
+    *_LAZY,
+]
+
+
+def __getattr__(name: str) -> Any:
+    module = _LAZY.get(name)
+    if module is None:
+        raise AttributeError(f"module 'irseg' has no attribute {name!r}")
+    value = getattr(importlib.import_module(module), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(__all__)

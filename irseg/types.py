@@ -1,0 +1,260 @@
+"""Plain frozen data passed between the stages of irseg.
+
+Data flows one way::
+
+    read_thermogram -> RawFrame
+    load_metadata   -> SurveyMeta
+    calibrate(RawFrame, SurveyMeta) -> ThermalFrame
+    segment(ThermalFrame.temperature_c, mask=ThermalFrame.mask) -> Segmentation
+    analyse(ThermalFrame, Segmentation) -> Analysis
+    render / write (irseg.render, irseg.outputs, irseg.report, irseg.batch)
+
+Arrays are ``(M, N)``: rows, columns. Every temperature array passed between
+stages is in degrees Celsius (float32 or float64). Fields documented here are an
+interface: later code may add fields, never rename or remove them.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+import numpy as np
+
+__all__ = [
+    "Camera",
+    "Surface",
+    "Air",
+    "AnalysisSettings",
+    "SegmentSettings",
+    "SurveyMeta",
+    "RawFrame",
+    "ThermalFrame",
+]
+
+
+# --------------------------------------------------------------------------- metadata
+# These mirror the TOML schema of survey.toml / <stem>.toml, section by section.
+
+
+@dataclass(frozen=True)
+class Camera:
+    """``[camera]``: geometry and encoding of the shot.
+
+    Attributes
+    ----------
+    hfov_deg : float or None
+        Horizontal field of view, degrees.
+    distance_m : float or None
+        Camera to surface distance, metres.
+    pixel_m : float or None
+        One pixel's footprint on the surface, metres (instead of hfov_deg + distance_m).
+    tilt_deg : float
+        Angle between line of sight and surface normal, degrees, in [0, 80].
+    units : str
+        ``"celsius"`` or ``"kelvin"``: units of the stored values after scale/offset.
+    scale, offset : float
+        Integer images: value = raw * scale + offset (in ``units``).
+    band_um : tuple of float
+        Camera spectral band (low, high), micrometres.
+    netd_k : float
+        Noise-equivalent temperature difference, K (used for confidence bands).
+    export_emissivity : float
+        Emissivity the exported temperatures already apply (1.0 = apparent temperature).
+    export_reflected_c : float or None
+        Reflected temperature the export already applies (ignored when export_emissivity is 1).
+    transmittance : float
+        Atmospheric transmittance of the path, (0, 1].
+    atmosphere_c : float or None
+        Air temperature along the path (None: use air.outside_c for exterior/roof, inside_c for interior).
+    """
+
+    hfov_deg: float | None = None
+    distance_m: float | None = None
+    pixel_m: float | None = None
+    tilt_deg: float = 0.0
+    units: str = "celsius"
+    scale: float = 1.0
+    offset: float = 0.0
+    band_um: tuple[float, float] = (7.5, 14.0)
+    netd_k: float = 0.05
+    export_emissivity: float = 1.0
+    export_reflected_c: float | None = None
+    transmittance: float = 1.0
+    atmosphere_c: float | None = None
+
+
+@dataclass(frozen=True)
+class Surface:
+    """``[surface]``: the imaged surface.
+
+    Attributes
+    ----------
+    emissivity : float
+        Long-wave emissivity, (0, 1].
+    reflected_c : float or None
+        Reflected apparent temperature, °C (None: the air temperature on the camera's side).
+    view : str
+        ``"interior"``, ``"exterior"`` or ``"roof"``.
+    heat_flow : str or None
+        ``"horizontal"`` (walls), ``"upward"`` (ceilings, roofs) or ``"downward"`` (floors);
+        None: horizontal for interior/exterior, upward for roof.
+    emissivity_uncertainty : float
+        ± absolute uncertainty of the emissivity, for confidence bands.
+    """
+
+    emissivity: float = 0.93
+    reflected_c: float | None = None
+    view: str = "interior"
+    heat_flow: str | None = None
+    emissivity_uncertainty: float = 0.02
+
+
+@dataclass(frozen=True)
+class Air:
+    """``[air]``: conditions at survey time. None where not known.
+
+    Attributes
+    ----------
+    inside_c, outside_c : float or None
+        Inside and outside air temperature, °C.
+    wind_m_s : float or None
+        Wind speed at the surface, m/s.
+    """
+
+    inside_c: float | None = None
+    outside_c: float | None = None
+    wind_m_s: float | None = None
+
+
+@dataclass(frozen=True)
+class AnalysisSettings:
+    """``[analysis]``: how anomalies are judged and measured.
+
+    Attributes
+    ----------
+    degree_days : float
+        Heating degree-days, K·d per year (3000: common practice for a temperate climate).
+    frsi_limit : float
+        Mould-risk limit of the temperature factor (0.70 DIN 4108-2; 0.75 UK practice).
+    distance_uncertainty : float
+        Relative uncertainty of the distance (0.05 = ±5 %).
+    h_uncertainty : float
+        Relative uncertainty of the surface heat-transfer coefficient (0.20 = ±20 %).
+    max_wind_m_s : float
+        Wind above this raises a conditions warning (ASTM C1060: 6.7 m/s).
+    min_delta_t_k : float
+        Inside-outside difference below this raises a conditions warning (EN 13187: 10 K).
+    min_contrast_k : float or None
+        Smallest |delta_k| kept as an anomaly (None: derived from the noise).
+    seed : int
+        Seed of the Monte Carlo confidence bands.
+    """
+
+    degree_days: float = 3000.0
+    frsi_limit: float = 0.70
+    distance_uncertainty: float = 0.05
+    h_uncertainty: float = 0.20
+    max_wind_m_s: float = 6.7
+    min_delta_t_k: float = 10.0
+    min_contrast_k: float | None = None
+    seed: int = 0
+
+
+@dataclass(frozen=True)
+class SegmentSettings:
+    """``[segment]``: thermographer-facing knobs of the Ambrosio–Tortorelli solver.
+
+    Attributes
+    ----------
+    noise_k : float or None
+        Noise level, K (None: estimated robustly from the image).
+    min_step_k : float
+        Smallest temperature step that should make an edge, K.
+    min_feature_px : float
+        Smallest feature worth separating, pixels.
+    """
+
+    noise_k: float | None = None
+    min_step_k: float = 0.5
+    min_feature_px: float = 4.0
+
+
+@dataclass(frozen=True)
+class SurveyMeta:
+    """All metadata in force for one image, after folder defaults, sidecar and overrides.
+
+    Attributes
+    ----------
+    camera, surface, air, analysis, segment
+        One object per TOML section.
+    sources : tuple of str
+        The metadata files that were read, in the order applied (folder first).
+    """
+
+    camera: Camera = field(default_factory=Camera)
+    surface: Surface = field(default_factory=Surface)
+    air: Air = field(default_factory=Air)
+    analysis: AnalysisSettings = field(default_factory=AnalysisSettings)
+    segment: SegmentSettings = field(default_factory=SegmentSettings)
+    sources: tuple[str, ...] = ()
+
+
+# --------------------------------------------------------------------------- frames
+
+
+@dataclass(frozen=True)
+class RawFrame:
+    """An image as stored in its file, before any correction.
+
+    Attributes
+    ----------
+    path : str
+        The input file.
+    data : (M, N) ndarray
+        The stored values, dtype as stored (integer or float), never rescaled.
+    format : str
+        Name of the reader that decoded it (``"tiff"``, ``"png"``, ``"csv"``, ``"npy"``).
+    metadata : dict
+        The format's own tags, untouched (free form).
+    """
+
+    path: str
+    data: np.ndarray
+    format: str
+    metadata: dict[str, Any] = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class ThermalFrame:
+    """A corrected thermogram: surface temperature in °C plus its validity mask.
+
+    Attributes
+    ----------
+    path : str
+        The input file.
+    temperature_c : (M, N) float32 or float64 ndarray
+        Object (surface) temperature, °C, after emissivity/reflected correction.
+        Masked pixels hold a finite fill value (local median), never NaN.
+    mask : (M, N) bool ndarray
+        True where the pixel is invalid (NaN, dead/hot pixel, saturated).
+    apparent_c : (M, N) ndarray
+        Apparent (blackbody-equivalent) temperature, °C, before correction.
+    meta : SurveyMeta
+        Metadata in force for this image.
+    n_dead : int
+        Isolated dead/hot pixels detected and masked.
+    n_nan : int
+        Non-finite pixels masked.
+    warnings : tuple of str
+        Human-readable warnings raised while reading and correcting.
+    """
+
+    path: str
+    temperature_c: np.ndarray
+    mask: np.ndarray
+    apparent_c: np.ndarray
+    meta: SurveyMeta
+    n_dead: int = 0
+    n_nan: int = 0
+    warnings: tuple[str, ...] = ()
