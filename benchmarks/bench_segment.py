@@ -1,0 +1,143 @@
+"""Benchmark: irseg.segment.segment against scikit-image peers on synthetic thermograms.
+
+Not a test: it prints medians, ratios, IoU against the known anomaly mask and peak
+memory, all measured in one run on this machine. Usage::
+
+    python benchmarks/bench_segment.py            # all sizes
+    python benchmarks/bench_segment.py --quick    # 640 x 480 only, fewer repeats
+    OMP_NUM_THREADS=1 python benchmarks/bench_segment.py
+
+Scene (invented): an interior wall at about 20 °C with a smooth 2 K gradient, warm
+and cold patches (0.8 to 3 K) of several shapes, two of them touching, blurred by
+the optics (Gaussian, 1 px) and white noise of 0.05 K or 0.3 K.
+
+Peers, run on the same frames:
+- ``skimage.segmentation.chan_vese`` (two-phase piecewise-constant level set);
+- ``skimage.restoration.denoise_tv_chambolle`` followed by a threshold of half the
+  minimum step on the deviation from the median temperature.
+
+IoU is between the predicted anomaly pixels (irseg: every region but the largest;
+peers: the minority phase / thresholded pixels) and the true anomaly mask.
+"""
+
+from __future__ import annotations
+
+import argparse
+import resource
+import statistics
+import time
+import tracemalloc
+
+import numpy as np
+from scipy import ndimage as ndi
+from skimage.restoration import denoise_tv_chambolle
+from skimage.segmentation import chan_vese
+
+from irseg.segment import segment
+
+MIN_STEP_K = 0.5
+
+
+def make_scene(shape: tuple[int, int], noise_k: float, seed: int = 7) -> tuple[np.ndarray, np.ndarray]:
+    """Synthetic wall thermogram (°C) and its true anomaly mask; patch layout scales with the frame."""
+    rng = np.random.default_rng(seed)
+    m, n = shape
+    yy, xx = np.mgrid[:m, :n]
+    y, x = yy / m, xx / n
+    t = 20.0 + 1.2 * x + 0.8 * y  # smooth 2 K gradient across the wall
+    truth = np.zeros(shape, bool)
+
+    def add(region: np.ndarray, delta: float) -> None:
+        nonlocal t
+        t = t + delta * region
+        truth[region] = True
+
+    add((x > 0.10) & (x < 0.30) & (y > 0.12) & (y < 0.35), -2.0)  # cold: missing insulation
+    add(((x - 0.62) / 0.10) ** 2 + ((y - 0.25) / 0.12) ** 2 < 1.0, +1.5)  # warm ellipse
+    add((x > 0.40) & (x < 0.90) & (y > 0.60) & (y < 0.66), -1.2)  # cold strip: thermal bridge
+    add((x > 0.15) & (x < 0.35) & (y > 0.55) & (y < 0.85), -0.8)  # damp patch ...
+    add((x > 0.35) & (x < 0.45) & (y > 0.55) & (y < 0.85), -2.5)  # ... touching a colder one
+    add(((x - 0.80) / 0.05) ** 2 + ((y - 0.85) / 0.07) ** 2 < 1.0, +3.0)  # warm spot
+    t = ndi.gaussian_filter(t, 1.0)
+    t = t + rng.normal(0.0, noise_k, shape)
+    return t.astype(np.float32), truth
+
+
+def iou(a: np.ndarray, b: np.ndarray) -> float:
+    return float((a & b).sum()) / max(float((a | b).sum()), 1.0)
+
+
+def predict_irseg(g: np.ndarray) -> np.ndarray:
+    seg = segment(g, min_step_k=MIN_STEP_K)
+    counts = np.bincount(seg.labels.ravel())
+    counts[0] = 0
+    return seg.labels != counts.argmax()
+
+
+def predict_chan_vese(g: np.ndarray) -> np.ndarray:
+    phase = chan_vese(g.astype(np.float64), mu=0.25, tol=1e-3, max_num_iter=200, dt=0.5)
+    return phase if phase.mean() < 0.5 else ~phase
+
+
+def predict_tv(g: np.ndarray) -> np.ndarray:
+    d = denoise_tv_chambolle(g.astype(np.float64), weight=0.3)
+    return np.abs(d - np.median(d)) > 0.5 * MIN_STEP_K
+
+
+def timed(fn, g: np.ndarray, repeats: int) -> tuple[float, np.ndarray]:
+    times = []
+    out = None
+    for _ in range(repeats):
+        t0 = time.perf_counter()
+        out = fn(g)
+        times.append(time.perf_counter() - t0)
+    return statistics.median(times), out
+
+
+def peak_mb(fn, g: np.ndarray) -> float:
+    tracemalloc.start()
+    fn(g)
+    _, peak = tracemalloc.get_traced_memory()
+    tracemalloc.stop()
+    return peak / 2**20
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    ap.add_argument("--quick", action="store_true", help="640 x 480 only, 3 repeats for the peers")
+    ap.add_argument("--repeats", type=int, default=7)
+    args = ap.parse_args()
+
+    segment(make_scene((120, 160), 0.05)[0])  # warm-up (imports, caches)
+    print(f"{'frame':>10} {'noise':>6} {'method':>14} {'median s':>9} {'x irseg':>8} {'IoU':>6} {'runs':>5}")
+    base = {}
+    for noise in (0.05, 0.3):
+        g, truth = make_scene((480, 640), noise)
+        t_at, p_at = timed(predict_irseg, g, args.repeats)
+        base[noise] = t_at
+        cv_runs = 1 if args.quick else 3
+        t_cv, p_cv = timed(predict_chan_vese, g, cv_runs)
+        t_tv, p_tv = timed(predict_tv, g, 3 if args.quick else 5)
+        for name, t, p, r in (
+            ("irseg.segment", t_at, p_at, args.repeats),
+            ("chan_vese", t_cv, p_cv, cv_runs),
+            ("tv+threshold", t_tv, p_tv, 3 if args.quick else 5),
+        ):
+            print(f"{'640x480':>10} {noise:>6.2f} {name:>14} {t:>9.4f} {t / t_at:>8.1f} {iou(p, truth):>6.3f} {r:>5}")
+    if not args.quick:
+        print("\nscaling of irseg.segment (noise 0.05 K)")
+        for shape in ((240, 320), (480, 640), (1024, 1280)):
+            g, truth = make_scene(shape, 0.05)
+            reps = args.repeats if shape[0] <= 480 else 5
+            t, p = timed(predict_irseg, g, reps)
+            mem = peak_mb(predict_irseg, g)
+            print(
+                f"{shape[1]}x{shape[0]:<5} median {t:.4f} s  ({t / base[0.05]:.2f} x 640x480)  "
+                f"IoU {iou(p, truth):.3f}  peak traced memory {mem:.1f} MB  runs {reps}"
+            )
+    rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
+    print(f"\nprocess max RSS {rss:.0f} MB (includes Python, numpy, scipy, scikit-image)")
+
+
+if __name__ == "__main__":
+    main()

@@ -1,0 +1,81 @@
+"""Text drawing for the overlay: OpenCV's Hershey font plus the few symbols it lacks.
+
+OpenCV's built-in fonts cover printable ASCII only. The overlay needs ``°`` (°C), ``Δ`` (ΔT)
+and the en dash; these are drawn as small primitives of the same height. Any other non-ASCII
+character (for instance in a file name) is drawn as ``?``.
+"""
+
+from __future__ import annotations
+
+import cv2
+import numpy as np
+
+__all__ = ["draw_text", "text_width"]
+
+_FONT = cv2.FONT_HERSHEY_SIMPLEX
+_SPECIAL = {"°", "Δ", "–", "—"}
+
+
+def _segments(text: str) -> list[str]:
+    """Split into runs of plain ASCII and single special symbols."""
+    out: list[str] = []
+    run = []
+    for ch in text:
+        if ch in _SPECIAL:
+            if run:
+                out.append("".join(run))
+                run = []
+            out.append(ch)
+        else:
+            run.append(ch if 32 <= ord(ch) < 127 else "?")
+    if run:
+        out.append("".join(run))
+    return out
+
+
+def _cap_height(scale: float, thickness: int) -> int:
+    return cv2.getTextSize("C", _FONT, scale, thickness)[0][1]
+
+
+def _symbol_width(ch: str, scale: float, thickness: int) -> int:
+    h = _cap_height(scale, thickness)
+    if ch == "°":
+        return max(4, int(round(0.55 * h))) + 1
+    if ch == "Δ":
+        return cv2.getTextSize("A", _FONT, scale, thickness)[0][0]
+    return cv2.getTextSize("-", _FONT, scale, thickness)[0][0] + max(1, int(round(0.3 * h)))
+
+
+def text_width(text: str, scale: float, thickness: int) -> int:
+    """Width in pixels of ``text`` as :func:`draw_text` draws it."""
+    total = 0
+    for seg in _segments(text):
+        if seg in _SPECIAL:
+            total += _symbol_width(seg, scale, thickness)
+        else:
+            total += cv2.getTextSize(seg, _FONT, scale, thickness)[0][0]
+    return total
+
+
+def draw_text(
+    img: np.ndarray, text: str, org: tuple[int, int], scale: float, colour: tuple[int, int, int], thickness: int
+) -> int:
+    """Draw ``text`` with its baseline starting at ``org`` (column, row); return the end column."""
+    x, y = int(org[0]), int(org[1])
+    h = _cap_height(scale, thickness)
+    for seg in _segments(text):
+        if seg == "°":
+            r = max(2, int(round(0.2 * h)))
+            cv2.circle(img, (x + r + 1, y - h + r), r, colour, max(1, thickness), lineType=cv2.LINE_AA)
+        elif seg == "Δ":
+            w = _symbol_width(seg, scale, thickness)
+            pts = np.array([[x + 1, y], [x + w - 2, y], [x + (w - 1) // 2, y - h]], dtype=np.int32)
+            cv2.polylines(img, [pts], True, colour, max(1, thickness), lineType=cv2.LINE_AA)
+        elif seg in ("–", "—"):
+            w = _symbol_width(seg, scale, thickness)
+            ym = y - h // 2 + 1
+            cv2.line(img, (x + 1, ym), (x + w - 2, ym), colour, max(1, thickness), lineType=cv2.LINE_AA)
+        else:
+            cv2.putText(img, seg, (x, y), _FONT, scale, colour, thickness, lineType=cv2.LINE_AA)
+        x += _symbol_width(seg, scale, thickness) if seg in _SPECIAL else cv2.getTextSize(seg, _FONT, scale, thickness)[0][0]
+    return x

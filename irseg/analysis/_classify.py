@@ -1,0 +1,281 @@
+"""Shape features and the cause rules.
+
+Every rule is a plain threshold on a feature computed from the anomaly's pixels;
+the thresholds are module constants, documented in ``docs/analysis.md``. The
+first matching rule wins and returns ``(cause, reason)``.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import cv2
+import numpy as np
+from scipy import ndimage
+
+__all__ = ["Shape", "CAUSES", "shape_features", "find_regular_sets", "classify_cause"]
+
+CAUSES = ("missing_insulation", "thermal_bridge", "air_leakage", "moisture", "unclassified")
+
+BAND_ELONGATION = 5.0  # length/width of a "long narrow band"
+SET_ELONGATION = 2.5  # a shorter band still counts when it belongs to a regular parallel set
+BAND_FILL = 0.6  # area / minimum-area rectangle of a straight band
+BAND_MAX_WIDTH_M = 0.35  # wider bands are not framing members, lintels or slab edges
+COMPACT_SOLIDITY = 0.85
+COMPACT_FILL = 0.70
+STREAKY_SOLIDITY = 0.70
+STREAKY_FILL = 0.60
+FAN_TAPER = 2.0  # a wedge (fan) has 5× more pixels in its wide third than in its apex third
+STREAK_ELONGATION = 3.0  # an elongated pattern is a streak unless it is a uniform band
+SHARP_TRANSITION_PX = 4.0  # a step edge measures ~2 px with central differences
+NONUNIFORM = 0.35  # interior spread / |contrast| of a decaying (fan) pattern
+PARTIAL_FRACTION = 0.10  # |contrast| / (T_i − T_e) below which a void is partial-depth
+PARALLEL_DEG = 10.0
+SPACING_CV = 0.25
+STUD_SPACING_M = (0.30, 0.70)
+
+
+@dataclass(frozen=True)
+class Shape:
+    """Geometric and thermal features of one anomaly (pixels unless named)."""
+
+    area_px: int
+    perimeter_px: int
+    length_px: float
+    width_px: float
+    elongation: float
+    rect_fill: float
+    solidity: float
+    orientation_deg: float  # long axis, degrees from the column axis, in [0, 180)
+    centroid_row: float
+    centroid_col: float
+    transition_px: float  # |contrast| / 90th percentile of |∇u| across the outline
+    nonuniformity: float  # interior spread of u (noise removed) / |contrast|
+    taper: float  # pixels in the wider end third / the narrower end third along the long axis
+
+    @property
+    def sharp(self) -> bool:
+        return self.transition_px <= SHARP_TRANSITION_PX
+
+    @property
+    def compact(self) -> bool:
+        return self.solidity >= COMPACT_SOLIDITY and self.rect_fill >= COMPACT_FILL
+
+    @property
+    def uniform(self) -> bool:
+        return self.nonuniformity <= NONUNIFORM
+
+    @property
+    def streaky(self) -> bool:
+        return (
+            self.solidity < STREAKY_SOLIDITY
+            or self.rect_fill < STREAKY_FILL
+            or self.elongation >= STREAK_ELONGATION
+            or self.taper >= FAN_TAPER
+        )
+
+    @property
+    def diffuse(self) -> bool:
+        return self.transition_px > SHARP_TRANSITION_PX or self.nonuniformity > NONUNIFORM
+
+
+def shape_features(
+    region: np.ndarray,
+    *,
+    u_crop: np.ndarray,
+    dist_crop: np.ndarray,
+    delta_k: float,
+    noise_k: float,
+    row_offset: int,
+    col_offset: int,
+) -> Shape:
+    """Features of the region ``region`` (bool crop) given the crop of ``u`` around it."""
+    rr, cc = np.nonzero(region)
+    area = int(rr.size)
+    boundary = region & ~ndimage.binary_erosion(region)
+    perimeter = int(boundary.sum())
+    br, bc = np.nonzero(boundary)
+    pts = np.column_stack([bc, br]).astype(np.float32)
+    (_, _), (w, h), _ = cv2.minAreaRect(pts)
+    length, width = max(w, h) + 1.0, min(w, h) + 1.0
+    hull = cv2.convexHull(pts)
+    hull_area = float(cv2.contourArea(hull)) + 0.5 * float(cv2.arcLength(hull, True)) + 1.0  # Pick's theorem
+    cov = np.cov(np.vstack([cc, rr]).astype(float)) if area > 1 else np.zeros((2, 2))
+    evals, evecs = np.linalg.eigh(cov)
+    major = evecs[:, int(np.argmax(evals))]
+    orientation = math.degrees(math.atan2(major[1], major[0])) % 180.0
+    along = (cc - cc.mean()) * major[0] + (rr - rr.mean()) * major[1]
+    lo_s, hi_s = float(along.min()), float(along.max())
+    third = (hi_s - lo_s) / 3.0
+    n_lo = int((along < lo_s + third).sum())
+    n_hi = int((along > hi_s - third).sum())
+    taper = max(n_lo, n_hi) / max(min(n_lo, n_hi), 1) if third > 0 else 1.0
+    gy, gx = np.gradient(u_crop.astype(float))
+    grad = np.hypot(gx, gy)
+    band = boundary | ((dist_crop > 0) & (dist_crop <= 1.5))
+    g90 = float(np.percentile(grad[band], 90)) if band.any() else 0.0
+    transition = abs(delta_k) / g90 if g90 > 1e-12 else float("inf")
+    inner = region & ~boundary if (region & ~boundary).sum() >= 4 else region
+    vals = u_crop[inner]
+    spread = float(1.4826 * np.median(np.abs(vals - np.median(vals)))) if vals.size > 1 else 0.0
+    spread = math.sqrt(max(spread * spread - noise_k * noise_k, 0.0))
+    return Shape(
+        area_px=area,
+        perimeter_px=perimeter,
+        length_px=float(length),
+        width_px=float(width),
+        elongation=float(length / width),
+        rect_fill=float(min(1.0, area / (length * width))),
+        solidity=float(min(1.0, area / max(hull_area, 1.0))),
+        orientation_deg=orientation,
+        centroid_row=float(rr.mean()) + row_offset,
+        centroid_col=float(cc.mean()) + col_offset,
+        transition_px=float(transition),
+        nonuniformity=float(spread / abs(delta_k)) if delta_k else float("inf"),
+        taper=float(taper),
+    )
+
+
+def _is_band(shape: Shape, width_m: float | None, elongation: float) -> bool:
+    """Straight (fills its rectangle), narrow (elongated, at most 0.35 m wide when known)."""
+    return (
+        shape.elongation >= elongation
+        and shape.rect_fill >= BAND_FILL
+        and (width_m is None or width_m <= BAND_MAX_WIDTH_M)
+    )
+
+
+def find_regular_sets(
+    shapes: dict[int, Shape], kinds: dict[int, str], *, pixel_m: float | None
+) -> dict[int, tuple[int, float]]:
+    """Parallel bands of the same sign at regular spacing (studs, joists, rafters).
+
+    Returns
+    -------
+    dict
+        key -> (members in the set, mean spacing in px) for every band in a set of
+        at least three parallel bands whose spacings vary by at most 25 %.
+    """
+    cand = [
+        k for k, s in shapes.items()
+        if _is_band(s, None if pixel_m is None else s.width_px * pixel_m, SET_ELONGATION)
+    ]
+    found: dict[int, tuple[int, float]] = {}
+    used: set[int] = set()
+    for k in cand:
+        if k in used:
+            continue
+        o = shapes[k].orientation_deg
+        group = [
+            j for j in cand
+            if j not in used and kinds[j] == kinds[k]
+            and min(abs(shapes[j].orientation_deg - o), 180.0 - abs(shapes[j].orientation_deg - o)) <= PARALLEL_DEG
+        ]
+        if len(group) < 3:
+            continue
+        th = math.radians(o)
+        offs = np.array([-math.sin(th) * shapes[j].centroid_col + math.cos(th) * shapes[j].centroid_row for j in group])
+        order = np.argsort(offs)
+        gaps = np.diff(offs[order])
+        mean_gap = float(gaps.mean())
+        if mean_gap <= 0 or float(np.max(np.abs(gaps - mean_gap))) > SPACING_CV * mean_gap:
+            continue
+        for j in group:
+            found[j] = (len(group), mean_gap)
+            used.add(j)
+    return found
+
+
+def classify_cause(
+    shape: Shape,
+    *,
+    kind: str,
+    view: str,
+    delta_k: float,
+    mean_c: float,
+    threshold_k: float,
+    pixel_m: float | None,
+    regular_set: tuple[int, float] | None,
+    delta_air_k: float | None,
+    sky_limit_c: float | None,
+) -> tuple[str, str]:
+    """Cause and a short reason for one anomaly (rules in docs/analysis.md, in this order)."""
+    width_m = None if pixel_m is None else shape.width_px * pixel_m
+    width_txt = f", width {1000 * width_m:.0f} mm" if width_m is not None else ""
+    # a framing member, plate, slab edge or lintel is uniform along its length; a regular
+    # parallel set is accepted as framing even when its members vary
+    band = (_is_band(shape, width_m, BAND_ELONGATION) and shape.uniform) or (
+        regular_set is not None and _is_band(shape, width_m, SET_ELONGATION)
+    )
+    if regular_set is not None and band:
+        n, gap_px = regular_set
+        gap = f"{gap_px * pixel_m:.2f} m" if pixel_m is not None else f"{gap_px:.0f} px"
+        band_reason = f"one of {n} parallel {kind} bands at regular {gap} spacing: framing members (studs, joists)"
+        if pixel_m is not None and not (STUD_SPACING_M[0] <= gap_px * pixel_m <= STUD_SPACING_M[1]):
+            band_reason += " (spacing outside the usual 400-600 mm centres)"
+    else:
+        band_reason = (
+            f"long narrow straight {kind} band (length/width {shape.elongation:.1f}{width_txt}): "
+            "stud, plate, slab edge or lintel"
+        )
+
+    if view == "roof":
+        if kind == "warm":
+            if band:
+                return "thermal_bridge", band_reason + " on a roof; flashings or extra plies can look alike"
+            return "moisture", (
+                "warm area on a roof at night: retained heat of wet insulation (ASTM C1153 signature); "
+                "confirm with cores or a moisture meter"
+            )
+        if sky_limit_c is not None and mean_c < sky_limit_c - threshold_k:
+            return "unclassified", (
+                f"colder ({mean_c:.1f} °C) than a fully insulated surface under this sky and air could be "
+                f"({sky_limit_c:.1f} °C): conduction cannot explain it; likely a low-emissivity patch reflecting the sky"
+            )
+        if shape.sharp and shape.rect_fill >= 0.8:
+            return "unclassified", (
+                "cold patch with sharp straight edges on a roof: typical of a low-emissivity material "
+                "(metal, flashing) reflecting the cold sky, not of moisture"
+            )
+        return "unclassified", (
+            "cold area on a roof at night: drier or thicker insulation, ballast or shading; "
+            "not a moisture signature"
+        )
+
+    expected = "cold" if view == "interior" else "warm"
+    if kind != expected:
+        if view == "interior":
+            return "unclassified", (
+                "warm seen from inside: a heat source (pipe, flue, appliance) or solar gain, not a heat-loss defect"
+            )
+        return "unclassified", (
+            "cold seen from outside: sky reflection, shading or evaporative cooling of a damp surface; "
+            "not a heat-loss signature"
+        )
+    if band:
+        return "thermal_bridge", band_reason
+    side = "inside" if view == "interior" else "outside"
+    if shape.streaky and shape.diffuse:
+        flow = "infiltration" if view == "interior" else "exfiltration"
+        return "air_leakage", (
+            f"streaky or fan-shaped {kind} pattern with diffuse edges seen from {side}: air {flow} at a joint "
+            "or opening; confirm under depressurisation"
+        )
+    partial = ""
+    if delta_air_k is not None and delta_air_k > 0 and abs(delta_k) < PARTIAL_FRACTION * delta_air_k:
+        partial = f"; weak contrast ({abs(delta_k):.1f} K at {delta_air_k:.0f} K inside-outside): partial-depth void or compressed insulation"
+    if shape.compact:
+        edge = "sharp" if shape.sharp else "soft"
+        return "missing_insulation", (
+            f"compact {kind} area seen from {side} (fill {shape.rect_fill:.2f}, {edge} edges): "
+            f"missing or displaced insulation{partial}"
+        )
+    if shape.diffuse:
+        return "unclassified", (
+            f"irregular {kind} area with diffuse edges seen from {side}: air leakage or damp; "
+            "check under depressurisation or with a moisture meter"
+        )
+    return "missing_insulation", (
+        f"irregular sharp-edged uniform {kind} area seen from {side}: void in loose or settled fill{partial}"
+    )

@@ -1,0 +1,257 @@
+"""Sound surface and local sound reference.
+
+Two steps:
+
+1. *Which regions are sound.* The region holding the area-weighted median
+   temperature level seeds the sound set (a thermogram of an envelope element is
+   framed so that most of it is sound surface). A robust plane ``a + b·row + c·col``
+   is fitted to the sound pixels (in the segmentation's smooth field ``u``); every
+   region whose mean lies within the significance threshold of that trend joins
+   the sound set, and the trend is refitted, until nothing changes. All other
+   regions are *candidates*.
+2. *Local reference of a candidate.* A ring of sound pixels around the region,
+   leaving a gap over the jump band, excluding masked pixels, jump-set pixels and
+   every non-sound region, is fitted with a robust plane in ``u``; the plane
+   evaluated over the region is the local sound reference. A plane follows the
+   linear part of stratification, corner and sky-view gradients, which a median
+   of the ring would not.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+__all__ = [
+    "Plane",
+    "RingReference",
+    "robust_sigma",
+    "estimate_noise_k",
+    "fit_plane",
+    "find_sound_regions",
+    "ring_reference",
+]
+
+_MAD_TO_SIGMA = 1.4826  # normal consistency factor of the median absolute deviation
+_MAX_TREND_SAMPLES = 8_000
+_MAX_RING_SAMPLES = 4_000
+_MIN_RING_PX = 24
+
+
+@dataclass(frozen=True)
+class Plane:
+    """``z = a + b·(row − row0) + c·(col − col0)``; ``sigma`` is the robust residual spread."""
+
+    a: float
+    b: float
+    c: float
+    row0: float
+    col0: float
+    sigma: float
+    n: int
+
+    def evaluate(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
+        return self.a + self.b * (rows - self.row0) + self.c * (cols - self.col0)
+
+
+@dataclass(frozen=True)
+class RingReference:
+    """Local reference of one candidate region (plane in image coordinates)."""
+
+    plane: Plane
+    sigma_k: float  # robust spread of the measured temperature about the plane in the ring
+    n_ring: int
+    source: str  # "ring", "wide ring" or "trend"
+
+
+def robust_sigma(x: np.ndarray) -> float:
+    """1.4826 × median absolute deviation (0 for fewer than two values)."""
+    x = np.asarray(x, dtype=float)
+    if x.size < 2:
+        return 0.0
+    return float(_MAD_TO_SIGMA * np.median(np.abs(x - np.median(x))))
+
+
+def estimate_noise_k(temperature: np.ndarray, *, valid: np.ndarray, edges: np.ndarray | None = None) -> float:
+    """Robust pixel-noise estimate from neighbour differences, K.
+
+    Differences of horizontally and vertically adjacent valid pixels (off the jump
+    set) cancel smooth structure; their robust spread divided by √2 is the
+    per-pixel noise.
+    """
+    t = np.asarray(temperature, dtype=float)
+    ok = valid if edges is None else valid & ~edges
+    parts = []
+    for a, b, m in (
+        (t[:, 1:], t[:, :-1], ok[:, 1:] & ok[:, :-1]),
+        (t[1:, :], t[:-1, :], ok[1:, :] & ok[:-1, :]),
+    ):
+        d = (a - b)[m]
+        if d.size:
+            parts.append(d[:: max(1, d.size // 100_000)])
+    if not parts:
+        return 0.0
+    return robust_sigma(np.concatenate(parts)) / np.sqrt(2.0)
+
+
+def fit_plane(rows: np.ndarray, cols: np.ndarray, z: np.ndarray, *, iterations: int = 4) -> Plane:
+    """Robust least-squares plane (Tukey bisquare reweighting).
+
+    Falls back to a constant (the median) when fewer than 6 samples are given or
+    the samples do not span two directions.
+    """
+    rows = np.asarray(rows, dtype=float)
+    cols = np.asarray(cols, dtype=float)
+    z = np.asarray(z, dtype=float)
+    n = int(z.size)
+    if n == 0:
+        return Plane(float("nan"), 0.0, 0.0, 0.0, 0.0, float("nan"), 0)
+    r0, c0 = float(rows.mean()), float(cols.mean())
+    dr, dc = rows - r0, cols - c0
+    med = float(np.median(z))
+    if n < 6 or min(np.ptp(dr), np.ptp(dc)) < 1.0:
+        return Plane(med, 0.0, 0.0, r0, c0, robust_sigma(z), n)
+    design = np.column_stack([np.ones(n), dr, dc])
+    w = np.ones(n)
+    coef = np.array([med, 0.0, 0.0])
+    for _ in range(max(1, iterations)):
+        sw = np.sqrt(w)
+        coef, *_ = np.linalg.lstsq(design * sw[:, None], z * sw, rcond=None)
+        res = z - design @ coef
+        s = robust_sigma(res)
+        if s <= 1e-12:
+            break
+        u = res / (4.685 * s)
+        w = np.where(np.abs(u) < 1.0, (1.0 - u * u) ** 2, 0.0)
+        if w.sum() < 6:
+            break
+    res = z - design @ coef
+    return Plane(float(coef[0]), float(coef[1]), float(coef[2]), r0, c0, robust_sigma(res), n)
+
+
+def _sample_pixels(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    idx = np.flatnonzero(mask)
+    step = max(1, idx.size // _MAX_TREND_SAMPLES)
+    idx = idx[::step]
+    return np.divmod(idx, mask.shape[1])
+
+
+def find_sound_regions(
+    *,
+    u: np.ndarray,
+    labels: np.ndarray,
+    usable: np.ndarray,
+    areas: np.ndarray,
+    means_u: np.ndarray,
+    threshold_k: float,
+    min_area_px: int,
+    max_rounds: int = 6,
+) -> tuple[np.ndarray, Plane]:
+    """Split regions into sound (True) and candidates (False).
+
+    Parameters
+    ----------
+    u : (M, N) ndarray
+        Smooth temperature field, °C.
+    labels : (M, N) int ndarray
+        Region labels 1..n, 0 = masked.
+    usable : (M, N) bool ndarray
+        Valid pixels off the jump set (used for the trend fit).
+    areas, means_u : (n + 1,) ndarray
+        Pixel count and mean of ``u`` per label (index 0 unused).
+    threshold_k : float
+        A region within this of the sound trend is sound.
+    min_area_px : int
+        Regions smaller than this never seed the sound set.
+
+    Returns
+    -------
+    sound : (n + 1,) bool ndarray
+        Index 0 is False.
+    trend : Plane
+        Robust plane through the sound pixels.
+    """
+    n = areas.size - 1
+    sound = np.zeros(n + 1, dtype=bool)
+    present = np.flatnonzero(areas > 0)
+    present = present[present > 0]
+    if present.size == 0:
+        return sound, Plane(float("nan"), 0.0, 0.0, 0.0, 0.0, float("nan"), 0)
+    big = present[areas[present] >= min_area_px]
+    pool = big if big.size else present
+    order = np.argsort(means_u[pool], kind="stable")
+    cum = np.cumsum(areas[pool][order])
+    seed = pool[order[np.searchsorted(cum, 0.5 * cum[-1])]]
+    sound[seed] = True
+    # mean of the trend over a region = trend at the region's centroid (the plane is linear)
+    cnt = np.maximum(areas, 1)
+    m, n_cols = labels.shape
+    flat = labels.ravel()
+    r_mean = np.bincount(flat, weights=np.repeat(np.arange(m, dtype=float), n_cols), minlength=n + 1) / cnt
+    c_mean = np.bincount(flat, weights=np.tile(np.arange(n_cols, dtype=float), m), minlength=n + 1) / cnt
+    trend = None
+    for _ in range(max_rounds):
+        pix = usable & sound[labels]
+        if not pix.any():
+            pix = sound[labels]
+        rr, cc = _sample_pixels(pix)
+        trend = fit_plane(rr, cc, u[rr, cc])
+        resid = means_u - trend.evaluate(r_mean, c_mean)
+        new = np.zeros_like(sound)
+        new[present] = np.abs(resid[present]) < threshold_k
+        new[seed] = True
+        if np.array_equal(new, sound):
+            break
+        sound = new
+    return sound, trend
+
+
+def ring_reference(
+    *,
+    u_crop: np.ndarray,
+    t_crop: np.ndarray,
+    dist_crop: np.ndarray,
+    allowed_crop: np.ndarray,
+    row_offset: int,
+    col_offset: int,
+    gap_px: float,
+    width_px: float,
+    trend: Plane,
+    widen: bool = False,
+) -> RingReference:
+    """Local sound reference from a ring around one region.
+
+    Parameters
+    ----------
+    u_crop, t_crop : (m, n) ndarray
+        Smooth field and measured temperature in a crop around the region, °C.
+    dist_crop : (m, n) ndarray
+        Euclidean distance of each crop pixel to the region, px (0 inside).
+    allowed_crop : (m, n) bool ndarray
+        Pixels that may serve as reference (sound, valid, off the jump set).
+    row_offset, col_offset : int
+        Position of the crop in the image.
+    gap_px, width_px : float
+        The ring spans ``gap < distance <= gap + width``.
+    widen : bool
+        Try 2× and 4× the width (the crop must be large enough) instead of 1×;
+        the caller widens when the first ring has fewer than 24 usable pixels.
+    trend : Plane
+        Image-wide sound trend, the last resort.
+    """
+    steps = ((2.0, "wide ring"), (4.0, "wide ring")) if widen else ((1.0, "ring"),)
+    for factor, source in steps:
+        ring = allowed_crop & (dist_crop > gap_px) & (dist_crop <= gap_px + factor * width_px)
+        n_ring = int(ring.sum())
+        if n_ring >= _MIN_RING_PX:
+            rr, cc = np.nonzero(ring)
+            step = max(1, n_ring // _MAX_RING_SAMPLES)
+            rr, cc = rr[::step], cc[::step]
+            local = fit_plane(rr.astype(float), cc.astype(float), u_crop[rr, cc])
+            plane = Plane(
+                local.a, local.b, local.c, local.row0 + row_offset, local.col0 + col_offset, local.sigma, local.n
+            )
+            resid_t = t_crop[rr, cc] - local.evaluate(rr.astype(float), cc.astype(float))
+            return RingReference(plane, robust_sigma(resid_t), n_ring, source)
+    return RingReference(trend, float(trend.sigma), int(trend.n), "trend")

@@ -1,0 +1,83 @@
+"""Readers for open radiometric image formats: TIFF, 16-bit PNG, CSV/TXT, NPY.
+
+Every reader opens its file read-only, checks the declared image size against a pixel
+budget before decoding, and raises only irseg's own errors (:class:`~irseg.errors.InputError`,
+:class:`~irseg.errors.UnsupportedFormatError`) naming the file and the problem.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from ..errors import ConfigError
+from ..types import RawFrame
+from ._registry import _READERS, _reg_by_name, _reg_by_suffix, _reg_detect, _reg_names
+
+__all__ = ["read_thermogram", "list_readers", "is_candidate", "DEFAULT_MAX_PIXELS"]
+
+#: Default pixel budget: 40 megapixels (larger than any thermal camera's frame).
+DEFAULT_MAX_PIXELS = 40_000_000
+
+
+def read_thermogram(
+    path: str | os.PathLike[str], *, format: str | None = None, max_pixels: int = DEFAULT_MAX_PIXELS
+) -> RawFrame:
+    """Read one thermogram as stored in its file.
+
+    Parameters
+    ----------
+    path : path-like
+        Image file. Opened read-only; never modified.
+    format : str, optional
+        Reader name (see :func:`list_readers`) to use instead of detection. Detection
+        looks at the file's signature (magic bytes) first, then at its suffix.
+    max_pixels : int, default 40_000_000
+        Largest number of pixels accepted, checked from the file header before decoding.
+
+    Returns
+    -------
+    RawFrame
+        ``data`` is the (M, N) array with the stored dtype (integer raw values or float
+        temperatures), ``format`` the reader's name, ``metadata`` the format's own tags.
+
+    Raises
+    ------
+    InputError
+        Missing, empty, truncated or corrupt file; image over the pixel budget.
+    UnsupportedFormatError
+        No reader recognises the file, or it is a colour picture rather than a radiometric image.
+    ConfigError
+        ``format`` is not a reader name, or ``max_pixels`` is not a positive integer.
+    """
+    if isinstance(max_pixels, bool) or not isinstance(max_pixels, int) or max_pixels < 1:
+        raise ConfigError(f"max_pixels = {max_pixels!r} must be a positive integer")
+    reader = _reg_by_name(format) if format is not None else _reg_detect(path)
+    return reader.read(path, max_pixels=max_pixels)
+
+
+def list_readers() -> list[str]:
+    """Names of the available readers, sorted (``["csv", "npy", "png", "tiff"]``)."""
+    return _reg_names()
+
+
+def is_candidate(path: str | os.PathLike[str]) -> bool:
+    """True when the file's suffix belongs to some reader (``.toml`` files never are).
+
+    Parameters
+    ----------
+    path : path-like
+        A file name; the file is not opened.
+    """
+    p = Path(path)
+    if p.suffix.lower() == ".toml" or p.name.startswith("."):
+        return False
+    return _reg_by_suffix(p) is not None
+
+
+def reader_suffixes() -> dict[str, tuple[str, ...]]:
+    """Suffixes each reader recognises, e.g. ``{"tiff": (".tif", ".tiff"), ...}``."""
+    return {r.name: r.suffixes for r in _READERS}
+
+
+__all__.append("reader_suffixes")

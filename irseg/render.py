@@ -1,0 +1,495 @@
+"""Annotated overlay and label images of one analysed thermogram (arrays only).
+
+:func:`render_overlay` turns a corrected thermogram, its segmentation and its analysis into
+one RGB picture a thermographer can put in front of a client: the surface temperature in an
+open colour map, the jump set of the segmentation, every anomaly outlined in the colour of its
+probable cause with its id, a °C colour bar, a metre scale bar and a title line.
+:func:`label_image` gives the 16-bit label image (pixel = anomaly id). Saving the arrays is
+the job of :mod:`irseg.outputs`; nothing here touches the filesystem.
+
+All drawing uses OpenCV (``cv2.findContours``, ``cv2.drawContours``, ``cv2.putText``), which
+is deterministic: the same inputs give byte-identical arrays.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+from dataclasses import dataclass
+from types import MappingProxyType
+from typing import Any
+
+import cv2
+import numpy as np
+
+from .errors import ConfigError, OutputError
+from ._render_margins import LEFT as _LEFT
+from ._render_margins import NO_DATA as _NO_DATA
+from ._render_margins import draw_bottom, draw_colour_bar, draw_title
+from ._render_text import draw_text, text_width
+
+__all__ = [
+    "CAUSES",
+    "CAUSE_COLOURS",
+    "CAUSE_LABELS",
+    "COLORMAPS",
+    "OverlayLayout",
+    "colormap_lut",
+    "display_range",
+    "overlay_layout",
+    "scale_bar_length_m",
+    "render_overlay",
+    "label_image",
+]
+
+#: The five anomaly causes, in legend order.
+CAUSES = ("missing_insulation", "thermal_bridge", "air_leakage", "moisture", "unclassified")
+
+#: Outline colour (R, G, B) of each cause. Saturated hues that none of the open colour maps
+#: (inferno, magma, gray ...) produce, so outlines stay visible on any thermogram.
+CAUSE_COLOURS = MappingProxyType(
+    {
+        "missing_insulation": (0, 229, 255),  # cyan
+        "thermal_bridge": (60, 255, 40),  # green
+        "air_leakage": (255, 60, 255),  # magenta
+        "moisture": (40, 110, 255),  # blue
+        "unclassified": (255, 255, 255),  # white
+    }
+)
+
+#: Human-readable cause names (legend, report).
+CAUSE_LABELS = MappingProxyType(
+    {
+        "missing_insulation": "missing insulation",
+        "thermal_bridge": "thermal bridge",
+        "air_leakage": "air leakage",
+        "moisture": "moisture",
+        "unclassified": "unclassified",
+    }
+)
+
+#: Colour-map names accepted by ``cmap`` (the open libraries' own names) -> OpenCV id.
+COLORMAPS = MappingProxyType(
+    {
+        "inferno": cv2.COLORMAP_INFERNO,
+        "magma": cv2.COLORMAP_MAGMA,
+        "plasma": cv2.COLORMAP_PLASMA,
+        "viridis": cv2.COLORMAP_VIRIDIS,
+        "cividis": cv2.COLORMAP_CIVIDIS,
+        "turbo": cv2.COLORMAP_TURBO,
+        "gray": None,
+    }
+)
+
+_BACKGROUND = (26, 28, 34)
+_EDGE_ALPHA = 0.55
+
+# layout, display pixels
+_TITLE_H = 46
+_BOTTOM_H = 64
+_PANEL_W = 86
+_MIN_AREA_H = 200
+_MIN_AREA_W = 380
+_TARGET_LONG_SIDE = 480
+_MAX_UPSCALE = 16
+_ID_SCALE = 0.45
+
+
+@dataclass(frozen=True)
+class OverlayLayout:
+    """Where things sit in an overlay of a given input shape (display pixels).
+
+    Attributes
+    ----------
+    shape : tuple of int
+        ``(M', N', 3)``: shape of the overlay array.
+    scale : int
+        Integer nearest-neighbour upscale of the thermogram (small sensors are enlarged so that
+        the longer side reaches about 480 pixels; never shrunk).
+    image_row0, image_col0 : int
+        Top-left display pixel of the thermogram; input pixel ``(r, c)`` covers display rows
+        ``image_row0 + r*scale ... + scale - 1`` and the same for columns.
+    image_rows, image_cols : int
+        Size of the displayed thermogram, ``M*scale`` and ``N*scale``.
+    bar_row0, bar_row1, bar_col0, bar_col1 : int
+        The colour bar (rows/columns, end exclusive); the top row is the warm end.
+    legend_row0 : int
+        First row of the bottom strip (scale bar and cause legend).
+    """
+
+    shape: tuple[int, int, int]
+    scale: int
+    image_row0: int
+    image_col0: int
+    image_rows: int
+    image_cols: int
+    bar_row0: int
+    bar_row1: int
+    bar_col0: int
+    bar_col1: int
+    legend_row0: int
+
+
+def overlay_layout(shape: tuple[int, int]) -> OverlayLayout:
+    """Return the layout :func:`render_overlay` uses for an ``(M, N)`` thermogram.
+
+    Parameters
+    ----------
+    shape : tuple of int
+        ``(M, N)``, rows and columns of the thermogram.
+
+    Returns
+    -------
+    OverlayLayout
+        The output shape is ``(46 + max(M*s, 200) + 64, 10 + max(N*s, 380) + 86, 3)`` with the
+        upscale ``s = clip(ceil(480 / max(M, N)), 1, 16)``.
+    """
+    m, n = int(shape[0]), int(shape[1])
+    if m < 1 or n < 1:
+        raise ConfigError(f"render_overlay: image shape {shape} is empty; nothing to draw")
+    s = int(min(_MAX_UPSCALE, max(1, math.ceil(_TARGET_LONG_SIDE / max(m, n)))))
+    rows, cols = m * s, n * s
+    area_h, area_w = max(rows, _MIN_AREA_H), max(cols, _MIN_AREA_W)
+    bar_col0 = _LEFT + area_w + 12
+    return OverlayLayout(
+        shape=(_TITLE_H + area_h + _BOTTOM_H, _LEFT + area_w + _PANEL_W, 3),
+        scale=s,
+        image_row0=_TITLE_H,
+        image_col0=_LEFT,
+        image_rows=rows,
+        image_cols=cols,
+        bar_row0=_TITLE_H + 18,
+        bar_row1=_TITLE_H + area_h - 6,
+        bar_col0=bar_col0,
+        bar_col1=bar_col0 + 14,
+        legend_row0=_TITLE_H + area_h,
+    )
+
+
+def scale_bar_length_m(pixel_m: float, *, width_px: int) -> float:
+    """Length of the overlay's scale bar: the largest 1-2-5 step not above 25 % of the width.
+
+    Parameters
+    ----------
+    pixel_m : float
+        Footprint of one thermogram pixel on the surface, metres (> 0).
+    width_px : int
+        Width of the thermogram, pixels (input pixels, before any display upscale).
+
+    Returns
+    -------
+    float
+        Bar length, metres (1, 2 or 5 times a power of ten). The bar is drawn
+        ``round(length_m / pixel_m * scale)`` display pixels long.
+    """
+    target = 0.25 * float(width_px) * float(pixel_m)
+    mag = 10.0 ** math.floor(math.log10(target))
+    best = mag
+    for f in (2.0, 5.0):
+        if f * mag <= target * (1 + 1e-12):
+            best = f * mag
+    return float(f"{best:.12g}")
+
+
+def colormap_lut(name: str) -> np.ndarray:
+    """Return the 256-entry RGB lookup table of an open colour map.
+
+    Parameters
+    ----------
+    name : str
+        One of :data:`COLORMAPS` (``"inferno"``, ``"magma"``, ``"gray"`` ...); ``"grey"`` is
+        accepted for ``"gray"``.
+
+    Returns
+    -------
+    (256, 3) uint8 ndarray
+        Entry ``i`` is the colour of normalised value ``i / 255`` (0 = cold end), RGB order.
+
+    Raises
+    ------
+    ConfigError
+        Unknown name (the message lists the valid ones and suggests the nearest).
+    """
+    key = str(name).strip().lower()
+    if key == "grey":
+        key = "gray"
+    if key not in COLORMAPS:
+        near = difflib.get_close_matches(key, list(COLORMAPS), n=1)
+        hint = f"; did you mean {near[0]!r}?" if near else ""
+        raise ConfigError(
+            f"colour map {name!r} is not available{hint} Use one of: {', '.join(COLORMAPS)}"
+        )
+    ramp = np.arange(256, dtype=np.uint8).reshape(256, 1)
+    code = COLORMAPS[key]
+    if code is None:
+        return np.repeat(ramp, 3, axis=1)
+    bgr = cv2.applyColorMap(ramp, code)
+    return np.ascontiguousarray(bgr[:, 0, ::-1])
+
+
+def display_range(temperature_c: np.ndarray, *, mask: np.ndarray | None = None) -> tuple[float, float]:
+    """Robust display range of a thermogram: the 1st and 99th percentile of the valid pixels.
+
+    Parameters
+    ----------
+    temperature_c : (M, N) ndarray
+        Temperatures, °C.
+    mask : (M, N) bool ndarray, optional
+        True where a pixel is invalid; those pixels and non-finite values are ignored.
+
+    Returns
+    -------
+    (lo_c, hi_c) : tuple of float
+        ``lo_c < hi_c`` always: a constant image gets ±0.5 K around its value, an image with no
+        valid pixel gets (0, 1).
+    """
+    t = np.asarray(temperature_c)
+    valid = np.isfinite(t)
+    if mask is not None:
+        valid &= ~np.asarray(mask, dtype=bool)
+    values = t[valid]
+    if values.size == 0:
+        return 0.0, 1.0
+    if values.size > 200_000:  # deterministic thinning keeps the percentiles and saves time
+        values = values[:: values.size // 100_000]
+    lo, hi = (float(x) for x in np.percentile(values, [1.0, 99.0]))
+    if not hi - lo > 1e-6:
+        mid = 0.5 * (lo + hi)
+        lo, hi = mid - 0.5, mid + 0.5
+    return lo, hi
+
+
+def label_image(analysis: Any) -> np.ndarray:
+    """Return the label image of an analysis: pixel = anomaly id, 0 elsewhere.
+
+    Parameters
+    ----------
+    analysis : Analysis
+        Needs ``analysis.labels``, an ``(M, N)`` integer array of anomaly ids (0 = none).
+
+    Returns
+    -------
+    (M, N) uint16 ndarray
+
+    Raises
+    ------
+    OutputError
+        Ids above 65535 (a 16-bit PNG cannot hold them) or negative ids.
+    """
+    labels = np.asarray(analysis.labels)
+    if labels.ndim != 2:
+        raise OutputError(f"label image: labels must be a 2-D (M, N) array, got shape {labels.shape}")
+    if labels.size and labels.dtype.kind not in "iub":
+        raise OutputError(f"label image: labels must be integers, got dtype {labels.dtype}")
+    if labels.size:
+        top, bottom = int(labels.max()), int(labels.min())
+        if top > 65535:
+            raise OutputError(
+                f"label image: anomaly id {top} does not fit a 16-bit label image (max 65535); "
+                "raise [analysis] min_contrast_k or [segment] min_feature_px to merge small anomalies"
+            )
+        if bottom < 0:
+            raise OutputError(f"label image: negative anomaly id {bottom}; ids must be 0 (none) or 1..k")
+    return labels.astype(np.uint16)
+
+
+# --------------------------------------------------------------------------- overlay
+
+
+def render_overlay(frame: Any, seg: Any, analysis: Any, *, cmap: str = "inferno") -> np.ndarray:
+    """Draw the annotated overlay of one analysed thermogram.
+
+    Parameters
+    ----------
+    frame : ThermalFrame
+        Uses ``temperature_c`` (M, N) °C, ``mask`` (M, N) bool, ``path`` (title),
+        ``meta.surface.view`` and ``meta.air.inside_c`` / ``outside_c`` (title ΔT).
+    seg : Segmentation
+        Uses ``edges``, the (M, N) bool jump set, drawn as a thin translucent line.
+    analysis : Analysis
+        Uses ``labels`` (M, N) anomaly ids, ``anomalies`` (``anomaly``, ``cause``,
+        ``centroid_row``, ``centroid_col``, ``bbox_*``) and ``pixel_m`` (scale bar).
+    cmap : str, optional
+        Open colour-map name, see :func:`colormap_lut`. Default ``"inferno"``.
+
+    Returns
+    -------
+    (M', N', 3) uint8 ndarray
+        RGB picture; shape and positions are given by :func:`overlay_layout` ``((M, N))``. The
+        temperatures are mapped linearly from :func:`display_range` (1st–99th percentile,
+        values outside are clipped to the ends); masked pixels are a grey checkerboard;
+        anomaly outlines use :data:`CAUSE_COLOURS`.
+
+    Raises
+    ------
+    ConfigError
+        Unknown ``cmap``, or arrays whose shapes disagree.
+    """
+    lut = colormap_lut(cmap)
+    temp = np.asarray(frame.temperature_c)
+    if temp.ndim != 2:
+        raise ConfigError(f"render_overlay: temperature_c must be (M, N), got shape {temp.shape}")
+    shape = temp.shape
+    mask = _as_bool(getattr(frame, "mask", None), shape, "frame.mask")
+    edges = _as_bool(getattr(seg, "edges", None), shape, "seg.edges")
+    labels = np.asarray(analysis.labels)
+    if labels.shape != shape:
+        raise ConfigError(f"render_overlay: analysis.labels has shape {labels.shape}, image has {shape}")
+    lay = overlay_layout(shape)
+    s = lay.scale
+
+    lo, hi = display_range(temp, mask=mask)
+    canvas = np.empty(lay.shape, dtype=np.uint8)
+    canvas[...] = _BACKGROUND
+
+    # thermogram in the colour map
+    with np.errstate(invalid="ignore"):
+        norm = (temp.astype(np.float32) - np.float32(lo)) * np.float32(255.0 / (hi - lo))
+    idx = np.clip(np.nan_to_num(norm, nan=0.0, posinf=255.0, neginf=0.0) + 0.5, 0, 255).astype(np.uint8)
+    rgb = lut[idx]
+    if mask is not None and mask.any():
+        checker = ((np.add.outer(np.arange(shape[0]), np.arange(shape[1])) & 1) == 0)
+        rgb[mask & checker] = _NO_DATA[0]
+        rgb[mask & ~checker] = _NO_DATA[1]
+    jumps = None
+    if edges is not None and edges.any():
+        jumps = edges & ~mask if mask is not None else edges
+    if s == 1:
+        if jumps is not None:
+            _blend_edges(rgb, jumps)
+    else:
+        rgb = np.repeat(np.repeat(rgb, s, axis=0), s, axis=1)
+        if jumps is not None:
+            _blend_edges(rgb, _thin_jump_lines(jumps, s))
+    view = canvas[lay.image_row0 : lay.image_row0 + lay.image_rows, lay.image_col0 : lay.image_col0 + lay.image_cols]
+    view[...] = rgb
+
+    anomalies = tuple(getattr(analysis, "anomalies", ()) or ())
+    _draw_outlines(canvas, labels, anomalies, lay)
+    _draw_ids(canvas, anomalies, lay)
+    draw_colour_bar(canvas, lut, lo, hi, lay)
+    draw_title(canvas, frame, len(anomalies), lay)
+    has_mask = bool(mask is not None and mask.any())
+    pixel_m = getattr(analysis, "pixel_m", None)
+    bar_m = None
+    if _is_positive(pixel_m):
+        bar_m = scale_bar_length_m(float(pixel_m), width_px=shape[1])
+    draw_bottom(
+        canvas,
+        anomalies,
+        None if bar_m is None else (bar_m, int(round(bar_m / float(pixel_m) * s))),
+        has_mask,
+        lay,
+        causes=CAUSES,
+        colours=CAUSE_COLOURS,
+        labels=CAUSE_LABELS,
+    )
+    return canvas
+
+
+def _is_positive(value: Any) -> bool:
+    if value is None or isinstance(value, bool):
+        return False
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return False
+    return math.isfinite(v) and v > 0
+
+
+def _as_bool(arr: Any, shape: tuple[int, ...], name: str) -> np.ndarray | None:
+    if arr is None:
+        return None
+    a = np.asarray(arr, dtype=bool)
+    if a.shape != shape:
+        raise ConfigError(f"render_overlay: {name} has shape {a.shape}, image has {shape}")
+    return a
+
+
+def _blend_edges(rgb: np.ndarray, edges: np.ndarray) -> None:
+    """Blend jump-set pixels towards black on light colours and towards white on dark ones."""
+    px = rgb[edges].astype(np.float32)
+    luma = px @ np.array([0.299, 0.587, 0.114], dtype=np.float32)
+    target = np.where(luma[:, None] > 128.0, 0.0, 255.0).astype(np.float32)
+    rgb[edges] = np.round((1.0 - _EDGE_ALPHA) * px + _EDGE_ALPHA * target).astype(np.uint8)
+
+
+def _thin_jump_lines(edges: np.ndarray, s: int) -> np.ndarray:
+    """Display-resolution mask of the jump set drawn as 1-pixel lines through pixel centres.
+
+    An upscaled thermogram would show each jump pixel as an ``s``-by-``s`` block; the jump set is
+    thinned to one pixel (:func:`skimage.morphology.thin`) and neighbouring pixels are joined
+    by straight 1-pixel lines between their block centres instead.
+    """
+    from skimage.morphology import thin
+
+    skeleton = thin(edges)
+    rows, cols = np.nonzero(skeleton)
+    out = np.zeros((edges.shape[0] * s, edges.shape[1] * s), np.uint8)
+    centre = s // 2
+    pts = np.stack([cols * s + centre, rows * s + centre], axis=1).astype(np.int32)
+    segments = [np.stack([pts, pts], axis=1)]  # isolated pixels: a dot
+    m, n = edges.shape
+    padded = np.zeros((m + 2, n + 2), bool)
+    padded[1:-1, 1:-1] = skeleton
+    for dr, dc in ((0, 1), (1, 0), (1, 1), (1, -1)):
+        has = padded[rows + 1 + dr, cols + 1 + dc]
+        if has.any():
+            a = pts[has]
+            b = a + np.array([dc * s, dr * s], np.int32)
+            segments.append(np.stack([a, b], axis=1))
+    lines = np.concatenate(segments).reshape(-1, 2, 1, 2)
+    cv2.polylines(out, list(lines), False, 1, 1, lineType=cv2.LINE_8)
+    return out.astype(bool)
+
+
+def _draw_outlines(canvas: np.ndarray, labels: np.ndarray, anomalies: tuple, lay: OverlayLayout) -> None:
+    s = lay.scale
+    m, n = labels.shape
+    thickness = 2
+    for a in anomalies:
+        aid = int(a.anomaly)
+        r0, c0, r1, c1 = _bbox(a, m, n)
+        crop = labels[r0:r1, c0:c1] == aid
+        if not crop.any():
+            continue
+        crop = crop.astype(np.uint8)
+        if s > 1:
+            crop = np.repeat(np.repeat(crop, s, axis=0), s, axis=1)
+        contours, _ = cv2.findContours(
+            crop, cv2.RETR_EXTERNAL, cv2.CHAIN_APPROX_NONE, offset=(lay.image_col0 + c0 * s, lay.image_row0 + r0 * s)
+        )
+        colour = CAUSE_COLOURS.get(str(a.cause), CAUSE_COLOURS["unclassified"])
+        cv2.drawContours(canvas, contours, -1, colour, thickness, lineType=cv2.LINE_8)
+
+
+def _bbox(a: Any, m: int, n: int) -> tuple[int, int, int, int]:
+    try:
+        r0, c0 = max(0, int(a.bbox_row0)), max(0, int(a.bbox_col0))
+        r1, c1 = min(m, int(a.bbox_row1)), min(n, int(a.bbox_col1))
+    except (AttributeError, TypeError, ValueError):
+        return 0, 0, m, n
+    if r1 <= r0 or c1 <= c0:
+        return 0, 0, m, n
+    return r0, c0, r1, c1
+
+
+def _draw_ids(canvas: np.ndarray, anomalies: tuple, lay: OverlayLayout) -> None:
+    s = lay.scale
+    for a in anomalies:
+        try:
+            row = (float(a.centroid_row) + 0.5) * s + lay.image_row0
+            col = (float(a.centroid_col) + 0.5) * s + lay.image_col0
+        except (AttributeError, TypeError, ValueError):
+            continue
+        if not (math.isfinite(row) and math.isfinite(col)):
+            continue
+        text = str(int(a.anomaly))
+        w = text_width(text, _ID_SCALE, 1)
+        x0, y0 = int(round(col - w / 2)), int(round(row - 7))
+        colour = CAUSE_COLOURS.get(str(a.cause), CAUSE_COLOURS["unclassified"])
+        cv2.rectangle(canvas, (x0 - 3, y0 - 2), (x0 + w + 2, y0 + 15), (0, 0, 0), -1)
+        cv2.rectangle(canvas, (x0 - 3, y0 - 2), (x0 + w + 2, y0 + 15), colour, 1)
+        draw_text(canvas, text, (x0, y0 + 12), _ID_SCALE, (255, 255, 255), 1)
+
+

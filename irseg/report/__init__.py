@@ -1,0 +1,275 @@
+"""The self-contained HTML survey report.
+
+:func:`render_report` turns the survey summary (the content of ``summary.json``, written by
+:mod:`irseg.batch`) and the overlay PNGs of the images into one HTML page with no external
+resources: styles are inline and every overlay is embedded as a base64 ``data:`` URI, so the
+file can be mailed, archived or printed as it is. The page is built from the jinja2 template
+``irseg/report/templates/report.html`` (package data, loaded with :mod:`importlib.resources`)
+with autoescaping on, so image names and messages can never inject markup.
+
+Nothing here touches the filesystem except reading the package's own template; the batch
+writes the returned text atomically.
+"""
+
+from __future__ import annotations
+
+import base64
+import math
+from collections.abc import Mapping, Sequence
+from importlib import resources
+from typing import Any
+
+import jinja2
+
+from ..errors import ConfigError
+from ..render import CAUSE_COLOURS, CAUSE_LABELS, CAUSES
+
+__all__ = ["CAUTIONS", "render_report"]
+
+PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
+DASH = "—"
+
+#: Safety and estimate cautions every report carries (``summary["cautions"]`` may add more).
+CAUTIONS: tuple[str, ...] = (
+    "Working at height: roofs, ladders and scaffolds are dangerous, above all at night. Never go on "
+    "a roof alone: work in a team of at least two, with edge protection or fall arrest in place, and "
+    "make sure the deck will carry you (wet or decayed decks may not).",
+    "Electrical equipment: keep a safe distance from energised panels, cables and switchgear; only a "
+    "qualified person opens an electrical enclosure for imaging.",
+    "Combustion appliances: before a building is depressurised with a fan for air-leakage imaging, "
+    "make sure stoves, fireplaces, boilers and other open-flued appliances are off and cold; "
+    "depressurisation can draw flue gases, embers and ash into the rooms.",
+    "All figures are estimates. Areas, heat flows and yearly energy come from surface temperatures "
+    "measured at one moment and from the stated emissivity, reflected temperature, distance, "
+    "surface heat-transfer coefficient and degree-days. The low–high bands cover the stated "
+    "uncertainties of those inputs only; they do not cover unsteady weather, earlier sun, wind "
+    "gusts, stored heat or construction hidden from the camera.",
+    "Confirm before acting: check each anomaly on site by contact or invasive means (moisture meter, "
+    "contact thermometer, inspection opening or borescope) before ordering repairs or budgets.",
+    "Temperature factor: f_Rsi here is computed from the temperatures measured during the survey, "
+    "with the real surface resistance at that time. The design check in building codes uses "
+    "R_si = 0.25 m²K/W and standard climate values, so the on-site figure differs from the design "
+    "value (it is usually higher) and is an indication only.",
+    "This report does not replace an assessment under local building codes and regulations, nor "
+    "the judgement of licensed engineers, surveyors and contractors; defer to them and to local "
+    "practice.",
+    "Thermograms of occupied buildings can show people, belongings and routines; share them only "
+    "with the consent of the occupants.",
+)
+
+_ANOMALY_TABLE_KEYS = (
+    "image",
+    "anomaly",
+    "kind",
+    "cause",
+    "reason",
+    "area_m2",
+    "area_low_m2",
+    "area_high_m2",
+    "delta_k",
+    "excess_w",
+    "excess_low_w",
+    "excess_high_w",
+    "excess_kwh_year",
+    "f_rsi",
+    "mould_risk",
+    "severity",
+)
+
+_TOTAL_KEYS = ("count", "area_m2", "excess_w", "excess_kwh_year", "n_unmeasured")
+
+# --------------------------------------------------------------------------- formatting
+
+
+def _is_number(value: Any) -> bool:
+    if isinstance(value, bool) or value is None:
+        return False
+    try:
+        return math.isfinite(float(value))
+    except (TypeError, ValueError):
+        return False
+
+
+def _num(value: Any, digits: int = 1) -> str:
+    """A number with ``digits`` decimals, thousands separated; "—" for null, NaN or non-numbers."""
+    if not _is_number(value):
+        return DASH
+    v = float(value)
+    if round(v, digits) == 0:
+        v = 0.0  # never print "-0.0"
+    return f"{v:,.{digits}f}"
+
+
+def _band(low: Any, high: Any, digits: int = 1) -> str:
+    """``low–high``; "—" when either end is null."""
+    if not (_is_number(low) and _is_number(high)):
+        return DASH
+    return f"{_num(low, digits)}–{_num(high, digits)}"
+
+
+def _yesno(value: Any) -> str:
+    if value is True:
+        return "yes"
+    if value is False:
+        return "no"
+    if isinstance(value, str) and value.strip().lower() in ("true", "false"):
+        return "yes" if value.strip().lower() == "true" else "no"
+    return DASH
+
+
+def _text(value: Any) -> str:
+    if value is None or (isinstance(value, str) and not value.strip()):
+        return DASH
+    return str(value)
+
+
+def _cause_label(cause: Any) -> str:
+    return CAUSE_LABELS.get(str(cause), _text(cause))
+
+
+def _cause_colour(cause: Any) -> str:
+    r, g, b = CAUSE_COLOURS.get(str(cause), CAUSE_COLOURS["unclassified"])
+    return f"#{r:02x}{g:02x}{b:02x}"
+
+
+# --------------------------------------------------------------------------- view model
+
+
+def _data_uri(image: str, png: Any) -> str:
+    data = bytes(png)
+    if not data.startswith(PNG_SIGNATURE):
+        raise ConfigError(
+            f"report: the overlay given for image {image!r} is not PNG data "
+            "(pass the bytes of overlay.png as written by irseg.outputs.encode_png)"
+        )
+    return "data:image/png;base64," + base64.b64encode(data).decode("ascii")
+
+
+def _severity_key(row: Mapping[str, Any]) -> tuple:
+    sev = row.get("severity")
+    rank = float(sev) if _is_number(sev) else math.inf
+    anomaly = row.get("anomaly")
+    return (rank, str(row.get("image", "")), float(anomaly) if _is_number(anomaly) else math.inf)
+
+
+def _list(summary: Mapping[str, Any], key: str) -> Sequence[Any]:
+    value = summary.get(key)
+    if value is None:
+        return []
+    if isinstance(value, (str, bytes)) or not isinstance(value, Sequence):
+        raise ConfigError(f"report: summary[{key!r}] must be a list, got {type(value).__name__}")
+    return value
+
+
+def _totals_rows(by_cause: Mapping[str, Any]) -> list[dict[str, Any]]:
+    order = [c for c in CAUSES if c in by_cause] + sorted(str(c) for c in by_cause if c not in CAUSES)
+    rows = []
+    for cause in order:
+        t = by_cause.get(cause) or {}
+        rows.append({"cause": cause, **{k: t.get(k) for k in _TOTAL_KEYS}})
+    return rows
+
+
+def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> dict[str, Any]:
+    images = [dict(i) for i in _list(summary, "images")]
+    anomalies = sorted((dict(a) for a in _list(summary, "anomalies")), key=_severity_key)
+    for a in anomalies:
+        for key in _ANOMALY_TABLE_KEYS:
+            a.setdefault(key, None)
+    anchors: dict[str, str] = {}
+    for n, img in enumerate(images, start=1):
+        for key in ("image", "status", "view", "delta_t_k", "n_anomalies"):
+            img.setdefault(key, None)
+        name = str(img.get("image", ""))
+        anchors.setdefault(name, f"image-{n}")
+        img["anchor"] = anchors[name]
+        img["warnings"] = [str(w) for w in (img.get("warnings") or [])]
+        img["anomalies"] = sorted(
+            (a for a in anomalies if str(a.get("image", "")) == name),
+            key=lambda a: float(a["anomaly"]) if _is_number(a["anomaly"]) else math.inf,
+        )
+        png = overlays.get(name)
+        img["overlay_uri"] = _data_uri(name, png) if png is not None else None
+    for a in anomalies:
+        a["anchor"] = anchors.get(str(a.get("image", "")))
+    ok = [i for i in images if i.get("status") == "ok"]
+    deltas = [float(i["delta_t_k"]) for i in ok if _is_number(i.get("delta_t_k"))]
+    views = sorted({str(i["view"]) for i in ok if i.get("view")})
+    extra = [str(c) for c in _list(summary, "cautions") if str(c) not in CAUTIONS]
+    totals = summary.get("totals") or {}
+    return {
+        "version": _text(summary.get("irseg_version")),
+        "images": images,
+        "n_ok": len(ok),
+        "n_failed": sum(1 for i in images if i.get("status") == "failed"),
+        "views": views,
+        "delta_min": min(deltas) if deltas else None,
+        "delta_max": max(deltas) if deltas else None,
+        "n_missing_delta": len(ok) - len(deltas),
+        "totals_by_cause": _totals_rows(summary.get("totals_by_cause") or {}),
+        "totals": {k: totals.get(k) for k in _TOTAL_KEYS},
+        "anomalies": anomalies,
+        "failures": [dict(f) for f in _list(summary, "failures")],
+        "warnings": [dict(w) for w in _list(summary, "warnings")],
+        "cautions": list(CAUTIONS) + list(dict.fromkeys(extra)),
+    }
+
+
+def _environment() -> jinja2.Environment:
+    templates = resources.files(__name__).joinpath("templates")
+
+    def load(name: str) -> str | None:
+        entry = templates.joinpath(name)
+        return entry.read_text(encoding="utf-8") if entry.is_file() else None
+
+    env = jinja2.Environment(
+        loader=jinja2.FunctionLoader(load),
+        autoescape=True,
+        undefined=jinja2.StrictUndefined,
+        trim_blocks=True,
+        lstrip_blocks=True,
+        keep_trailing_newline=True,
+    )
+    env.filters.update(num=_num, band=_band, yesno=_yesno, text=_text, cause_label=_cause_label,
+                       cause_colour=_cause_colour)
+    return env
+
+
+def render_report(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> str:
+    """Render the survey report as one self-contained HTML page.
+
+    Parameters
+    ----------
+    summary : mapping
+        The survey summary in the ``summary.json`` schema: ``irseg_version``, ``images``
+        (``image``, ``status``, ``view``, ``delta_t_k``, ``n_anomalies``, ``warnings``,
+        ``overlay``, ``result``), ``totals_by_cause``, ``totals``, ``anomalies`` (rows as in
+        ``anomalies.csv``), ``failures``, ``warnings`` and ``cautions``. Numbers may be null;
+        they print as "—".
+    overlays : mapping of str to bytes
+        PNG bytes of each image's overlay, keyed by the image name (``images[i]["image"]``).
+        Images without an entry are shown without a picture.
+
+    Returns
+    -------
+    str
+        The HTML document (UTF-8 text). It loads nothing from outside: no scripts, no remote
+        fonts, no links to other files; overlays are ``data:image/png;base64`` URIs.
+
+    Raises
+    ------
+    ConfigError
+        ``summary`` is not a mapping or one of its lists is not a list, or an overlay is not PNG.
+
+    Notes
+    -----
+    The anomaly table is sorted by the survey-wide ``severity`` rank (1 = repair first), which
+    the batch assigns with :func:`irseg.analysis.severity_key`; rows without a rank come last.
+    The page always carries :data:`CAUTIONS`; cautions in the summary are added after them.
+    """
+    if not isinstance(summary, Mapping):
+        raise ConfigError(f"report: summary must be a mapping (the content of summary.json), got {type(summary).__name__}")
+    if not isinstance(overlays, Mapping):
+        raise ConfigError(f"report: overlays must map image names to PNG bytes, got {type(overlays).__name__}")
+    model = _view_model(summary, overlays)
+    return _environment().get_template("report.html").render(**model)

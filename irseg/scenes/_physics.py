@@ -1,0 +1,119 @@
+"""Surface heat-transfer coefficients and the survey-time conditions of a scene.
+
+The coefficients follow the ISO 6946 annex (surface resistances): a convective
+part plus a linearised radiative part ``h_r = ε·4σT_m³`` (REFERENCE-VALUES §2.2),
+so the simulated surfaces obey the same physics the analysis assumes when it
+turns ΔT into watts.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from irseg.errors import ConfigError
+
+__all__ = ["Conditions", "NightSchedule", "h_radiative", "h_convective_inside", "h_convective_outside"]
+
+# CODATA 2018 Stefan-Boltzmann constant (REFERENCE-VALUES, constants [V]).
+SIGMA = 5.670374419e-8
+KELVIN = 273.15
+# ISO 13789 Table 8 / ISO 6946 annex internal convection, W/m²K [V, via open-source code]
+_H_CI = {"horizontal": 2.5, "upward": 5.0, "downward": 0.7}
+
+
+def h_radiative(t_mean_c: float, emissivity: float) -> float:
+    """Linearised radiative coefficient ``ε·4σT_m³`` (ISO 6946 annex), W/m²K."""
+    return emissivity * 4.0 * SIGMA * (t_mean_c + KELVIN) ** 3
+
+
+def h_convective_inside(heat_flow: str) -> float:
+    """Internal convective coefficient h_ci for a heat-flow direction, W/m²K."""
+    try:
+        return _H_CI[heat_flow]
+    except KeyError:
+        raise ConfigError(f"heat_flow={heat_flow!r} is not one of {sorted(_H_CI)}") from None
+
+
+def h_convective_outside(wind_m_s: float) -> float:
+    """External convective coefficient ``4 + 4v`` (ISO 6946 annex) [M], W/m²K."""
+    return 4.0 + 4.0 * wind_m_s
+
+
+@dataclass(frozen=True)
+class Conditions:
+    """Boundary conditions of a scene at survey time.
+
+    Attributes
+    ----------
+    inside_c : float
+        Inside air temperature at 1.5 m above the floor, °C; also the room's mean
+        radiant temperature.
+    outside_c : float
+        Outside air temperature, °C.
+    wind_m_s : float
+        Wind speed at the outside surface, m/s.
+    stratification_k_m : float
+        Inside air temperature gradient with height, K/m.
+    top_height_m : float
+        Height of the element's top edge above the room floor, m (walls) or the
+        ceiling height (ceilings, roofs: the whole soffit is at this height).
+    sky_c : float or None
+        Effective clear-sky radiant temperature, °C (None: outside − 20 K, a clear
+        night [CP]).
+    sky_view_top, sky_view_bottom : float
+        Fraction of the outside face's radiant surroundings that is sky, at the top
+        and bottom edge (linear in between); the rest is at the outside air temperature.
+    emissivity : float
+        Long-wave emissivity of both faces.
+    outside_exposure : {"open", "ventilated", "loft"}
+        ``open``: outside air, wind and sky; ``ventilated``: behind ventilated cladding
+        (R_se = R_si = 0.13, ISO 6946 [M]); ``loft``: a ventilated loft at the outside
+        temperature (R = 0.10, upward flow [V, ISO 6946 R_si upward]).
+    """
+
+    inside_c: float = 20.0
+    outside_c: float = 0.0
+    wind_m_s: float = 1.0
+    stratification_k_m: float = 1.0
+    top_height_m: float = 2.4
+    sky_c: float | None = None
+    sky_view_top: float = 0.5
+    sky_view_bottom: float = 0.5
+    emissivity: float = 0.9
+    outside_exposure: str = "open"
+
+    def sky_temperature_c(self) -> float:
+        return self.outside_c - 20.0 if self.sky_c is None else self.sky_c
+
+
+@dataclass(frozen=True)
+class NightSchedule:
+    """A clear sunny day followed by the evening: the transient roof case.
+
+    The run starts at ``start_h`` from the steady state of that hour's conditions and
+    ends at ``end_h`` (the survey time). Absorbed solar flux is a half-sine between
+    ``sunrise_h`` and ``sunset_h``; outside air follows a sine with its maximum at
+    15:00 [CP]; the sky stays ``sky_depression_k`` below the air.
+    """
+
+    start_h: float = 6.0
+    end_h: float = 22.0
+    dt_s: float = 900.0
+    sunrise_h: float = 6.0
+    sunset_h: float = 19.0
+    solar_peak_w_m2: float = 650.0
+    absorptance: float = 0.9
+    air_mean_c: float = 10.0
+    air_amplitude_k: float = 5.0
+    sky_depression_k: float = 20.0
+
+    def air_c(self, hour: float) -> float:
+        return self.air_mean_c + self.air_amplitude_k * float(np.cos(2 * np.pi * (hour - 15.0) / 24.0))
+
+    def solar_w_m2(self, hour: float) -> float:
+        if not self.sunrise_h < hour < self.sunset_h:
+            return 0.0
+        frac = (hour - self.sunrise_h) / (self.sunset_h - self.sunrise_h)
+        return self.absorptance * self.solar_peak_w_m2 * float(np.sin(np.pi * frac))

@@ -1,0 +1,320 @@
+"""Scene presets, one-image export with its sidecar and truth, and the bundled sample survey.
+
+The sample survey is set at an invented building, "the Larchfield test house": a
+two-storey timber-frame house with a rear extension of solid brick (external EPS
+and render) under a warm flat roof. Everything is seeded, so remaking it gives
+byte-identical files.
+"""
+
+from __future__ import annotations
+
+import json
+import os
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+
+import numpy as np
+
+from irseg.errors import ConfigError
+from irseg.scenes import _elements as E
+from irseg.scenes._camera import CameraModel, Shot, shoot, view_window
+from irseg.scenes._export import encode_values, write_image, write_toml
+from irseg.scenes._physics import Conditions, NightSchedule
+from irseg.scenes._scene import Scene, simulate_scene, truth_in_window
+
+__all__ = ["ImageRecipe", "SAMPLE_RECIPES", "make_preset", "render_recipe", "export_image", "make_sample_survey",
+           "PRESETS", "write_truth_json"]
+
+# Camera settings shared by the whole sample survey (survey.toml).
+_SURVEY_DEFAULTS = {
+    "camera": {"band_um": (7.5, 14.0), "netd_k": 0.05},
+    "surface": {"emissivity": 0.9},
+    "analysis": {"degree_days": 3000.0},
+}
+
+
+@dataclass(frozen=True)
+class ImageRecipe:
+    """Everything needed to make one image: scene, camera, file encoding."""
+
+    stem: str
+    title: str
+    preset: str
+    options: dict
+    camera: CameraModel
+    fmt: str
+    units: str = "celsius"
+    scale: float = 1.0
+    offset: float = 0.0
+    delimiter: str = ","
+    decimal: str = "."
+    export_emissivity: float = 1.0
+    extra_meta: dict = field(default_factory=dict)
+
+
+# --------------------------------------------------------------------------- presets
+
+
+def _timber_wall(*, spacing_m=0.6, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, defects=("bay:1",),
+                 lintel=None, **_):
+    el = E.timber_frame_wall(stud_spacing_m=spacing_m, first_stud_m=0.3 if spacing_m == 0.6 else 0.2)
+    ds = []
+    for spec in defects:
+        kind, *args = spec.split(":")
+        if kind == "bay":
+            ds.append(E.missing_bay(el, int(args[0]), y0_m=float(args[1]) if len(args) > 1 else 0.0))
+        elif kind == "settled":
+            ds.append(E.settled_insulation(el, int(args[0]), void_m=float(args[1])))
+        elif kind == "void":
+            x0, x1, y0, y1, depth = (float(a) for a in args)
+            ds.append(E.partial_void(el, x0_m=x0, x1_m=x1, y0_m=y0, y1_m=y1, depth_m=depth))
+        else:
+            raise ConfigError(f"unknown timber-wall defect {spec!r}; use bay:N, settled:N:M or void:x0:x1:y0:y1:d")
+    if lintel is not None:
+        ds.append(E.lintel(el, x0_m=lintel[0], x1_m=lintel[1], y0_m=lintel[2], height_m=lintel[3]))
+    cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, outside_exposure="ventilated",
+                      top_height_m=2.1)
+    return el, tuple(ds), cond, "interior", None
+
+
+def _ceiling(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, patch=(0.9, 1.5, 0.6, 1.2), **_):
+    el = E.timber_ceiling()
+    z0 = el.insulation[0]
+    mat = E.air_layer(el.thickness_m() - z0, "upward")
+    d = E.Defect("displaced_insulation", "missing_insulation",
+                 (E.Block(mat, patch[0], patch[1], patch[2], patch[3], z0, el.thickness_m()),),
+                 "insulation pushed aside over a patch (both layers)")
+    cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, outside_exposure="loft",
+                      top_height_m=2.4)
+    return el, (d,), cond, "interior", None
+
+
+def _masonry(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, slab_y=None, patch=None, lintel=None, void=None,
+             sky_view=(0.4, 0.5), **_):
+    el = E.masonry_wall()
+    ds = []
+    if slab_y is not None:
+        ds.append(E.slab_edge(el, y0_m=slab_y))
+    if patch is not None:
+        ds.append(E.missing_patch(el, x0_m=patch[0], x1_m=patch[1], y0_m=patch[2], y1_m=patch[3]))
+    if lintel is not None:
+        ds.append(E.lintel(el, x0_m=lintel[0], x1_m=lintel[1], y0_m=lintel[2], height_m=lintel[3]))
+    if void is not None:
+        ds.append(E.partial_void(el, x0_m=void[0], x1_m=void[1], y0_m=void[2], y1_m=void[3], depth_m=void[4]))
+    cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, sky_view_top=sky_view[0],
+                      sky_view_bottom=sky_view[1], top_height_m=3.0)
+    return el, tuple(ds), cond, "exterior", None
+
+
+def _roof(*, inside_c=20.0, wind_m_s=1.0, insulation="eps", wet=((1.2, 2.4, 0.9, 1.9, 0.15),), dt_s=900.0,
+          end_h=22.0, air_mean_c=10.0, **_):
+    el = E.flat_roof(insulation=insulation)
+    ds = tuple(E.wet_patch(el, x0_m=w[0], x1_m=w[1], y0_m=w[2], y1_m=w[3], water_fraction=w[4], name=f"wet_{i}")
+               for i, w in enumerate(wet))
+    cond = Conditions(inside_c=inside_c, wind_m_s=wind_m_s, sky_view_top=1.0, sky_view_bottom=1.0)
+    return el, ds, cond, "roof", NightSchedule(dt_s=dt_s, end_h=end_h, air_mean_c=air_mean_c)
+
+
+PRESETS = {"timber-wall": _timber_wall, "ceiling": _ceiling, "masonry-wall": _masonry, "flat-roof": _roof}
+
+
+def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
+    """Simulate one preset scene (``timber-wall``, ``ceiling``, ``masonry-wall``, ``flat-roof``)."""
+    try:
+        builder = PRESETS[kind]
+    except KeyError:
+        raise ConfigError(f"scene kind {kind!r} is unknown; use one of {sorted(PRESETS)}") from None
+    el, ds, cond, view, night = builder(**options)
+    return simulate_scene(el, ds, cond, view=view, name=name, night=night)
+
+
+# --------------------------------------------------------------------------- export
+
+
+def render_recipe(recipe: ImageRecipe) -> tuple[Scene, Shot]:
+    """Simulate and image one recipe (no files written)."""
+    scene = make_preset(recipe.preset, name=recipe.stem, **recipe.options)
+    return scene, shoot(scene, recipe.camera)
+
+
+def _sidecar(recipe: ImageRecipe, scene: Scene, shot: Shot) -> dict:
+    cam = recipe.camera
+    cond = scene.conditions
+    integer = recipe.fmt in ("tiff-u16", "png16")
+    camera = {"hfov_deg": cam.hfov_deg, "distance_m": cam.distance_m, "tilt_deg": cam.tilt_deg,
+              "units": recipe.units, "netd_k": cam.netd_k}
+    if integer:
+        camera.update(scale=recipe.scale, offset=recipe.offset)
+    if recipe.export_emissivity != 1.0:
+        camera.update(export_emissivity=recipe.export_emissivity, export_reflected_c=round(shot.reflected_c, 2))
+    heat_flow = "upward" if scene.element.heat_flow == "upward" else "horizontal"
+    surface = {"emissivity": cond.emissivity, "reflected_c": round(shot.reflected_c, 2), "view": scene.view,
+               "heat_flow": heat_flow}
+    air = {"inside_c": cond.inside_c, "outside_c": round(float(scene.settings["outside_c"]), 2),
+           "wind_m_s": cond.wind_m_s}
+    out = {"camera": camera, "surface": surface, "air": air}
+    for sec, keys in recipe.extra_meta.items():
+        out.setdefault(sec, {}).update(keys)
+    return out
+
+
+def export_image(recipe: ImageRecipe, directory: str | os.PathLike[str], *, sidecar: bool = True) -> dict:
+    """Simulate, image and write one recipe (image + ``<stem>.toml``); returns its truth record.
+
+    Returns
+    -------
+    dict
+        JSON-ready truth: defects in view (area, excess W, reference °C, footprint
+        pixels), camera geometry, energy balance and simulation settings. The key
+        ``"_masks"`` holds the (k, M, N) camera-grid footprints (not JSON).
+    """
+    scene, shot = render_recipe(recipe)
+    d = Path(directory)
+    d.mkdir(parents=True, exist_ok=True)
+    refl = round(shot.reflected_c, 2)
+    vals = encode_values(shot.apparent_c, units=recipe.units, export_emissivity=recipe.export_emissivity,
+                         export_reflected_c=refl, band_um=recipe.camera.band_um)
+    path = write_image(d, recipe.stem, vals, fmt=recipe.fmt, scale=recipe.scale, offset=recipe.offset,
+                       delimiter=recipe.delimiter, decimal=recipe.decimal)
+    meta = _sidecar(recipe, scene, shot)
+    if sidecar:
+        write_toml(d / f"{recipe.stem}.toml", meta, header=f"{recipe.title}\nSynthetic image made by irseg.scenes.")
+    x0, x1, y0, y1 = view_window(scene.element, recipe.camera)
+    tw = truth_in_window(scene, x0_m=x0, x1_m=x1, y0_m=y0, y1_m=y1)
+    names = [t.name for t in scene.truth]
+    defects = []
+    for t in tw:
+        k = names.index(t.name)
+        fp = shot.footprints[k]
+        rows, cols = np.nonzero(fp)
+        defects.append({
+            "name": t.name, "cause": t.cause, "description": t.description,
+            "area_m2": round(t.area_m2, 4), "excess_w": round(t.excess_w, 3),
+            "excess_footprint_w": round(t.excess_footprint_w, 3),
+            "reference_c": round(t.reference_c, 3), "mean_c": round(t.mean_c, 3),
+            "delta_k": round(t.mean_c - t.reference_c, 3), "area_px": int(fp.sum()),
+            "bbox": [int(rows.min()), int(cols.min()), int(rows.max()) + 1, int(cols.max()) + 1] if fp.any() else None,
+        })
+    return {
+        "image": path.name, "title": recipe.title, "view": scene.view, "format": recipe.fmt,
+        "size": [int(shot.apparent_c.shape[0]), int(shot.apparent_c.shape[1])],
+        "pixel_m": round(shot.pixel_m, 6), "view_window_m": [round(v, 4) for v in (x0, x1, y0, y1)],
+        "camera": {"hfov_deg": recipe.camera.hfov_deg, "distance_m": recipe.camera.distance_m,
+                   "tilt_deg": recipe.camera.tilt_deg, "psf_sigma_px": recipe.camera.psf_sigma_px,
+                   "netd_k": recipe.camera.netd_k, "column_sigma_k": recipe.camera.column_sigma_k,
+                   "shading": recipe.camera.shading, "dead_pixels": recipe.camera.dead_pixels,
+                   "seed": recipe.camera.seed},
+        "metadata": meta, "defects": defects,
+        "energy_balance": {k: (None if v is None else round(v, 6) if k != "relative_imbalance"
+                               else float(f"{v:.3g}")) for k, v in scene.balance.items()},
+        "simulation": scene.settings,
+        "_masks": shot.footprints,
+        "_scene": scene, "_shot": shot,
+    }
+
+
+# --------------------------------------------------------------------------- the sample survey
+
+
+def _cam(**kw) -> CameraModel:
+    return CameraModel(**kw)
+
+
+SAMPLE_RECIPES: tuple[ImageRecipe, ...] = (
+    ImageRecipe("lf01_lounge_north_wall", "Lounge, north wall from inside: studs at 600 mm, one empty bay",
+                "timber-wall", {"defects": ("bay:1",), "outside_c": 1.0},
+                _cam(hfov_deg=45.0, distance_m=2.6, centre_m=(1.2, 0.9), seed=101, dead_pixels=3),
+                "tiff-float"),
+    ImageRecipe("lf02_bedroom1_west_wall", "Bedroom 1, west wall from inside: studs at 400 mm, settled fill",
+                "timber-wall", {"spacing_m": 0.4, "defects": ("settled:2:0.30", "void:1.43:1.79:1.05:1.5:0.098"),
+                                "outside_c": 1.0},
+                _cam(hfov_deg=45.0, distance_m=2.6, centre_m=(1.2, 0.9), seed=102), "png16",
+                scale=0.01, offset=-50.0),
+    ImageRecipe("lf03_landing_wall", "Landing wall from inside: timber header and a half-empty bay",
+                "timber-wall", {"defects": ("bay:3:0.9",), "lintel": (0.0, 1.2, 0.3, 0.195), "outside_c": 1.0},
+                _cam(n_cols=160, n_rows=120, hfov_deg=45.0, distance_m=2.6, centre_m=(1.2, 0.9), seed=103,
+                     psf_sigma_px=0.7), "csv", delimiter=";", decimal=","),
+    ImageRecipe("lf04_bedroom2_ceiling", "Bedroom 2 ceiling below the loft: insulation pushed aside",
+                "ceiling", {"outside_c": 1.0, "patch": (1.32, 1.95, 0.6, 1.2)},
+                _cam(hfov_deg=45.0, distance_m=2.4, centre_m=(1.2, 0.9), seed=104), "npy"),
+    ImageRecipe("lf05_extension_east_wall", "Rear extension, east wall from outside: slab edge and a missing board",
+                "masonry-wall", {"slab_y": 1.9, "patch": (0.9, 1.7, 0.7, 1.3), "outside_c": 1.0, "wind_m_s": 1.5},
+                _cam(hfov_deg=45.0, distance_m=4.4, centre_m=(2.0, 1.5), seed=105, dead_pixels=2), "tiff-u16",
+                units="kelvin", scale=0.01, offset=0.0),
+    ImageRecipe("lf06_extension_south_wall", "Rear extension, south wall from outside: window lintel, thin boards",
+                "masonry-wall", {"lintel": (1.1, 2.9, 0.6, 0.2), "void": (2.6, 3.4, 1.5, 2.3, 0.075),
+                                 "outside_c": 1.0, "wind_m_s": 1.5},
+                _cam(n_cols=160, n_rows=120, hfov_deg=45.0, distance_m=4.4, centre_m=(2.0, 1.5), seed=106,
+                     psf_sigma_px=0.7), "csv", export_emissivity=0.95),
+    ImageRecipe("lf07_extension_roof_west", "Extension flat roof, west half, 22:00 after a sunny day: wet boards",
+                "flat-roof", {"wet": ((1.0, 2.4, 0.8, 1.9, 0.15),)},
+                _cam(hfov_deg=45.0, distance_m=3.5, tilt_deg=30.0, centre_m=(2.0, 1.5), seed=107), "tiff-float",
+                units="kelvin"),
+    ImageRecipe("lf08_extension_roof_east", "Extension flat roof, east half, 22:00: two damp patches",
+                "flat-roof", {"wet": ((0.8, 1.8, 0.9, 1.7, 0.10), (2.5, 3.1, 1.6, 2.2, 0.25))},
+                _cam(hfov_deg=45.0, distance_m=4.4, centre_m=(2.0, 1.5), seed=108), "png16",
+                scale=0.005, offset=-60.0),
+)
+
+
+def make_sample_survey(directory: str | os.PathLike[str], *, recipes: tuple[ImageRecipe, ...] = SAMPLE_RECIPES,
+                       on_image=None) -> list[dict]:
+    """Write the sample survey (images, ``survey.toml``, sidecars, ``truth.json``, ``truth_masks.npz``).
+
+    Parameters
+    ----------
+    directory : path-like
+        Output folder (created).
+    recipes : tuple of ImageRecipe
+    on_image : callable, optional
+        ``on_image(stem)`` after each image (progress).
+
+    Returns
+    -------
+    list of dict
+        The truth records (as written to ``truth.json``).
+    """
+    d = Path(directory)
+    d.mkdir(parents=True, exist_ok=True)
+    write_toml(d / "survey.toml", _SURVEY_DEFAULTS,
+               header="The Larchfield test house (invented): survey defaults.\n"
+                      "Each image's <stem>.toml overrides these key by key.")
+    records, masks = [], {}
+    for r in recipes:
+        rec = export_image(r, d)
+        masks[r.stem] = rec.pop("_masks")
+        rec.pop("_scene"), rec.pop("_shot")
+        records.append(rec)
+        if on_image is not None:
+            on_image(r.stem)
+    payload = {"building": "the Larchfield test house (invented)", "images": records,
+               "notes": "Synthetic truth from irseg.scenes; excess_w is the change in heat flow through the "
+                        "viewed face, charged to each defect's footprint plus a 0.3 m rim."}
+    write_truth_json(d / "truth.json", payload)
+    import io
+    import zipfile
+
+    # deterministic npz: fixed zip timestamps
+    buf = io.BytesIO()
+    with zipfile.ZipFile(buf, "w", zipfile.ZIP_DEFLATED) as zf:
+        for stem in sorted(masks):
+            arr = io.BytesIO()
+            np.save(arr, np.asarray(masks[stem], bool), allow_pickle=False)
+            info = zipfile.ZipInfo(f"{stem}.npy", date_time=(2026, 1, 1, 0, 0, 0))
+            info.compress_type = zipfile.ZIP_DEFLATED
+            zf.writestr(info, arr.getvalue())
+    (d / "truth_masks.npz").write_bytes(buf.getvalue())
+    return records
+
+
+def write_truth_json(path: str | os.PathLike[str], record: dict) -> Path:
+    """Write a truth record as sorted, indented JSON (keys starting with ``_`` are left out)."""
+    clean = {k: v for k, v in record.items() if not k.startswith("_")}
+    p = Path(path)
+    p.write_text(json.dumps(clean, indent=1, sort_keys=True) + "\n", encoding="utf-8")
+    return p
+
+
+def replace_recipe(recipe: ImageRecipe, **changes) -> ImageRecipe:
+    """A copy of a recipe with some fields changed."""
+    return replace(recipe, **changes)

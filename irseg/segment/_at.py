@@ -1,0 +1,257 @@
+"""Alternating minimisation of the discrete Ambrosio–Tortorelli energy.
+
+Discrete energy on a grid of spacing 1 (see ``docs/method.md``)::
+
+    E(u, v) = sum  beta * w * (u - g)^2
+            + sum  (v^2 + eta) * ((Dx u)^2 + (Dy u)^2)
+            + alpha * sum ( eps * ((Dx v)^2 + (Dy v)^2) + (1 - v)^2 / (4 eps) )
+
+with ``w`` the data weight (0 on masked pixels) and forward differences owned by
+the pixel at their start. For fixed ``v`` the energy is a quadratic in ``u``
+with the SPD matrix ``beta W + Dx^T C Dx + Dy^T C Dy``; for fixed ``u`` it is a
+quadratic in ``v`` with the SPD matrix ``diag(G + alpha / (4 eps)) + alpha eps L``,
+``G = (Dx u)^2 + (Dy u)^2``. Each half-step is solved by warm-started
+Jacobi-preconditioned CG, whose iterates never raise the quadratic, so the
+alternation is monotone at fixed ``eps``. Clipping ``v`` to [0, 1] afterwards is
+a pointwise contraction that lowers every term, so it keeps monotonicity.
+
+Coarse-to-fine: the energy is the discretisation of a continuous functional, so
+on a grid of spacing ``h`` (in fine pixels) the weights become
+``beta h^2``, ``alpha h`` and ``eps / h``. The phase-field width is kept at a
+fixed number of coarse pixels, so going down the pyramid is also the epsilon
+continuation.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ._operators import Workspace, apply_weighted_laplacian, pcg, weighted_laplacian_diagonal
+
+__all__ = ["LevelResult", "solve_level", "energy", "restrict", "prolong"]
+
+
+@dataclass
+class LevelResult:
+    """Outcome of the alternation on one grid at one epsilon."""
+
+    u: np.ndarray
+    v: np.ndarray
+    energies: list[float]
+    iterations: int
+    converged: bool
+    cg_iterations: int
+
+
+def _gradient_sq(u: np.ndarray, out: np.ndarray, ws: Workspace) -> np.ndarray:
+    """``out = (Dx u)^2 + (Dy u)^2`` at the owning pixel (zero across the border)."""
+    out.fill(0.0)
+    np.subtract(u[:, 1:], u[:, :-1], out=ws.dx)
+    np.square(ws.dx, out=ws.dx)
+    out[:, :-1] += ws.dx
+    np.subtract(u[1:, :], u[:-1, :], out=ws.dy)
+    np.square(ws.dy, out=ws.dy)
+    out[:-1, :] += ws.dy
+    return out
+
+
+def energy(
+    u: np.ndarray,
+    v: np.ndarray,
+    g: np.ndarray,
+    w: np.ndarray,
+    *,
+    alpha: float,
+    beta: float,
+    epsilon: float,
+    eta: float,
+) -> tuple[float, float, float]:
+    """The three terms of the discrete AT energy: (data, smoothness, edge), in float64.
+
+    Parameters
+    ----------
+    u, v, g, w : (M, N) ndarray
+        Smooth field, edge field, data and data weight.
+    alpha, beta, epsilon, eta : float
+        Weights of the functional (grid units).
+
+    Returns
+    -------
+    data, smooth, edge : float
+        ``edge`` includes the factor ``alpha``.
+    """
+    u64 = u.astype(np.float64)
+    v64 = v.astype(np.float64)
+    data = beta * float(np.sum(w * (u64 - g) ** 2))
+    c = v64 * v64 + eta
+    smooth = float(np.sum(c[:, :-1] * np.diff(u64, axis=1) ** 2)) + float(
+        np.sum(c[:-1, :] * np.diff(u64, axis=0) ** 2)
+    )
+    grad_v = float(np.sum(np.diff(v64, axis=1) ** 2)) + float(np.sum(np.diff(v64, axis=0) ** 2))
+    edge = alpha * (epsilon * grad_v + float(np.sum((1.0 - v64) ** 2)) / (4.0 * epsilon))
+    return data, smooth, edge
+
+
+def _sum64(x: np.ndarray) -> float:
+    return float(np.sum(x, dtype=np.float64))
+
+
+def solve_level(
+    g: np.ndarray,
+    w: np.ndarray,
+    u: np.ndarray,
+    v: np.ndarray,
+    *,
+    alpha: float,
+    beta: float,
+    epsilon: float,
+    eta: float,
+    max_alternations: int,
+    tol: float,
+    cg_rtol: float,
+    cg_max_iter: int,
+    record_energy: bool,
+    v_tol: float = 0.0,
+) -> LevelResult:
+    """Alternate u- and v-steps on one grid at fixed epsilon.
+
+    Parameters
+    ----------
+    g : (M, N) float32 ndarray
+        Data (finite everywhere; masked values are ignored through ``w``).
+    w : (M, N) float32 ndarray
+        Data weight in [0, 1]; 0 marks a pixel without data, where ``v`` is held at 1.
+    u, v : (M, N) float32 ndarray
+        Starting fields, updated in place.
+    alpha, beta, epsilon, eta : float
+        Weights in this grid's units.
+    max_alternations : int
+        Cap on u/v alternations.
+    tol : float
+        With ``record_energy``: stop when the relative energy decrease of one
+        alternation is at most ``tol``.
+    cg_rtol, cg_max_iter : float, int
+        Inner CG tolerance and cap.
+    record_energy : bool
+        Evaluate the energy after every alternation (the stopping rule of the final grid).
+    v_tol : float
+        Without ``record_energy``: stop when ``max |v_new - v_old| <= v_tol`` (coarse grids).
+
+    Returns
+    -------
+    LevelResult
+    """
+    dtype = g.dtype
+    shape = g.shape
+    ws = Workspace.for_shape(shape, dtype)
+    bw = (beta * w).astype(dtype)
+    rhs_u = bw * g
+    free_v = w > 0
+    all_free = bool(free_v.all())
+    v[~free_v] = 1.0
+    free = None if all_free else free_v.astype(dtype)
+    cx = np.empty((shape[0], shape[1] - 1), dtype)
+    cy = np.empty((shape[0] - 1, shape[1]), dtype)
+    grad2 = np.empty(shape, dtype)
+    diag_v = np.empty(shape, dtype)
+    inv_u = np.empty(shape, dtype)
+    inv_v = np.empty(shape, dtype)
+    scratch = np.empty(shape, dtype)
+    v_old = np.empty(shape, dtype) if (not record_energy and v_tol > 0) else None
+    k_pot = np.float32(alpha / (4.0 * epsilon))
+    k_lap = np.float32(alpha * epsilon)
+    rhs_v = np.full(shape, k_pot, dtype)
+    eta32 = np.float32(eta)
+    # the v-operator's Laplacian part has constant weight; its diagonal is fixed
+    lap_diag = weighted_laplacian_diagonal(k_lap, k_lap, 0.0, shape, dtype)
+
+    def apply_u(x: np.ndarray, out: np.ndarray) -> np.ndarray:
+        return apply_weighted_laplacian(x, cx, cy, bw, out, ws)
+
+    def apply_v(x: np.ndarray, out: np.ndarray) -> np.ndarray:
+        return apply_weighted_laplacian(x, k_lap, k_lap, diag_v, out, ws)
+
+    energies: list[float] = []
+    prev = np.inf
+    converged = False
+    it = 0
+    cg_total = 0
+    while it < max_alternations:
+        it += 1
+        # u-step: weights from the current edge field
+        np.square(v[:, :-1], out=cx)
+        cx += eta32
+        np.square(v[:-1, :], out=cy)
+        cy += eta32
+        inv_u[...] = bw
+        inv_u[:, :-1] += cx
+        inv_u[:, 1:] += cx
+        inv_u[:-1, :] += cy
+        inv_u[1:, :] += cy
+        np.reciprocal(inv_u, out=inv_u)
+        n_u, _ = pcg(apply_u, rhs_u, u, inv_u, ws, rtol=cg_rtol, max_iter=cg_max_iter)
+        # v-step
+        _gradient_sq(u, grad2, ws)
+        np.add(grad2, k_pot, out=diag_v)
+        np.add(lap_diag, diag_v, out=inv_v)
+        np.reciprocal(inv_v, out=inv_v)
+        if free is not None:
+            inv_v *= free
+        if v_old is not None:
+            v_old[...] = v
+        n_v, _ = pcg(apply_v, rhs_v, v, inv_v, ws, rtol=cg_rtol, max_iter=cg_max_iter, free=free)
+        np.clip(v, 0.0, 1.0, out=v)
+        cg_total += n_u + n_v
+        if record_energy:
+            # energy of (u, v): grad2 belongs to the current u; smoothness = sum (v^2 + eta) G
+            np.subtract(u, g, out=scratch)
+            np.square(scratch, out=scratch)
+            scratch *= bw
+            data = _sum64(scratch)
+            np.square(v, out=scratch)
+            scratch += eta32
+            scratch *= grad2
+            smooth = _sum64(scratch)
+            _gradient_sq(v, scratch, ws)
+            grad_v = _sum64(scratch)
+            np.subtract(1.0, v, out=scratch)
+            np.square(scratch, out=scratch)
+            pot = _sum64(scratch)
+            e = data + smooth + alpha * (epsilon * grad_v + pot / (4.0 * epsilon))
+            energies.append(e)
+            if tol > 0 and np.isfinite(prev) and (prev - e) <= tol * max(abs(e), 1e-30):
+                converged = True
+                break
+            prev = e
+        elif v_old is not None:
+            np.subtract(v, v_old, out=scratch)
+            np.abs(scratch, out=scratch)
+            if float(scratch.max()) <= v_tol:
+                converged = True
+                break
+    return LevelResult(u, v, energies, it, converged, cg_total)
+
+
+def restrict(
+    g: np.ndarray, w: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """2 x 2 weighted block mean of data ``g`` and data weight ``w`` (odd sizes padded by replication)."""
+    m, n = g.shape
+    pm, pn = m % 2, n % 2
+    if pm or pn:
+        g = np.pad(g, ((0, pm), (0, pn)), mode="edge")
+        w = np.pad(w, ((0, pm), (0, pn)), mode="edge")
+    gw = g * w
+    sw = w[0::2, 0::2] + w[1::2, 0::2] + w[0::2, 1::2] + w[1::2, 1::2]
+    sg = gw[0::2, 0::2] + gw[1::2, 0::2] + gw[0::2, 1::2] + gw[1::2, 1::2]
+    gm = (g[0::2, 0::2] + g[1::2, 0::2] + g[0::2, 1::2] + g[1::2, 1::2]) * 0.25
+    gc = np.where(sw > 0, sg / np.where(sw > 0, sw, 1), gm).astype(g.dtype)
+    return gc, (sw * 0.25).astype(w.dtype)
+
+
+def prolong(x: np.ndarray, shape: tuple[int, int]) -> np.ndarray:
+    """Nearest-neighbour 2 x upsampling cropped to ``shape`` (a warm start only)."""
+    up = np.repeat(np.repeat(x, 2, axis=0), 2, axis=1)
+    return np.ascontiguousarray(up[: shape[0], : shape[1]])

@@ -1,0 +1,183 @@
+"""Cause rules on synthetic patterns with known meaning.
+
+Signatures (REFERENCE-VALUES §4.2): studs/joists are regular stripes at about
+400-600 mm centres [CP]; missing insulation in a frame bay is a sharp-edged cold
+rectangle bounded by studs (ASTM C1060 scope) [V]; air leakage gives streaks or
+fans spreading from joints with diffuse edges [V: practice pages]; wet roof
+insulation stays warmer at night after a sunny day (ASTM C1153) [V].
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from conftest import make_frame, make_meta, make_seg
+from scipy import ndimage
+
+from irseg.analysis import CAUSES, analyse
+
+PIXEL_M = 0.01  # 10 mm per pixel
+
+
+def _wall(shape=(120, 240), base=18.5):
+    return np.full(shape, base), np.zeros(shape, int)
+
+
+def _studs(t, d, *, cols, width=5, delta=-0.8, rows=slice(None)):
+    for c in cols:
+        t[rows, c:c + width] += delta
+        d[rows, c:c + width] = 1
+
+
+def _run(t, d, *, u=None, noise=0.03, seed=3, **meta_sections):
+    meta_sections.setdefault("camera", {"pixel_m": PIXEL_M})
+    t_noisy = t + np.random.default_rng(seed).normal(0.0, noise, t.shape)
+    res = analyse(make_frame(t_noisy, make_meta(**meta_sections)), make_seg(d, u=t if u is None else u))
+    for a in res.anomalies:
+        assert a.cause in CAUSES and a.reason
+    return res
+
+
+def _at(res, row, col):
+    k = int(res.labels[row, col])
+    assert k > 0, "no anomaly at that pixel"
+    return res.anomalies[k - 1]
+
+
+def test_stud_pattern_is_thermal_bridge_and_the_bay_is_missing_insulation():
+    t, d = _wall()
+    _studs(t, d, cols=range(20, 240, 40))  # 50 mm members at 400 mm centres [CP]
+    t[20:100, 105:140] -= 3.0  # empty bay between the studs at 100 and 140
+    d[20:100, 105:140] = 2
+    res = _run(t, d)
+    studs = [a for a in res.anomalies if a.area_px == 120 * 5]
+    assert len(studs) == 6
+    for a in studs:
+        assert a.cause == "thermal_bridge", a.reason
+        assert "parallel" in a.reason and "0.40 m" in a.reason
+    bay = _at(res, 60, 120)
+    assert bay.cause == "missing_insulation", bay.reason
+    assert bay.excess_w > max(a.excess_w for a in studs)
+    assert bay.severity == 1
+
+
+def test_short_members_count_as_framing_only_when_regularly_spaced():
+    # 20 px tall, 6 px wide: too stubby for a lone band, a thermal bridge as part of a regular set
+    t, d = _wall()
+    _studs(t, d, cols=(30, 80, 130, 180), width=6, rows=slice(50, 70), delta=-1.0)
+    res = _run(t, d)
+    assert len(res.anomalies) == 4
+    assert {a.cause for a in res.anomalies} == {"thermal_bridge"}
+    t1, d1 = _wall()
+    _studs(t1, d1, cols=(80,), width=6, rows=slice(50, 70), delta=-1.0)
+    (lone,) = _run(t1, d1).anomalies
+    assert lone.cause != "thermal_bridge"
+
+
+def test_irregular_spacing_is_not_reported_as_a_regular_set():
+    t, d = _wall()
+    _studs(t, d, cols=(20, 45, 130, 150), width=6, rows=slice(50, 70), delta=-1.0)
+    res = _run(t, d)
+    assert all("parallel" not in a.reason for a in res.anomalies)
+
+
+def test_lone_long_narrow_band_is_thermal_bridge_never_missing_insulation():
+    # a horizontal slab-edge / lintel band, 80 mm tall across the wall
+    t, d = _wall()
+    t[60:68, 10:230] -= 1.5
+    d[60:68, 10:230] = 1
+    (a,) = _run(t, d).anomalies
+    assert a.cause == "thermal_bridge" and "band" in a.reason
+
+
+def test_weak_compact_void_is_partial_missing_insulation():
+    # 0.8 K at 20 K inside-outside: partial-depth void (0.04 < 0.10 of the difference)
+    t, d = _wall()
+    t[30:90, 60:120] -= 0.8
+    d[30:90, 60:120] = 1
+    (a,) = _run(t, d).anomalies
+    assert a.cause == "missing_insulation" and "partial" in a.reason
+
+
+def _fan(shape=(120, 240), apex=(118, 60), depth=3.0, half_angle_deg=22.0, decay_px=45.0):
+    rows, cols = np.mgrid[0:shape[0], 0:shape[1]]
+    dr, dc = apex[0] - rows, cols - apex[1]  # fan opens upwards from a skirting joint
+    ang = np.degrees(np.arctan2(dc, dr))
+    dist = np.hypot(dr, dc)
+    wedge = (np.abs(ang - 20.0) <= half_angle_deg) & (dr >= 0)
+    return np.where(wedge, -depth * np.exp(-dist / decay_px), 0.0)
+
+
+def test_diffuse_fan_from_a_joint_is_air_leakage():
+    contrast = ndimage.gaussian_filter(_fan(), 3.0)  # diffuse edges
+    t = 18.5 + contrast
+    d = (contrast < -0.4).astype(int)
+    (a,) = _run(t, d, noise=0.02).anomalies
+    assert a.kind == "cold"
+    assert a.cause == "air_leakage", a.reason
+
+
+def test_decaying_streak_is_air_leakage_not_a_thermal_bridge():
+    # a straight finger whose contrast fades away from the joint it starts at
+    t, d = _wall()
+    prof = -2.5 * np.exp(-np.arange(100) / 35.0)
+    t[10:110, 100:108] += prof[::-1, None]
+    d[10:110, 100:108] = 1
+    t = ndimage.gaussian_filter(t, 1.5)
+    (a,) = _run(t, d, noise=0.02).anomalies
+    assert a.cause == "air_leakage", a.reason
+
+
+def test_warm_patch_on_a_roof_at_night_is_moisture():
+    rows, cols = np.mgrid[0:120, 0:240]
+    blob = ((rows - 60) / 30.0) ** 2 + ((cols - 110) / 55.0) ** 2 < 1.0
+    t = np.full((120, 240), -2.0) + 1.5 * blob
+    roof = {"surface": {"view": "roof", "reflected_c": -20.0}, "air": {"inside_c": 20.0, "outside_c": 2.0, "wind_m_s": 1.0}}
+    (a,) = _run(t, blob.astype(int), **roof).anomalies
+    assert a.kind == "warm" and a.cause == "moisture", a.reason
+    assert a.excess_w is not None and a.excess_w > 0  # warm from outside = heat loss
+
+
+def test_sharp_cold_rectangle_on_a_roof_is_not_moisture():
+    t = np.full((120, 240), -2.0)
+    d = np.zeros((120, 240), int)
+    t[40:80, 100:160] -= 1.0
+    d[40:80, 100:160] = 1
+    (a,) = _run(t, d, surface={"view": "roof"}, air={"inside_c": 20.0, "outside_c": 2.0, "wind_m_s": 1.0}).anomalies
+    assert a.cause == "unclassified" and "low-emissivity" in a.reason
+    assert a.excess_w is None
+
+
+def test_roof_patch_colder_than_the_sky_limit_is_unclassified():
+    # zero-conduction equilibrium (h_c·T_air + h_r·T_sky)/(h_c + h_r): about −6 °C for air 0 °C, sky −20 °C, 1 m/s
+    rows, cols = np.mgrid[0:120, 0:240]
+    blob = ((rows - 60) / 30.0) ** 2 + ((cols - 110) / 55.0) ** 2 < 1.0
+    t = np.full((120, 240), -3.0) - 6.0 * blob
+    roof = {"surface": {"view": "roof", "reflected_c": -20.0}, "air": {"inside_c": 20.0, "outside_c": 0.0, "wind_m_s": 1.0}}
+    (a,) = _run(t, blob.astype(int), **roof).anomalies
+    assert a.cause == "unclassified" and "conduction cannot explain" in a.reason
+
+
+def test_wrong_sign_is_unclassified_with_a_reason():
+    t, d = _wall()
+    t[30:90, 60:120] += 2.0
+    d[30:90, 60:120] = 1
+    (a,) = _run(t, d).anomalies
+    assert a.kind == "warm" and a.cause == "unclassified" and "inside" in a.reason
+    t2, d2 = _wall(base=3.0)
+    t2[30:90, 60:120] -= 1.0
+    d2[30:90, 60:120] = 1
+    ext = {"surface": {"view": "exterior"}, "air": {"inside_c": 20.0, "outside_c": 2.0, "wind_m_s": 1.0}}
+    (b,) = _run(t2, d2, **ext).anomalies
+    assert b.kind == "cold" and b.cause == "unclassified" and "outside" in b.reason
+
+
+@pytest.mark.parametrize("view", ["exterior", "interior"])
+def test_expected_sign_compact_area_is_missing_insulation_from_either_side(view):
+    sign = -1.0 if view == "interior" else 1.0
+    t, d = _wall(base=18.5 if view == "interior" else 3.0)
+    t[30:90, 60:120] += sign * 2.0
+    d[30:90, 60:120] = 1
+    (a,) = _run(t, d, surface={"view": view}, air={"inside_c": 20.0, "outside_c": 2.0, "wind_m_s": 1.0}).anomalies
+    assert a.cause == "missing_insulation", a.reason
+    assert a.kind == ("cold" if view == "interior" else "warm")

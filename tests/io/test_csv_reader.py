@@ -1,0 +1,108 @@
+"""Text matrices: delimiters, decimal comma, headers, and errors that name line and column."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from irseg.errors import InputError, UnsupportedFormatError
+from irseg.io import read_thermogram
+
+EXPECTED = np.array([[12.5, 13.0, -1.25], [14.75, 15.0, 2.0]])
+
+
+def _read(tmp_path, text: str, name: str = "m.csv", **kw):
+    path = tmp_path / name
+    path.write_text(text, encoding="utf-8", newline="")
+    return read_thermogram(path, **kw)
+
+
+@pytest.mark.parametrize(
+    ("text", "delim", "decimal"),
+    [
+        ("12.5,13.0,-1.25\n14.75,15,2\n", "comma", "."),
+        ("12.5, 13.0, -1.25\n14.75, 15, 2\n", "comma", "."),
+        ("12,5;13,0;-1,25\n14,75;15;2\n", "semicolon", ","),
+        ("12.5;13.0;-1.25\n14.75;15;2\n", "semicolon", "."),
+        ("12.5\t13.0\t-1.25\n14.75\t15\t2\n", "tab", "."),
+        ("12,5\t13,0\t-1,25\n14,75\t15\t2\n", "tab", ","),
+        ("12.5  13.0   -1.25\n 14.75 15 2\n", "whitespace", "."),
+        ("12,5 13,0 -1,25\n14,75 15 2\n", "whitespace", ","),
+        ("12.5;13.0;-1.25;\r\n14.75;15;2;\r\n", "semicolon", "."),  # trailing delimiter, CRLF
+    ],
+)
+def test_delimiters_and_decimal_marks(tmp_path, text, delim, decimal):
+    frame = _read(tmp_path, text)
+    np.testing.assert_array_equal(frame.data, EXPECTED)
+    assert frame.metadata["delimiter"] == delim and frame.metadata["decimal"] == decimal
+
+
+def test_header_lines_skipped(tmp_path):
+    text = "Survey export\nUnits: degC; emissivity 0,95\n\nx;y;z\n12,5;13,0;-1,25\n14,75;15;2\n\n\n"
+    frame = _read(tmp_path, text, name="m.txt")
+    np.testing.assert_array_equal(frame.data, EXPECTED)
+    assert frame.metadata["header_lines"] == 4
+
+
+def test_scientific_nan_and_integers(tmp_path):
+    frame = _read(tmp_path, "1e1,-2.5E-1,nan\nInf,+3,.5\n")
+    assert frame.data[0, 0] == 10.0 and frame.data[0, 1] == -0.25 and np.isnan(frame.data[0, 2])
+    assert np.isinf(frame.data[1, 0]) and frame.data[1, 2] == 0.5
+    ints = _read(tmp_path, "1 2 3\n4 5 6\n", name="i.txt")
+    assert ints.data.dtype == np.int64
+    np.testing.assert_array_equal(ints.data, [[1, 2, 3], [4, 5, 6]])
+
+
+def test_utf8_bom_and_latin1_header(tmp_path):
+    (tmp_path / "b.csv").write_bytes("\ufeff1;2\n3;4\n".encode())
+    np.testing.assert_array_equal(read_thermogram(tmp_path / "b.csv").data, [[1, 2], [3, 4]])
+    (tmp_path / "l.csv").write_bytes("Temp \xb0C\n1;2\n3;4\n".encode("latin-1"))
+    np.testing.assert_array_equal(read_thermogram(tmp_path / "l.csv").data, [[1, 2], [3, 4]])
+
+
+def test_ragged_row_names_line(tmp_path):
+    with pytest.raises(InputError, match=r"line 4 has 2 values but line 2 \(the first row\) has 3") as info:
+        _read(tmp_path, "header\n1;2;3\n4;5;6\n7;8\n")
+    assert "m.csv" in str(info.value)
+
+
+def test_non_numeric_cell_names_line_and_column(tmp_path):
+    with pytest.raises(InputError, match=r"line 3, column 2: 'abc' is not a number"):
+        _read(tmp_path, "1;2;3\n4;5;6\n7;abc;9\n")
+
+
+def test_empty_cell_named(tmp_path):
+    with pytest.raises(InputError, match=r"line 2, column 2: an empty cell"):
+        _read(tmp_path, "1,2,3\n4,,6\n")
+
+
+def test_thousands_separator_is_not_a_number(tmp_path):
+    with pytest.raises(InputError, match="line 2, column 1"):
+        _read(tmp_path, "1,5;2,5\n1.234,5;3,0\n")
+
+
+def test_blank_line_inside_matrix(tmp_path):
+    with pytest.raises(InputError, match="line 3 is blank inside the matrix"):
+        _read(tmp_path, "1 2\n3 4\n\n5 6\n", name="m.txt")
+
+
+def test_no_numbers_at_all(tmp_path):
+    with pytest.raises(InputError, match="no numeric row"):
+        _read(tmp_path, "just some notes\nabout the survey\n", name="notes.txt")
+
+
+def test_only_blank_lines(tmp_path):
+    with pytest.raises(InputError, match="only blank lines"):
+        _read(tmp_path, "\n\n   \n")
+
+
+def test_binary_content_refused(tmp_path):
+    (tmp_path / "bin.csv").write_bytes(b"1,2\x00\x01\x02")
+    with pytest.raises(UnsupportedFormatError, match="binary"):
+        read_thermogram(tmp_path / "bin.csv")
+
+
+def test_budget_from_line_count(tmp_path):
+    rows = "\n".join(";".join(["1"] * 50) for _ in range(50))
+    with pytest.raises(InputError, match="50 x 50 = 2500 pixels exceeds the pixel budget of 2000"):
+        _read(tmp_path, rows, max_pixels=2000)

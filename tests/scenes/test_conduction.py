@@ -1,0 +1,139 @@
+"""The finite-volume solver against ISO 6946 hand calculations and conservation laws."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+
+from irseg.errors import ConfigError, SolverError
+from irseg.scenes import (
+    Conditions,
+    build_operator,
+    masonry_wall,
+    missing_patch,
+    rasterise,
+    simulate_scene,
+    solve_steady,
+    solve_transient,
+    surface_fields,
+    timber_frame_wall,
+    missing_bay,
+)
+
+
+def _layered(layers, *, r_si, r_se, t_i=20.0, t_e=0.0, n=(3, 4)):
+    """Solve a stack of homogeneous layers [(d_m, lambda, cells), ...] on a small 3-D grid."""
+    dz = np.concatenate([np.full(c, d / c) for d, _, c in layers])
+    kz = np.concatenate([np.full(c, lam) for _, lam, c in layers])
+    k = np.broadcast_to(kz[:, None, None], (kz.size, *n)).copy()
+    h_in, h_out = np.full(n, 1 / r_si), np.full(n, 1 / r_se)
+    op, g_in, g_out = build_operator(k, dx_m=0.05, dy_m=0.05, dz_m=dz, h_inside=h_in, h_outside=h_out)
+    rhs = np.zeros(op.shape)
+    rhs[0] += g_in * t_i
+    rhs[-1] += g_out * t_e
+    t, _ = solve_steady(op, rhs)
+    ts_i, q_i = surface_fields(t, conductivity=k, dz_m=dz, h=h_in, ambient=np.full(n, t_i), face="inside")
+    ts_e, q_e = surface_fields(t, conductivity=k, dz_m=dz, h=h_out, ambient=np.full(n, t_e), face="outside")
+    return ts_i, ts_e, -q_i / (t_i - t_e), q_e / (t_i - t_e)
+
+
+def test_brief_wall_matches_iso6946_formula():
+    # Plasterboard 12.5 mm (lambda 0.25), mineral wool 140 mm (0.035), brick 102 mm (0.77):
+    # REFERENCE-VALUES §2.4 [V, secondary]; R_si 0.13, R_se 0.04: ISO 6946 horizontal flow (§2.1) [V, secondary].
+    layers = [(0.0125, 0.25, 2), (0.14, 0.035, 8), (0.102, 0.77, 4)]
+    # ISO 6946 (REFERENCE-VALUES §2.3): U = 1/(R_si + sum d/lambda + R_se) [V]
+    r_t = 0.13 + sum(d / lam for d, lam, _ in layers) + 0.04
+    u = 1.0 / r_t
+    ts_i, ts_e, u_in, u_out = _layered(layers, r_si=0.13, r_se=0.04)
+    np.testing.assert_allclose(u_in, u, rtol=1e-6)
+    np.testing.assert_allclose(u_out, u, rtol=1e-6)
+    # T_si = T_i - U*R_si*(T_i - T_e), REFERENCE-VALUES §7.4 [C]; brief: within 0.01 K
+    assert np.abs(ts_i - (20.0 - u * 0.13 * 20.0)).max() < 0.01
+    assert np.abs(ts_e - (0.0 + u * 0.04 * 20.0)).max() < 0.01
+
+
+def test_insulated_concrete_wall_worked_example():
+    # REFERENCE-VALUES §7.3 [C]: gypsum board 12.5 mm (0.25), reinforced concrete 200 mm (2.3),
+    # mineral wool 140 mm (0.035), render 10 mm (1.0); R_si 0.13, R_se 0.04 -> U = 0.2316,
+    # and §7.4 at 20/0 °C: theta_si = 19.398 °C, theta_se = 0.185 °C.
+    layers = [(0.0125, 0.25, 2), (0.20, 2.3, 4), (0.14, 0.035, 6), (0.010, 1.0, 1)]
+    ts_i, ts_e, u_in, _ = _layered(layers, r_si=0.13, r_se=0.04)
+    assert abs(u_in.mean() - 0.2316) < 1e-4
+    assert abs(ts_i.mean() - 19.398) < 0.01
+    assert abs(ts_e.mean() - 0.185) < 0.01
+    # §7.4 without the insulation: U = 3.155, theta_si = 11.797 °C [C]
+    ts_i, _, u_in, _ = _layered([layers[0], layers[1], layers[3]], r_si=0.13, r_se=0.04)
+    assert abs(u_in.mean() - 3.155) < 1e-3
+    assert abs(ts_i.mean() - 11.797) < 0.01
+
+
+def test_textbook_brick_wall_u_value():
+    # Chudley & Greeno, Building Construction Handbook p. 468 (REFERENCE-VALUES §7.1) [V]:
+    # 215 mm brick (0.84) + 13 mm plaster (0.50), R_so 0.055, R_si 0.123 -> U = 2.17 (2.174 unrounded [C])
+    _, _, u_in, _ = _layered([(0.013, 0.50, 2), (0.215, 0.84, 6)], r_si=0.123, r_se=0.055)
+    assert abs(u_in.mean() - 2.174) < 0.001
+
+
+def test_energy_balance_closes_in_3d_with_defects():
+    el = masonry_wall(width_m=1.5, height_m=1.0, cell_m=0.05)
+    d = missing_patch(el, x0_m=0.5, x1_m=1.0, y0_m=0.3, y1_m=0.7)
+    sc = simulate_scene(el, (d,), Conditions(outside_c=-2.0, wind_m_s=2.0), view="exterior")
+    # steady state, no sources: what enters the inside face leaves the outside face (brief: 0.1 %)
+    assert sc.balance["relative_imbalance"] < 1e-3
+    assert sc.balance["inside_face_w"] > 0
+
+
+def test_defect_increases_heat_flow_and_cools_inside_face():
+    el = timber_frame_wall(width_m=1.2, height_m=0.9, cell_m=0.03)
+    sc = simulate_scene(el, (missing_bay(el, 1),), Conditions(outside_exposure="ventilated"), view="interior")
+    t = sc.truth[0]
+    assert t.excess_w > 0
+    assert t.excess_w >= t.excess_footprint_w > 0
+    assert t.mean_c < t.reference_c - 1.0
+    fp = sc.footprints[0]
+    assert (sc.surface_c[fp] < sc.baseline_c[fp] - 0.5).all()
+    # total heat from the room through the element rises by the defect's excess
+    assert sc.balance["inside_face_w"] > t.excess_w > 0
+
+
+def test_excess_equals_h_times_delta_t_on_inside_face():
+    # With a linear Robin condition the surface-flux difference is exactly h*(T_ref - T):
+    # the quantity the analysis estimates from a thermogram (REFERENCE-VALUES §2.5) [C].
+    el = timber_frame_wall(width_m=1.2, height_m=0.9, cell_m=0.03)
+    sc = simulate_scene(el, (missing_bay(el, 1),), Conditions(outside_exposure="ventilated"), view="interior")
+    dq = sc.h_w_m2k * (sc.baseline_c - sc.surface_c)
+    total = float(dq.sum() * el.cell_m**2)
+    assert total == pytest.approx(sum(t.excess_w for t in sc.truth), rel=0.05)
+
+
+def test_transient_tends_to_steady_state():
+    el = timber_frame_wall(width_m=0.6, height_m=0.45, cell_m=0.03)
+    k, c = rasterise(el, (missing_bay(el, 0),))
+    n = (el.ny, el.nx)
+    h_in, h_out = np.full(n, 7.7), np.full(n, 25.0)
+    op, g_in, g_out = build_operator(k, dx_m=el.cell_m, dy_m=el.cell_m, dz_m=el.dz_m(), h_inside=h_in,
+                                     h_outside=h_out)
+    rhs = np.zeros(op.shape)
+    rhs[0] += g_in * 20.0
+    rhs[-1] += g_out * 0.0
+    steady, _ = solve_steady(op, rhs)
+    cap = c * el.cell_m**2 * el.dz_m()[:, None, None]
+    t = np.full(op.shape, 5.0)
+    errs = []
+    for _, t in solve_transient(op, cap, lambda s: rhs, t0=t, dt_s=6 * 3600.0, n_steps=40):
+        errs.append(np.abs(t - steady).max())
+    assert errs[-1] < 1e-3
+    assert errs[-1] < errs[5] < errs[0]
+
+
+def test_bad_inputs_raise():
+    k = np.ones((3, 2, 2))
+    k[1, 0, 0] = 0.0
+    with pytest.raises(SolverError, match="conductivity"):
+        build_operator(k, dx_m=0.1, dy_m=0.1, dz_m=np.full(3, 0.1), h_inside=np.ones((2, 2)),
+                       h_outside=np.ones((2, 2)))
+    el = timber_frame_wall(width_m=0.6, height_m=0.45, cell_m=0.03)
+    with pytest.raises(ConfigError, match="view"):
+        simulate_scene(el, (missing_bay(el, 0),), Conditions(), view="sideways")
+    with pytest.raises(ConfigError, match="bay 9"):
+        missing_bay(el, 9)

@@ -1,0 +1,58 @@
+"""irseg.pipeline: one image through the real stages; stage tagging; warnings collected."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from test_batch_support import SHAPE, make_survey, wall_image
+
+from irseg.errors import InputError, MetadataError
+from irseg.pipeline import STAGES, ImageResult, failure_stage, process_image, render_result
+
+
+def test_process_image_finds_the_drawn_patch(tmp_path):
+    (path,) = make_survey(tmp_path, 1, tiff=False)
+    result = process_image(path)
+    assert isinstance(result, ImageResult)
+    assert result.frame.temperature_c.shape == SHAPE
+    assert set(result.timings) == {"read", "metadata", "calibrate", "segment", "analyse"}
+    (anomaly,) = result.analysis.anomalies
+    # The patch is rows 20..36, cols 30..50 by construction (test_batch_support.wall_image);
+    # its centre is at (27.5, 39.5) in pixel-centre coordinates.
+    assert anomaly.kind == "cold"
+    assert anomaly.centroid_row == pytest.approx(27.5, abs=1.0)
+    assert anomaly.centroid_col == pytest.approx(39.5, abs=1.0)
+    overlay_png, labels_png, warnings = render_result(result)
+    assert overlay_png[:8] == labels_png[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec 5.2)
+    assert "render" in result.timings
+
+
+def test_overrides_are_applied_last(tmp_path):
+    (path,) = make_survey(tmp_path, 1, tiff=False)
+    result = process_image(path, overrides={"air": {"inside_c": 22.0}})
+    assert result.meta.air.inside_c == 22.0 and result.meta.air.outside_c == 0.0
+    assert result.meta.sources[-1] == "command line"
+
+
+def test_exceptions_carry_their_stage(tmp_path):
+    (tmp_path / "junk.npy").write_bytes(b"\x93NUMPY broken")
+    with pytest.raises(InputError) as info:
+        process_image(tmp_path / "junk.npy")
+    assert failure_stage(info.value) == "read"
+
+    np.save(tmp_path / "ok.npy", wall_image(0))
+    (tmp_path / "ok.toml").write_text("[air]\ninside_c = 'warm'\n", encoding="utf-8")
+    with pytest.raises(MetadataError) as info:
+        process_image(tmp_path / "ok.npy")
+    assert failure_stage(info.value) == "metadata"
+    assert failure_stage(ValueError("untagged")) is None
+    assert STAGES[0] == "read" and STAGES[-1] == "write"
+
+
+def test_stage_warnings_are_collected_not_emitted(tmp_path):
+    # pytest runs with filterwarnings=error: an emitted warning would fail this test.
+    np.save(tmp_path / "flat.npy", np.full(SHAPE, 18.0, np.float32))
+    result = process_image(tmp_path / "flat.npy")
+    assert result.analysis.anomalies == ()
+    assert any("uniform" in w for w in result.warnings)
+    assert any("geometry" in w or "inside" in w for w in (*result.warnings, *result.analysis.warnings))
