@@ -7,7 +7,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from pathlib import Path, PurePosixPath
 
-from .errors import InputError
+from .errors import ConfigError, InputError
 from .outputs import safe_component
 
 __all__ = ["InputImage", "collect_inputs", "metadata_candidates", "RESERVED_NAMES"]
@@ -111,6 +111,8 @@ def collect_inputs(
     ------
     InputError
         If an input does not exist or no image is found.
+    ConfigError
+        If the output folder is an input folder or contains one.
     """
     excluded = Path(exclude) if exclude is not None else None
     files: list[Path] = []
@@ -118,6 +120,11 @@ def collect_inputs(
     if not given:
         raise InputError("no input given; name image files or survey folders")
     for entry in given:
+        if excluded is not None and entry.is_dir() and _same_or_inside(entry, excluded):
+            raise ConfigError(
+                f"-o {excluded}: the output folder is, or contains, the input folder {entry}; "
+                "choose a separate output folder (a subfolder of the survey is fine)"
+            )
         if entry.is_dir():
             found = _walk(entry, excluded)
             if not found:

@@ -11,7 +11,9 @@ reported as failed at stage ``worker``.
 from __future__ import annotations
 
 import multiprocessing
+import os
 import signal
+import threading
 from collections.abc import Callable
 from concurrent.futures import FIRST_COMPLETED, Future, ProcessPoolExecutor, wait
 from concurrent.futures.process import BrokenProcessPool
@@ -23,8 +25,29 @@ _PRELOAD = ["irseg.pipeline", "irseg.io", "irseg.metadata", "irseg.radiometry", 
             "irseg.analysis", "irseg.render", "irseg.outputs", "irseg.batch"]
 
 
-def _init_worker() -> None:
+def _watch_parent(parent_pid: int) -> None:
+    """Exit this worker soon after the parent is gone (e.g. killed with kill -9)."""
+    import time
+
+    while True:
+        time.sleep(1.0)
+        try:
+            os.kill(parent_pid, 0)
+        except ProcessLookupError:
+            os._exit(1)
+        except PermissionError:  # pragma: no cover - pid reused by another user's process
+            os._exit(1)
+
+
+def _init_worker(parent_pid: int) -> None:
+    from threadpoolctl import threadpool_limits
+
+    from ._batch_worker import import_stages
+
     signal.signal(signal.SIGINT, signal.SIG_IGN)
+    import_stages()
+    threadpool_limits(limits=1)  # for the worker's lifetime: same bits whatever the worker count
+    threading.Thread(target=_watch_parent, args=(parent_pid,), name="irseg-parent-watch", daemon=True).start()
     try:
         import cv2
 
@@ -43,7 +66,7 @@ def _context() -> multiprocessing.context.BaseContext:
 
 
 def worker_died(task: dict[str, Any]) -> Any:
-    from .batch import ImageFailure, ImageOutcome
+    from ._batch_worker import ImageFailure, ImageOutcome
 
     failure = ImageFailure(
         file=task["image"],
@@ -62,7 +85,8 @@ def _run_batch(
 ) -> list[dict[str, Any]]:
     """Run tasks in one pool; return the tasks whose worker died."""
     broken: list[dict[str, Any]] = []
-    executor = ProcessPoolExecutor(max_workers=n_workers, mp_context=_context(), initializer=_init_worker)
+    executor = ProcessPoolExecutor(max_workers=n_workers, mp_context=_context(),
+                                   initializer=_init_worker, initargs=(os.getpid(),))
     futures: dict[Future[Any], dict[str, Any]] = {}
     try:
         futures = {executor.submit(fn, task): task for task in tasks}

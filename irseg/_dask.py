@@ -38,6 +38,7 @@ __all__ = ["guard_malloc_trim", "local_cluster_config", "open_client", "run_on_d
 
 _TRIM_KEY = "distributed.nanny.pre-spawn-environ.MALLOC_TRIM_THRESHOLD_"
 _GUARD_THRESHOLD = 128 * 1024 * 1024
+_CONNECT_TIMEOUT_S = 10.0
 _M_TRIM_THRESHOLD = -1  # glibc <malloc.h>
 
 
@@ -114,7 +115,7 @@ def open_client(scheduler: str, *, jobs: int | None = None) -> Iterator[Any]:
                 cluster.close()
         return
     try:
-        client = distributed.Client(scheduler, timeout="10s")
+        client = distributed.Client(scheduler, timeout=f"{_CONNECT_TIMEOUT_S}s")
     except (OSError, TimeoutError, ValueError) as exc:
         raise ConfigError(
             f"--scheduler {scheduler}: cannot reach a dask scheduler there ({exc}); "

@@ -24,7 +24,7 @@ import json
 import os
 import time
 from collections.abc import Callable, Iterable, Mapping, Sequence
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from pathlib import Path
 from typing import Any
 
@@ -40,8 +40,9 @@ from ._batch_summary import (
     FAILURE_COLUMNS,
     build_summary,
 )
+from ._batch_worker import ImageFailure, ImageOutcome, SurveySettings, run_task, run_task_single_threaded
 from ._version import __version__
-from .errors import ConfigError, IrsegError, OutputError
+from .errors import ConfigError, InputError, IrsegError, OutputError
 from .pipeline import DEFAULT_MAX_PIXELS
 
 __all__ = [
@@ -57,94 +58,6 @@ __all__ = [
     "fingerprint_input",
     "run_survey",
 ]
-
-
-@dataclass(frozen=True)
-class SurveySettings:
-    """Settings that change results; part of every image's fingerprint.
-
-    Attributes
-    ----------
-    overrides : dict
-        ``{"section": {"key": value}}`` applied after the metadata files.
-    format : str or None
-        Forced reader name.
-    max_pixels : int
-        Pixel budget per image.
-    cmap : str
-        Colour map of the overlays.
-    """
-
-    overrides: dict[str, dict[str, Any]] = field(default_factory=dict)
-    format: str | None = None
-    max_pixels: int = DEFAULT_MAX_PIXELS
-    cmap: str = "inferno"
-
-    def to_dict(self) -> dict[str, Any]:
-        """JSON-ready copy (sorted when serialised)."""
-        return {
-            "overrides": {s: dict(v) for s, v in self.overrides.items()},
-            "format": self.format,
-            "max_pixels": int(self.max_pixels),
-            "cmap": self.cmap,
-        }
-
-
-@dataclass(frozen=True)
-class ImageFailure:
-    """One input that could not be processed.
-
-    Attributes
-    ----------
-    file : str
-        The input as named in the outputs (file name, or relative path when names repeat).
-    stage : str
-        ``read``, ``metadata``, ``calibrate``, ``segment``, ``analyse``, ``render``,
-        ``write`` or ``worker`` (the worker process died).
-    message : str
-        One line: what failed and what to do.
-    traceback : str or None
-        Full traceback text, for ``-v``.
-    """
-
-    file: str
-    stage: str
-    message: str
-    traceback: str | None = None
-
-
-@dataclass(frozen=True)
-class ImageOutcome:
-    """What happened to one input.
-
-    Attributes
-    ----------
-    index : int
-        Position in the survey's input order.
-    image, stem : str
-        Name in the outputs, and its output folder under OUT.
-    status : str
-        ``"ok"`` or ``"failed"``.
-    record : dict or None
-        The content of ``result.json`` (normalised JSON data) when ok.
-    failure : ImageFailure or None
-        When failed.
-    skipped : bool
-        True when ``resume`` found complete, matching outputs and did not recompute.
-    timings : dict of str to float
-        Seconds per stage (empty for skipped images).
-    """
-
-    index: int
-    image: str
-    stem: str
-    status: str
-    record: dict[str, Any] | None = None
-    failure: ImageFailure | None = None
-    skipped: bool = False
-    timings: dict[str, float] = field(default_factory=dict)
-    overlay_png: bytes | None = field(default=None, repr=False)
-    labels_png: bytes | None = field(default=None, repr=False)
 
 
 @dataclass(frozen=True)
@@ -203,8 +116,6 @@ def fingerprint_input(path: str | os.PathLike[str], settings: SurveySettings) ->
     InputError
         If the file cannot be read.
     """
-    from .errors import InputError
-
     digest = hashlib.sha256()
     digest.update(b"irseg-fingerprint-1\0" + __version__.encode() + b"\0")
     settings_json = json.dumps(outputs.normalise_json(settings.to_dict()), sort_keys=True)
@@ -222,132 +133,6 @@ def fingerprint_input(path: str | os.PathLike[str], settings: SurveySettings) ->
         except OSError:
             digest.update(b"\0absent")
     return "sha256:" + digest.hexdigest()
-
-
-# --------------------------------------------------------------------------- worker side
-
-
-def _relativise(text: str, root: str) -> str:
-    """Drop the survey root folder from messages (no absolute paths in data files)."""
-    if root:
-        text = text.replace(root.rstrip(os.sep) + os.sep, "")
-    return " ".join(text.split())
-
-
-def _run_task(task: dict[str, Any]) -> ImageOutcome:
-    """Process one image; runs in a worker. Never raises for a bad input."""
-    import traceback
-
-    from threadpoolctl import threadpool_limits
-
-    from . import _dask
-    from .pipeline import failure_stage, process_image, render_result
-
-    _dask.guard_malloc_trim()
-    settings: SurveySettings = task["settings"]
-    image, stem, root = task["image"], task["stem"], task["root"]
-    timings: dict[str, float] = {}
-    try:
-        with threadpool_limits(limits=1):  # same bits whatever the worker count
-            result = process_image(
-                task["path"],
-                overrides=settings.overrides or None,
-                format=settings.format,
-                max_pixels=settings.max_pixels,
-            )
-            timings = result.timings
-            overlay_png, labels_png, render_warnings = render_result(result, cmap=settings.cmap)
-            record = _make_record(result, task, render_warnings)
-    except Exception as exc:  # one bad input must never stop the survey
-        stage = failure_stage(exc) or "analyse"
-        if isinstance(exc, IrsegError):
-            message = str(exc)
-        else:
-            message = f"unexpected {type(exc).__name__}: {exc} (run with -v for the traceback)"
-        if isinstance(exc, MemoryError):
-            message = f"out of memory ({exc}); lower --max-pixels or use fewer --jobs"
-        failure = ImageFailure(
-            file=image,
-            stage=stage,
-            message=_relativise(message, root) or type(exc).__name__,
-            traceback=traceback.format_exc(),
-        )
-        return ImageOutcome(task["index"], image, stem, "failed", failure=failure, timings=timings)
-    return ImageOutcome(
-        task["index"], image, stem, "ok", record=record, timings=dict(timings),
-        overlay_png=overlay_png, labels_png=labels_png,
-    )
-
-
-def _dedupe(messages: Iterable[str], root: str) -> list[str]:
-    seen: list[str] = []
-    for message in messages:
-        text = _relativise(str(message), root)
-        if text and text not in seen:
-            seen.append(text)
-    return seen
-
-
-def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[str]) -> dict[str, Any]:
-    """The content of result.json for one processed image (normalised JSON data)."""
-    from dataclasses import asdict, fields, is_dataclass
-
-    from .metadata import meta_to_dict
-
-    meta, frame, seg, analysis = result.meta, result.frame, result.segmentation, result.analysis
-    stem, root = task["stem"], task["root"]
-    meta_dict = meta_to_dict(meta)
-    if isinstance(meta_dict, dict) and "sources" in meta_dict:
-        meta_dict = dict(meta_dict)
-        meta_dict["sources"] = [
-            s if s == "command line" else _relativise(os.path.relpath(s, root) if os.path.isabs(s) else s, root)
-            for s in meta_dict["sources"]
-        ]
-    params = seg.params
-    params_dict = asdict(params) if is_dataclass(params) else dict(params)
-    inside, outside = meta.air.inside_c, meta.air.outside_c
-    delta_t = None if inside is None or outside is None else float(inside) - float(outside)
-    anomalies = [{f.name: getattr(a, f.name) for f in fields(a)} for a in analysis.anomalies]
-    warnings = _dedupe([*frame.warnings, *result.warnings, *analysis.warnings, *render_warnings], root)
-    rows, cols = frame.temperature_c.shape
-    record = {
-        "irseg_version": __version__,
-        "status": "ok",
-        "image": task["image"],
-        "source": task["rel"],
-        "stem": stem,
-        "fingerprint": task["fingerprint"],
-        "outputs": {
-            "labels": f"{stem}/labels.png",
-            "overlay": f"{stem}/overlay.png",
-            "result": f"{stem}/result.json",
-        },
-        "view": meta.surface.view,
-        "delta_t_k": delta_t,
-        "metadata": meta_dict,
-        "parameters": {"segment": params_dict, "settings": task["settings"].to_dict()},
-        "image_size": {"rows": int(rows), "cols": int(cols)},
-        "pixels": {
-            "n_dead": int(frame.n_dead),
-            "n_nan": int(frame.n_nan),
-            "n_masked": int(frame.mask.sum()),
-        },
-        "segmentation": {
-            "n_regions": int(seg.n_regions),
-            "iterations": int(seg.iterations),
-            "converged": bool(seg.converged),
-            "message": _relativise(str(seg.message), root),
-        },
-        "analysis": {
-            "pixel_m": analysis.pixel_m,
-            "pixel_area_m2": analysis.pixel_area_m2,
-            "h_w_m2k": analysis.h_w_m2k,
-            "n_anomalies": len(anomalies),
-        },
-        "warnings": warnings,
-        "anomalies": anomalies,
-    }
-    return outputs.normalise_json(record)
 
 
 # --------------------------------------------------------------------------- main side
@@ -513,11 +298,17 @@ def run_survey(
     log: list[str] = [f"{_stamp()} irseg {__version__}: {len(items)} images into {out_path}"]
 
     outcomes: dict[int, ImageOutcome] = {}
+    early: list[ImageOutcome] = []
     tasks: list[dict[str, Any]] = []
     total = len(items)
     done = 0
     for item in items:
-        fingerprint = fingerprint_input(item.path, settings)
+        try:
+            fingerprint = fingerprint_input(item.path, settings)
+        except InputError as exc:  # unreadable file: that image alone fails
+            failure = ImageFailure(file=item.image, stage="read", message=str(exc))
+            early.append(ImageOutcome(item.index, item.image, item.stem, "failed", failure=failure))
+            continue
         record = _load_complete(out_path, item, fingerprint) if resume else None
         if record is not None:
             outcomes[item.index] = ImageOutcome(item.index, item.image, item.stem, "ok", record=record, skipped=True)
@@ -552,6 +343,8 @@ def run_survey(
             raise _FailFast(outcome)
 
     try:
+        for outcome in early:
+            _accept(outcome)
         _execute(tasks, jobs=jobs, scheduler=scheduler, accept=_accept)
     except _FailFast as stop:
         failure = stop.outcome.failure
@@ -642,16 +435,29 @@ def _execute(
     if scheduler:
         from ._dask import run_on_dask
 
-        run_on_dask(_run_task, tasks, scheduler=scheduler, jobs=jobs, accept=accept)
+        run_on_dask(run_task_single_threaded, tasks, scheduler=scheduler, jobs=jobs, accept=accept)
         return
     n_workers = min(int(jobs) if jobs else _cpu_count(), len(tasks))
     if n_workers <= 1:
-        for task in tasks:
-            accept(_run_task(task))
+        from threadpoolctl import threadpool_limits
+
+        from ._batch_worker import import_stages
+
+        import cv2
+
+        import_stages()
+        cv2_threads = cv2.getNumThreads()
+        cv2.setNumThreads(1)  # same bits as the pool workers (restored below)
+        try:
+            with threadpool_limits(limits=1):
+                for task in tasks:
+                    accept(run_task(task))
+        finally:
+            cv2.setNumThreads(cv2_threads)
         return
     from ._batch_pool import run_in_pool
 
-    run_in_pool(_run_task, tasks, n_workers=n_workers, accept=accept)
+    run_in_pool(run_task, tasks, n_workers=n_workers, accept=accept)
 
 
 def _cpu_count() -> int:

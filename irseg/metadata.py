@@ -279,6 +279,10 @@ def _md_validate(tree: Mapping[str, Any], *, source: str) -> dict[str, dict[str,
                     raise MetadataError(
                         f"{source}: key {sec!r} is outside any section; put it under [{home}]"
                     )
+                raise MetadataError(
+                    f"{source}: {sec} = {_md_show(table)} is outside any section and is not a metadata key; "
+                    f"keys live in the sections {', '.join(f'[{s}]' for s in _SCHEMA)}"
+                )
             raise _md_unknown_section(source, sec)
         if not isinstance(table, Mapping):
             raise MetadataError(

@@ -298,3 +298,52 @@ def test_bad_settings_fail_before_any_image(tmp_path):
     with pytest.raises(IrsegError, match="colour map"):
         run_survey([survey], tmp_path / "out", cmap="rainbowish")
     assert not (tmp_path / "out").exists() or not any((tmp_path / "out").iterdir())
+
+
+def test_out_inside_the_survey_is_never_read_back(tmp_path):
+    survey = tmp_path / "survey"
+    make_survey(survey, 2)
+    out = survey / "results"
+    first = run_survey([survey], out, jobs=1)
+    second = run_survey([survey], out, jobs=1, resume=True)  # overlay.png/labels.png are not inputs
+    assert len(first.outcomes) == len(second.outcomes) == 2 and second.n_skipped == 2
+
+
+def test_out_must_not_be_the_survey_folder(tmp_path):
+    survey = tmp_path / "survey"
+    make_survey(survey, 1)
+    for out in (survey, tmp_path):
+        with pytest.raises(IrsegError, match="separate output folder"):
+            run_survey([survey], out, jobs=1)
+    assert sorted(p.name for p in survey.iterdir()) == ["survey.toml", "wall_00.tif"]
+
+
+def test_unreadable_input_fails_alone(tmp_path, monkeypatch):
+    import irseg.batch
+
+    survey = tmp_path / "survey"
+    paths = make_survey(survey, 2)
+    real = irseg.batch.fingerprint_input
+
+    def denied(path, settings):
+        if Path(path).name == paths[0].name:
+            raise irseg.batch.InputError(f"{paths[0].name}: cannot read the file (Permission denied)")
+        return real(path, settings)
+
+    monkeypatch.setattr(irseg.batch, "fingerprint_input", denied)
+    result = run_survey([survey], tmp_path / "out", jobs=1)
+    assert result.n_ok == 1 and [(f.file, f.stage) for f in result.failures] == [(paths[0].name, "read")]
+
+
+def test_a_dying_worker_fails_only_its_image():
+    from test_batch_support import crash_on_second
+
+    from irseg._batch_pool import run_in_pool
+
+    tasks = [{"index": i, "image": f"img{i}.npy", "stem": f"img{i}"} for i in range(4)]
+    seen = []
+    run_in_pool(crash_on_second, tasks, n_workers=2, accept=seen.append)
+    survivors = sorted(x for x in seen if isinstance(x, int))
+    died = [x for x in seen if not isinstance(x, int)]
+    assert survivors == [0, 2, 3]
+    assert [(d.image, d.status, d.failure.stage) for d in died] == [("img1.npy", "failed", "worker")]

@@ -138,3 +138,11 @@ def test_colliding_stems_get_distinct_safe_folders(tmp_path):
     assert by_rel["north/wall.tif"].stem == "north__wall"
     assert by_rel["north/wall.tif"].image == "north/wall.tif"  # file names repeat -> relative path
     assert by_rel["wall.npy"].image == "wall.npy"
+
+
+def test_written_files_get_the_usual_permissions(tmp_path):
+    # A new file gets mode 0666 minus the process umask (POSIX open(2) semantics), not 0600.
+    mask = os.umask(0o022)
+    os.umask(mask)
+    path = outputs.write_bytes(tmp_path / "anomalies.csv", b"x")
+    assert path.stat().st_mode & 0o777 == 0o666 & ~mask

@@ -121,3 +121,12 @@ def data_files(out: Path) -> dict[str, bytes]:
         for p in sorted(out.rglob("*"))
         if p.is_file() and p.suffix in {".csv", ".json"}
     }
+
+
+def crash_on_second(task: dict) -> int:
+    """A pool task that kills its worker process for index 1 (for the worker-death test)."""
+    import os
+
+    if task["index"] == 1:
+        os._exit(3)
+    return task["index"]

@@ -76,6 +76,11 @@ def test_top_level_key_names_section():
     assert "outside any section" in msg and "[surface]" in msg
 
 
+def test_unknown_top_level_key():
+    msg = _err("colour = 3")
+    assert "outside any section and is not a metadata key" in msg and "[camera]" in msg
+
+
 def test_wrong_type_string():
     msg = _err('[surface]\nemissivity = "high"')
     assert 'emissivity = "high"' in msg and "not a number" in msg

@@ -6,6 +6,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy import constants as sc
 from scipy import integrate, optimize
 
@@ -328,3 +330,19 @@ def test_fill_masked_local_median():
     # neighbours of (2,2) after nearest fill: 6,7,8,11,(fill),13,16,17,18 -> median 12 or 13
     assert 11.0 <= out[2, 2] <= 13.0
     assert out[0, 0] == 0.0
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    t_obj=st.floats(-60.0, 150.0),
+    t_refl=st.floats(-60.0, 150.0),
+    eps=st.floats(0.3, 1.0),
+    band=st.sampled_from(BANDS),
+)
+def test_round_trip_property(t_obj, t_refl, eps, band):
+    # requirement: inversion within 10 mK over -60...+150 °C, any emissivity and surroundings
+    app = object_to_apparent(t_obj, emissivity=eps, reflected_c=t_refl, band_um=band)
+    back = apparent_to_object(app, emissivity=eps, reflected_c=t_refl, band_um=band)
+    assert abs(back - t_obj) < 0.010
+    # physics: the reading lies between the object and its surroundings
+    assert min(t_obj, t_refl) - 1e-3 <= app <= max(t_obj, t_refl) + 1e-3

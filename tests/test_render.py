@@ -12,7 +12,10 @@ from types import SimpleNamespace
 import cv2
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
+from irseg.analysis import CAUSES as ANALYSIS_CAUSES
 from irseg.analysis import Analysis, Anomaly
 from irseg.errors import ConfigError, OutputError
 from irseg.render import (
@@ -129,7 +132,8 @@ def test_outline_pixels_carry_the_cause_colour_and_interiors_do_not():
         # well inside (away from the id badge at the centroid) the thermogram shows through
         inner = img[top + 3 * s, left + 3 * s]
         assert not np.array_equal(inner, colour)
-    # the five causes have five distinct colours, none of them produced by the colour map
+    # every cause the analysis can give has its own colour, none produced by the colour map
+    assert set(CAUSES) == set(ANALYSIS_CAUSES)
     colours = {CAUSE_COLOURS[c] for c in CAUSES}
     assert len(colours) == 5
     lut = {tuple(int(v) for v in row) for row in reference_lut(cv2.COLORMAP_INFERNO)}
@@ -318,3 +322,25 @@ def test_label_image_refuses_ids_a_16_bit_png_cannot_hold():
     labels[0, 0] = -1
     with pytest.raises(OutputError, match="negative"):
         label_image(make_analysis(labels))
+
+
+@settings(max_examples=25, deadline=None)
+@given(
+    m=st.integers(1, 40),
+    n=st.integers(1, 40),
+    seed=st.integers(0, 2**32 - 1),
+    spread=st.sampled_from([0.0, 1e-3, 5.0, 80.0]),
+    masked=st.floats(0.0, 1.0),
+)
+def test_any_small_frame_renders_to_its_layout_deterministically(m, n, seed, spread, masked):
+    rng = np.random.default_rng(seed)
+    t = 10.0 + spread * rng.standard_normal((m, n))
+    mask = rng.random((m, n)) < masked
+    labels = (rng.random((m, n)) < 0.3).astype(np.int32)
+    anomalies = (make_anomaly(1, "moisture", labels),) if labels.any() else ()
+    frame = ThermalFrame("x.tif", t, mask, t, SurveyMeta())
+    seg = SimpleNamespace(edges=rng.random((m, n)) < 0.2)
+    analysis = make_analysis(labels, anomalies, pixel_m=0.01)
+    a = render_overlay(frame, seg, analysis)
+    assert a.shape == overlay_layout((m, n)).shape and a.dtype == np.uint8
+    assert render_overlay(frame, seg, analysis).tobytes() == a.tobytes()

@@ -142,6 +142,8 @@ class Collector(HTMLParser):
             self._row = []
         if self._row is not None and tag == "td":
             self._cell = []
+        if tag == "br" and self._cell is not None:
+            self._cell.append(" ")
 
     def handle_endtag(self, tag):
         if tag == "td" and self._cell is not None and self._row is not None:
@@ -259,6 +261,15 @@ def test_null_numbers_render_as_a_dash():
     assert row[6] == DASH  # no band shown when the value is null
     assert row[7] == DASH and row[8] == DASH
     assert row[9:] == [DASH, DASH, DASH]
+
+
+def test_small_values_are_not_shown_as_zero():
+    summary, overlays = make_summary()
+    summary["anomalies"][0].update(area_m2=0.0034, area_low_m2=0.0029, area_high_m2=0.0041, excess_w=-0.00001)
+    p = parse(render_report(summary, overlays))
+    row = next(r for r in p.rows if r[1] == "west_wall_0001.tif" and r[2] == "2")
+    assert row[6] == "0.0034 0.0029–0.0041"  # two significant digits, not "0.00"
+    assert row[8].split()[0] == "-0.000010"
 
 
 def test_totals_failures_and_warnings_are_listed():

@@ -15,20 +15,24 @@ from ._conditions import check_conditions
 from ._confidence import BandInputs, confidence_bands
 from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
 from ._geometry import MIN_SPOT_PX, pixel_area_m2, pixel_footprint_m
-from ._reference import RingReference, estimate_noise_k, find_sound_regions, ring_reference
+from ._reference import Plane, RingReference, estimate_noise_k, find_sound_regions, rim_extent_px, ring_reference
 from ._surface import CONVENTIONAL_WIND_M_S, h_convective_exterior, h_convective_interior, h_radiative, resolve_heat_flow
 from ._types import Analysis, Anomaly, severity_key, severity_score
 
 __all__ = ["analyse", "significance_threshold_k"]
 
-GAP_PX = 2.0  # ring starts beyond the jump band
-RIM_PX = 3.0  # soft rim added to the thermal footprint
+GAP_PX = 2.0  # the ring starts at least beyond the jump band
+RIM_PX = 3.0  # the thermal footprint takes at least this much of the soft rim
+RIM_FRACTION = 0.3  # the soft rim is searched out to 0.3·√area ...
+MAX_RIM_PX = 30.0  # ... but not beyond 30 px
 RING_SIGMA_FACTOR = 2.0  # contrast must also exceed this many ring spreads
 FRSI_PERCENTILE = 5.0
 
 
 @dataclass
 class _Candidate:
+    """A region whose contrast against its local ring is significant."""
+
     label: int
     r0: int
     c0: int
@@ -39,6 +43,9 @@ class _Candidate:
     mean_c: float
     reference_c: float
     delta_k: float
+    gap_px: float
+    rr: np.ndarray  # region pixels in the crop
+    cc: np.ndarray
 
 
 def significance_threshold_k(*, noise_k: float, netd_k: float, min_step_k: float, min_contrast_k: float | None) -> float:
@@ -99,13 +106,13 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
             )
     view = surf.view
     heat_flow = resolve_heat_flow(view, surf.heat_flow)
-    labels[mask] = 0
+    labels[mask | (labels < 0)] = 0
     valid = labels > 0
     usable = valid & ~edges
 
     footprint = pixel_footprint_m(n_columns=shape[1], hfov_deg=cam.hfov_deg, distance_m=cam.distance_m, pixel_m=cam.pixel_m)
     px_area = pixel_area_m2(footprint_m=footprint, tilt_deg=cam.tilt_deg)
-    warn = list(check_conditions(meta, has_geometry=footprint is not None))
+    warn = tuple(check_conditions(meta, has_geometry=footprint is not None))
 
     params = getattr(seg, "params", None)
     noise = getattr(params, "noise_k", None)
@@ -119,119 +126,88 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
     n = int(labels.max()) if labels.size else 0
     reference = np.full(shape, np.nan)
     if n == 0 or not valid.any():
-        return Analysis((), np.zeros(shape, np.int32), footprint, px_area, None, reference, tuple(warn))
+        return Analysis((), np.zeros(shape, np.int32), footprint, px_area, None, reference, warn)
 
     flat = labels.ravel()
     areas = np.bincount(flat, minlength=n + 1).astype(float)
-    safe = np.maximum(areas, 1.0)
-    means_u = np.bincount(flat, weights=u.ravel(), minlength=n + 1) / safe
-    sound, trend = find_sound_regions(
-        u=u, labels=labels, usable=usable, areas=areas, means_u=means_u, threshold_k=thr, min_area_px=MIN_SPOT_PX
-    )
-    rows = np.arange(shape[0], dtype=float)[:, None]
-    cols = np.arange(shape[1], dtype=float)[None, :]
-    reference[:] = trend.evaluate(rows, cols)
-    reference[~valid] = np.nan
-
-    # surface coefficient, linearised about the sound surface and its radiant surroundings
-    allowed = usable & sound[labels]  # pixels that may serve as a sound reference
-    t_surface = trend.a if math.isfinite(trend.a) else float(np.median(t[valid]))
-    side_air = air.inside_c if view == "interior" else air.outside_c
-    t_surr = surf.reflected_c if surf.reflected_c is not None else (side_air if side_air is not None else t_surface)
-    h_r = h_radiative(0.5 * (t_surface + t_surr), surf.emissivity)
-    if view == "interior":
-        h_c = h_convective_interior(heat_flow)
-    else:
-        h_c = h_convective_exterior(air.wind_m_s if air.wind_m_s is not None else CONVENTIONAL_WIND_M_S)
-    h = h_c + h_r
-    sky_limit_c = None
-    if view == "roof" and air.outside_c is not None and surf.reflected_c is not None:
-        sky_limit_c = (h_c * air.outside_c + h_r * surf.reflected_c) / h
-
-    # ---- first pass: local reference and significance of every candidate region
+    means_u = np.bincount(flat, weights=u.ravel(), minlength=n + 1) / np.maximum(areas, 1.0)
     slices = ndimage.find_objects(labels)
-    accepted: list[_Candidate] = []
-    for lab in range(1, n + 1):
-        sl = slices[lab - 1]
-        if sl is None or sound[lab] or areas[lab] < MIN_SPOT_PX:
-            continue
-        width = _ring_width(int(areas[lab]))
-        for factor in (1.0, 4.0):  # a wider crop only when the first ring is too thin
-            pad = int(math.ceil(GAP_PX + factor * width)) + 1
-            r0, r1 = max(0, sl[0].start - pad), min(shape[0], sl[0].stop + pad)
-            c0, c1 = max(0, sl[1].start - pad), min(shape[1], sl[1].stop + pad)
-            crop = (slice(r0, r1), slice(c0, c1))
-            region = labels[crop] == lab
-            dist = ndimage.distance_transform_edt(~region)
-            ref = ring_reference(
-                u_crop=u[crop], t_crop=t[crop], dist_crop=dist, allowed_crop=allowed[crop],
-                row_offset=r0, col_offset=c0, gap_px=GAP_PX, width_px=width, trend=trend,
-                widen=factor > 1.0,
-            )
-            if ref.source == "ring" or factor > 1.0:
-                break
-        rr, cc = np.nonzero(region)
-        ref_vals = ref.plane.evaluate(rr + float(r0), cc + float(c0))
-        mean_c = float(t[crop][region].mean())
-        reference_c = float(ref_vals.mean())
-        delta = mean_c - reference_c
-        if abs(delta) < max(thr, RING_SIGMA_FACTOR * ref.sigma_k):
-            continue
-        accepted.append(_Candidate(lab, r0, c0, crop, region, dist, ref, mean_c, reference_c, delta))
+    sound, trend = find_sound_regions(
+        u=u, labels=labels, usable=usable, areas=areas, means_u=means_u, threshold_k=thr, min_area_px=MIN_SPOT_PX,
+        slices=slices,
+    )
+    reference[:] = trend.evaluate(np.arange(shape[0], dtype=float)[:, None], np.arange(shape[1], dtype=float)[None, :])
+    reference[~valid] = np.nan
+    allowed = usable & sound[labels]  # pixels that may serve as a sound reference
 
+    t_surface = trend.a if math.isfinite(trend.a) else float(np.median(t[valid]))
+    h_c, h_r, sky_limit_c = _coefficients(meta, heat_flow=heat_flow, t_surface_c=t_surface)
+    h = h_c + h_r
+
+    accepted = [
+        c for lab in range(1, n + 1)
+        if slices[lab - 1] is not None and not sound[lab] and areas[lab] >= MIN_SPOT_PX
+        for c in [_local_contrast(lab, slices[lab - 1], labels=labels, t=t, u=u, allowed=allowed, area_px=int(areas[lab]),
+                                  mean_u=float(means_u[lab]), noise_k=noise, threshold_k=thr, trend=trend)]
+        if c is not None
+    ]
     if not accepted:
-        return Analysis((), np.zeros(shape, np.int32), footprint, px_area, h, reference, tuple(warn))
+        return Analysis((), np.zeros(shape, np.int32), footprint, px_area, h, reference, warn)
 
-    # ---- second pass: thermal footprint, shape, stats
     is_anomaly = np.zeros(n + 1, dtype=bool)
     is_anomaly[[c.label for c in accepted]] = True
     loss_sign = -1.0 if view == "interior" else 1.0  # loss = sign·(T − reference)
-    expected_kind = "cold" if view == "interior" else "warm"
-    shapes: dict[int, Shape] = {}
-    kinds: dict[int, str] = {}
-    sums: dict[int, tuple[float, int]] = {}
-    bboxes: dict[int, tuple[int, int, int, int]] = {}
-    for c in accepted:
-        lab_c = labels[c.crop]
-        t_c = t[c.crop]
-        kind = "cold" if c.delta_k < 0 else "warm"
-        rim = (c.dist > 0) & (c.dist <= RIM_PX) & (lab_c > 0) & ~is_anomaly[lab_c]
-        rr, cc = np.nonzero(rim)
-        rim_contrast = t_c[rr, cc] - c.ref.plane.evaluate(rr + float(c.r0), cc + float(c.c0))
-        keep = np.sign(c.delta_k) * rim_contrast > noise
-        rr_in, cc_in = np.nonzero(c.region)
-        in_contrast = t_c[rr_in, cc_in] - c.ref.plane.evaluate(rr_in + float(c.r0), cc_in + float(c.c0))
-        loss_sum = loss_sign * (float(in_contrast.sum()) + float(rim_contrast[keep].sum()))
-        sums[c.label] = (loss_sum, int(rr_in.size + keep.sum()))
-        reference[c.crop][c.region] = c.ref.plane.evaluate(rr_in + float(c.r0), cc_in + float(c.c0))
-        reference[c.r0 + rr[keep], c.c0 + cc[keep]] = c.ref.plane.evaluate(rr[keep] + float(c.r0), cc[keep] + float(c.c0))
-        # shape features on a tight crop: bounding box + 3 px
-        rb, cb = np.nonzero(c.region.any(1))[0], np.nonzero(c.region.any(0))[0]
-        tr0, tc0 = max(0, rb[0] - 3), max(0, cb[0] - 3)
-        tight = (slice(tr0, rb[-1] + 4), slice(tc0, cb[-1] + 4))
-        shapes[c.label] = shape_features(
-            c.region[tight], u_crop=u[c.crop][tight], dist_crop=c.dist[tight], delta_k=c.delta_k, noise_k=noise,
-            row_offset=c.r0 + tr0, col_offset=c.c0 + tc0,
-        )
-        bboxes[c.label] = (int(c.r0 + rb[0]), int(c.c0 + cb[0]), int(c.r0 + rb[-1] + 1), int(c.c0 + cb[-1] + 1))
-        kinds[c.label] = kind
+    measured = [
+        _measure_candidate(c, labels=labels, t=t, u=u, is_anomaly=is_anomaly, noise_k=noise, loss_sign=loss_sign,
+                           reference=reference)
+        for c in accepted
+    ]
+    shapes = {m.cand.label: m.shape for m in measured}
+    kinds = {m.cand.label: m.kind for m in measured}
     sets = find_regular_sets(shapes, kinds, pixel_m=footprint)
-
     dt_air = None
     if air.inside_c is not None and air.outside_c is not None and air.inside_c - air.outside_c > 0:
         dt_air = float(air.inside_c - air.outside_c)
+    expected_kind = "cold" if view == "interior" else "warm"
 
-    rows_out = []
-    for c in accepted:
-        s = shapes[c.label]
-        kind = kinds[c.label]
-        vals = t[c.crop][c.region]
+    # pieces of one framing member (a stud interrupted by other anomalies) form one anomaly
+    lines: dict[tuple[int, int], list[_Measured]] = {}
+    units: list[list[_Measured]] = []
+    for m in measured:
+        info = sets.get(m.cand.label)
+        if info is None:
+            units.append([m])
+        else:
+            lines.setdefault(info[2], []).append(m)
+    units.extend(lines.values())
+    units.sort(key=lambda u: (min(m.bbox[0] for m in u), min(m.bbox[1] for m in u), min(m.cand.label for m in u)))
+
+    out_labels = np.zeros(shape, np.int32)
+    drafts = []
+    for i, unit in enumerate(units, start=1):
+        main = max(unit, key=lambda m: (m.shape.area_px, -m.cand.label))
+        kind, s = main.kind, main.shape
+        for m in unit:
+            out_labels[m.cand.crop][m.cand.region] = i
+        vals = np.concatenate([t[m.cand.crop][m.cand.region] for m in unit])
+        area_px = int(sum(m.shape.area_px for m in unit))
+        mean_c = float(vals.mean())
+        reference_c = float(sum(m.cand.reference_c * m.shape.area_px for m in unit) / area_px)
+        delta_k = mean_c - reference_c
+        loss_sum = float(sum(m.loss_sum_kpx for m in unit))
+        centroid_row = float(sum(m.shape.centroid_row * m.shape.area_px for m in unit) / area_px)
+        centroid_col = float(sum(m.shape.centroid_col * m.shape.area_px for m in unit) / area_px)
+        bbox = (min(m.bbox[0] for m in unit), min(m.bbox[1] for m in unit),
+                max(m.bbox[2] for m in unit), max(m.bbox[3] for m in unit))
         cause, reason = classify_cause(
-            s, kind=kind, view=view, delta_k=c.delta_k, mean_c=c.mean_c, threshold_k=thr, pixel_m=footprint,
-            regular_set=sets.get(c.label), delta_air_k=dt_air, sky_limit_c=sky_limit_c,
+            s, kind=kind, view=view, delta_k=delta_k, mean_c=mean_c, threshold_k=thr, pixel_m=footprint,
+            regular_set=sets.get(main.cand.label), delta_air_k=dt_air, sky_limit_c=sky_limit_c,
         )
-        loss_sum, n_fp = sums[c.label]
-        area_m2 = None if px_area is None else s.area_px * px_area
+        if len(unit) > 1:
+            reason += f" ({len(unit)} pieces of one member, interrupted by other anomalies or the segmentation)"
+        if any(m.cand.ref.source == "trend" for m in unit):
+            reason += "; reference: the image's sound trend (no sound surface around it)"
+        area_m2 = None if px_area is None else area_px * px_area
         excess_w = None
         if px_area is not None and kind == expected_kind:
             excess_w = excess_heat_w(h_w_m2k=h, loss_sum_kpx=loss_sum, pixel_area_m2=px_area)
@@ -241,41 +217,138 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
             t_si = float(np.percentile(vals, FRSI_PERCENTILE))
             f_rsi = temperature_factor(t_si, inside_c=air.inside_c, outside_c=air.outside_c)
             mould = None if f_rsi is None else bool(f_rsi < an.frsi_limit)
-        rows_out.append(dict(
-            label=c.label, crop=c.crop, region=c.region, kind=kind, cause=cause, reason=reason, area_px=s.area_px, area_m2=area_m2,
-            mean_c=c.mean_c, min_c=float(vals.min()), max_c=float(vals.max()), reference_c=c.reference_c,
-            delta_k=c.delta_k, excess_w=excess_w, excess_kwh_year=kwh, f_rsi=f_rsi, mould_risk=mould,
-            centroid_row=s.centroid_row, centroid_col=s.centroid_col,
-            bbox=bboxes[c.label],
-            bands=BandInputs(
-                area_px=s.area_px, perimeter_px=s.perimeter_px, loss_sum_kpx=loss_sum, n_footprint=n_fp,
-                pixel_area_m2=px_area, h_convective=h_c, h_radiative=h_r, emissivity=surf.emissivity,
-                emissivity_uncertainty=surf.emissivity_uncertainty, distance_uncertainty=an.distance_uncertainty,
-                h_uncertainty=an.h_uncertainty, netd_k=cam.netd_k, reference_sigma_k=c.ref.sigma_k,
-            ),
-        ))
-    rows_out.sort(key=lambda d: (d["bbox"][0], d["bbox"][1], d["label"]))
-
-    out_labels = np.zeros(shape, np.int32)
-    drafts = []
-    for i, d in enumerate(rows_out, start=1):
-        out_labels[d["crop"]][d["region"]] = i
-        a_lo, a_hi, w_lo, w_hi = confidence_bands(
-            d["bands"], seed=an.seed, anomaly_id=i, area_m2=d["area_m2"], excess_w=d["excess_w"]
+        bands = BandInputs(
+            area_px=area_px, perimeter_px=int(sum(m.shape.perimeter_px for m in unit)), loss_sum_kpx=loss_sum,
+            n_footprint=int(sum(m.n_footprint for m in unit)), pixel_area_m2=px_area, h_convective=h_c,
+            h_radiative=h_r, emissivity=surf.emissivity, emissivity_uncertainty=surf.emissivity_uncertainty,
+            distance_uncertainty=an.distance_uncertainty, h_uncertainty=an.h_uncertainty, netd_k=cam.netd_k,
+            reference_sigma_k=max(m.cand.ref.sigma_k for m in unit),
         )
-        score = severity_score(
-            mould_risk=d["mould_risk"], excess_kwh_year=d["excess_kwh_year"], excess_w=d["excess_w"], area_px=d["area_px"]
-        )
+        a_lo, a_hi, w_lo, w_hi = confidence_bands(bands, seed=an.seed, anomaly_id=i, area_m2=area_m2, excess_w=excess_w)
         drafts.append(Anomaly(
-            anomaly=i, kind=d["kind"], cause=d["cause"], reason=d["reason"], area_px=d["area_px"],
-            area_m2=d["area_m2"], area_low_m2=a_lo, area_high_m2=a_hi, mean_c=d["mean_c"], min_c=d["min_c"],
-            max_c=d["max_c"], reference_c=d["reference_c"], delta_k=d["delta_k"], excess_w=d["excess_w"],
-            excess_low_w=w_lo, excess_high_w=w_hi, excess_kwh_year=d["excess_kwh_year"], f_rsi=d["f_rsi"],
-            mould_risk=d["mould_risk"], centroid_row=d["centroid_row"], centroid_col=d["centroid_col"],
-            bbox_row0=d["bbox"][0], bbox_col0=d["bbox"][1], bbox_row1=d["bbox"][2], bbox_col1=d["bbox"][3],
-            severity=0, severity_score=score,
+            anomaly=i, kind=kind, cause=cause, reason=reason, area_px=area_px,
+            area_m2=area_m2, area_low_m2=a_lo, area_high_m2=a_hi, mean_c=mean_c, min_c=float(vals.min()),
+            max_c=float(vals.max()), reference_c=reference_c, delta_k=float(delta_k), excess_w=excess_w,
+            excess_low_w=w_lo, excess_high_w=w_hi, excess_kwh_year=kwh, f_rsi=f_rsi, mould_risk=mould,
+            centroid_row=centroid_row, centroid_col=centroid_col,
+            bbox_row0=bbox[0], bbox_col0=bbox[1], bbox_row1=bbox[2], bbox_col1=bbox[3],
+            severity=0,
+            severity_score=severity_score(mould_risk=mould, excess_kwh_year=kwh, excess_w=excess_w, area_px=area_px),
         ))
-    ranked = sorted(drafts, key=severity_key)
-    rank = {a.anomaly: k for k, a in enumerate(ranked, start=1)}
+    rank = {a.anomaly: k for k, a in enumerate(sorted(drafts, key=severity_key), start=1)}
     anomalies = tuple(replace(a, severity=rank[a.anomaly]) for a in drafts)
-    return Analysis(anomalies, out_labels, footprint, px_area, h, reference, tuple(warn))
+    return Analysis(anomalies, out_labels, footprint, px_area, h, reference, warn)
+
+
+def _coefficients(meta, *, heat_flow: str, t_surface_c: float) -> tuple[float, float, float | None]:
+    """``(h_c, h_r, sky_limit_c)`` linearised about the sound surface and its radiant surroundings.
+
+    ``sky_limit_c`` (roofs with known outside air and sky temperature) is the
+    temperature of a surface with no conduction from below:
+    ``(h_c·T_e + h_r·T_sky)/(h_c + h_r)``.
+    """
+    surf, air = meta.surface, meta.air
+    side_air = air.inside_c if surf.view == "interior" else air.outside_c
+    t_surr = surf.reflected_c if surf.reflected_c is not None else (side_air if side_air is not None else t_surface_c)
+    h_r = h_radiative(0.5 * (t_surface_c + t_surr), surf.emissivity)
+    if surf.view == "interior":
+        h_c = h_convective_interior(heat_flow)
+    else:
+        h_c = h_convective_exterior(air.wind_m_s if air.wind_m_s is not None else CONVENTIONAL_WIND_M_S)
+    sky_limit_c = None
+    if surf.view == "roof" and air.outside_c is not None and surf.reflected_c is not None:
+        sky_limit_c = (h_c * air.outside_c + h_r * surf.reflected_c) / (h_c + h_r)
+    return h_c, h_r, sky_limit_c
+
+
+def _local_contrast(
+    lab: int, sl: tuple[slice, slice], *, labels: np.ndarray, t: np.ndarray, u: np.ndarray, allowed: np.ndarray,
+    area_px: int, mean_u: float, noise_k: float, threshold_k: float, trend: Plane,
+) -> _Candidate | None:
+    """Local ring reference of one candidate region; None when its contrast is not significant."""
+    shape = labels.shape
+    width = _ring_width(area_px)
+    max_gap = float(np.clip(RIM_FRACTION * math.sqrt(area_px), GAP_PX, MAX_RIM_PX))
+    gap = GAP_PX
+    for factor in (1.0, 4.0):  # a wider crop only when the first ring is too thin
+        pad = int(math.ceil(max_gap + factor * width)) + 1
+        r0, r1 = max(0, sl[0].start - pad), min(shape[0], sl[0].stop + pad)
+        c0, c1 = max(0, sl[1].start - pad), min(shape[1], sl[1].stop + pad)
+        crop = (slice(r0, r1), slice(c0, c1))
+        region = labels[crop] == lab
+        dist = ndimage.distance_transform_edt(~region)
+        extent = (sl[0].start - r0, sl[1].start - c0, sl[0].stop - 1 - r0, sl[1].stop - 1 - c0)
+        if factor == 1.0:
+            gap = rim_extent_px(
+                u_crop=u[crop], dist_crop=dist, allowed_crop=allowed[crop], region_mean_u=mean_u,
+                noise_k=noise_k, min_px=GAP_PX, max_px=max_gap, width_px=width,
+            )
+        ref = ring_reference(
+            u_crop=u[crop], t_crop=t[crop], dist_crop=dist, allowed_crop=allowed[crop],
+            row_offset=r0, col_offset=c0, gap_px=gap, width_px=width, trend=trend, extent=extent,
+            widen=factor > 1.0,
+        )
+        if ref.source == "ring":
+            break
+    rr, cc = np.nonzero(region)
+    ref_vals = ref.plane.evaluate(rr + float(r0), cc + float(c0))
+    t_reg = t[crop][region]
+    mean_c = float(t_reg.mean())
+    reference_c = float(ref_vals.mean())
+    delta = mean_c - reference_c
+    needed = max(threshold_k, RING_SIGMA_FACTOR * ref.sigma_k)
+    # the median contrast must agree: a sound region pulled by a neighbour's rim is not an anomaly
+    if abs(delta) < needed or abs(float(np.median(t_reg - ref_vals))) < needed:
+        return None
+    return _Candidate(lab, r0, c0, crop, region, dist, ref, mean_c, reference_c, delta, gap, rr, cc)
+
+
+@dataclass
+class _Measured:
+    cand: _Candidate
+    kind: str
+    shape: Shape
+    bbox: tuple[int, int, int, int]
+    loss_sum_kpx: float
+    n_footprint: int
+
+
+def _measure_candidate(
+    c: _Candidate, *, labels: np.ndarray, t: np.ndarray, u: np.ndarray, is_anomaly: np.ndarray, noise_k: float,
+    loss_sign: float, reference: np.ndarray,
+) -> _Measured:
+    """Thermal footprint (region + soft rim of the same sign), loss sum and shape of one anomaly.
+
+    Writes the anomaly's reference plane over its footprint into ``reference``.
+    """
+    lab_c = labels[c.crop]
+    t_c = t[c.crop]
+    reach = max(RIM_PX, c.gap_px)
+    rr, cc = np.nonzero((c.dist > 0) & (c.dist <= reach))
+    lab_rim = lab_c[rr, cc]
+    ok = (lab_rim > 0) & ~is_anomaly[lab_rim]
+    rr, cc = rr[ok], cc[ok]
+    rim_ref = c.ref.plane.evaluate(rr + float(c.r0), cc + float(c.c0))
+    rim_contrast = t_c[rr, cc] - rim_ref
+    keep = np.sign(c.delta_k) * rim_contrast > noise_k
+    rr_in, cc_in = c.rr, c.cc
+    in_ref = c.ref.plane.evaluate(rr_in + float(c.r0), cc_in + float(c.c0))
+    in_contrast = t_c[rr_in, cc_in] - in_ref
+    loss_sum = loss_sign * (float(in_contrast.sum()) + float(rim_contrast[keep].sum()))
+    reference[c.r0 + rr_in, c.c0 + cc_in] = in_ref
+    reference[c.r0 + rr[keep], c.c0 + cc[keep]] = rim_ref[keep]
+    # shape features on a tight crop: bounding box + 3 px
+    rb = (int(rr_in.min()), int(rr_in.max()))
+    cb = (int(cc_in.min()), int(cc_in.max()))
+    tr0, tc0 = max(0, rb[0] - 3), max(0, cb[0] - 3)
+    tr1, tc1 = min(c.region.shape[0], rb[-1] + 4), min(c.region.shape[1], cb[-1] + 4)
+    tight = (slice(tr0, tr1), slice(tc0, tc1))
+    tr = np.arange(tr0, tr1, dtype=float)[:, None]
+    tc = np.arange(tc0, tc1, dtype=float)[None, :]
+    shape = shape_features(
+        c.region[tight], u_crop=u[c.crop][tight],
+        reference_crop=c.ref.plane.evaluate(tr + float(c.r0), tc + float(c.c0)), dist_crop=c.dist[tight],
+        delta_k=c.delta_k, noise_k=noise_k, row_offset=c.r0 + tr0, col_offset=c.c0 + tc0,
+    )
+    bbox = (c.r0 + rb[0], c.c0 + cb[0], c.r0 + rb[-1] + 1, c.c0 + cb[-1] + 1)
+    return _Measured(c, "cold" if c.delta_k < 0 else "warm", shape, bbox, loss_sum, int(rr_in.size + keep.sum()))

@@ -20,7 +20,8 @@ CAUSES = ("missing_insulation", "thermal_bridge", "air_leakage", "moisture", "un
 
 BAND_ELONGATION = 5.0  # length/width of a "long narrow band"
 SET_ELONGATION = 2.5  # a shorter band still counts when it belongs to a regular parallel set
-BAND_FILL = 0.6  # area / minimum-area rectangle of a straight band
+BAND_FILL = 0.5  # area / minimum-area rectangle of a straight band (segmented outlines are ragged)
+WIDTH_RATIO = 2.0  # members of a set differ in mean width by at most this factor
 BAND_MAX_WIDTH_M = 0.35  # wider bands are not framing members, lintels or slab edges
 COMPACT_SOLIDITY = 0.85
 COMPACT_FILL = 0.70
@@ -33,6 +34,7 @@ NONUNIFORM = 0.35  # interior spread / |contrast| of a decaying (fan) pattern
 PARTIAL_FRACTION = 0.10  # |contrast| / (T_i − T_e) below which a void is partial-depth
 PARALLEL_DEG = 10.0
 SPACING_CV = 0.25
+SET_MAX_WIDTH_FRACTION = 0.35  # members are narrow against their spacing (45-100 mm at 400-600 mm centres)
 STUD_SPACING_M = (0.30, 0.70)
 
 
@@ -42,8 +44,8 @@ class Shape:
 
     area_px: int
     perimeter_px: int
-    length_px: float
-    width_px: float
+    length_px: float  # long side of the minimum-area rectangle
+    width_px: float  # mean width: area / length (at most the rectangle's short side)
     elongation: float
     rect_fill: float
     solidity: float
@@ -51,7 +53,7 @@ class Shape:
     centroid_row: float
     centroid_col: float
     transition_px: float  # |contrast| / 90th percentile of |∇u| across the outline
-    nonuniformity: float  # interior spread of u (noise removed) / |contrast|
+    nonuniformity: float  # interior spread of the contrast u − reference (noise removed) / |contrast|
     taper: float  # pixels in the wider end third / the narrower end third along the long axis
 
     @property
@@ -84,13 +86,18 @@ def shape_features(
     region: np.ndarray,
     *,
     u_crop: np.ndarray,
+    reference_crop: np.ndarray,
     dist_crop: np.ndarray,
     delta_k: float,
     noise_k: float,
     row_offset: int,
     col_offset: int,
 ) -> Shape:
-    """Features of the region ``region`` (bool crop) given the crop of ``u`` around it."""
+    """Features of the region ``region`` (bool crop).
+
+    ``u_crop`` is the smooth field and ``reference_crop`` the local sound reference
+    over the same crop (°C); ``dist_crop`` the distance to the region (px).
+    """
     rr, cc = np.nonzero(region)
     area = int(rr.size)
     boundary = region & ~ndimage.binary_erosion(region)
@@ -117,15 +124,15 @@ def shape_features(
     g90 = float(np.percentile(grad[band], 90)) if band.any() else 0.0
     transition = abs(delta_k) / g90 if g90 > 1e-12 else float("inf")
     inner = region & ~boundary if (region & ~boundary).sum() >= 4 else region
-    vals = u_crop[inner]
+    vals = u_crop[inner] - reference_crop[inner]  # contrast, free of the sound gradient
     spread = float(1.4826 * np.median(np.abs(vals - np.median(vals)))) if vals.size > 1 else 0.0
     spread = math.sqrt(max(spread * spread - noise_k * noise_k, 0.0))
     return Shape(
         area_px=area,
         perimeter_px=perimeter,
         length_px=float(length),
-        width_px=float(width),
-        elongation=float(length / width),
+        width_px=float(max(1.0, min(width, area / length))),  # mean width: robust to ragged outlines
+        elongation=float(length / max(1.0, min(width, area / length))),
         rect_fill=float(min(1.0, area / (length * width))),
         solidity=float(min(1.0, area / max(hull_area, 1.0))),
         orientation_deg=orientation,
@@ -142,48 +149,84 @@ def _is_band(shape: Shape, width_m: float | None, elongation: float) -> bool:
     return (
         shape.elongation >= elongation
         and shape.rect_fill >= BAND_FILL
+        and shape.taper < FAN_TAPER
         and (width_m is None or width_m <= BAND_MAX_WIDTH_M)
     )
 
 
+def _angle_diff(a: float, b: float) -> float:
+    d = abs(a - b) % 180.0
+    return min(d, 180.0 - d)
+
+
 def find_regular_sets(
     shapes: dict[int, Shape], kinds: dict[int, str], *, pixel_m: float | None
-) -> dict[int, tuple[int, float]]:
+) -> dict[int, tuple[int, float, tuple[int, int]]]:
     """Parallel bands of the same sign at regular spacing (studs, joists, rafters).
+
+    Bands (elongation >= 2.5, straight) parallel within 10° and of similar mean
+    width (within a factor 2) are grouped; bands on
+    the same line (a member interrupted by another anomaly) merge into one line.
+    At least three lines whose spacings vary by at most 25 %, with a width of at
+    most 0.35 × the spacing, form a set. Pieces
+    lying on a member's line with the member's width join the set too.
 
     Returns
     -------
     dict
-        key -> (members in the set, mean spacing in px) for every band in a set of
-        at least three parallel bands whose spacings vary by at most 25 %.
+        key -> (lines in the set, mean spacing in px, (set number, line number)).
+        Pieces with the same (set, line) are one member interrupted by other anomalies.
     """
     cand = [
         k for k, s in shapes.items()
         if _is_band(s, None if pixel_m is None else s.width_px * pixel_m, SET_ELONGATION)
     ]
-    found: dict[int, tuple[int, float]] = {}
-    used: set[int] = set()
+    cand.sort(key=lambda k: -shapes[k].area_px)  # long members give the best orientation
+    found: dict[int, tuple[int, float, tuple[int, int]]] = {}
+    n_sets = 0
     for k in cand:
-        if k in used:
+        if k in found:
             continue
         o = shapes[k].orientation_deg
+        w_k = shapes[k].width_px
         group = [
             j for j in cand
-            if j not in used and kinds[j] == kinds[k]
-            and min(abs(shapes[j].orientation_deg - o), 180.0 - abs(shapes[j].orientation_deg - o)) <= PARALLEL_DEG
+            if j not in found and kinds[j] == kinds[k] and _angle_diff(shapes[j].orientation_deg, o) <= PARALLEL_DEG
+            and max(shapes[j].width_px, w_k) <= WIDTH_RATIO * min(shapes[j].width_px, w_k)
         ]
-        if len(group) < 3:
-            continue
         th = math.radians(o)
-        offs = np.array([-math.sin(th) * shapes[j].centroid_col + math.cos(th) * shapes[j].centroid_row for j in group])
-        order = np.argsort(offs)
-        gaps = np.diff(offs[order])
+
+        def offset(sh: Shape) -> float:
+            return -math.sin(th) * sh.centroid_col + math.cos(th) * sh.centroid_row
+
+        width = float(np.median([shapes[j].width_px for j in group]))
+        offs = np.sort([offset(shapes[j]) for j in group])
+        lines: list[list[float]] = []
+        for x in offs:
+            if lines and x - lines[-1][-1] <= 0.5 * width:
+                lines[-1].append(x)
+            else:
+                lines.append([x])
+        if len(lines) < 3:
+            continue
+        centres = np.array([float(np.mean(line)) for line in lines])
+        gaps = np.diff(centres)
         mean_gap = float(gaps.mean())
         if mean_gap <= 0 or float(np.max(np.abs(gaps - mean_gap))) > SPACING_CV * mean_gap:
             continue
+        if width > SET_MAX_WIDTH_FRACTION * mean_gap:  # bays side by side, not members between bays
+            continue
+        n_sets += 1
         for j in group:
-            found[j] = (len(group), mean_gap)
-            used.add(j)
+            line = int(np.argmin(np.abs(centres - offset(shapes[j]))))
+            found[j] = (len(lines), mean_gap, (n_sets, line))
+        for j, sj in shapes.items():  # interrupted pieces too short to be bands themselves
+            if j in found or kinds[j] != kinds[k] or sj.rect_fill < BAND_FILL:
+                continue
+            across = sj.width_px if _angle_diff(sj.orientation_deg, o) <= 2 * PARALLEL_DEG else sj.length_px
+            miss = np.abs(centres - offset(sj))
+            if float(miss.min()) <= 0.5 * width and max(across, width) <= WIDTH_RATIO * min(across, width):
+                found[j] = (len(lines), mean_gap, (n_sets, int(np.argmin(miss))))
     return found
 
 
@@ -196,7 +239,7 @@ def classify_cause(
     mean_c: float,
     threshold_k: float,
     pixel_m: float | None,
-    regular_set: tuple[int, float] | None,
+    regular_set: tuple[int, float, tuple[int, int]] | None,
     delta_air_k: float | None,
     sky_limit_c: float | None,
 ) -> tuple[str, str]:
@@ -206,10 +249,10 @@ def classify_cause(
     # a framing member, plate, slab edge or lintel is uniform along its length; a regular
     # parallel set is accepted as framing even when its members vary
     band = (_is_band(shape, width_m, BAND_ELONGATION) and shape.uniform) or (
-        regular_set is not None and _is_band(shape, width_m, SET_ELONGATION)
+        regular_set is not None and shape.rect_fill >= BAND_FILL
     )
     if regular_set is not None and band:
-        n, gap_px = regular_set
+        n, gap_px = regular_set[0], regular_set[1]
         gap = f"{gap_px * pixel_m:.2f} m" if pixel_m is not None else f"{gap_px:.0f} px"
         band_reason = f"one of {n} parallel {kind} bands at regular {gap} spacing: framing members (studs, joists)"
         if pixel_m is not None and not (STUD_SPACING_M[0] <= gap_px * pixel_m <= STUD_SPACING_M[1]):

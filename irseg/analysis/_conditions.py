@@ -49,6 +49,11 @@ def check_conditions(meta: SurveyMeta, *, has_geometry: bool) -> tuple[str, ...]
                 f"wind {air.wind_m_s:g} m/s exceeds {an.max_wind_m_s:g} m/s (ASTM C1060 practice): convection "
                 "masks surface contrasts and the heat-loss estimates are unreliable"
             )
+    if view == "roof" and meta.surface.reflected_c is None:
+        out.append(
+            "[surface] reflected_c not given for a roof view: set it to the sky temperature; the radiative "
+            "coefficient then uses the outside air and the check for sky-reflecting patches is off"
+        )
     if not has_geometry:
         out.append(
             "no geometry: set [camera] pixel_m, or hfov_deg and distance_m; areas are in pixels only "

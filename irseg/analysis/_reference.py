@@ -19,6 +19,7 @@ Two steps:
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -31,6 +32,7 @@ __all__ = [
     "fit_plane",
     "find_sound_regions",
     "ring_reference",
+    "rim_extent_px",
 ]
 
 _MAD_TO_SIGMA = 1.4826  # normal consistency factor of the median absolute deviation
@@ -95,11 +97,15 @@ def estimate_noise_k(temperature: np.ndarray, *, valid: np.ndarray, edges: np.nd
     return robust_sigma(np.concatenate(parts)) / np.sqrt(2.0)
 
 
-def fit_plane(rows: np.ndarray, cols: np.ndarray, z: np.ndarray, *, iterations: int = 4) -> Plane:
+def fit_plane(
+    rows: np.ndarray, cols: np.ndarray, z: np.ndarray, *, iterations: int = 3, axes: tuple[bool, bool] = (True, True)
+) -> Plane:
     """Robust least-squares plane (Tukey bisquare reweighting).
 
-    Falls back to a constant (the median) when fewer than 6 samples are given or
-    the samples do not span two directions.
+    ``axes`` switches the row and column slopes on or off (a slope is only
+    trustworthy where the samples straddle the place it is evaluated). Falls back
+    to a constant (the median) when fewer than 6 samples are given; a slope whose
+    samples span less than one pixel is dropped.
     """
     rows = np.asarray(rows, dtype=float)
     cols = np.asarray(cols, dtype=float)
@@ -110,16 +116,20 @@ def fit_plane(rows: np.ndarray, cols: np.ndarray, z: np.ndarray, *, iterations: 
     r0, c0 = float(rows.mean()), float(cols.mean())
     dr, dc = rows - r0, cols - c0
     med = float(np.median(z))
-    if n < 6 or min(np.ptp(dr), np.ptp(dc)) < 1.0:
-        return Plane(med, 0.0, 0.0, r0, c0, robust_sigma(z), n)
-    design = np.column_stack([np.ones(n), dr, dc])
+    use_r = axes[0] and n >= 6 and np.ptp(dr) >= 1.0
+    use_c = axes[1] and n >= 6 and np.ptp(dc) >= 1.0
+    if not (use_r or use_c):
+        return Plane(med, 0.0, 0.0, r0, c0, robust_sigma(z - med), n)
+    cols_used = [np.ones(n)] + ([dr] if use_r else []) + ([dc] if use_c else [])
+    design = np.column_stack(cols_used)
     w = np.ones(n)
-    coef = np.array([med, 0.0, 0.0])
+    coef = np.zeros(design.shape[1])
+    coef[0] = med
     for _ in range(max(1, iterations)):
         sw = np.sqrt(w)
         coef, *_ = np.linalg.lstsq(design * sw[:, None], z * sw, rcond=None)
         res = z - design @ coef
-        s = robust_sigma(res)
+        s = _MAD_TO_SIGMA * float(np.median(np.abs(res)))  # residuals of a fit with an intercept: centre ≈ 0
         if s <= 1e-12:
             break
         u = res / (4.685 * s)
@@ -127,12 +137,48 @@ def fit_plane(rows: np.ndarray, cols: np.ndarray, z: np.ndarray, *, iterations: 
         if w.sum() < 6:
             break
     res = z - design @ coef
-    return Plane(float(coef[0]), float(coef[1]), float(coef[2]), r0, c0, robust_sigma(res), n)
+    b = float(coef[1]) if use_r else 0.0
+    c = float(coef[1 + int(use_r)]) if use_c else 0.0
+    return Plane(float(coef[0]), b, c, r0, c0, robust_sigma(res), n)
 
 
-def _sample_pixels(mask: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def rim_extent_px(
+    *, u_crop: np.ndarray, dist_crop: np.ndarray, allowed_crop: np.ndarray, region_mean_u: float,
+    noise_k: float, min_px: float, max_px: float, width_px: float,
+) -> float:
+    """Distance from the region at which its soft rim has faded, px.
+
+    Means of ``u`` over 1-px distance shells of sound pixels are compared with the
+    mean of the outer ``width_px`` shells; the rim ends at the first shell whose
+    remaining contrast is at most 5 % of the anomaly's contrast (or the noise of
+    the shell mean), searched between ``min_px`` and ``max_px``.
+    """
+    k = np.ceil(dist_crop[allowed_crop]).astype(np.int64)
+    vals = u_crop[allowed_crop]
+    kmax = int(math.ceil(max_px + width_px))
+    keep = (k >= 1) & (k <= kmax)
+    if not keep.any():
+        return float(min_px)
+    cnt = np.bincount(k[keep], minlength=kmax + 1).astype(float)
+    tot = np.bincount(k[keep], weights=vals[keep], minlength=kmax + 1)
+    far = slice(int(max_px) + 1, kmax + 1)
+    if cnt[far].sum() < 1:
+        return float(min_px)
+    level = tot[far].sum() / cnt[far].sum()
+    contrast_k = region_mean_u - level
+    sign = 1.0 if contrast_k >= 0 else -1.0
+    for d in range(int(math.ceil(min_px)), int(max_px) + 1):
+        if cnt[d] < 1:
+            continue
+        rest = sign * (tot[d] / cnt[d] - level)
+        if rest <= max(0.05 * abs(contrast_k), 2.0 * noise_k / math.sqrt(cnt[d])):
+            return float(d)
+    return float(max_px)
+
+
+def _sample_pixels(mask: np.ndarray, max_samples: int = _MAX_TREND_SAMPLES) -> tuple[np.ndarray, np.ndarray]:
     idx = np.flatnonzero(mask)
-    step = max(1, idx.size // _MAX_TREND_SAMPLES)
+    step = max(1, idx.size // max_samples)
     idx = idx[::step]
     return np.divmod(idx, mask.shape[1])
 
@@ -146,6 +192,7 @@ def find_sound_regions(
     means_u: np.ndarray,
     threshold_k: float,
     min_area_px: int,
+    slices: list | None = None,
     max_rounds: int = 6,
 ) -> tuple[np.ndarray, Plane]:
     """Split regions into sound (True) and candidates (False).
@@ -164,6 +211,10 @@ def find_sound_regions(
         A region within this of the sound trend is sound.
     min_area_px : int
         Regions smaller than this never seed the sound set.
+    slices : list of slice pairs, optional
+        ``scipy.ndimage.find_objects(labels)``. When given, a region whose mean
+        misses the trend is judged again by its median residual, so that a sound
+        region whose mean is pulled by a neighbour's soft rim stays sound.
 
     Returns
     -------
@@ -184,20 +235,50 @@ def find_sound_regions(
     cum = np.cumsum(areas[pool][order])
     seed = pool[order[np.searchsorted(cum, 0.5 * cum[-1])]]
     sound[seed] = True
-    # mean of the trend over a region = trend at the region's centroid (the plane is linear)
-    cnt = np.maximum(areas, 1)
-    m, n_cols = labels.shape
-    flat = labels.ravel()
-    r_mean = np.bincount(flat, weights=np.repeat(np.arange(m, dtype=float), n_cols), minlength=n + 1) / cnt
-    c_mean = np.bincount(flat, weights=np.tile(np.arange(n_cols, dtype=float), m), minlength=n + 1) / cnt
+    # mean of the trend over a region = trend at the region's centroid (the plane is linear);
+    # centroids from every second row and column are ample for a smooth trend
+    sub = labels[::2, ::2]
+    m2, n2 = sub.shape
+    flat = sub.ravel()
+    cnt = np.bincount(flat, minlength=n + 1).astype(float)
+    r_mean = 2.0 * np.bincount(flat, weights=np.repeat(np.arange(m2, dtype=float), n2), minlength=n + 1)
+    c_mean = 2.0 * np.bincount(flat, weights=np.tile(np.arange(n2, dtype=float), m2), minlength=n + 1)
+    missing = cnt == 0
+    r_mean = np.where(missing, 0.0, r_mean / np.maximum(cnt, 1.0))
+    c_mean = np.where(missing, 0.0, c_mean / np.maximum(cnt, 1.0))
+    if slices is not None:
+        for k in np.flatnonzero(missing[1:] & (areas[1:] > 0)) + 1:  # tiny regions: bounding-box centre
+            sl = slices[k - 1]
+            r_mean[k] = 0.5 * (sl[0].start + sl[0].stop - 1)
+            c_mean[k] = 0.5 * (sl[1].start + sl[1].stop - 1)
+    # one fixed sample of usable pixels; each round keeps the samples on sound regions
+    s_rr, s_cc = _sample_pixels(usable, 4 * _MAX_TREND_SAMPLES)
+    s_lab = labels[s_rr, s_cc]
     trend = None
     for _ in range(max_rounds):
-        pix = usable & sound[labels]
-        if not pix.any():
-            pix = sound[labels]
-        rr, cc = _sample_pixels(pix)
+        keep = sound[s_lab]
+        if keep.sum() >= 200:
+            rr, cc = s_rr[keep], s_cc[keep]
+            step = max(1, rr.size // _MAX_TREND_SAMPLES)
+            rr, cc = rr[::step], cc[::step]
+        else:
+            pix = usable & sound[labels]
+            if not pix.any():
+                pix = sound[labels]
+            rr, cc = _sample_pixels(pix)
         trend = fit_plane(rr, cc, u[rr, cc])
         resid = means_u - trend.evaluate(r_mean, c_mean)
+        if slices is not None:
+            for k in present[(np.abs(resid[present]) >= threshold_k) & (areas[present] >= min_area_px)]:
+                sl = slices[k - 1]
+                sub = labels[sl] == k
+                rr_k, cc_k = np.nonzero(sub)
+                step = max(1, rr_k.size // 5000)
+                rr_k, cc_k = rr_k[::step], cc_k[::step]
+                vals = u[sl][rr_k, cc_k] - trend.evaluate(rr_k + float(sl[0].start), cc_k + float(sl[1].start))
+                med = float(np.median(vals))
+                if abs(med) < abs(resid[k]):
+                    resid[k] = med
         new = np.zeros_like(sound)
         new[present] = np.abs(resid[present]) < threshold_k
         new[seed] = True
@@ -205,6 +286,20 @@ def find_sound_regions(
             break
         sound = new
     return sound, trend
+
+
+def _straddled_axes(rr: np.ndarray, cc: np.ndarray, extent: tuple[int, int, int, int]) -> tuple[bool, bool]:
+    """Use a slope only along an axis where the ring covers the region's extent.
+
+    ``extent`` is the region's (row_min, col_min, row_max, col_max) in the crop. A
+    one-sided ring (region at the image edge, neighbours excluded) would
+    extrapolate its slope across the region; a constant is safer there.
+    """
+    out = []
+    for ring_ax, lo, hi in ((rr, float(extent[0]), float(extent[2])), (cc, float(extent[1]), float(extent[3]))):
+        tol = 0.1 * (hi - lo) + 1.0
+        out.append(bool(ring_ax.min() <= lo + tol and ring_ax.max() >= hi - tol))
+    return out[0], out[1]
 
 
 def ring_reference(
@@ -218,6 +313,7 @@ def ring_reference(
     gap_px: float,
     width_px: float,
     trend: Plane,
+    extent: tuple[int, int, int, int],
     widen: bool = False,
 ) -> RingReference:
     """Local sound reference from a ring around one region.
@@ -248,7 +344,8 @@ def ring_reference(
             rr, cc = np.nonzero(ring)
             step = max(1, n_ring // _MAX_RING_SAMPLES)
             rr, cc = rr[::step], cc[::step]
-            local = fit_plane(rr.astype(float), cc.astype(float), u_crop[rr, cc])
+            axes = _straddled_axes(rr, cc, extent)
+            local = fit_plane(rr.astype(float), cc.astype(float), u_crop[rr, cc], axes=axes)
             plane = Plane(
                 local.a, local.b, local.c, local.row0 + row_offset, local.col0 + col_offset, local.sigma, local.n
             )

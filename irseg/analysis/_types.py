@@ -24,7 +24,8 @@ class Anomaly:
     reason : str
         The rule that decided the cause, in a few words.
     area_px : int
-        Pixels in the segmented region.
+        Pixels in the segmented region (all pieces when one framing member was
+        split into several regions).
     area_m2, area_low_m2, area_high_m2 : float or None
         Surface area estimate and its 5-95 % band, m² (None without geometry).
     mean_c, min_c, max_c : float

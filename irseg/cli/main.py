@@ -9,14 +9,8 @@ from __future__ import annotations
 import click
 
 from .._version import __version__
+from .scene import scene_cmd
 from .segment import segment_cmd
-
-try:  # the scene command is written in parallel; register it once it exists
-    from .scene import scene_cmd
-except ModuleNotFoundError as exc:  # pragma: no cover - only while irseg/cli/scene.py is missing
-    if exc.name != "irseg.cli.scene":
-        raise
-    scene_cmd = None
 
 __all__ = ["cli"]
 
@@ -34,8 +28,7 @@ def cli() -> None:
 
 
 cli.add_command(segment_cmd, "segment")
-if scene_cmd is not None:
-    cli.add_command(scene_cmd)
+cli.add_command(scene_cmd)
 
 
 if __name__ == "__main__":  # pragma: no cover - exercised through subprocess tests

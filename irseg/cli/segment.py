@@ -91,8 +91,12 @@ def _sigterm_as_interrupt() -> Iterator[None]:
         signal.signal(signal.SIGTERM, previous)
 
 
-def _fmt(value: float | None, unit: str) -> str:
-    return "unknown" if value is None else f"{value:,.0f} {unit}"
+def _heat_text(excess_w: float | None, excess_kwh_year: float | None) -> str:
+    if excess_w is None and excess_kwh_year is None:
+        return "no excess heat-loss estimate (needs geometry and inside/outside temperatures)"
+    watts = "n/a" if excess_w is None else f"{excess_w:,.0f} W"
+    energy = "n/a" if excess_kwh_year is None else f"{excess_kwh_year:,.0f} kWh/year"
+    return f"estimated excess heat loss {watts}, {energy}"
 
 
 def _readers() -> list[str]:
@@ -101,7 +105,8 @@ def _readers() -> list[str]:
     return list_readers()
 
 
-@click.command("segment", context_settings={"help_option_names": ["-h", "--help"]})
+@click.command("segment", short_help="Process a survey: defect list, overlays, report.",
+               context_settings={"help_option_names": ["-h", "--help"]})
 @click.argument("inputs", metavar="INPUT...", nargs=-1, required=True,
                 type=click.Path(exists=True, path_type=Path))
 @click.option("-o", "--out", "out_dir", required=True, type=click.Path(path_type=Path),
@@ -216,8 +221,8 @@ def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, job
         failed = f", {result.n_failed} failed (see {out_dir / 'failures.csv'})" if result.n_failed else ""
         click.echo(
             f"irseg: {result.n_ok} of {len(result.outcomes)} images ok{resumed}{failed}; "
-            f"{result.n_anomalies} anomalies; estimated excess heat loss {_fmt(result.excess_w, 'W')}, "
-            f"{_fmt(result.excess_kwh_year, 'kWh/year')}; report: {result.report_path}"
+            f"{result.n_anomalies} anomalies; {_heat_text(result.excess_w, result.excess_kwh_year)}; "
+            f"report: {result.report_path}"
         )
         click.echo(CAUTION_LINE)
     ctx.exit(EXIT_PARTIAL if result.n_failed else EXIT_OK)

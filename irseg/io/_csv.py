@@ -23,7 +23,7 @@ from ._common import _io_check_budget, _io_display, _io_file_size, _io_open_byte
 
 __all__ = ["read_csv", "CSV_SUFFIXES"]
 
-CSV_SUFFIXES = (".csv", ".txt", ".tsv", ".asc", ".dat")
+CSV_SUFFIXES = (".csv", ".txt", ".tsv", ".asc")
 
 # (delimiter, decimal mark); None = runs of whitespace. Order breaks ties.
 _CSV_CANDIDATES: tuple[tuple[str | None, str], ...] = (
@@ -67,6 +67,15 @@ def _csv_is_row(line: str, delim: str | None, decimal: str) -> bool:
     return bool(cells) and all(_csv_norm(c, decimal) is not None for c in cells)
 
 
+def _csv_head(line: str, limit: int = 2048) -> str:
+    """The start of a long line, cut after a separator so that no cell is split."""
+    if len(line) <= limit:
+        return line
+    head = line[:limit]
+    cut = max(head.rfind(c) for c in ";\t ,")
+    return head[:cut] if cut > 0 else head
+
+
 def _csv_detect(lines: list[str], nonblank: list[int]) -> tuple[str | None, str]:
     """Pick the (delimiter, decimal) that parses most of a sample of lines."""
     if len(nonblank) <= 3 * _CSV_SAMPLE:
@@ -78,7 +87,7 @@ def _csv_detect(lines: list[str], nonblank: list[int]) -> tuple[str | None, str]
             + nonblank[mid - _CSV_SAMPLE // 2 : mid + _CSV_SAMPLE // 2]
             + nonblank[-_CSV_SAMPLE:]
         )
-    sample = [lines[i] for i in sample_idx]
+    sample = [_csv_head(lines[i]) for i in sample_idx]
     best: tuple[int, int] = (-1, 0)
     choice: tuple[str | None, str] = (None, ".")
     for k, (delim, decimal) in enumerate(_CSV_CANDIDATES):
@@ -137,12 +146,13 @@ def read_csv(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
             "raise max_pixels if the matrix is genuine"
         )
     text = _csv_decode(name, _io_open_bytes(path))
-    lines = text.splitlines()
+    # line numbers as an editor counts them (\n, \r\n or \r; not the other Unicode breaks)
+    lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
     nonblank = [i for i, s in enumerate(lines) if s.strip()]
     if not nonblank:
         raise InputError(f"{name}: holds only blank lines; no matrix to read")
     delim, decimal = _csv_detect(lines, nonblank)
-    first = next((i for i in nonblank if _csv_is_row(lines[i], delim, decimal)), None)
+    first = next((i for i in nonblank if _csv_is_row(_csv_head(lines[i]), delim, decimal)), None)
     if first is None:
         raise InputError(
             f"{name}: no numeric row found (tried ; tab , and whitespace delimiters, decimal point and "
@@ -151,7 +161,10 @@ def read_csv(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
     for i in nonblank:
         if i >= first:
             break
-        other = next(((d, m) for d, m in _CSV_CANDIDATES if _csv_is_row(lines[i], d, m) and len(_csv_split(lines[i], d)) > 1), None)
+        head = _csv_head(lines[i])
+        other = next(
+            ((d, m) for d, m in _CSV_CANDIDATES if _csv_is_row(head, d, m) and len(_csv_split(head, d)) > 1), None
+        )
         if other is not None:
             raise InputError(
                 f"{name}: line {i + 1} is a row of numbers with a {_CSV_DELIM_NAMES[other[0]]} delimiter, but the "

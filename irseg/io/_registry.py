@@ -20,13 +20,21 @@ __all__: list[str] = []
 
 @dataclass(frozen=True)
 class _Reader:
-    """One built-in reader: its name, suffixes, signatures and read function."""
+    """One built-in reader: its name, suffixes, signatures and read function.
+
+    ``read(path, *, max_pixels)`` checks the header against the pixel budget before it
+    decodes anything and raises only InputError / UnsupportedFormatError.
+    """
 
     name: str
     suffixes: tuple[str, ...]
     magic: tuple[bytes, ...]
     read: Callable[..., RawFrame]
     description: str
+
+    def sniff(self, head: bytes) -> bool:
+        """True when the file's first bytes carry this format's signature."""
+        return any(head.startswith(m) for m in self.magic)
 
 
 _READERS: tuple[_Reader, ...] = (
@@ -75,7 +83,7 @@ def _reg_detect(path: str | os.PathLike[str]) -> _Reader:
     """Choose the reader: the file's signature wins over its suffix."""
     head = _io_open_bytes(path, limit=16)
     for reader in _READERS:
-        if any(head.startswith(m) for m in reader.magic):
+        if reader.sniff(head):
             return reader
     by_suffix = _reg_by_suffix(path)
     if by_suffix is not None:

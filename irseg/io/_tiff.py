@@ -37,11 +37,19 @@ def _tiff_tags(page: Any) -> dict[str, Any]:
         value = tag.value
         if isinstance(value, bytes):
             continue
-        if isinstance(value, (int, float, str)):
+        if isinstance(value, str):
+            out[str(tag.name)] = value[:2000]
+        elif isinstance(value, (int, float)):
             out[str(tag.name)] = value if not hasattr(value, "value") else int(value)
         elif isinstance(value, tuple) and len(value) <= 16 and all(isinstance(v, (int, float)) for v in value):
             out[str(tag.name)] = tuple(value)
     return out
+
+
+def _tiff_compression_name(exc: BaseException) -> str:
+    text = str(exc)
+    start = text.find("COMPRESSION.")
+    return text[start + 12 :].split(":")[0] if start >= 0 else "(unknown)"
 
 
 def read_tiff(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
@@ -126,6 +134,12 @@ def read_tiff(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
     except PermissionError:
         raise InputError(f"{name}: permission denied; make the file readable") from None
     except Exception as exc:  # noqa: BLE001 - any decoder failure is a corrupt file
+        if "imagecodecs" in str(exc):
+            raise UnsupportedFormatError(
+                f"{name}: TIFF compression {_tiff_compression_name(exc)} needs the optional 'imagecodecs' "
+                "package, which irseg does not install; re-export uncompressed or deflate (zlib), "
+                "or install imagecodecs"
+            ) from None
         raise _io_corrupt(name, "TIFF", exc) from None
     data = np.asarray(data)
     if data.size != m * n:

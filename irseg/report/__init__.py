@@ -91,10 +91,18 @@ def _is_number(value: Any) -> bool:
 
 
 def _num(value: Any, digits: int = 1) -> str:
-    """A number with ``digits`` decimals, thousands separated; "—" for null, NaN or non-numbers."""
+    """A number with ``digits`` decimals, thousands separated; "—" for null, NaN or non-numbers.
+
+    Small non-zero values that would print as zero keep two significant digits instead
+    (0.0034 m² prints as "0.0034", not "0.00").
+    """
     if not _is_number(value):
         return DASH
     v = float(value)
+    if v != 0 and abs(v) < 0.5 * 10.0**-digits:
+        small = min(8, 1 - math.floor(math.log10(abs(v))))
+        if round(v, small) != 0:
+            digits = small
     if round(v, digits) == 0:
         v = 0.0  # never print "-0.0"
     return f"{v:,.{digits}f}"

@@ -12,7 +12,7 @@ heat capacities ρc are typical handbook densities × specific heats [M].
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, replace
 from types import MappingProxyType
 
 import numpy as np
@@ -156,7 +156,6 @@ class Element:
     insulation: tuple[float, float] = (0.0, 0.0)  # z-range of the main insulation layer, m
     bays: tuple[tuple[float, float], ...] = ()  # clear spans between framing members, x ranges, m
     description: str = ""
-    extra: dict = field(default_factory=dict, compare=False)
 
     @property
     def shape(self) -> tuple[int, int, int]:
@@ -186,7 +185,8 @@ def _layer_z(layers: tuple[Layer, ...], index: int) -> tuple[float, float]:
 
 
 def _snap(v: float, cell: float) -> float:
-    return round(v / cell) * cell
+    """Nearest cell edge (halves round up, so equal widths stay equal)."""
+    return float(np.floor(v / cell + 0.5 + 1e-9)) * cell
 
 
 def timber_frame_wall(
@@ -216,7 +216,8 @@ def timber_frame_wall(
     framing, bays, studs = [], [], []
     x = first_stud_m
     while x - stud_width_m / 2 < width_m:
-        a, b = _snap(x - stud_width_m / 2, cell_m), _snap(x + stud_width_m / 2, cell_m)
+        a = _snap(x - stud_width_m / 2, cell_m)
+        b = a + max(1, round(stud_width_m / cell_m)) * cell_m
         studs.append((max(a, 0.0), min(b, width_m)))
         x += stud_spacing_m
     for a, b in studs:

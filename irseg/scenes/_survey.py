@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import json
 import os
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
@@ -291,6 +291,7 @@ def make_sample_survey(directory: str | os.PathLike[str], *, recipes: tuple[Imag
                "notes": "Synthetic truth from irseg.scenes; excess_w is the change in heat flow through the "
                         "viewed face, charged to each defect's footprint plus a 0.3 m rim."}
     write_truth_json(d / "truth.json", payload)
+    (d / "README.md").write_text(_readme(records), encoding="utf-8")
     import io
     import zipfile
 
@@ -307,14 +308,53 @@ def make_sample_survey(directory: str | os.PathLike[str], *, recipes: tuple[Imag
     return records
 
 
+_README_HEAD = """# Sample survey: the Larchfield test house (invented)
+
+Synthetic thermograms of an invented building, made by irseg's physics scene maker. The
+Larchfield test house is a two-storey timber-frame house (plasterboard, mineral wool between
+softwood studs, OSB sheathing, ventilated cladding) with a rear extension of 215 mm solid brick
+with 100 mm external EPS and render, under a warm flat roof (concrete deck, EPS boards, bitumen
+membrane). The survey was "taken" on a winter night: inside 20 °C, outside about 1 °C; the roof
+images at 22:00 after a clear sunny day. No real place, person or product is depicted.
+
+Remake these files (byte-identical, seeded) with
+
+    irseg scene sample sample_images        # or: python -m irseg.scenes sample_images
+
+Run the analysis on them with
+
+    irseg segment sample_images -o survey_out    # then open survey_out/report.html
+
+`survey.toml` holds the survey-wide defaults; each `<image>.toml` sidecar gives that image's
+camera geometry, encoding (scale/offset/units, export emissivity), surface and air data.
+`truth.json` is the simulated truth for every image; `truth_masks.npz` holds one boolean
+array (defects × rows × columns) of camera-grid footprints per image stem.
+
+Truth definitions: *area* = defect footprint within the view (m²); *excess W* = change of
+the heat flow through the viewed face caused by the defects, charged to the footprint plus a
+0.3 m rim; *reference* = the no-defect surface temperature averaged over the footprint;
+*ΔT* = mean surface temperature over the footprint minus the reference. These are the figures
+the analysis estimates from the image; like the analysis, they are *estimates* of a model,
+and real findings must be confirmed on site under local codes and licensed practice.
+
+| image | format | view | defect | cause | area m² | excess W | reference °C | ΔT K |
+|---|---|---|---|---|---|---|---|---|
+"""
+
+
+def _readme(records: list[dict]) -> str:
+    rows = []
+    for r in records:
+        for d in r["defects"]:
+            rows.append(f"| {r['image']} | {r['format']} | {r['view']} | {d['description']} | {d['cause']} | "
+                        f"{d['area_m2']:.3f} | {d['excess_w']:.1f} | {d['reference_c']:.2f} | {d['delta_k']:+.2f} |")
+    titles = "\n".join(f"- `{r['image']}`: {r['title']}." for r in records)
+    return _README_HEAD + "\n".join(rows) + "\n\nImages:\n\n" + titles + "\n"
+
+
 def write_truth_json(path: str | os.PathLike[str], record: dict) -> Path:
     """Write a truth record as sorted, indented JSON (keys starting with ``_`` are left out)."""
     clean = {k: v for k, v in record.items() if not k.startswith("_")}
     p = Path(path)
     p.write_text(json.dumps(clean, indent=1, sort_keys=True) + "\n", encoding="utf-8")
     return p
-
-
-def replace_recipe(recipe: ImageRecipe, **changes) -> ImageRecipe:
-    """A copy of a recipe with some fields changed."""
-    return replace(recipe, **changes)

@@ -34,8 +34,9 @@ TARGETS = {"iou_min": 0.85, "area_rel": 0.10, "excess_rel": 0.15, "reference_abs
 _CHECKED_CAUSES = ("missing_insulation", "moisture")
 
 VALIDATION_RECIPES: tuple[ImageRecipe, ...] = (
-    ImageRecipe("val1_timber600_bay", "timber wall, studs 600 mm, empty bay, 21/-3 °C", "timber-wall",
-                {"defects": ("bay:2",), "inside_c": 21.0, "outside_c": -3.0, "wind_m_s": 2.0},
+    ImageRecipe("val1_timber600_bay", "timber wall, studs 600 mm, empty bay, timber header, 21/-3 °C",
+                "timber-wall", {"defects": ("bay:2",), "lintel": (1.53, 2.4, 0.27, 0.195), "inside_c": 21.0,
+                                "outside_c": -3.0, "wind_m_s": 2.0},
                 CameraModel(hfov_deg=45.0, distance_m=2.6, centre_m=(1.2, 0.9), seed=201, dead_pixels=2),
                 "tiff-float"),
     ImageRecipe("val2_timber400_settled", "timber wall, studs 400 mm, settled fill + lower half-bay empty",
@@ -46,8 +47,9 @@ VALIDATION_RECIPES: tuple[ImageRecipe, ...] = (
     ImageRecipe("val3_ceiling_patch", "ceiling below a loft, insulation displaced", "ceiling",
                 {"patch": (0.6, 1.2, 0.5, 1.25), "inside_c": 21.0, "outside_c": -1.0},
                 CameraModel(hfov_deg=45.0, distance_m=2.4, centre_m=(1.2, 0.9), seed=203), "npy"),
-    ImageRecipe("val4_masonry_slab_patch", "brick + EPS wall from outside: slab edge and missing boards",
-                "masonry-wall", {"slab_y": 1.0, "patch": (2.2, 3.2, 1.6, 2.4), "inside_c": 21.0,
+    ImageRecipe("val4_masonry_slab_patch", "brick + EPS wall from outside: slab edge, lintel, missing boards",
+                "masonry-wall", {"slab_y": 1.0, "patch": (2.2, 3.2, 1.6, 2.4), "lintel": (0.5, 1.8, 0.4, 0.2),
+                                 "inside_c": 21.0,
                                  "outside_c": -2.0, "wind_m_s": 1.0},
                 CameraModel(hfov_deg=45.0, distance_m=4.4, centre_m=(2.0, 1.5), seed=204), "tiff-u16",
                 scale=0.01, offset=-50.0),
@@ -93,6 +95,8 @@ def validate_recipe(recipe: ImageRecipe, directory: str | os.PathLike[str]) -> d
     masks = rec["_masks"]
     names = [t.name for t in rec["_scene"].truth]
     rows = []
+    scene_pred = np.zeros(labels.shape, bool)
+    scene_true = np.zeros(labels.shape, bool)
     for d in rec["defects"]:
         fp = masks[names.index(d["name"])]
         ids = _match(labels, fp)
@@ -103,10 +107,13 @@ def validate_recipe(recipe: ImageRecipe, directory: str | os.PathLike[str]) -> d
         area = sum(a.area_m2 for a in found) if found and all(a.area_m2 is not None for a in found) else None
         excess = sum(a.excess_w for a in found) if found and all(a.excess_w is not None for a in found) else None
         ref = (sum(a.reference_c * a.area_px for a in found) / sum(a.area_px for a in found)) if found else None
+        if d["cause"] in _CHECKED_CAUSES:
+            scene_pred |= sel
+            scene_true |= fp
         rows.append({
             "name": d["name"], "cause": d["cause"], "checked": d["cause"] in _CHECKED_CAUSES,
             "true_area_m2": d["area_m2"], "true_excess_w": d["excess_w"], "true_reference_c": d["reference_c"],
-            "true_delta_k": d["delta_k"], "anomalies": ids, "causes": sorted({a.cause for a in found}),
+            "true_delta_k": d["delta_k"], "true_excess_footprint_w": d["excess_footprint_w"], "anomalies": ids, "causes": sorted({a.cause for a in found}),
             "iou": iou, "area_m2": area, "excess_w": excess, "reference_c": ref,
             "area_rel": _rel(area, d["area_m2"]), "excess_rel": _rel(excess, d["excess_w"]),
             "reference_err_k": None if ref is None else ref - d["reference_c"],
@@ -123,6 +130,7 @@ def validate_recipe(recipe: ImageRecipe, directory: str | os.PathLike[str]) -> d
         "h_w_m2k_truth": rec["simulation"]["h_view_w_m2k"], "h_w_m2k_analysis": an.h_w_m2k,
         "seconds": {"simulate": t1 - t0, "pipeline": t2 - t1},
         "defects": rows, "false_missing": false_missing,
+        "scene_iou": float((scene_pred & scene_true).sum() / max(int((scene_pred | scene_true).sum()), 1)),
         "anomalies": [{"id": a.anomaly, "cause": a.cause, "area_m2": a.area_m2, "excess_w": a.excess_w,
                        "delta_k": a.delta_k} for a in an.anomalies],
     }

@@ -26,9 +26,15 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import cv2
 import numpy as np
 
-from ._operators import Workspace, apply_weighted_laplacian, pcg, weighted_laplacian_diagonal
+from ._operators import (
+    Workspace,
+    apply_screened_laplacian,
+    apply_weighted_laplacian,
+    pcg,
+)
 
 __all__ = ["LevelResult", "solve_level", "energy", "restrict", "prolong"]
 
@@ -61,7 +67,7 @@ def energy(
     u: np.ndarray,
     v: np.ndarray,
     g: np.ndarray,
-    w: np.ndarray,
+    w: np.ndarray | None,
     *,
     alpha: float,
     beta: float,
@@ -84,7 +90,8 @@ def energy(
     """
     u64 = u.astype(np.float64)
     v64 = v.astype(np.float64)
-    data = beta * float(np.sum(w * (u64 - g) ** 2))
+    r2 = (u64 - g) ** 2
+    data = beta * float(np.sum(r2 if w is None else w * r2))
     c = v64 * v64 + eta
     smooth = float(np.sum(c[:, :-1] * np.diff(u64, axis=1) ** 2)) + float(
         np.sum(c[:-1, :] * np.diff(u64, axis=0) ** 2)
@@ -100,7 +107,7 @@ def _sum64(x: np.ndarray) -> float:
 
 def solve_level(
     g: np.ndarray,
-    w: np.ndarray,
+    w: np.ndarray | None,
     u: np.ndarray,
     v: np.ndarray,
     *,
@@ -121,8 +128,9 @@ def solve_level(
     ----------
     g : (M, N) float32 ndarray
         Data (finite everywhere; masked values are ignored through ``w``).
-    w : (M, N) float32 ndarray
+    w : (M, N) float32 ndarray or None
         Data weight in [0, 1]; 0 marks a pixel without data, where ``v`` is held at 1.
+        None: every pixel has weight 1 (saves two full-size arrays).
     u, v : (M, N) float32 ndarray
         Starting fields, updated in place.
     alpha, beta, epsilon, eta : float
@@ -146,12 +154,15 @@ def solve_level(
     dtype = g.dtype
     shape = g.shape
     ws = Workspace.for_shape(shape, dtype)
-    bw = (beta * w).astype(dtype)
+    if w is None:
+        bw: np.ndarray | np.floating = np.float32(beta)
+        free = None
+    else:
+        bw = (beta * w).astype(dtype)
+        free_v = w > 0
+        v[~free_v] = 1.0
+        free = None if bool(free_v.all()) else free_v.astype(dtype)
     rhs_u = bw * g
-    free_v = w > 0
-    all_free = bool(free_v.all())
-    v[~free_v] = 1.0
-    free = None if all_free else free_v.astype(dtype)
     cx = np.empty((shape[0], shape[1] - 1), dtype)
     cy = np.empty((shape[0] - 1, shape[1]), dtype)
     grad2 = np.empty(shape, dtype)
@@ -162,16 +173,13 @@ def solve_level(
     v_old = np.empty(shape, dtype) if (not record_energy and v_tol > 0) else None
     k_pot = np.float32(alpha / (4.0 * epsilon))
     k_lap = np.float32(alpha * epsilon)
-    rhs_v = np.full(shape, k_pot, dtype)
     eta32 = np.float32(eta)
-    # the v-operator's Laplacian part has constant weight; its diagonal is fixed
-    lap_diag = weighted_laplacian_diagonal(k_lap, k_lap, 0.0, shape, dtype)
 
     def apply_u(x: np.ndarray, out: np.ndarray) -> np.ndarray:
         return apply_weighted_laplacian(x, cx, cy, bw, out, ws)
 
     def apply_v(x: np.ndarray, out: np.ndarray) -> np.ndarray:
-        return apply_weighted_laplacian(x, k_lap, k_lap, diag_v, out, ws)
+        return apply_screened_laplacian(x, float(k_lap), diag_v, out, ws)
 
     energies: list[float] = []
     prev = np.inf
@@ -195,13 +203,18 @@ def solve_level(
         # v-step
         _gradient_sq(u, grad2, ws)
         np.add(grad2, k_pot, out=diag_v)
-        np.add(lap_diag, diag_v, out=inv_v)
+        # diagonal of alpha eps L: 4 alpha eps inside, one neighbour less per border side
+        np.add(diag_v, 4.0 * k_lap, out=inv_v)
+        inv_v[0, :] -= k_lap
+        inv_v[-1, :] -= k_lap
+        inv_v[:, 0] -= k_lap
+        inv_v[:, -1] -= k_lap
         np.reciprocal(inv_v, out=inv_v)
         if free is not None:
             inv_v *= free
         if v_old is not None:
             v_old[...] = v
-        n_v, _ = pcg(apply_v, rhs_v, v, inv_v, ws, rtol=cg_rtol, max_iter=cg_max_iter, free=free)
+        n_v, _ = pcg(apply_v, k_pot, v, inv_v, ws, rtol=cg_rtol, max_iter=cg_max_iter, free=free)
         np.clip(v, 0.0, 1.0, out=v)
         cg_total += n_u + n_v
         if record_energy:
@@ -211,14 +224,15 @@ def solve_level(
             scratch *= bw
             data = _sum64(scratch)
             np.square(v, out=scratch)
+            sum_v2 = _sum64(scratch)
             scratch += eta32
             scratch *= grad2
             smooth = _sum64(scratch)
-            _gradient_sq(v, scratch, ws)
+            # sum |Dv|^2 = v . (L v) with the Neumann graph Laplacian; (1-v)^2 expanded
+            apply_screened_laplacian(v, 1.0, 0.0, scratch, ws)
+            scratch *= v
             grad_v = _sum64(scratch)
-            np.subtract(1.0, v, out=scratch)
-            np.square(scratch, out=scratch)
-            pot = _sum64(scratch)
+            pot = float(v.size) - 2.0 * _sum64(v) + sum_v2
             e = data + smooth + alpha * (epsilon * grad_v + pot / (4.0 * epsilon))
             energies.append(e)
             if tol > 0 and np.isfinite(prev) and (prev - e) <= tol * max(abs(e), 1e-30):
@@ -234,15 +248,17 @@ def solve_level(
     return LevelResult(u, v, energies, it, converged, cg_total)
 
 
-def restrict(
-    g: np.ndarray, w: np.ndarray
-) -> tuple[np.ndarray, np.ndarray]:
+def restrict(g: np.ndarray, w: np.ndarray | None) -> tuple[np.ndarray, np.ndarray | None]:
     """2 x 2 weighted block mean of data ``g`` and data weight ``w`` (odd sizes padded by replication)."""
     m, n = g.shape
     pm, pn = m % 2, n % 2
     if pm or pn:
         g = np.pad(g, ((0, pm), (0, pn)), mode="edge")
-        w = np.pad(w, ((0, pm), (0, pn)), mode="edge")
+        if w is not None:
+            w = np.pad(w, ((0, pm), (0, pn)), mode="edge")
+    if w is None:
+        gm = (g[0::2, 0::2] + g[1::2, 0::2] + g[0::2, 1::2] + g[1::2, 1::2]) * np.float32(0.25)
+        return gm.astype(g.dtype, copy=False), None
     gw = g * w
     sw = w[0::2, 0::2] + w[1::2, 0::2] + w[0::2, 1::2] + w[1::2, 1::2]
     sg = gw[0::2, 0::2] + gw[1::2, 0::2] + gw[0::2, 1::2] + gw[1::2, 1::2]
@@ -252,6 +268,11 @@ def restrict(
 
 
 def prolong(x: np.ndarray, shape: tuple[int, int]) -> np.ndarray:
-    """Nearest-neighbour 2 x upsampling cropped to ``shape`` (a warm start only)."""
-    up = np.repeat(np.repeat(x, 2, axis=0), 2, axis=1)
+    """Bilinear 2 x upsampling to ``shape`` (a warm start only).
+
+    Coarse pixel ``I`` covers fine pixels ``2I`` and ``2I + 1``; OpenCV's half-pixel
+    centred linear resize matches that geometry. Odd fine sizes were padded by one
+    row/column before restriction, so the upsampled grid is cropped.
+    """
+    up = cv2.resize(x, (2 * x.shape[1], 2 * x.shape[0]), interpolation=cv2.INTER_LINEAR)
     return np.ascontiguousarray(up[: shape[0], : shape[1]])

@@ -17,11 +17,14 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Callable
 
+import cv2
 import numpy as np
+from scipy.linalg import blas
 
 __all__ = [
     "Workspace",
     "apply_weighted_laplacian",
+    "apply_screened_laplacian",
     "weighted_laplacian_diagonal",
     "pcg",
 ]
@@ -37,7 +40,8 @@ class Workspace:
     z: np.ndarray  # (M, N) preconditioned residual
     p: np.ndarray  # (M, N) search direction
     ap: np.ndarray  # (M, N) operator times p
-    tmp: np.ndarray  # (M, N)
+    tmp: np.ndarray  # (M, N) scratch of pcg
+    op: np.ndarray  # (M, N) scratch of the operators (shares memory with tmp)
 
     @classmethod
     def for_shape(cls, shape: tuple[int, int], dtype: np.dtype) -> Workspace:
@@ -49,7 +53,8 @@ class Workspace:
             z=np.empty(shape, dtype),
             p=np.empty(shape, dtype),
             ap=np.empty(shape, dtype),
-            tmp=np.empty(shape, dtype),
+            tmp=(tmp := np.empty(shape, dtype)),
+            op=tmp,  # pcg's scratch is free whenever an operator runs
         )
 
 
@@ -95,6 +100,25 @@ def apply_weighted_laplacian(
     return out
 
 
+_LAPLACE_5 = np.array([[0.0, -1.0, 0.0], [-1.0, 4.0, -1.0], [0.0, -1.0, 0.0]])
+
+
+def apply_screened_laplacian(
+    x: np.ndarray, weight: float, diag: np.ndarray, out: np.ndarray, ws: Workspace
+) -> np.ndarray:
+    """``out = diag * x + weight * L x`` with ``L`` the unit-weight graph Laplacian (Neumann).
+
+    Same operator as :func:`apply_weighted_laplacian` with constant ``cx = cy = weight``,
+    computed by OpenCV's 5-point filter: replicating the border row/column makes the
+    difference across the border zero, which is exactly the Neumann graph Laplacian.
+    """
+    kernel = (_LAPLACE_5 * weight).astype(x.dtype)
+    cv2.filter2D(x, -1, kernel, dst=out, borderType=cv2.BORDER_REPLICATE)
+    np.multiply(x, diag, out=ws.op)
+    out += ws.op
+    return out
+
+
 def weighted_laplacian_diagonal(
     cx: np.ndarray | float,
     cy: np.ndarray | float,
@@ -115,14 +139,24 @@ def weighted_laplacian_diagonal(
 
 
 def _dot(a: np.ndarray, b: np.ndarray) -> float:
-    # float32 inputs, float64 result: np.vdot on contiguous float32 uses BLAS sdot;
-    # the caller pins BLAS to one thread (threadpoolctl) around the solver loop.
-    return float(np.vdot(a, b))
+    # float32 BLAS sdot on flat views; the caller pins BLAS to one thread
+    # (threadpoolctl) around the solver loop.
+    return float(blas.sdot(a, b)) if a.dtype == np.float32 else float(np.vdot(a, b))
+
+
+def _axpy(a: float, x: np.ndarray, y: np.ndarray) -> None:
+    """``y += a * x`` in place on flat contiguous views."""
+    if y.dtype == np.float32 and x.dtype == np.float32:
+        out = blas.saxpy(x, y, a=a)
+        if out.ctypes.data != y.ctypes.data:  # f2py copied (never for contiguous float32)
+            y[...] = out
+    else:
+        y += a * x
 
 
 def pcg(
     apply: Callable[[np.ndarray, np.ndarray], np.ndarray],
-    b: np.ndarray,
+    b: np.ndarray | float,
     x: np.ndarray,
     inv_diag: np.ndarray,
     ws: Workspace,
@@ -140,9 +174,9 @@ def pcg(
     ----------
     apply : callable ``(x, out) -> out``
         The SPD operator.
-    b : (M, N) ndarray
-        Right-hand side.
-    x : (M, N) ndarray
+    b : (M, N) ndarray or float
+        Right-hand side (a scalar: the same value everywhere).
+    x : (M, N) ndarray, C-contiguous
         Initial guess, overwritten by the solution.
     inv_diag : (M, N) ndarray
         Inverse of the operator's diagonal (zero on fixed entries).
@@ -152,8 +186,8 @@ def pcg(
         Stop when the preconditioned residual norm falls below ``rtol`` times that of ``b``.
     max_iter : int
         Iteration cap.
-    free : (M, N) bool ndarray, optional
-        Entries that are unknowns; the others keep their value in ``x`` (Dirichlet data).
+    free : (M, N) ndarray, optional
+        1 on unknowns, 0 on entries that keep their value in ``x`` (Dirichlet data).
 
     Returns
     -------
@@ -161,16 +195,18 @@ def pcg(
     relative_residual : float
     """
     r, z, p, ap = ws.r, ws.z, ws.p, ws.ap
+    rf, zf, pf, apf, xf = r.ravel(), z.ravel(), p.ravel(), ap.ravel(), x.ravel()
     apply(x, r)
     np.subtract(b, r, out=r)
     if free is not None:
         r *= free
     np.multiply(r, inv_diag, out=z)
-    rz = _dot(r, z)
-    np.multiply(b, inv_diag, out=ws.tmp)
-    if free is not None:
-        ws.tmp *= free
-    bnorm = np.sqrt(max(_dot(b, ws.tmp), 0.0))
+    rz = _dot(rf, zf)
+    if np.ndim(b) == 0:
+        bnorm = np.sqrt(max(float(b) ** 2 * float(np.sum(inv_diag, dtype=np.float64)), 0.0))
+    else:
+        np.multiply(b, inv_diag, out=ws.tmp)
+        bnorm = np.sqrt(max(_dot(b.ravel(), ws.tmp.ravel()), 0.0))
     if bnorm == 0.0:
         bnorm = 1.0
     target = (rtol * bnorm) ** 2
@@ -183,16 +219,14 @@ def pcg(
         apply(p, ap)
         if free is not None:
             ap *= free
-        pap = _dot(p, ap)
+        pap = _dot(pf, apf)
         if not pap > 0.0:
             break
         step = rz / pap
-        np.multiply(p, step, out=ws.tmp)
-        x += ws.tmp
-        np.multiply(ap, step, out=ws.tmp)
-        r -= ws.tmp
+        _axpy(step, pf, xf)
+        _axpy(-step, apf, rf)
         np.multiply(r, inv_diag, out=z)
-        rz_new = _dot(r, z)
+        rz_new = _dot(rf, zf)
         if rz_new <= target:
             rz = rz_new
             break

@@ -25,11 +25,20 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["SegmentParams", "derive_params", "STEP_MARGIN", "NOISE_FACTOR", "EDGE_THRESHOLD"]
+__all__ = [
+    "SegmentParams",
+    "derive_params",
+    "STEP_MARGIN",
+    "NOISE_FACTOR",
+    "EDGE_THRESHOLD",
+    "WEAK_EDGE_THRESHOLD",
+]
 
 STEP_MARGIN = 0.6  # h* = STEP_MARGIN * min_step_k (calibrated, see docs/method.md)
 NOISE_FACTOR = 2.0  # h* >= NOISE_FACTOR * noise_k (calibrated on white noise, see docs/method.md)
-EDGE_THRESHOLD = 0.5  # jump set: v < EDGE_THRESHOLD
+CORRELATED_GAIN = 0.5  # up to +50 % on NOISE_FACTOR for noise correlated between pixels
+EDGE_THRESHOLD = 0.5  # jump set: v < EDGE_THRESHOLD ...
+WEAK_EDGE_THRESHOLD = 0.8  # ... plus v < WEAK_EDGE_THRESHOLD connected to it (hysteresis)
 EPSILON_PER_FEATURE = 0.25  # epsilon = max(1 px, min_feature_px / 4)
 
 
@@ -43,6 +52,10 @@ class SegmentParams:
         Noise standard deviation, image units (estimated when not given).
     noise_estimated : bool
         True when ``noise_k`` was estimated from the image.
+    noise_correlation : float
+        Ratio of the 3-pixel to the 1-pixel noise estimate (1 for white noise; 1.0 when
+        ``noise_k`` was given). Correlated noise forms blobs that look like small steps,
+        so the noise floor of the step threshold rises with it, by up to 50 %.
     min_step_k : float
         Requested smallest step that should make an edge, image units.
     min_feature_px : float
@@ -56,8 +69,9 @@ class SegmentParams:
         Weights of the functional on the full-resolution grid (pixel units):
         edge weight (image units² per pixel of jump length), data weight
         (per pixel²), phase-field width (pixels) and the residual stiffness on the jump set.
-    edge_threshold : float
-        The jump set is ``v < edge_threshold``.
+    edge_threshold, weak_edge_threshold : float
+        The jump set is ``v < edge_threshold`` plus the ``v < weak_edge_threshold``
+        pixels connected to it (hysteresis).
     levels : int
         Grids used (1 = full resolution only; each further level halves the size).
     max_num_iter : int
@@ -68,6 +82,7 @@ class SegmentParams:
 
     noise_k: float
     noise_estimated: bool
+    noise_correlation: float
     min_step_k: float
     min_feature_px: float
     jump_threshold_k: float
@@ -77,6 +92,7 @@ class SegmentParams:
     epsilon: float
     eta: float
     edge_threshold: float
+    weak_edge_threshold: float
     levels: int
     max_num_iter: int
     tol: float
@@ -89,6 +105,7 @@ def derive_params(
     min_step_k: float,
     min_feature_px: float,
     value_range_k: float,
+    noise_correlation: float = 1.0,
     levels: int,
     max_num_iter: int,
     tol: float,
@@ -105,6 +122,8 @@ def derive_params(
         Smallest feature, pixels.
     value_range_k : float
         Robust range of the image (used for ``eta``).
+    noise_correlation : float
+        See :class:`SegmentParams`.
     levels, max_num_iter, tol
         Solver settings, recorded as given.
 
@@ -114,13 +133,15 @@ def derive_params(
     """
     ell = max(1.0, min_feature_px / 2.0)
     beta = 1.0 / (ell * ell)
-    h_star = max(STEP_MARGIN * min_step_k, NOISE_FACTOR * noise_k)
+    corr_gain = 1.0 + CORRELATED_GAIN * min(1.0, max(0.0, (noise_correlation - 1.0) / 2.0))
+    h_star = max(STEP_MARGIN * min_step_k, NOISE_FACTOR * corr_gain * noise_k)
     alpha = 0.5 * h_star * h_star * math.sqrt(beta)
     span = max(float(value_range_k), h_star)
     eta = float(min(1e-3, 0.01 * alpha / (span * span)))
     return SegmentParams(
         noise_k=float(noise_k),
         noise_estimated=bool(noise_estimated),
+        noise_correlation=float(noise_correlation),
         min_step_k=float(min_step_k),
         min_feature_px=float(min_feature_px),
         jump_threshold_k=float(h_star),
@@ -130,6 +151,7 @@ def derive_params(
         epsilon=max(1.0, EPSILON_PER_FEATURE * min_feature_px),
         eta=eta,
         edge_threshold=EDGE_THRESHOLD,
+        weak_edge_threshold=WEAK_EDGE_THRESHOLD,
         levels=int(levels),
         max_num_iter=int(max_num_iter),
         tol=float(tol),

@@ -1,6 +1,9 @@
 """Regions from an Ambrosio–Tortorelli edge field.
 
-1. The jump set is ``v < threshold`` on valid pixels.
+1. The jump set is ``v < threshold`` on valid pixels, extended by hysteresis
+   (as in Canny 1986) to the valley pixels of ``v < weak_threshold`` connected to
+   it: a contour whose phase field dips only to 0.6 at one noisy spot is still
+   closed, while isolated shallow dips from noise are ignored.
 2. Regions are the 4-connected components of the remaining pixels. The
    discretisation gives every difference to the pixel at its start, so a jump
    between two 4-neighbours always marks one of them: removing the jump set
@@ -38,81 +41,81 @@ def _region_means(u: np.ndarray, labels: np.ndarray, n: int) -> tuple[np.ndarray
     return means, counts
 
 
-_SHIFTS = ((-1, 0), (1, 0), (0, -1), (0, 1))
-
-
-def _neighbour_values(
-    rows: np.ndarray, cols: np.ndarray, shape: tuple[int, int], dr: int, dc: int
-) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
-    rr = rows + dr
-    cc = cols + dc
-    inside = (rr >= 0) & (rr < shape[0]) & (cc >= 0) & (cc < shape[1])
-    return inside, np.where(inside, rr, 0), np.where(inside, cc, 0)
-
-
-def _assign_unlabelled(u: np.ndarray, labels: np.ndarray, todo: np.ndarray, *, sweeps: int = 4) -> None:
+def _assign_unlabelled(u: np.ndarray, labels: np.ndarray, todo: np.ndarray, *, max_sweeps: int = 4) -> None:
     """Give the ``todo`` pixels (jump pixels) a neighbouring label, in place.
 
-    Every region pixel carries a reference value: its own ``u`` on the region's
-    core, the reference of the neighbour it was grown from on jump pixels. Rings
-    of jump pixels are grown from the cores choosing the neighbour whose reference
-    is closest to the pixel's ``u``; then a few relaxation sweeps let a jump pixel
-    switch to a neighbour's region when that region's reference fits it better.
-    Using local references rather than region means keeps the split right on
-    regions with a temperature gradient.
+    Every labelled pixel carries a reference value: its own ``u`` on a region's core,
+    the reference of the neighbour it took its label from on jump pixels. The cores
+    grow into the band ring by ring, each pixel taking the 4-neighbour whose reference
+    is closest to its own ``u``; then a few sweeps let a jump pixel switch to a
+    neighbouring region whose reference fits it better, so the split follows the
+    jump of ``u`` where two fronts meet. Local references (rather than region means)
+    keep the split right on regions with a temperature gradient.
     """
-    shape = labels.shape
-    u64 = u.astype(np.float64)
-    ref = np.where(labels > 0, u64, np.nan)
-    band_r, band_c = np.nonzero(todo)
-    if band_r.size == 0:
+    m, n = labels.shape
+    band = np.flatnonzero(todo)
+    if band.size == 0:
         return
-    pending = np.ones(band_r.size, dtype=bool)
-    while pending.any():
-        rows, cols = band_r[pending], band_c[pending]
-        best_lab = np.zeros(rows.size, dtype=labels.dtype)
-        best_ref = np.zeros(rows.size)
-        best_cost = np.full(rows.size, np.inf)
-        uu = u64[rows, cols]
-        for dr, dc in _SHIFTS:
-            inside, rr, cc = _neighbour_values(rows, cols, shape, dr, dc)
-            lab = np.where(inside, labels[rr, cc], 0)
-            r_nb = ref[rr, cc]
-            cost = np.where(lab > 0, np.abs(uu - r_nb), np.inf)
-            better = cost < best_cost
-            best_cost[better] = cost[better]
-            best_lab[better] = lab[better]
-            best_ref[better] = r_nb[better]
-        got = best_lab > 0
+    lab_flat = labels.reshape(-1)
+    sentinel = m * n  # index of an extra "no label" cell
+    lab_ext = np.concatenate([lab_flat, np.zeros(1, lab_flat.dtype)])
+    u_flat = u.reshape(-1).astype(np.float64)
+    ref_ext = np.concatenate([np.where(lab_flat > 0, u_flat, 0.0), np.zeros(1)])
+    row, col = np.divmod(band, n)
+    nb = np.stack(
+        [
+            np.where(row > 0, band - n, sentinel),
+            np.where(row < m - 1, band + n, sentinel),
+            np.where(col > 0, band - 1, sentinel),
+            np.where(col < n - 1, band + 1, sentinel),
+        ]
+    )
+    uu = u_flat[band]
+
+    def best_of(nbs: np.ndarray, uvals: np.ndarray, exclude: np.ndarray | None):
+        best_lab = np.zeros(uvals.size, lab_ext.dtype)
+        best_ref = np.zeros(uvals.size)
+        best_cost = np.full(uvals.size, np.inf)
+        for d in range(4):
+            lab = lab_ext[nbs[d]]
+            ref = ref_ext[nbs[d]]
+            cost = np.abs(ref - uvals)
+            ok = lab > 0 if exclude is None else (lab > 0) & (lab != exclude)
+            better = ok & (cost < best_cost)
+            best_cost = np.where(better, cost, best_cost)
+            best_lab = np.where(better, lab, best_lab)
+            best_ref = np.where(better, ref, best_ref)
+        return best_lab, best_ref, best_cost
+
+    # rings: unlabelled pixels next to labelled ones take the best-fitting neighbour
+    pending = np.arange(band.size)
+    while pending.size:
+        bl, br, _ = best_of(nb[:, pending], uu[pending], None)
+        got = bl > 0
         if not got.any():
             break
-        labels[rows[got], cols[got]] = best_lab[got]
-        ref[rows[got], cols[got]] = best_ref[got]
-        idx = np.flatnonzero(pending)
-        pending[idx[got]] = False
-    done = ~pending
-    rows, cols = band_r[done], band_c[done]
-    uu = u64[rows, cols]
-    for _ in range(sweeps):
-        own_lab = labels[rows, cols]
-        best_lab = own_lab.copy()
-        best_ref = ref[rows, cols]
-        best_cost = np.abs(uu - best_ref)
-        for dr, dc in _SHIFTS:
-            inside, rr, cc = _neighbour_values(rows, cols, shape, dr, dc)
-            lab = np.where(inside, labels[rr, cc], 0)
-            r_nb = ref[rr, cc]
-            cost = np.where((lab > 0) & (lab != own_lab), np.abs(uu - r_nb), np.inf)
-            better = cost < best_cost
-            best_cost[better] = cost[better]
-            best_lab[better] = lab[better]
-            best_ref[better] = r_nb[better]
-        changed = best_lab != own_lab
-        if not changed.any():
+        idx = band[pending[got]]
+        lab_ext[idx] = bl[got]
+        ref_ext[idx] = br[got]
+        pending = pending[~got]
+    # sweeps: a jump pixel switches to a neighbouring region whose reference fits it better
+    done = np.setdiff1d(np.arange(band.size), pending, assume_unique=True)
+    nb_d, u_d, idx_d = nb[:, done], uu[done], band[done]
+    for sweep in range(max_sweeps):
+        own = lab_ext[idx_d]
+        own_cost = np.abs(ref_ext[idx_d] - u_d)
+        bl, br, bc = best_of(nb_d, u_d, own)
+        switch = bc < own_cost
+        if not switch.any():
             break
-        labels[rows[changed], cols[changed]] = best_lab[changed]
-        ref[rows[changed], cols[changed]] = best_ref[changed]
-    todo[rows, cols] = False
+        lab_ext[idx_d[switch]] = bl[switch]
+        ref_ext[idx_d[switch]] = br[switch]
+        if sweep == 0:
+            # later sweeps only revisit pixels on a front between two regions
+            front = np.isfinite(bc)
+            nb_d, u_d, idx_d = nb_d[:, front], u_d[front], idx_d[front]
+    lab_flat[band] = lab_ext[band]
+    todo.reshape(-1)[band[lab_ext[band] > 0]] = False
 
 
 def _adjacent_pairs(labels: np.ndarray, involved: np.ndarray) -> np.ndarray:
@@ -185,12 +188,51 @@ def _merge_thin(u: np.ndarray, labels: np.ndarray, n: int, side: int) -> np.ndar
     return np.array([find(i) for i in range(n + 1)])
 
 
+_VALLEY_CURVATURE = 0.06  # second difference of v marking the bottom of a valley (calibrated, docs)
+
+
+def _valley(v: np.ndarray) -> np.ndarray:
+    """Bottom of a valley of ``v``: second difference >= 0.06 along one of the 4 grid directions.
+
+    The phase field around a jump is ``1 - exp(-d / 2 eps)``: concave on the flanks and
+    sharply convex only at the bottom, so this picks the centre line of a band (also
+    where it is too shallow to pass ``threshold``), not its flanks or a plateau.
+    """
+    p = np.pad(v, 1, mode="edge")
+    c2 = 2.0 * p[1:-1, 1:-1]
+    m, n = v.shape
+    out = np.zeros(v.shape, dtype=bool)
+    for (a0, a1), (b0, b1) in (((1, 0), (1, 2)), ((0, 1), (2, 1)), ((0, 0), (2, 2)), ((0, 2), (2, 0))):
+        out |= (p[a0 : a0 + m, a1 : a1 + n] + p[b0 : b0 + m, b1 : b1 + n] - c2) >= _VALLEY_CURVATURE
+    return out
+
+
+def _hysteresis(v: np.ndarray, valid: np.ndarray, strong: float, weak: float) -> np.ndarray:
+    """Jump set: ``v < strong``, plus valley pixels of ``v < weak`` 8-connected to it.
+
+    The valley condition keeps the added pixels on the ridge line of the phase field
+    (a gap in a contour), not on the flanks of the band or inside narrow features.
+    """
+    core = (v < strong) & valid
+    if weak <= strong:
+        return core
+    cand = ((v < weak) & valid & _valley(v)) | core
+    lab, n = ndi.label(cand, structure=np.ones((3, 3), bool))
+    if n == 0:
+        return core
+    keep = np.zeros(n + 1, dtype=bool)
+    keep[lab[core]] = True
+    keep[0] = False
+    return keep[lab]
+
+
 def extract_regions(
     u: np.ndarray,
     v: np.ndarray,
     mask: np.ndarray | None,
     *,
     threshold: float,
+    weak_threshold: float,
     min_feature_px: float,
 ) -> tuple[np.ndarray, np.ndarray, int]:
     """Jump set and region labels from the AT fields.
@@ -203,8 +245,8 @@ def extract_regions(
         Edge field in [0, 1].
     mask : (M, N) bool ndarray or None
         True on invalid pixels.
-    threshold : float
-        Jump set is ``v < threshold``.
+    threshold, weak_threshold : float
+        Jump set: pixels with ``v < weak_threshold`` connected to one with ``v < threshold``.
     min_feature_px : float
         Regions narrower than this (pixels) are merged into a neighbour.
 
@@ -216,7 +258,7 @@ def extract_regions(
     n_regions : int
     """
     valid = np.ones(u.shape, dtype=bool) if mask is None else ~mask
-    edges = (v < threshold) & valid
+    edges = _hysteresis(v, valid, threshold, weak_threshold)
     if mask is not None and mask.any():
         thick = ndi.binary_opening(mask, structure=np.ones((3, 3), bool))
         connector = mask & ~thick

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from conftest import make_frame, make_meta, make_seg
+from analysis_fakes import make_frame, make_meta, make_seg
 from scipy import ndimage
 
 from irseg.analysis import CAUSES, analyse
@@ -181,3 +181,60 @@ def test_expected_sign_compact_area_is_missing_insulation_from_either_side(view)
     (a,) = _run(t, d, surface={"view": view}, air={"inside_c": 20.0, "outside_c": 2.0, "wind_m_s": 1.0}).anomalies
     assert a.cause == "missing_insulation", a.reason
     assert a.kind == ("cold" if view == "interior" else "warm")
+
+
+def test_stud_interrupted_by_a_defect_stays_a_thermal_bridge():
+    # the empty bay crosses one member: the short pieces above and below lie on its line
+    t, d = _wall()
+    _studs(t, d, cols=range(20, 240, 40), width=8)
+    t[20:100, 96:140] = 18.5 - 3.0
+    d[20:100, 96:140] = 2
+    res = _run(t, d)
+    assert _at(res, 60, 120).cause == "missing_insulation"
+    # the pieces of the member at columns 100-107 above and below the bay are one anomaly
+    top, bottom = _at(res, 10, 103), _at(res, 110, 103)
+    assert top is bottom
+    assert top.area_px == 2 * 20 * 8 and top.cause == "thermal_bridge" and "2 pieces" in top.reason
+    assert (top.bbox_row0, top.bbox_row1) == (0, 120)
+    assert {a.cause for a in res.anomalies if a.area_px == 120 * 8} == {"thermal_bridge"}
+    assert len(res.anomalies) == 7  # six members and the bay
+
+
+def test_lone_member_on_a_stratified_wall_is_still_a_uniform_band():
+    # 2 K of stratification along the member must not read as a fading streak
+    rows = np.mgrid[0:120, 0:240][0]
+    t = 17.5 + 2.0 * rows / 120
+    d = np.zeros(t.shape, int)
+    t[:, 100:110] -= 0.8
+    d[:, 100:110] = 1
+    (a,) = _run(t, d).anomalies
+    assert a.cause == "thermal_bridge", a.reason
+
+
+def test_fragmented_members_are_merged_into_one_anomaly_each():
+    # a segmentation that breaks each member into pieces: one anomaly per member, heat summed
+    t, d = _wall()
+    _studs(t, d, cols=(40, 100, 160), width=8, delta=-1.0)
+    labels = d.copy()
+    for k, gap_row in enumerate((30, 60, 90)):  # cut every member at three rows (1 px of "background" label)
+        labels[gap_row, :] = np.where(d[gap_row, :] == 1, 0, labels[gap_row, :])
+    res = _run(t, labels)
+    assert len(res.anomalies) == 3
+    for a in res.anomalies:
+        assert a.cause == "thermal_bridge" and "4 pieces" in a.reason
+        assert a.area_px == (120 - 3) * 8
+    single = _run(t, d)
+    for merged, whole in zip(res.anomalies, single.anomalies):
+        assert merged.excess_w == pytest.approx(whole.excess_w, rel=0.03)
+
+
+def test_empty_bays_side_by_side_are_not_a_framing_set():
+    # three elongated empty bays at regular spacing, no geometry: wide against their spacing,
+    # so not members (studs are 45-100 mm at 400-600 mm centres [CP])
+    t, d = _wall()
+    for k, c in enumerate((20, 90, 160), start=1):
+        t[10:110, c:c + 38] -= 3.0
+        d[10:110, c:c + 38] = k
+    res = _run(t, d, camera={"pixel_m": None, "hfov_deg": None, "distance_m": None})
+    assert len(res.anomalies) == 3
+    assert {a.cause for a in res.anomalies} == {"missing_insulation"}

@@ -6,7 +6,7 @@ import dataclasses
 
 import numpy as np
 import pytest
-from conftest import make_frame, make_meta, make_seg
+from analysis_fakes import make_frame, make_meta, make_seg
 
 from irseg.analysis import analyse, severity_key
 
@@ -53,6 +53,14 @@ def test_wind_above_limit_warns_for_exterior_views():
     assert any("wind_m_s not given" in w for w in unknown.warnings)
     # h_ce = 4 + 4v: stronger wind, more heat for the same contrast (ISO 6946 annex)
     assert res.anomalies[0].excess_w > calm.anomalies[0].excess_w
+
+
+def test_roof_without_sky_temperature_warns():
+    t, seg = _scene()
+    res = _analyse(t, seg, surface={"view": "roof", "reflected_c": None})
+    assert any("reflected_c not given for a roof" in w for w in res.warnings)
+    ok = _analyse(t, seg, surface={"view": "roof", "reflected_c": -15.0})
+    assert not any("reflected_c" in w for w in ok.warnings)
 
 
 def test_missing_geometry_gives_pixel_areas_and_a_warning():

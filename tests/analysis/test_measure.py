@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from conftest import make_frame, make_meta, make_seg
+from analysis_fakes import make_frame, make_meta, make_seg
 from scipy import ndimage
 
 from irseg.analysis import analyse
@@ -152,3 +152,35 @@ def test_f_rsi_uses_the_coldest_robust_value():
     (a,) = analyse(make_frame(t, meta), make_seg(d, u=t)).anomalies
     assert a.f_rsi == pytest.approx((12.0 - 0.0) / 20.0, abs=1e-9)
     assert a.mould_risk is True  # 0.60 < 0.70 (DIN 4108-2)
+
+
+def _soft_bay(shape=(100, 160), cols=(0, 60), sound=19.3, bay=15.8, blur=4.0):
+    t = np.full(shape, sound)
+    t[:, cols[0]:cols[1]] = bay
+    return ndimage.gaussian_filter(t, blur, mode="nearest")
+
+
+def test_bay_at_the_image_edge_keeps_its_reference():
+    # one-sided ring (the bay touches three image edges) on the soft rim of lateral conduction:
+    # the reference must not extrapolate a slope into the bay nor sit in the rim
+    t = _soft_bay(blur=7.0)
+    d = (t < (19.3 + 15.8) / 2).astype(int)
+    res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), make_seg(d, u=t))
+    (a,) = res.anomalies
+    assert a.reference_c == pytest.approx(19.3, abs=0.05)
+    total = res.h_w_m2k * float((19.3 - t).sum()) * 1e-4
+    assert a.excess_w == pytest.approx(total, rel=0.03)
+
+
+def test_sound_strip_pulled_by_a_neighbours_rim_is_not_an_anomaly():
+    # the segmentation splits the sound wall at column 24; the strip 24..(bay) holds part of the bay's rim
+    t = _soft_bay(cols=(40, 100), blur=4.0)
+    d = np.zeros(t.shape, int)
+    d[t < (19.3 + 15.8) / 2] = 1
+    strip = np.zeros(t.shape, bool)
+    strip[:, 24:40] = True
+    strip &= d == 0
+    d[strip] = 2
+    assert 19.3 - float(t[strip].mean()) > 0.25  # its mean alone would pass the 0.25 K threshold
+    res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), make_seg(d, u=t))
+    assert len(res.anomalies) == 1 and res.anomalies[0].area_px == int((d == 1).sum())

@@ -194,3 +194,12 @@ def test_overrides_any_value(value):
             check_overrides({sec: {keys[0]: value}})
         except MetadataError as exc:
             assert str(exc).startswith("command line: ")
+
+
+@SETTINGS
+@given(blob=st.binary(max_size=1024), fmt=st.sampled_from(["csv", "npy", "png", "tiff"]))
+def test_forced_reader_on_arbitrary_bytes(folder, blob, fmt):
+    # format= bypasses detection: each reader alone must still refuse garbage with its own errors
+    path = folder / "forced.bin"
+    path.write_bytes(blob)
+    _check(path, format=fmt)

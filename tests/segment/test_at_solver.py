@@ -20,7 +20,7 @@ from skimage.segmentation import chan_vese
 
 from irseg.errors import ConvergenceWarning
 from irseg.segment import Segmentation, segment
-from irseg.segment._at import solve_level
+from irseg.segment._at import energy, solve_level
 
 
 def _edge_length(v: np.ndarray, eps: float) -> float:
@@ -145,6 +145,10 @@ def test_energy_monotone_on_one_grid_at_fixed_epsilon(rng: np.random.Generator) 
     assert e.size == 15
     assert np.all(np.diff(e) <= 1e-6 * e[:-1])
     assert np.all(res.v[w == 0] == 1.0)
+    # the solver's in-loop energy (Laplacian form, float32 products) equals the direct
+    # float64 evaluation of the discrete functional with np.diff differences
+    direct = sum(energy(res.u, res.v, g.astype(np.float64), w, alpha=0.05, beta=0.25, epsilon=1.0, eta=1e-4))
+    assert e[-1] == pytest.approx(direct, rel=1e-5)
 
 
 def test_touching_regions_stay_apart(rng: np.random.Generator) -> None:

@@ -1,4 +1,4 @@
-"""Helpers for the analysis tests: controlled label maps instead of a real segmentation.
+"""Fakes for the analysis tests (a uniquely named module, not a conftest): controlled label maps instead of a real segmentation.
 
 The analysis relies only on ``u``, ``edges``, ``labels`` and ``params.noise_k``
 of a segmentation, so the tests build those directly and check the analysis
@@ -10,7 +10,6 @@ from __future__ import annotations
 from dataclasses import dataclass, replace
 
 import numpy as np
-import pytest
 from scipy import ndimage
 
 from irseg.types import Air, AnalysisSettings, Camera, SurveyMeta, Surface, ThermalFrame
@@ -60,7 +59,7 @@ def make_seg(defects: np.ndarray, *, u: np.ndarray, noise_k: float | None = 0.05
 
 
 def make_meta(**sections) -> SurveyMeta:
-    """SurveyMeta with a geometry (640 px wide, 45°, 3 m -> 3.88 mm... scaled by the image width)."""
+    """SurveyMeta for an interior wall (45°, 3 m), 20 °C inside, 0 °C outside; override section by section."""
     base = SurveyMeta(
         camera=Camera(hfov_deg=45.0, distance_m=3.0),
         surface=Surface(emissivity=0.93, view="interior"),
@@ -76,8 +75,3 @@ def make_meta(**sections) -> SurveyMeta:
 def make_frame(t: np.ndarray, meta: SurveyMeta, mask: np.ndarray | None = None) -> ThermalFrame:
     mask = np.zeros(t.shape, bool) if mask is None else mask
     return ThermalFrame(path="synthetic.npy", temperature_c=t, mask=mask, apparent_c=t, meta=meta)
-
-
-@pytest.fixture
-def rng() -> np.random.Generator:
-    return np.random.default_rng(20261201)

@@ -1,0 +1,30 @@
+"""End to end with the real Ambrosio–Tortorelli segmentation (skipped until it exists)."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from analysis_fakes import make_frame, make_meta
+
+from irseg.analysis import analyse
+
+segment_mod = pytest.importorskip("irseg.segment")
+
+
+def test_framed_wall_with_an_empty_bay(rng):
+    # 100 mm members at 400 mm centres [CP], 2 K/height stratification, one empty bay (ASTM C1060 signature)
+    m, n = 120, 240
+    rows = np.mgrid[0:m, 0:n][0]
+    t = 18.5 + 1.0 * rows / m
+    for c in range(20, 240, 40):
+        t[:, c:c + 10] -= 0.8
+    t[20:100, 110:140] -= 3.0
+    t = t + rng.normal(0.0, 0.05, t.shape)
+    seg = segment_mod.segment(t)
+    res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), seg)
+    causes = [a.cause for a in res.anomalies]
+    assert causes.count("missing_insulation") == 1
+    assert causes.count("thermal_bridge") >= 5
+    bay = next(a for a in res.anomalies if a.cause == "missing_insulation")
+    assert bay.delta_k == pytest.approx(-3.0, abs=0.25)
+    assert bay.area_px == pytest.approx(80 * 30, rel=0.1)

@@ -1,0 +1,24 @@
+"""Smoke run of benchmarks/fuzz_readers.py: a few hundred generated inputs, none may escape irseg's errors."""
+
+from __future__ import annotations
+
+import importlib.util
+from pathlib import Path
+
+import pytest
+
+SCRIPT = Path(__file__).resolve().parents[2] / "benchmarks" / "fuzz_readers.py"
+
+
+@pytest.mark.skipif(not SCRIPT.is_file(), reason="benchmarks/ not present in this checkout")
+def test_fuzz_script_small_run(capsys):
+    spec = importlib.util.spec_from_file_location("fuzz_readers", SCRIPT)
+    module = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(module)
+    status = module.main(["--n", "60", "--seed", "5"])
+    out = capsys.readouterr().out
+    assert status == 0, out
+    assert "unexpected exceptions: 0" in out
+    for reader in ("tiff", "png", "npy", "csv"):
+        line = next(s for s in out.splitlines() if s.startswith(reader))
+        assert int(line.split()[1]) == 60

@@ -1,0 +1,88 @@
+"""Every export format, with its TOML metadata, reads back to the simulated temperatures."""
+
+from __future__ import annotations
+
+import tomllib
+
+import numpy as np
+import pytest
+
+from irseg.errors import ConfigError
+from irseg.io import read_thermogram
+from irseg.metadata import load_metadata
+from irseg.radiometry import calibrate
+from irseg.scenes import (
+    CameraModel,
+    Conditions,
+    encode_values,
+    missing_bay,
+    shoot,
+    simulate_scene,
+    timber_frame_wall,
+    toml_text,
+    write_image,
+    write_toml,
+)
+
+
+@pytest.fixture(scope="module")
+def shot():
+    el = timber_frame_wall(width_m=1.2, height_m=0.9, cell_m=0.03)
+    sc = simulate_scene(el, (missing_bay(el, 1),), Conditions(outside_exposure="ventilated"), view="interior")
+    cam = CameraModel(n_cols=64, n_rows=48, hfov_deg=45.0, distance_m=1.2, psf_sigma_px=0.0, netd_k=0.0,
+                      column_sigma_k=0.0, shading=0.0)
+    return sc, shoot(sc, cam)
+
+
+CASES = [
+    # fmt, units, scale, offset, delimiter, decimal, export_emissivity, tolerance K (quantisation step / 2 + margin)
+    ("tiff-float", "celsius", 1.0, 0.0, ",", ".", 1.0, 1e-4),
+    ("tiff-u16", "kelvin", 0.01, 0.0, ",", ".", 1.0, 0.006),
+    ("png16", "celsius", 0.01, -50.0, ",", ".", 1.0, 0.006),
+    ("csv", "celsius", 1.0, 0.0, ";", ",", 1.0, 0.006),
+    ("csv", "celsius", 1.0, 0.0, ",", ".", 0.95, 0.006),
+    ("npy", "kelvin", 1.0, 0.0, ",", ".", 1.0, 1e-3),
+]
+
+
+@pytest.mark.parametrize(("fmt", "units", "scale", "offset", "delim", "dec", "e_exp", "tol"), CASES)
+def test_round_trip_through_readers_and_calibration(tmp_path, shot, fmt, units, scale, offset, delim, dec, e_exp,
+                                                    tol):
+    sc, sh = shot
+    vals = encode_values(sh.apparent_c, units=units, export_emissivity=e_exp, export_reflected_c=20.0)
+    path = write_image(tmp_path, "img", vals, fmt=fmt, scale=scale, offset=offset, delimiter=delim, decimal=dec)
+    camera = {"hfov_deg": 45.0, "distance_m": 1.2, "units": units}
+    if fmt in ("tiff-u16", "png16"):
+        camera.update(scale=scale, offset=offset)
+    if e_exp != 1.0:
+        camera.update(export_emissivity=e_exp, export_reflected_c=20.0)
+    write_toml(tmp_path / "img.toml", {
+        "camera": camera,
+        "surface": {"emissivity": sc.conditions.emissivity, "reflected_c": sh.reflected_c, "view": "interior"},
+        "air": {"inside_c": 20.0, "outside_c": 0.0, "wind_m_s": 1.0},
+    })
+    raw = read_thermogram(path)
+    frame = calibrate(raw, load_metadata(path))
+    # the calibrated surface temperature is the simulated one (noise and blur were off)
+    assert np.abs(frame.temperature_c - sh.object_c).max() < tol + 1e-3
+
+
+def test_integer_range_overflow_is_refused(tmp_path):
+    with pytest.raises(ConfigError, match="16 bits"):
+        write_image(tmp_path, "x", np.full((4, 4), 80.0), fmt="png16", scale=0.001, offset=0.0)
+    with pytest.raises(ConfigError, match="decimal"):
+        write_image(tmp_path, "x", np.full((4, 4), 20.0), fmt="csv", delimiter=",", decimal=",")
+
+
+def test_toml_text_parses_and_skips_none():
+    text = toml_text({"camera": {"band_um": (7.5, 14.0), "scale": 0.01, "units": "kelvin", "x": None},
+                      "surface": {"view": 'say "roof"'}, "empty": {"a": None}}, header="two\nlines")
+    data = tomllib.loads(text)
+    assert data == {"camera": {"band_um": [7.5, 14.0], "scale": 0.01, "units": "kelvin"},
+                    "surface": {"view": 'say "roof"'}}
+    assert text.startswith("# two\n# lines\n")
+
+
+def test_csv_with_decimal_comma_layout(tmp_path):
+    p = write_image(tmp_path, "c", np.array([[1.234, -2.5], [3.0, 4.0]]), fmt="csv", delimiter=";", decimal=",")
+    assert p.read_text() == "1,23;-2,50\n3,00;4,00\n"

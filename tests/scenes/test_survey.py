@@ -1,0 +1,76 @@
+"""Sample survey recipes: determinism, valid metadata, the bundled copy is what the code makes."""
+
+from __future__ import annotations
+
+import json
+import warnings
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+
+from irseg.cli.scene import scene_cmd
+from irseg.metadata import load_metadata
+from irseg.scenes import SAMPLE_RECIPES, export_image, make_sample_survey
+
+BUNDLED = Path(__file__).resolve().parents[2] / "sample_images"
+
+
+def _small_recipe():
+    (r,) = [r for r in SAMPLE_RECIPES if r.fmt == "csv" and r.decimal == ","]
+    return r
+
+
+def test_export_is_deterministic_and_matches_bundled_copy(tmp_path):
+    r = _small_recipe()
+    a = export_image(r, tmp_path / "a")
+    b = export_image(r, tmp_path / "b")
+    for name in (a["image"], f"{r.stem}.toml"):
+        assert (tmp_path / "a" / name).read_bytes() == (tmp_path / "b" / name).read_bytes()
+        assert (tmp_path / "a" / name).read_bytes() == (BUNDLED / name).read_bytes()
+    truth = json.loads((BUNDLED / "truth.json").read_text())
+    (rec,) = [i for i in truth["images"] if i["image"] == a["image"]]
+    assert rec["defects"] == a["defects"]
+
+
+def test_sidecars_load_without_warnings():
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        for r in SAMPLE_RECIPES:
+            img = next(p for p in BUNDLED.iterdir() if p.stem == r.stem and p.suffix != ".toml")
+            meta = load_metadata(img)
+            assert meta.surface.view in ("interior", "exterior", "roof")
+            assert meta.air.inside_c is not None and meta.camera.distance_m == r.camera.distance_m
+
+
+def test_sample_survey_is_mixed_and_small():
+    files = [p for p in BUNDLED.iterdir() if p.suffix in (".tif", ".tiff", ".png", ".csv", ".npy")]
+    assert 6 <= len(files) <= 10
+    assert {p.suffix for p in files} >= {".tiff", ".tif", ".png", ".csv", ".npy"}
+    assert sum(p.stat().st_size for p in BUNDLED.iterdir()) < 5_000_000
+    truth = json.loads((BUNDLED / "truth.json").read_text())
+    views = {i["view"] for i in truth["images"]}
+    assert views == {"interior", "exterior", "roof"}
+    causes = {d["cause"] for i in truth["images"] for d in i["defects"]}
+    assert causes == {"missing_insulation", "thermal_bridge", "moisture"}
+
+
+def test_cli_make_writes_image_sidecar_and_truth(tmp_path):
+    res = CliRunner().invoke(scene_cmd, ["make", "ceiling", str(tmp_path), "--size", "160", "120",
+                                         "--format", "png16", "--seed", "3"])
+    assert res.exit_code == 0, res.output
+    assert {p.name for p in tmp_path.iterdir()} == {"ceiling.png", "ceiling.toml", "ceiling.truth.json"}
+    rec = json.loads((tmp_path / "ceiling.truth.json").read_text())
+    assert rec["defects"] and rec["defects"][0]["excess_w"] > 0
+    bad = CliRunner().invoke(scene_cmd, ["make", "igloo", str(tmp_path)])
+    assert bad.exit_code == 2
+
+
+@pytest.mark.slow
+def test_whole_sample_survey_remakes_byte_identical(tmp_path):
+    make_sample_survey(tmp_path)
+    made = sorted(p.name for p in tmp_path.iterdir())
+    bundled = sorted(p.name for p in BUNDLED.iterdir())
+    assert made == bundled
+    for name in made:
+        assert (tmp_path / name).read_bytes() == (BUNDLED / name).read_bytes(), name
