@@ -22,7 +22,7 @@ import warnings
 from pathlib import Path
 
 from irseg import __version__
-from irseg.scenes._validation import TARGETS, VALIDATION_RECIPES, passes, validate_recipe, with_seed
+from irseg.scenes._validation import TARGETS, VALIDATION_RECIPES, passes, validate_recipe, validate_sample, with_seed
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -154,12 +154,20 @@ against ISO 6946 U-values and surface temperatures in `tests/scenes/test_conduct
     path.write_text(text, encoding="utf-8")
 
 
-def solver_benchmark(repeats: int = 3) -> list[tuple[str, float, float]]:
+def _print_table(rows: list[list[str]]) -> None:
+    widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(_HEAD)]
+    print("  ".join(h.ljust(w) for h, w in zip(_HEAD, widths)))
+    for r in rows:
+        print("  ".join(c.ljust(w) for c, w in zip(r, widths)))
+
+
+def solver_benchmark(repeats: int = 3, *, with_lu: bool = False) -> list[tuple[str, float, float]]:
     """Median seconds to solve one steady timber-wall scene (14×120×160 cells) by three solvers.
 
-    Peers, measured in the same run: scipy's sparse LU (``spsolve``) and scipy's conjugate
-    gradients with a diagonal (Jacobi) preconditioner, both on the same assembled matrix and
-    to the same relative residual (1e-10) as the project's multigrid-preconditioned CG.
+    Peers, measured in the same run: scipy's conjugate gradients with a diagonal (Jacobi)
+    preconditioner and, with ``with_lu``, scipy's sparse LU (``spsolve``, minutes on this
+    grid; timed once), on the same assembled matrix and to the same relative residual
+    (1e-10) as the project's multigrid-preconditioned CG.
     """
     import numpy as np
     import scipy.sparse as sp
@@ -189,11 +197,13 @@ def solver_benchmark(repeats: int = 3) -> list[tuple[str, float, float]]:
         return statistics.median(times), float(np.abs(a @ x.ravel() - b).max() / np.abs(b).max())
 
     mg = timed(lambda: solve_steady(op, rhs)[0])
-    lu = timed(lambda: spsolve(a.tocsc(), b))
     jac = sp.diags(1.0 / a.diagonal())
     pcg = timed(lambda: cg(a, b, x0=x0, rtol=1e-10, maxiter=20000, M=jac)[0])
-    return [("multigrid-preconditioned CG (irseg.scenes)", *mg), ("scipy spsolve (SuperLU)", *lu),
-            ("scipy cg + Jacobi preconditioner", *pcg)]
+    out = [("multigrid-preconditioned CG (irseg.scenes)", *mg), ("scipy cg + Jacobi preconditioner", *pcg)]
+    if with_lu:
+        repeats = 1
+        out.append(("scipy spsolve (SuperLU)", *timed(lambda: spsolve(a.tocsc(), b))))
+    return out
 
 
 def main(argv: list[str] | None = None) -> int:
@@ -201,9 +211,18 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--seeds", type=int, default=1, help="camera-noise seeds per scene")
     ap.add_argument("--doc", type=Path, default=ROOT / "docs" / "validation.md")
     ap.add_argument("--solver", action="store_true", help="only time the conduction solver against scipy peers")
+    ap.add_argument("--with-lu", action="store_true", help="with --solver: also time scipy spsolve (slow)")
+    ap.add_argument("--sample", type=Path, default=None,
+                    help="compare the pipeline with the truth of a sample-survey folder (no doc written)")
     args = ap.parse_args(argv)
+    if args.sample is not None:
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore")
+            results = validate_sample(args.sample)
+        _print_table(_rows(results))
+        return 0
     if args.solver:
-        res = solver_benchmark()
+        res = solver_benchmark(with_lu=args.with_lu)
         base = res[0][1]
         for name, sec, resid in res:
             print(f"{name:45s} median {sec:7.3f} s  ratio {sec / base:6.1f}  max rel. residual {resid:.1e}")
@@ -217,11 +236,7 @@ def main(argv: list[str] | None = None) -> int:
                 results.append(validate_recipe(with_seed(r, r.camera.seed + 1000 * k), tmp))
                 print(f"done {r.stem} seed {r.camera.seed + 1000 * k}", file=sys.stderr)
     seconds = time.perf_counter() - t0
-    rows = _rows(results)
-    widths = [max(len(h), *(len(r[i]) for r in rows)) for i, h in enumerate(_HEAD)]
-    print("  ".join(h.ljust(w) for h, w in zip(_HEAD, widths)))
-    for r in rows:
-        print("  ".join(c.ljust(w) for c, w in zip(r, widths)))
+    _print_table(_rows(results))
     pipe = [r["seconds"]["pipeline"] for r in results]
     sim = [r["seconds"]["simulate"] for r in results]
     print(f"median seconds per scene: simulate {statistics.median(sim):.2f}, pipeline {statistics.median(pipe):.2f}")

@@ -10,7 +10,7 @@ from scipy import ndimage
 
 from ..errors import ConfigError
 from ..types import ThermalFrame
-from ._classify import Shape, classify_cause, find_regular_sets, shape_features
+from ._classify import Shape, classify_cause, find_lines, find_regular_sets, shape_features
 from ._conditions import check_conditions
 from ._confidence import BandInputs, confidence_bands
 from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
@@ -27,6 +27,7 @@ RIM_FRACTION = 0.3  # the soft rim is searched out to 0.3·√area ...
 MAX_RIM_PX = 30.0  # ... but not beyond 30 px
 RING_SIGMA_FACTOR = 2.0  # contrast must also exceed this many ring spreads
 FRSI_PERCENTILE = 5.0
+HALF_CONTRAST = 0.5  # the measured extent ends where the contrast falls to half its core value
 
 
 @dataclass
@@ -165,6 +166,10 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
     shapes = {m.cand.label: m.shape for m in measured}
     kinds = {m.cand.label: m.kind for m in measured}
     sets = find_regular_sets(shapes, kinds, pixel_m=footprint)
+    lines_found = find_lines(
+        shapes, kinds, {m.cand.label: m.cand.delta_k for m in measured}, pixel_m=footprint, exclude=set(sets),
+        bboxes={m.cand.label: m.bbox for m in measured},
+    )
     dt_air = None
     if air.inside_c is not None and air.outside_c is not None and air.inside_c - air.outside_c > 0:
         dt_air = float(air.inside_c - air.outside_c)
@@ -174,7 +179,7 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
     lines: dict[tuple[int, int], list[_Measured]] = {}
     units: list[list[_Measured]] = []
     for m in measured:
-        info = sets.get(m.cand.label)
+        info = sets.get(m.cand.label) or lines_found.get(m.cand.label)
         if info is None:
             units.append([m])
         else:
@@ -187,21 +192,26 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
     for i, unit in enumerate(units, start=1):
         main = max(unit, key=lambda m: (m.shape.area_px, -m.cand.label))
         kind, s = main.kind, main.shape
-        for m in unit:
-            out_labels[m.cand.crop][m.cand.region] = i
-        vals = np.concatenate([t[m.cand.crop][m.cand.region] for m in unit])
-        area_px = int(sum(m.shape.area_px for m in unit))
+        prow = np.concatenate([m.cand.rr[m.inside] + m.cand.r0 for m in unit])
+        pcol = np.concatenate([m.cand.cc[m.inside] + m.cand.c0 for m in unit])
+        out_labels[prow, pcol] = i
+        vals = t[prow, pcol]
+        refs = np.concatenate([
+            m.cand.ref.plane.evaluate(m.cand.rr[m.inside] + float(m.cand.r0), m.cand.cc[m.inside] + float(m.cand.c0))
+            for m in unit
+        ])
+        area_px = int(vals.size)
         mean_c = float(vals.mean())
-        reference_c = float(sum(m.cand.reference_c * m.shape.area_px for m in unit) / area_px)
+        reference_c = float(refs.mean())
         delta_k = mean_c - reference_c
         loss_sum = float(sum(m.loss_sum_kpx for m in unit))
-        centroid_row = float(sum(m.shape.centroid_row * m.shape.area_px for m in unit) / area_px)
-        centroid_col = float(sum(m.shape.centroid_col * m.shape.area_px for m in unit) / area_px)
-        bbox = (min(m.bbox[0] for m in unit), min(m.bbox[1] for m in unit),
-                max(m.bbox[2] for m in unit), max(m.bbox[3] for m in unit))
+        centroid_row = float(prow.mean())
+        centroid_col = float(pcol.mean())
+        bbox = (int(prow.min()), int(pcol.min()), int(prow.max()) + 1, int(pcol.max()) + 1)
         cause, reason = classify_cause(
             s, kind=kind, view=view, delta_k=delta_k, mean_c=mean_c, threshold_k=thr, pixel_m=footprint,
             regular_set=sets.get(main.cand.label), delta_air_k=dt_air, sky_limit_c=sky_limit_c,
+            line=lines_found.get(main.cand.label),
         )
         if len(unit) > 1:
             reason += f" ({len(unit)} pieces of one member, interrupted by other anomalies or the segmentation)"
@@ -311,6 +321,7 @@ class _Measured:
     bbox: tuple[int, int, int, int]
     loss_sum_kpx: float
     n_footprint: int
+    inside: np.ndarray  # region pixels (in c.rr, c.cc order) inside the half-contrast edge
 
 
 def _measure_candidate(
@@ -351,4 +362,13 @@ def _measure_candidate(
         delta_k=c.delta_k, noise_k=noise_k, row_offset=c.r0 + tr0, col_offset=c.c0 + tc0,
     )
     bbox = (c.r0 + rb[0], c.c0 + cb[0], c.r0 + rb[-1] + 1, c.c0 + cb[-1] + 1)
-    return _Measured(c, "cold" if c.delta_k < 0 else "warm", shape, bbox, loss_sum, int(rr_in.size + keep.sum()))
+    # the measured extent: region pixels whose smooth contrast holds at least half the core contrast
+    # (the half-maximum edge of a blurred step); the jump band a segmentation adds to a region is outside
+    contrast_u = u[c.crop][rr_in, cc_in] - in_ref
+    sgn = 1.0 if c.delta_k >= 0 else -1.0
+    inside = sgn * contrast_u >= HALF_CONTRAST * abs(float(np.median(contrast_u))) * (1.0 - 1e-9)
+    if int(inside.sum()) < MIN_SPOT_PX:
+        inside = np.ones(rr_in.size, bool)
+    return _Measured(
+        c, "cold" if c.delta_k < 0 else "warm", shape, bbox, loss_sum, int(rr_in.size + keep.sum()), inside
+    )

@@ -14,12 +14,16 @@ import cv2
 import numpy as np
 from scipy import ndimage
 
-__all__ = ["Shape", "CAUSES", "shape_features", "find_regular_sets", "classify_cause"]
+__all__ = ["Shape", "CAUSES", "shape_features", "find_regular_sets", "find_lines", "classify_cause"]
 
 CAUSES = ("missing_insulation", "thermal_bridge", "air_leakage", "moisture", "unclassified")
 
 BAND_ELONGATION = 5.0  # length/width of a "long narrow band"
 SET_ELONGATION = 2.5  # a shorter band still counts when it belongs to a regular parallel set
+WEAK_BAND_ELONGATION = 3.0  # ... or when its contrast is weak (a timber header, not an empty cavity)
+LINE_MIN_ELONGATION = 2.0  # a piece needs this to give a line its direction
+LINE_GAP_WIDTHS = 3.0  # pieces of one line are at most this many widths apart (plus 4 px)
+SMALL_SPOT_M = 0.10  # a compact spot smaller than this across is not judged as missing insulation
 BAND_FILL = 0.5  # area / minimum-area rectangle of a straight band (segmented outlines are ragged)
 WIDTH_RATIO = 2.0  # members of a set differ in mean width by at most this factor
 BAND_MAX_WIDTH_M = 0.35  # wider bands are not framing members, lintels or slab edges
@@ -29,7 +33,7 @@ STREAKY_SOLIDITY = 0.70
 STREAKY_FILL = 0.60
 FAN_TAPER = 2.0  # a wedge (fan) has 5× more pixels in its wide third than in its apex third
 STREAK_ELONGATION = 3.0  # an elongated pattern is a streak unless it is a uniform band
-SHARP_TRANSITION_PX = 4.0  # a step edge measures ~2 px with central differences
+SHARP_TRANSITION_PX = 6.0  # a step edge measures ~2 px with central differences, optics and linings add 2-3 px
 NONUNIFORM = 0.35  # interior spread / |contrast| of a decaying (fan) pattern
 PARTIAL_FRACTION = 0.10  # |contrast| / (T_i − T_e) below which a void is partial-depth
 PARALLEL_DEG = 10.0
@@ -230,6 +234,95 @@ def find_regular_sets(
     return found
 
 
+def find_lines(
+    shapes: dict[int, Shape], kinds: dict[int, str], deltas: dict[int, float], *, pixel_m: float | None,
+    exclude: set[int] | frozenset[int] = frozenset(), bboxes: dict[int, tuple[int, int, int, int]] | None = None,
+) -> dict[int, tuple[int, float, tuple[int, int]]]:
+    """Pieces of one straight band broken up by the segmentation (a stud cut into fragments).
+
+    A piece of elongation >= 2 gives a direction; pieces of the same sign whose
+    centre lies on that line (within half its width), whose extent across the
+    line is at most twice its width, and that follow one another with gaps of at
+    most 3 widths + 4 px form a line; a longer gap is bridged when other anomalies'
+    bounding boxes (``bboxes``: row0, col0, row1, col1) cover at least 80 % of it (a
+    stud running behind a header). A line
+    of at least two pieces spanning at least 5 widths, whose pieces have similar
+    contrasts (spread <= 0.35 × the mean), is a band.
+
+    Returns
+    -------
+    dict
+        key -> (pieces in the line, span / width, (-1, line number)).
+    """
+    pieces = [
+        k for k, s in shapes.items()
+        if k not in exclude and s.rect_fill >= 0.4 and (pixel_m is None or s.width_px * pixel_m <= BAND_MAX_WIDTH_M)
+    ]
+    pieces.sort(key=lambda k: (-shapes[k].length_px, k))
+    found: dict[int, tuple[int, float, tuple[int, int]]] = {}
+    n_lines = 0
+    for k in pieces:
+        sk = shapes[k]
+        if k in found or sk.elongation < LINE_MIN_ELONGATION:
+            continue
+        th = math.radians(sk.orientation_deg)
+        cos_t, sin_t = math.cos(th), math.sin(th)
+        w = sk.width_px
+        off_k = -sin_t * sk.centroid_col + cos_t * sk.centroid_row
+        spans = []
+        for j in pieces:
+            sj = shapes[j]
+            if j in found or kinds[j] != kinds[k]:
+                continue
+            # extents of the piece across and along the line (a small fragment's own axis is noise)
+            tilt = math.radians(_angle_diff(sj.orientation_deg, sk.orientation_deg))
+            across = sj.length_px * math.sin(tilt) + sj.width_px * math.cos(tilt)
+            length = sj.length_px * math.cos(tilt) + sj.width_px * math.sin(tilt)
+            if across > WIDTH_RATIO * w:
+                continue
+            if abs(-sin_t * sj.centroid_col + cos_t * sj.centroid_row - off_k) > max(0.5 * w, 1.5):
+                continue
+            along = cos_t * sj.centroid_col + sin_t * sj.centroid_row
+            spans.append((along - 0.5 * length, along + 0.5 * length, j))
+        spans.sort()
+        # the chain of pieces through k, allowing small gaps
+        tol = LINE_GAP_WIDTHS * w + 4.0
+        members = {j for _, _, j in spans}
+
+        def covered(a: float, b: float) -> bool:
+            if bboxes is None or b <= a:
+                return False
+            pos = np.arange(a, b, 2.0)
+            rows = sin_t * pos + cos_t * off_k
+            cols = cos_t * pos - sin_t * off_k
+            hit = np.zeros(pos.size, bool)
+            for j, (r0, c0, r1, c1) in bboxes.items():
+                if j not in members:
+                    hit |= (rows >= r0) & (rows < r1) & (cols >= c0) & (cols < c1)
+            return bool(hit.mean() >= 0.8)
+
+        chains: list[list[tuple[float, float, int]]] = []
+        for item in spans:
+            end = max(e for _, e, _ in chains[-1]) if chains else 0.0
+            if chains and (item[0] - end <= tol or covered(end, item[0])):
+                chains[-1].append(item)
+            else:
+                chains.append([item])
+        chain = next(c for c in chains if any(j == k for _, _, j in c))
+        if len(chain) < 2:
+            continue
+        span = max(e for _, e, _ in chain) - min(b for b, _, _ in chain)
+        if span / w < BAND_ELONGATION:
+            continue
+        d = np.array([deltas[j] for _, _, j in chain])
+        if float(d.std()) > NONUNIFORM * abs(float(d.mean())):
+            continue
+        n_lines += 1
+        for _, _, j in chain:
+            found[j] = (len(chain), float(span / w), (-1, n_lines))
+    return found
+
+
 def classify_cause(
     shape: Shape,
     *,
@@ -242,14 +335,19 @@ def classify_cause(
     regular_set: tuple[int, float, tuple[int, int]] | None,
     delta_air_k: float | None,
     sky_limit_c: float | None,
+    line: tuple[int, float, tuple[int, int]] | None = None,
 ) -> tuple[str, str]:
     """Cause and a short reason for one anomaly (rules in docs/analysis.md, in this order)."""
     width_m = None if pixel_m is None else shape.width_px * pixel_m
     width_txt = f", width {1000 * width_m:.0f} mm" if width_m is not None else ""
     # a framing member, plate, slab edge or lintel is uniform along its length; a regular
     # parallel set is accepted as framing even when its members vary
-    band = (_is_band(shape, width_m, BAND_ELONGATION) and shape.uniform) or (
-        regular_set is not None and shape.rect_fill >= BAND_FILL
+    weak = delta_air_k is not None and delta_air_k > 0 and abs(delta_k) < PARTIAL_FRACTION * delta_air_k
+    band = (
+        (_is_band(shape, width_m, BAND_ELONGATION) and shape.uniform)
+        or (weak and _is_band(shape, width_m, WEAK_BAND_ELONGATION) and shape.uniform)
+        or (regular_set is not None and shape.rect_fill >= BAND_FILL)
+        or line is not None
     )
     if regular_set is not None and band:
         n, gap_px = regular_set[0], regular_set[1]
@@ -257,11 +355,18 @@ def classify_cause(
         band_reason = f"one of {n} parallel {kind} bands at regular {gap} spacing: framing members (studs, joists)"
         if pixel_m is not None and not (STUD_SPACING_M[0] <= gap_px * pixel_m <= STUD_SPACING_M[1]):
             band_reason += " (spacing outside the usual 400-600 mm centres)"
+    elif line is not None:
+        band_reason = (
+            f"long narrow straight {kind} band in {line[0]} pieces (length/width {line[1]:.1f}{width_txt}): "
+            "stud, plate, slab edge or lintel"
+        )
     else:
         band_reason = (
             f"long narrow straight {kind} band (length/width {shape.elongation:.1f}{width_txt}): "
             "stud, plate, slab edge or lintel"
         )
+        if shape.elongation < BAND_ELONGATION:
+            band_reason += "; its weak contrast suits a timber or steel member better than an empty cavity"
 
     if view == "roof":
         if kind == "warm":
@@ -304,6 +409,11 @@ def classify_cause(
         return "air_leakage", (
             f"streaky or fan-shaped {kind} pattern with diffuse edges seen from {side}: air {flow} at a joint "
             "or opening; confirm under depressurisation"
+        )
+    if pixel_m is not None and shape.length_px * pixel_m < SMALL_SPOT_M:
+        return "unclassified", (
+            f"small {kind} spot ({1000 * shape.length_px * pixel_m:.0f} mm across) seen from {side}: too small to "
+            "tell a point thermal bridge (fixing, tie, nail plate) from a gap in the insulation"
         )
     partial = ""
     if delta_air_k is not None and delta_air_k > 0 and abs(delta_k) < PARTIAL_FRACTION * delta_air_k:

@@ -13,7 +13,7 @@ import numpy as np
 
 __all__ = ["BandInputs", "N_DRAWS", "BAND_PERCENTILES", "confidence_bands"]
 
-N_DRAWS = 2000
+N_DRAWS = 1000
 BAND_PERCENTILES = (5.0, 95.0)
 
 

@@ -24,8 +24,9 @@ class Anomaly:
     reason : str
         The rule that decided the cause, in a few words.
     area_px : int
-        Pixels in the segmented region (all pieces when one framing member was
-        split into several regions).
+        Pixels of the measured extent: the segmented region's pixels holding at
+        least half its core contrast (all pieces when one framing member was split
+        into several regions).
     area_m2, area_low_m2, area_high_m2 : float or None
         Surface area estimate and its 5-95 % band, m² (None without geometry).
     mean_c, min_c, max_c : float
@@ -92,7 +93,7 @@ class Analysis:
     anomalies : tuple of Anomaly
         Ordered by id.
     labels : (M, N) int32 ndarray
-        Anomaly id per pixel, 0 elsewhere.
+        Anomaly id per pixel of its measured extent, 0 elsewhere.
     pixel_m : float or None
         Pixel footprint, m.
     pixel_area_m2 : float or None

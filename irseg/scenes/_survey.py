@@ -56,7 +56,7 @@ class ImageRecipe:
 
 
 def _timber_wall(*, spacing_m=0.6, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, defects=("bay:1",),
-                 lintel=None, **_):
+                 lintel=None):
     el = E.timber_frame_wall(stud_spacing_m=spacing_m, first_stud_m=0.3 if spacing_m == 0.6 else 0.2)
     ds = []
     for spec in defects:
@@ -77,7 +77,7 @@ def _timber_wall(*, spacing_m=0.6, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, d
     return el, tuple(ds), cond, "interior", None
 
 
-def _ceiling(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, patch=(0.9, 1.5, 0.6, 1.2), **_):
+def _ceiling(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, patch=(0.9, 1.5, 0.6, 1.2)):
     el = E.timber_ceiling()
     z0 = el.insulation[0]
     mat = E.air_layer(el.thickness_m() - z0, "upward")
@@ -90,7 +90,7 @@ def _ceiling(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, patch=(0.9, 1.5, 0.6
 
 
 def _masonry(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, slab_y=None, patch=None, lintel=None, void=None,
-             sky_view=(0.4, 0.5), **_):
+             sky_view=(0.4, 0.5)):
     el = E.masonry_wall()
     ds = []
     if slab_y is not None:
@@ -107,7 +107,7 @@ def _masonry(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, slab_y=None, patch=N
 
 
 def _roof(*, inside_c=20.0, wind_m_s=1.0, insulation="eps", wet=((1.2, 2.4, 0.9, 1.9, 0.15),), dt_s=900.0,
-          end_h=22.0, air_mean_c=10.0, **_):
+          end_h=22.0, air_mean_c=10.0):
     el = E.flat_roof(insulation=insulation)
     ds = tuple(E.wet_patch(el, x0_m=w[0], x1_m=w[1], y0_m=w[2], y1_m=w[3], water_fraction=w[4], name=f"wet_{i}")
                for i, w in enumerate(wet))
@@ -119,11 +119,40 @@ PRESETS = {"timber-wall": _timber_wall, "ceiling": _ceiling, "masonry-wall": _ma
 
 
 def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
-    """Simulate one preset scene (``timber-wall``, ``ceiling``, ``masonry-wall``, ``flat-roof``)."""
+    """Simulate one preset scene.
+
+    Parameters
+    ----------
+    kind : {"timber-wall", "ceiling", "masonry-wall", "flat-roof"}
+    name : str
+        Scene name carried into the truth.
+    **options
+        Preset options: ``inside_c``, ``outside_c``, ``wind_m_s`` for all; timber wall:
+        ``spacing_m``, ``defects`` (``"bay:N[:y0]"``, ``"settled:N:void_m"``,
+        ``"void:x0:x1:y0:y1:depth"``), ``lintel`` (x0, x1, y0, height); ceiling: ``patch``
+        (x0, x1, y0, y1); masonry wall: ``slab_y``, ``patch``, ``lintel``, ``void``
+        (x0, x1, y0, y1, depth), ``sky_view`` (top, bottom); flat roof: ``insulation``,
+        ``wet`` ((x0, x1, y0, y1, water fraction), ...), ``dt_s``, ``end_h``, ``air_mean_c``.
+
+    Returns
+    -------
+    Scene
+
+    Raises
+    ------
+    ConfigError
+        Unknown kind or defect specification.
+    """
     try:
         builder = PRESETS[kind]
     except KeyError:
         raise ConfigError(f"scene kind {kind!r} is unknown; use one of {sorted(PRESETS)}") from None
+    import inspect
+
+    allowed = set(inspect.signature(builder).parameters)
+    unknown = sorted(set(options) - allowed)
+    if unknown:
+        raise ConfigError(f"scene kind {kind!r} has no option(s) {unknown}; valid: {sorted(allowed)}")
     el, ds, cond, view, night = builder(**options)
     return simulate_scene(el, ds, cond, view=view, name=name, night=night)
 
@@ -192,7 +221,7 @@ def export_image(recipe: ImageRecipe, directory: str | os.PathLike[str], *, side
             "area_m2": round(t.area_m2, 4), "excess_w": round(t.excess_w, 3),
             "excess_footprint_w": round(t.excess_footprint_w, 3),
             "reference_c": round(t.reference_c, 3), "mean_c": round(t.mean_c, 3),
-            "delta_k": round(t.mean_c - t.reference_c, 3), "area_px": int(fp.sum()),
+            "delta_k": round(t.mean_c - t.reference_c, 3), "area_px": int(fp.sum()), "mask_index": k,
             "bbox": [int(rows.min()), int(cols.min()), int(rows.max()) + 1, int(cols.max()) + 1] if fp.any() else None,
         })
     return {

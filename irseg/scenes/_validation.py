@@ -26,7 +26,8 @@ import numpy as np
 from irseg.scenes._camera import CameraModel
 from irseg.scenes._survey import ImageRecipe, export_image
 
-__all__ = ["VALIDATION_RECIPES", "TARGETS", "validate_recipe", "validate_all", "passes", "with_seed"]
+__all__ = ["VALIDATION_RECIPES", "TARGETS", "compare_analysis", "validate_recipe", "validate_sample", "validate_all",
+           "passes", "with_seed"]
 
 #: Acceptance targets of issue 6.
 TARGETS = {"iou_min": 0.85, "area_rel": 0.10, "excess_rel": 0.15, "reference_abs_k": 0.3}
@@ -72,33 +73,31 @@ def _rel(est: float | None, true: float) -> float | None:
     return (est - true) / abs(true)
 
 
-def validate_recipe(recipe: ImageRecipe, directory: str | os.PathLike[str]) -> dict:
-    """Simulate, write and process one validation recipe; returns figures per defect.
+def compare_analysis(analysis, defects: list[dict], masks: np.ndarray) -> dict:
+    """Compare one image's :class:`~irseg.analysis.Analysis` with its truth.
+
+    Parameters
+    ----------
+    analysis : Analysis
+    defects : list of dict
+        Truth records as in ``truth.json`` (``name``, ``cause``, ``area_m2``, ``excess_w``,
+        ``excess_footprint_w``, ``reference_c``, ``delta_k``, ``mask_index``).
+    masks : (k, M, N) bool ndarray
+        Camera-grid footprints, indexed by ``mask_index``.
 
     Returns
     -------
     dict
-        ``image``, ``seconds`` (simulation, pipeline), ``defects``: per truth defect the
-        truth, the estimate and the errors; ``false_missing``: missing-insulation reports
-        outside every missing-insulation footprint; ``anomalies``: all reported.
+        ``defects`` (per-defect rows), ``false_missing`` (ids), ``scene_iou``, ``anomalies``.
     """
-    from irseg.pipeline import process_image  # the full chain: read, metadata, calibrate, segment, analyse
-
-    t0 = time.perf_counter()
-    rec = export_image(recipe, directory)
-    t1 = time.perf_counter()
-    res = process_image(Path(directory) / rec["image"])
-    t2 = time.perf_counter()
-    an = res.analysis
-    labels = np.asarray(an.labels)
-    by_id = {a.anomaly: a for a in an.anomalies}
-    masks = rec["_masks"]
-    names = [t.name for t in rec["_scene"].truth]
+    labels = np.asarray(analysis.labels)
+    by_id = {a.anomaly: a for a in analysis.anomalies}
     rows = []
     scene_pred = np.zeros(labels.shape, bool)
     scene_true = np.zeros(labels.shape, bool)
-    for d in rec["defects"]:
-        fp = masks[names.index(d["name"])]
+    miss_fp = np.zeros(labels.shape, bool)
+    for d in defects:
+        fp = np.asarray(masks[d["mask_index"]], bool)
         ids = _match(labels, fp)
         sel = np.isin(labels, ids) if ids else np.zeros_like(fp)
         union = int((sel | fp).sum())
@@ -110,30 +109,73 @@ def validate_recipe(recipe: ImageRecipe, directory: str | os.PathLike[str]) -> d
         if d["cause"] in _CHECKED_CAUSES:
             scene_pred |= sel
             scene_true |= fp
+        if d["cause"] == "missing_insulation":
+            miss_fp |= fp
         rows.append({
             "name": d["name"], "cause": d["cause"], "checked": d["cause"] in _CHECKED_CAUSES,
             "true_area_m2": d["area_m2"], "true_excess_w": d["excess_w"], "true_reference_c": d["reference_c"],
-            "true_delta_k": d["delta_k"], "true_excess_footprint_w": d["excess_footprint_w"], "anomalies": ids, "causes": sorted({a.cause for a in found}),
+            "true_delta_k": d["delta_k"], "true_excess_footprint_w": d["excess_footprint_w"],
+            "anomalies": ids, "causes": sorted({a.cause for a in found}),
             "iou": iou, "area_m2": area, "excess_w": excess, "reference_c": ref,
             "area_rel": _rel(area, d["area_m2"]), "excess_rel": _rel(excess, d["excess_w"]),
             "reference_err_k": None if ref is None else ref - d["reference_c"],
         })
-    miss_fp = np.zeros(labels.shape, bool)
-    for d in rec["defects"]:
-        if d["cause"] == "missing_insulation":
-            miss_fp |= masks[names.index(d["name"])]
-    false_missing = [a.anomaly for a in an.anomalies
+    false_missing = [a.anomaly for a in analysis.anomalies
                      if a.cause == "missing_insulation" and (miss_fp & (labels == a.anomaly)).sum() < 0.5 * a.area_px]
     return {
-        "image": rec["image"], "title": recipe.title, "view": rec["view"], "format": recipe.fmt,
-        "pixel_m": rec["pixel_m"], "size": rec["size"], "simulation": rec["simulation"], "camera": rec["camera"],
-        "h_w_m2k_truth": rec["simulation"]["h_view_w_m2k"], "h_w_m2k_analysis": an.h_w_m2k,
-        "seconds": {"simulate": t1 - t0, "pipeline": t2 - t1},
         "defects": rows, "false_missing": false_missing,
         "scene_iou": float((scene_pred & scene_true).sum() / max(int((scene_pred | scene_true).sum()), 1)),
         "anomalies": [{"id": a.anomaly, "cause": a.cause, "area_m2": a.area_m2, "excess_w": a.excess_w,
-                       "delta_k": a.delta_k} for a in an.anomalies],
+                       "delta_k": a.delta_k} for a in analysis.anomalies],
     }
+
+
+def validate_recipe(recipe: ImageRecipe, directory: str | os.PathLike[str]) -> dict:
+    """Simulate, write and process one validation recipe; returns figures per defect.
+
+    Returns
+    -------
+    dict
+        ``image``, ``seconds`` (simulation, pipeline), plus :func:`compare_analysis`'s keys.
+    """
+    from irseg.pipeline import process_image  # the full chain: read, metadata, calibrate, segment, analyse
+
+    t0 = time.perf_counter()
+    rec = export_image(recipe, directory)
+    t1 = time.perf_counter()
+    res = process_image(Path(directory) / rec["image"])
+    t2 = time.perf_counter()
+    out = {
+        "image": rec["image"], "title": recipe.title, "view": rec["view"], "format": recipe.fmt,
+        "pixel_m": rec["pixel_m"], "size": rec["size"], "simulation": rec["simulation"], "camera": rec["camera"],
+        "h_w_m2k_truth": rec["simulation"]["h_view_w_m2k"], "h_w_m2k_analysis": res.analysis.h_w_m2k,
+        "seconds": {"simulate": t1 - t0, "pipeline": t2 - t1},
+    }
+    out.update(compare_analysis(res.analysis, rec["defects"], rec["_masks"]))
+    return out
+
+
+def validate_sample(directory: str | os.PathLike[str]) -> list[dict]:
+    """Process a folder made by :func:`~irseg.scenes.make_sample_survey` and compare with its truth."""
+    import json
+
+    from irseg.pipeline import process_image
+
+    d = Path(directory)
+    truth = json.loads((d / "truth.json").read_text(encoding="utf-8"))
+    masks = np.load(d / "truth_masks.npz")
+    out = []
+    for rec in truth["images"]:
+        t0 = time.perf_counter()
+        res = process_image(d / rec["image"])
+        row = {"image": rec["image"], "title": rec["title"], "view": rec["view"], "format": rec["format"],
+               "pixel_m": rec["pixel_m"], "size": rec["size"], "simulation": rec["simulation"],
+               "camera": rec["camera"], "h_w_m2k_truth": rec["simulation"]["h_view_w_m2k"],
+               "h_w_m2k_analysis": res.analysis.h_w_m2k,
+               "seconds": {"simulate": 0.0, "pipeline": time.perf_counter() - t0}}
+        row.update(compare_analysis(res.analysis, rec["defects"], masks[Path(rec["image"]).stem]))
+        out.append(row)
+    return out
 
 
 def passes(row: dict) -> dict[str, bool]:

@@ -63,15 +63,29 @@ def test_stud_pattern_is_thermal_bridge_and_the_bay_is_missing_insulation():
 
 def test_short_members_count_as_framing_only_when_regularly_spaced():
     # 20 px tall, 6 px wide: too stubby for a lone band, a thermal bridge as part of a regular set
+    # (air temperatures unknown, so the weak-contrast rule for short bands does not apply)
+    no_air = {"inside_c": None, "outside_c": None}
     t, d = _wall()
     _studs(t, d, cols=(30, 80, 130, 180), width=6, rows=slice(50, 70), delta=-1.0)
-    res = _run(t, d)
+    res = _run(t, d, air=no_air)
     assert len(res.anomalies) == 4
     assert {a.cause for a in res.anomalies} == {"thermal_bridge"}
     t1, d1 = _wall()
     _studs(t1, d1, cols=(80,), width=6, rows=slice(50, 70), delta=-1.0)
-    (lone,) = _run(t1, d1).anomalies
+    (lone,) = _run(t1, d1, air=no_air).anomalies
     assert lone.cause != "thermal_bridge"
+
+
+def test_short_weak_band_is_a_member_but_a_strong_one_is_a_void():
+    # a 0.75 m × 0.2 m horizontal band: at 0.8 K of 24 K a timber header (λ 0.13 against 0.035 for
+    # mineral wool, REFERENCE-VALUES §2.4), at 3.5 K an empty strip such as settled fill (ASTM C1060)
+    air = {"inside_c": 21.0, "outside_c": -3.0}
+    for delta, cause in ((-0.8, "thermal_bridge"), (-3.5, "missing_insulation")):
+        t, d = _wall()
+        t[20:40, 60:135] += delta
+        d[20:40, 60:135] = 1
+        (a,) = _run(t, d, air=air).anomalies
+        assert a.cause == cause, a.reason
 
 
 def test_irregular_spacing_is_not_reported_as_a_regular_set():
@@ -238,3 +252,38 @@ def test_empty_bays_side_by_side_are_not_a_framing_set():
     res = _run(t, d, camera={"pixel_m": None, "hfov_deg": None, "distance_m": None})
     assert len(res.anomalies) == 3
     assert {a.cause for a in res.anomalies} == {"missing_insulation"}
+
+
+def test_lone_member_cut_into_pieces_is_one_band():
+    # two members only (no regular set): each cut into four pieces by the segmentation
+    t, d = _wall()
+    _studs(t, d, cols=(60, 180), width=8, delta=-0.8)
+    labels = d.copy()
+    for gap_row in (25, 55, 85):
+        labels[gap_row, :] = np.where(d[gap_row, :] == 1, 0, labels[gap_row, :])
+    res = _run(t, labels)
+    assert len(res.anomalies) == 2
+    for a in res.anomalies:
+        assert a.cause == "thermal_bridge" and "in 4 pieces" in a.reason, a.reason
+
+
+def test_member_running_behind_a_header_stays_one_band():
+    # a vertical member interrupted for 32 px (> 3 widths + 4 px) by a 0.32 m × 1 m header covering the gap
+    t, d = _wall()
+    t[:, 150:158] -= 0.8
+    d[:, 150:158] = 1
+    t[35:67, 110:210] = 18.5 - 1.0  # the header (weaker than a cavity, wider than the member)
+    d[35:67, 110:210] = 2
+    res = _run(t, d, air={"inside_c": 21.0, "outside_c": -3.0})
+    top, bottom = _at(res, 10, 153), _at(res, 100, 153)
+    assert top is bottom and top.cause == "thermal_bridge"
+    assert _at(res, 50, 120).cause == "thermal_bridge"  # the header: a weak short band
+
+
+def test_small_spot_is_not_called_missing_insulation():
+    # 60 mm across at 10 mm/px: a fixing or a tie as likely as a gap (wall ties: dot grid [CP])
+    t, d = _wall()
+    t[50:56, 100:106] -= 2.0
+    d[50:56, 100:106] = 1
+    (a,) = _run(t, d).anomalies
+    assert a.cause == "unclassified" and "too small" in a.reason

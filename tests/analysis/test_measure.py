@@ -184,3 +184,21 @@ def test_sound_strip_pulled_by_a_neighbours_rim_is_not_an_anomaly():
     assert 19.3 - float(t[strip].mean()) > 0.25  # its mean alone would pass the 0.25 K threshold
     res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), make_seg(d, u=t))
     assert len(res.anomalies) == 1 and res.anomalies[0].area_px == int((d == 1).sum())
+
+
+def test_region_drawn_wider_than_the_defect_is_measured_at_half_contrast():
+    # a segmentation hands the jump band to the region: the labels are 2 px wider on every side
+    # than the 30 × 40 px defect; the measured extent stops at the half-contrast edge
+    t, d_true = _square_scene(box=(40, 70, 60, 100), delta=-2.0)
+    d = np.zeros(t.shape, int)
+    d[38:72, 58:102] = 1
+    t[38:40, 58:102] = t[70:72, 58:102] = 18.0 - 0.5  # the outer band holds a quarter of the contrast
+    t[38:72, 58:60] = t[38:72, 100:102] = 18.0 - 0.5
+    res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), make_seg(d, u=t))
+    (a,) = res.anomalies
+    assert a.area_px == 30 * 40 and int((res.labels == 1).sum()) == 30 * 40
+    assert (a.bbox_row0, a.bbox_col0, a.bbox_row1, a.bbox_col1) == (40, 60, 70, 100)
+    assert a.delta_k == pytest.approx(-2.0, abs=1e-9)
+    # the heat of the outer band still counts: h·(2 K·1200 px + 0.5 K·(34·44 − 1200) px)·A_px
+    band_px = 34 * 44 - 30 * 40
+    assert a.excess_w == pytest.approx(res.h_w_m2k * (2.0 * 1200 + 0.5 * band_px) * 1e-4, rel=1e-9)

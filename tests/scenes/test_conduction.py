@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 
 from irseg.errors import ConfigError, SolverError
 from irseg.scenes import (
@@ -177,3 +179,19 @@ def test_implicit_euler_step_conserves_energy():
     stored = float((cap * (t1 - t0)).sum())
     flow_in = float((g_in * (20.0 - t1[0])).sum() + (g_out * (-5.0 - t1[-1])).sum()) * dt
     assert stored == pytest.approx(flow_in, rel=1e-6)
+
+
+@settings(max_examples=25, deadline=None)
+@given(
+    layers=st.lists(st.tuples(st.floats(0.005, 0.25), st.floats(0.02, 2.5), st.integers(1, 4)), min_size=1,
+                    max_size=4),
+    r_si=st.floats(0.05, 0.25),
+    r_se=st.floats(0.02, 0.1),
+)
+def test_any_layer_stack_gives_the_iso6946_u_value(layers, r_si, r_se):
+    # ISO 6946 homogeneous layers (REFERENCE-VALUES §2.3) [V]: U = 1/(R_si + sum d/lambda + R_se)
+    u = 1.0 / (r_si + sum(d / lam for d, lam, _ in layers) + r_se)
+    ts_i, _, u_in, u_out = _layered(layers, r_si=r_si, r_se=r_se, n=(2, 3))
+    np.testing.assert_allclose(u_in, u, rtol=1e-6)
+    np.testing.assert_allclose(u_out, u, rtol=1e-6)
+    assert np.abs(ts_i - (20.0 - u * r_si * 20.0)).max() < 0.01

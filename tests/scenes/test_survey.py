@@ -74,3 +74,15 @@ def test_whole_sample_survey_remakes_byte_identical(tmp_path):
     assert made == bundled
     for name in made:
         assert (tmp_path / name).read_bytes() == (BUNDLED / name).read_bytes(), name
+
+
+def test_preset_options_are_checked():
+    from irseg.errors import ConfigError
+    from irseg.scenes import make_preset
+
+    with pytest.raises(ConfigError, match="outsid_c"):
+        make_preset("timber-wall", outsid_c=3.0)
+    with pytest.raises(ConfigError, match="unknown timber-wall defect"):
+        make_preset("timber-wall", defects=("hole:1",))
+    with pytest.raises(ConfigError, match="igloo"):
+        make_preset("igloo")
