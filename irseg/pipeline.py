@@ -23,6 +23,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, TypeVar
 
+from .errors import IrsegWarning
 from .types import RawFrame, SurveyMeta, ThermalFrame
 
 __all__ = [
@@ -63,7 +64,8 @@ class ImageResult:
     timings : dict of str to float
         Seconds spent per stage (``read``, ``metadata``, ``calibrate``, ``segment``, ``analyse``).
     warnings : tuple of str
-        Warnings raised by any stage (``Category: message``), in order, without repeats.
+        Messages of the irseg warnings (:class:`~irseg.errors.IrsegWarning`) raised by any
+        stage, in order, without repeats. Other warnings pass through to the caller.
     """
 
     path: str
@@ -101,9 +103,13 @@ def _run_stage(stage: str, timings: dict[str, float], caught: list[str], func: C
         finally:
             timings[stage] = timings.get(stage, 0.0) + time.perf_counter() - start
     for record in records:
-        text = f"{record.category.__name__}: {record.message}"
-        if text not in caught:
-            caught.append(text)
+        if issubclass(record.category, IrsegWarning):
+            text = str(record.message)
+            if text not in caught:
+                caught.append(text)
+        else:  # not irseg's: hand it back to the caller's warning filters unchanged
+            warnings.warn_explicit(record.message, record.category, record.filename, record.lineno,
+                                   source=record.source)
     return value
 
 

@@ -74,17 +74,22 @@ def test_failed_write_leaves_old_file_and_no_temp(tmp_path, monkeypatch):
     assert [p.name for p in tmp_path.iterdir()] == ["summary.json"]
 
 
-def test_unwritable_folder_is_an_output_error(tmp_path):
+def test_unwritable_folder_is_an_output_error(tmp_path, monkeypatch):
     folder = tmp_path / "ro"
     folder.mkdir()
     folder.chmod(0o500)
     try:
-        if os.access(folder, os.W_OK):
-            pytest.skip("running as root: permissions are not enforced")
+        if os.access(folder, os.W_OK):  # root ignores permissions: refuse the open as the kernel would
+            def refuse(*args, **kwargs):
+                raise PermissionError(13, "Permission denied")
+
+            monkeypatch.setattr(os, "open", refuse)
         with pytest.raises(OutputError, match="not writable"):
             outputs.write_bytes(folder / "x.csv", b"a")
     finally:
+        monkeypatch.undo()
         folder.chmod(0o700)
+    assert list(folder.iterdir()) == []
 
 
 def test_remove_temp_files_touches_only_temp_names(tmp_path):

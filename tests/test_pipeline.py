@@ -56,3 +56,24 @@ def test_stage_warnings_are_collected_not_emitted(tmp_path):
     assert result.analysis.anomalies == ()
     assert any("uniform" in w for w in result.warnings)
     assert any("geometry" in w or "inside" in w for w in (*result.warnings, *result.analysis.warnings))
+
+
+def test_irseg_warnings_recorded_others_passed_through(tmp_path, monkeypatch):
+    import warnings
+
+    import irseg.analysis
+    from irseg.errors import ConditionsWarning
+
+    (path,) = make_survey(tmp_path, 1, tiff=False)
+    real = irseg.analysis.analyse
+
+    def noisy(frame, seg):
+        warnings.warn("wind above the limit (test)", ConditionsWarning, stacklevel=2)
+        warnings.warn("a library's own warning (test)", UserWarning, stacklevel=2)
+        return real(frame, seg)
+
+    monkeypatch.setattr(irseg.analysis, "analyse", noisy)
+    with pytest.warns(UserWarning, match="library's own") as caught:
+        result = process_image(path)
+    assert "wind above the limit (test)" in result.warnings
+    assert not any(issubclass(w.category, ConditionsWarning) for w in caught)
