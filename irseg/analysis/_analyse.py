@@ -27,7 +27,10 @@ RIM_FRACTION = 0.3  # the soft rim is searched out to 0.3·√area ...
 MAX_RIM_PX = 30.0  # ... but not beyond 30 px
 RING_SIGMA_FACTOR = 2.0  # contrast must also exceed this many ring spreads
 FRSI_PERCENTILE = 5.0
+SLIVER_FRACTION = 0.05  # a piece of a larger anomaly's rim is at most this fraction of its area
+_CROSS = ndimage.generate_binary_structure(2, 1)
 HALF_CONTRAST = 0.5  # the measured extent ends where the contrast falls to half its core value
+EDGE_SIGMA_PX = 1.0  # Gaussian derivative scale of the edge-line gradient (Canny 1986), px
 
 
 @dataclass
@@ -155,12 +158,13 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
     if not accepted:
         return Analysis((), np.zeros(shape, np.int32), footprint, px_area, h, reference, warn)
 
+    accepted, host_of = _group_fragments(accepted, labels=labels, min_step_k=min_step)
     is_anomaly = np.zeros(n + 1, dtype=bool)
     is_anomaly[[c.label for c in accepted]] = True
     loss_sign = -1.0 if view == "interior" else 1.0  # loss = sign·(T − reference)
     measured = [
-        _measure_candidate(c, labels=labels, t=t, u=u, is_anomaly=is_anomaly, noise_k=noise, loss_sign=loss_sign,
-                           reference=reference)
+        _measure_candidate(c, labels=labels, t=t, u=u, edges=edges, is_anomaly=is_anomaly, noise_k=noise,
+                           loss_sign=loss_sign, reference=reference)
         for c in accepted
     ]
     shapes = {m.cand.label: m.shape for m in measured}
@@ -176,14 +180,23 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
     expected_kind = "cold" if view == "interior" else "warm"
 
     # pieces of one framing member (a stud interrupted by other anomalies) form one anomaly
+    # fragments of similar temperature inside or along a larger anomaly are part of it
     lines: dict[tuple[int, int], list[_Measured]] = {}
     units: list[list[_Measured]] = []
+    by_label: dict[int, list[_Measured]] = {}
     for m in measured:
+        if m.cand.label in host_of:
+            continue
         info = sets.get(m.cand.label) or lines_found.get(m.cand.label)
         if info is None:
             units.append([m])
+            by_label[m.cand.label] = units[-1]
         else:
             lines.setdefault(info[2], []).append(m)
+            by_label[m.cand.label] = lines[info[2]]
+    for m in measured:
+        if m.cand.label in host_of:
+            by_label[host_of[m.cand.label]].append(m)
     units.extend(lines.values())
     units.sort(key=lambda u: (min(m.bbox[0] for m in u), min(m.bbox[1] for m in u), min(m.cand.label for m in u)))
 
@@ -213,8 +226,11 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
             regular_set=sets.get(main.cand.label), delta_air_k=dt_air, sky_limit_c=sky_limit_c,
             line=lines_found.get(main.cand.label),
         )
-        if len(unit) > 1:
-            reason += f" ({len(unit)} pieces of one member, interrupted by other anomalies or the segmentation)"
+        n_frag = sum(1 for m in unit if m.cand.label in host_of)
+        if len(unit) - n_frag > 1:
+            reason += f" ({len(unit) - n_frag} pieces of one member, interrupted by other anomalies or the segmentation)"
+        if n_frag:
+            reason += f" (with {n_frag} touching fragment(s) of similar temperature)"
         if any(m.cand.ref.source == "trend" for m in unit):
             reason += "; reference: the image's sound trend (no sound surface around it)"
         area_m2 = None if px_area is None else area_px * px_area
@@ -313,6 +329,123 @@ def _local_contrast(
     return _Candidate(lab, r0, c0, crop, region, dist, ref, mean_c, reference_c, delta, gap, rr, cc)
 
 
+def _group_fragments(
+    accepted: list[_Candidate], *, labels: np.ndarray, min_step_k: float
+) -> tuple[list[_Candidate], dict[int, int]]:
+    """Fragments of a larger anomaly: ``(kept candidates, {fragment label: host label})``.
+
+    A candidate touching a larger anomaly of the same sign (4-adjacent) is
+
+    - *absorbed* into it (one defect, measured together) when their mean
+      temperatures differ by less than ``min_step_k``: the segmentation split one
+      plateau, it did not see a step (a jump below the step threshold is not a jump);
+    - dropped as a *rim sliver* when it is a small piece (at most 5 % of the host's
+      area) of the host's soft rim: every pixel within the host's rim extent and a
+      contrast between the host's and zero. A blurred or conducting edge spreads the
+      host's contrast outwards; a piece of that ramp cut off by the segmentation is
+      the host's edge, not a defect of its own. Its pixels then count, like the rest
+      of the rim, into the host's heat integral.
+
+    Touching regions of *different* temperature that are not rim slivers (a stud
+    beside an empty bay, a warm strip beside a cold patch) stay separate anomalies.
+    """
+    if len(accepted) < 2:
+        return accepted, {}
+    by_label = {c.label: c for c in accepted}
+    order = sorted(accepted, key=lambda c: (c.rr.size, c.label))
+    dropped: set[int] = set()
+    host_of: dict[int, int] = {}
+    for c in order:
+        ring = ndimage.binary_dilation(c.region, structure=_CROSS) & ~c.region
+        hosts = [by_label[int(h)] for h in np.unique(labels[c.crop][ring]) if int(h) in by_label and int(h) != c.label]
+        hosts = [h for h in hosts if h.rr.size > c.rr.size and np.sign(h.delta_k) == np.sign(c.delta_k)
+                 and h.label not in dropped]
+        if not hosts:
+            continue
+        host = max(hosts, key=lambda h: (h.rr.size, -h.label))
+        similar = [h for h in hosts if abs(h.mean_c - c.mean_c) < min_step_k]
+        if similar:
+            host_of[c.label] = max(similar, key=lambda h: (h.rr.size, -h.label)).label
+            continue
+        if c.rr.size > SLIVER_FRACTION * host.rr.size or abs(c.delta_k) >= abs(host.delta_k):
+            continue
+        rows = c.rr + (c.r0 - host.r0)
+        cols = c.cc + (c.c0 - host.c0)
+        inside = (rows >= 0) & (rows < host.dist.shape[0]) & (cols >= 0) & (cols < host.dist.shape[1])
+        reach = max(RIM_PX, host.gap_px)
+        if inside.all() and float(host.dist[rows, cols].max()) <= reach:
+            dropped.add(c.label)
+    # chains (a fragment of a fragment) end at the final host
+    for k in list(host_of):
+        h = host_of[k]
+        while h in host_of:
+            h = host_of[h]
+        host_of[k] = h
+    host_of = {k: h for k, h in host_of.items() if h not in dropped}
+    kept = [c for c in accepted if c.label not in dropped]
+    return kept, host_of
+
+
+def _inside_edge_line(
+    c: _Candidate, *, u_crop: np.ndarray, edges_crop: np.ndarray, valid_crop: np.ndarray
+) -> np.ndarray:
+    """Region pixels (in ``c.rr, c.cc`` order) on the inner side of the region's edge line.
+
+    The edge of a blurred step lies where the temperature gradient peaks along its
+    normal (the inflection point; the non-maximum suppression of Canny 1986). For a
+    step between two plateaus that is the half-way level, but next to a neighbour
+    that is itself off the reference (a cold stud beside an empty bay, conduction
+    spreading the contrast sideways) the half-reference level slides outwards onto
+    the neighbour, while the gradient peak stays on the defect's edge. On the
+    region's jump-band pixels, compared with the two neighbours along the gradient:
+    a pixel whose inner neighbour (deeper in the region) has the steeper gradient
+    (and the outer one not) is on the outer flank of the edge and is left out; a
+    pixel at the peak counts when its value is nearer the inner side two pixels away
+    (it is at least half covered). Only edges across which the contrast falls
+    outwards are trimmed (a colder neighbour of a cold region is not its rim), and
+    pixels off the jump band are never removed.
+    """
+    region = c.region
+    band = region & edges_crop
+    out = np.zeros(region.shape, bool)
+    if band.any():
+        # normalised Gaussian smoothing over valid pixels only (masked values carry no information)
+        w = ndimage.gaussian_filter(valid_crop.astype(float), EDGE_SIGMA_PX, mode="nearest")
+        sm = ndimage.gaussian_filter(np.where(valid_crop, u_crop, 0.0), EDGE_SIGMA_PX, mode="nearest")
+        u_s = np.where(w > 1e-6, sm / np.maximum(w, 1e-6), u_crop)
+        gr, gc = np.gradient(u_s)
+        g = np.hypot(gr, gc)
+        m, n = g.shape
+        gp = np.pad(g, 2, mode="edge")
+        up = np.pad(u_crop, 2, mode="edge")
+        dp = np.pad(ndimage.distance_transform_edt(region), 2, mode="constant")
+        q = np.round(np.mod(np.arctan2(gr, gc), np.pi) / (np.pi / 4)).astype(int) % 4
+        sgn = 1.0 if c.delta_k >= 0 else -1.0
+
+        def shifted(a: np.ndarray, dr: int, dc: int) -> np.ndarray:
+            return a[2 + dr : 2 + dr + m, 2 + dc : 2 + dc + n]
+
+        for k, (dr, dc) in enumerate(((0, 1), (1, 1), (1, 0), (1, -1))):
+            sel = band & (q == k)
+            if not sel.any():
+                continue
+            # inward = deeper into the region (a neighbour more extreme than the region is not its outside)
+            da, db = shifted(dp, dr, dc), shifted(dp, -dr, -dc)
+            a_is_in = (da > db) | ((da == db) & (sgn * shifted(up, dr, dc) >= sgn * shifted(up, -dr, -dc)))
+            g_in = np.where(a_is_in, shifted(gp, dr, dc), shifted(gp, -dr, -dc))
+            g_out = np.where(a_is_in, shifted(gp, -dr, -dc), shifted(gp, dr, dc))
+            u_in2 = np.where(a_is_in, shifted(up, 2 * dr, 2 * dc), shifted(up, -2 * dr, -2 * dc))
+            u_out2 = np.where(a_is_in, shifted(up, -2 * dr, -2 * dc), shifted(up, 2 * dr, 2 * dc))
+            outer_flank = (g_in > g) & (g_out <= g)
+            peak = (g_in <= g) & (g_out <= g)
+            nearer_out = np.abs(u_crop - u_out2) < np.abs(u_crop - u_in2)
+            # on a ramp down to the outside: the pixel lies between the inner and the outer values
+            between = (sgn * (u_in2 - u_crop) > 0) & (sgn * (u_crop - u_out2) > 0)
+            between &= np.where(a_is_in, shifted(dp, 2 * dr, 2 * dc), shifted(dp, -2 * dr, -2 * dc)) > 0  # in the region
+            out |= sel & between & (outer_flank | (peak & nearer_out))
+    return ~out[c.rr, c.cc]
+
+
 @dataclass
 class _Measured:
     cand: _Candidate
@@ -325,8 +458,8 @@ class _Measured:
 
 
 def _measure_candidate(
-    c: _Candidate, *, labels: np.ndarray, t: np.ndarray, u: np.ndarray, is_anomaly: np.ndarray, noise_k: float,
-    loss_sign: float, reference: np.ndarray,
+    c: _Candidate, *, labels: np.ndarray, t: np.ndarray, u: np.ndarray, edges: np.ndarray, is_anomaly: np.ndarray,
+    noise_k: float, loss_sign: float, reference: np.ndarray,
 ) -> _Measured:
     """Thermal footprint (region + soft rim of the same sign), loss sum and shape of one anomaly.
 
@@ -367,6 +500,7 @@ def _measure_candidate(
     contrast_u = u[c.crop][rr_in, cc_in] - in_ref
     sgn = 1.0 if c.delta_k >= 0 else -1.0
     inside = sgn * contrast_u >= HALF_CONTRAST * abs(float(np.median(contrast_u))) * (1.0 - 1e-9)
+    inside &= _inside_edge_line(c, u_crop=u[c.crop], edges_crop=edges[c.crop], valid_crop=lab_c > 0)
     if int(inside.sum()) < MIN_SPOT_PX:
         inside = np.ones(rr_in.size, bool)
     return _Measured(
