@@ -12,6 +12,7 @@ from ..errors import ConfigError
 from ..types import ThermalFrame
 from ._classify import Shape, classify_cause, find_lines, find_regular_sets, shape_features
 from ._conditions import check_conditions
+from ._extent import inside_edge_line
 from ._confidence import BandInputs, confidence_bands
 from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
 from ._geometry import MIN_SPOT_PX, pixel_area_m2, pixel_footprint_m
@@ -30,7 +31,6 @@ FRSI_PERCENTILE = 5.0
 SLIVER_FRACTION = 0.05  # a piece of a larger anomaly's rim is at most this fraction of its area
 _CROSS = ndimage.generate_binary_structure(2, 1)
 HALF_CONTRAST = 0.5  # the measured extent ends where the contrast falls to half its core value
-EDGE_SIGMA_PX = 1.0  # Gaussian derivative scale of the edge-line gradient (Canny 1986), px
 
 
 @dataclass
@@ -386,66 +386,6 @@ def _group_fragments(
     return kept, host_of
 
 
-def _inside_edge_line(
-    c: _Candidate, *, u_crop: np.ndarray, edges_crop: np.ndarray, valid_crop: np.ndarray
-) -> np.ndarray:
-    """Region pixels (in ``c.rr, c.cc`` order) on the inner side of the region's edge line.
-
-    The edge of a blurred step lies where the temperature gradient peaks along its
-    normal (the inflection point; the non-maximum suppression of Canny 1986). For a
-    step between two plateaus that is the half-way level, but next to a neighbour
-    that is itself off the reference (a cold stud beside an empty bay, conduction
-    spreading the contrast sideways) the half-reference level slides outwards onto
-    the neighbour, while the gradient peak stays on the defect's edge. On the
-    region's jump-band pixels, compared with the two neighbours along the gradient:
-    a pixel whose inner neighbour (deeper in the region) has the steeper gradient
-    (and the outer one not) is on the outer flank of the edge and is left out; a
-    pixel at the peak counts when its value is nearer the inner side two pixels away
-    (it is at least half covered). Only edges across which the contrast falls
-    outwards are trimmed (a colder neighbour of a cold region is not its rim), and
-    pixels off the jump band are never removed.
-    """
-    region = c.region
-    band = region & edges_crop
-    out = np.zeros(region.shape, bool)
-    if band.any():
-        # normalised Gaussian smoothing over valid pixels only (masked values carry no information)
-        w = ndimage.gaussian_filter(valid_crop.astype(float), EDGE_SIGMA_PX, mode="nearest")
-        sm = ndimage.gaussian_filter(np.where(valid_crop, u_crop, 0.0), EDGE_SIGMA_PX, mode="nearest")
-        u_s = np.where(w > 1e-6, sm / np.maximum(w, 1e-6), u_crop)
-        gr, gc = np.gradient(u_s)
-        g = np.hypot(gr, gc)
-        m, n = g.shape
-        gp = np.pad(g, 2, mode="edge")
-        up = np.pad(u_crop, 2, mode="edge")
-        dp = np.pad(ndimage.distance_transform_edt(region), 2, mode="constant")
-        q = np.round(np.mod(np.arctan2(gr, gc), np.pi) / (np.pi / 4)).astype(int) % 4
-        sgn = 1.0 if c.delta_k >= 0 else -1.0
-
-        def shifted(a: np.ndarray, dr: int, dc: int) -> np.ndarray:
-            return a[2 + dr : 2 + dr + m, 2 + dc : 2 + dc + n]
-
-        for k, (dr, dc) in enumerate(((0, 1), (1, 1), (1, 0), (1, -1))):
-            sel = band & (q == k)
-            if not sel.any():
-                continue
-            # inward = deeper into the region (a neighbour more extreme than the region is not its outside)
-            da, db = shifted(dp, dr, dc), shifted(dp, -dr, -dc)
-            a_is_in = (da > db) | ((da == db) & (sgn * shifted(up, dr, dc) >= sgn * shifted(up, -dr, -dc)))
-            g_in = np.where(a_is_in, shifted(gp, dr, dc), shifted(gp, -dr, -dc))
-            g_out = np.where(a_is_in, shifted(gp, -dr, -dc), shifted(gp, dr, dc))
-            u_in2 = np.where(a_is_in, shifted(up, 2 * dr, 2 * dc), shifted(up, -2 * dr, -2 * dc))
-            u_out2 = np.where(a_is_in, shifted(up, -2 * dr, -2 * dc), shifted(up, 2 * dr, 2 * dc))
-            outer_flank = (g_in > g) & (g_out <= g)
-            peak = (g_in <= g) & (g_out <= g)
-            nearer_out = np.abs(u_crop - u_out2) < np.abs(u_crop - u_in2)
-            # on a ramp down to the outside: the pixel lies between the inner and the outer values
-            between = (sgn * (u_in2 - u_crop) > 0) & (sgn * (u_crop - u_out2) > 0)
-            between &= np.where(a_is_in, shifted(dp, 2 * dr, 2 * dc), shifted(dp, -2 * dr, -2 * dc)) > 0  # in the region
-            out |= sel & between & (outer_flank | (peak & nearer_out))
-    return ~out[c.rr, c.cc]
-
-
 @dataclass
 class _Measured:
     cand: _Candidate
@@ -500,7 +440,9 @@ def _measure_candidate(
     contrast_u = u[c.crop][rr_in, cc_in] - in_ref
     sgn = 1.0 if c.delta_k >= 0 else -1.0
     inside = sgn * contrast_u >= HALF_CONTRAST * abs(float(np.median(contrast_u))) * (1.0 - 1e-9)
-    inside &= _inside_edge_line(c, u_crop=u[c.crop], edges_crop=edges[c.crop], valid_crop=lab_c > 0)
+    inside &= inside_edge_line(
+        c.region, rr=c.rr, cc=c.cc, delta_k=c.delta_k, u_crop=u[c.crop], edges_crop=edges[c.crop], valid_crop=lab_c > 0
+    )
     if int(inside.sum()) < MIN_SPOT_PX:
         inside = np.ones(rr_in.size, bool)
     return _Measured(
