@@ -144,19 +144,9 @@ def _write_image(out_dir: Path, outcome: ImageOutcome) -> None:
     marker = folder / "result.json"
     if outcome.status != "ok":
         for name in ("result.json", "labels.png", "overlay.png"):
-            try:
-                (folder / name).unlink()
-            except FileNotFoundError:
-                pass
-            except OSError as exc:
-                raise OutputError(f"{folder / name}: cannot remove a stale output ({exc.strerror})") from exc
+            outputs.remove_file(folder / name, hint="a stale output of an earlier run")
         return
-    try:
-        marker.unlink()
-    except FileNotFoundError:
-        pass
-    except OSError as exc:
-        raise OutputError(f"{marker}: cannot replace it ({exc.strerror}); check the folder given with -o") from exc
+    outputs.remove_file(marker, hint="check the folder given with -o")
     assert outcome.labels_png is not None and outcome.overlay_png is not None
     outputs.write_bytes(folder / "labels.png", outcome.labels_png)
     outputs.write_bytes(folder / "overlay.png", outcome.overlay_png)
@@ -368,12 +358,7 @@ def run_survey(
             FAILURE_COLUMNS,
         )
     else:
-        try:
-            failures_path.unlink()
-        except FileNotFoundError:
-            pass
-        except OSError as exc:
-            raise OutputError(f"{failures_path}: cannot remove the stale file ({exc.strerror})") from exc
+        outputs.remove_file(failures_path, hint="a stale file of an earlier run")
     report_path = out_path / "report.html"
     outputs.write_text(report_path, _render_report(out_path, summary, ordered))
     outputs.write_json(out_path / "summary.json", summary)

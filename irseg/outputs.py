@@ -288,6 +288,27 @@ def write_csv(path: str | os.PathLike[str], rows: Iterable[Mapping[str, Any]], c
     return write_bytes(path, csv_bytes(rows, columns))
 
 
+def remove_file(path: str | os.PathLike[str], *, hint: str = "") -> bool:
+    """Remove one output file if it exists.
+
+    Returns True when a file was removed. A missing file is not an error.
+
+    Raises
+    ------
+    OutputError
+        The file exists but cannot be removed; the message names it and adds ``hint``.
+    """
+    target = Path(path)
+    try:
+        target.unlink()
+    except FileNotFoundError:
+        return False
+    except OSError as exc:
+        suffix = f"; {hint}" if hint else ""
+        raise OutputError(f"{target}: cannot remove it ({exc.strerror}){suffix}") from exc
+    return True
+
+
 def remove_temp_files(folder: str | os.PathLike[str], *, recursive: bool = True) -> int:
     """Delete temporary files left by an interrupted run under ``folder``.
 

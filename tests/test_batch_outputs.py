@@ -151,3 +151,17 @@ def test_written_files_get_the_usual_permissions(tmp_path):
     os.umask(mask)
     path = outputs.write_bytes(tmp_path / "anomalies.csv", b"x")
     assert path.stat().st_mode & 0o777 == 0o666 & ~mask
+
+
+def test_remove_file_is_quiet_for_missing_and_names_the_file_it_cannot_remove(tmp_path):
+    from irseg import outputs
+    from irseg.errors import OutputError
+
+    present = tmp_path / "failures.csv"
+    present.write_text("file,stage,message\r\n")
+    assert outputs.remove_file(present) is True and not present.exists()
+    assert outputs.remove_file(present) is False
+    folder = tmp_path / "result.json"  # a folder where a file is expected: unlink refuses it (POSIX)
+    folder.mkdir()
+    with pytest.raises(OutputError, match=r"result\.json: cannot remove it .*check the folder"):
+        outputs.remove_file(folder, hint="check the folder given with -o")

@@ -66,7 +66,7 @@ def inside_edge_line(
         g = np.hypot(gr, gc)
         m, n = g.shape
         gp = np.pad(g, 2, mode="edge")
-        up = np.pad(u_crop, 2, mode="edge")
+        up = np.pad(np.where(valid_crop, u_crop, u_s), 2, mode="edge")
         dp = np.pad(ndimage.distance_transform_edt(region), 2, mode="constant")
         q = np.round(np.mod(np.arctan2(gr, gc), np.pi) / (np.pi / 4)).astype(int) % 4
         sgn = 1.0 if delta_k >= 0 else -1.0
@@ -87,9 +87,10 @@ def inside_edge_line(
             u_out2 = np.where(a_is_in, shifted(up, -2 * dr, -2 * dc), shifted(up, 2 * dr, 2 * dc))
             outer_flank = (g_in > g) & (g_out <= g)
             peak = (g_in <= g) & (g_out <= g)
-            nearer_out = np.abs(u_crop - u_out2) < np.abs(u_crop - u_in2)
+            u_p = shifted(up, 0, 0)
+            nearer_out = np.abs(u_p - u_out2) < np.abs(u_p - u_in2)
             # on a ramp down to the outside: the pixel lies between the inner and the outer values
-            between = (sgn * (u_in2 - u_crop) > 0) & (sgn * (u_crop - u_out2) > 0)
+            between = (sgn * (u_in2 - u_p) > 0) & (sgn * (u_p - u_out2) > 0)
             between &= np.where(a_is_in, shifted(dp, 2 * dr, 2 * dc), shifted(dp, -2 * dr, -2 * dc)) > 0  # in the region
             out |= sel & between & (outer_flank | (peak & nearer_out))
     return ~out[rr, cc]
