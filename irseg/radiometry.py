@@ -19,6 +19,7 @@ from __future__ import annotations
 import functools
 import math
 
+import cv2
 import numpy as np
 from scipy import constants as _const
 from scipy import ndimage
@@ -294,6 +295,18 @@ def _rad_nearest_fill(values: np.ndarray, invalid: np.ndarray) -> np.ndarray:
     return values[tuple(idx)]
 
 
+def _rad_median3(values: np.ndarray) -> np.ndarray:
+    """3×3 median with mirrored borders (``scipy.ndimage.median_filter(size=3, mode="mirror")``).
+
+    OpenCV's float32 median kernel is an order of magnitude faster than the generic rank
+    filter; the values are centred first so float32 keeps micro-kelvin resolution.
+    """
+    offset = float(np.median(values[:: max(1, values.shape[0] // 32), :: max(1, values.shape[1] // 32)]))
+    centred = np.ascontiguousarray(values - offset, dtype=np.float32)
+    padded = cv2.copyMakeBorder(centred, 1, 1, 1, 1, cv2.BORDER_REFLECT_101)
+    return cv2.medianBlur(padded, 3)[1:-1, 1:-1].astype(np.float64) + offset
+
+
 def mask_dead_pixels(image, *, invalid=None, floor_k: float = _DEAD_FLOOR_K) -> np.ndarray:
     """Find isolated dead or hot pixels.
 
@@ -323,7 +336,7 @@ def mask_dead_pixels(image, *, invalid=None, floor_k: float = _DEAD_FLOOR_K) -> 
     if x.ndim != 2 or x.shape[0] < 3 or x.shape[1] < 3 or bad.all():
         return np.zeros(x.shape, dtype=bool)
     filled = _rad_nearest_fill(x, bad)
-    med = ndimage.median_filter(filled, size=3, mode="mirror")
+    med = _rad_median3(filled)
     resid = filled - med
     r_valid = np.abs(resid[~bad])
     sigma = 1.4826 * float(np.median(r_valid)) if r_valid.size else 0.0
@@ -333,18 +346,21 @@ def mask_dead_pixels(image, *, invalid=None, floor_k: float = _DEAD_FLOOR_K) -> 
         return cand
     padded = np.pad(filled, 1, mode="reflect")
     pad_bad = np.pad(bad, 1, mode="reflect")
-    sign = np.sign(resid)
-    half = 0.5 * np.abs(resid)
-    similar = np.zeros(x.shape, dtype=bool)
-    m, n = x.shape
+    rows, cols = np.nonzero(cand)  # few pixels: test the neighbours of candidates only
+    sign = np.sign(resid[rows, cols])
+    half = 0.5 * np.abs(resid[rows, cols])
+    centre = med[rows, cols]
+    similar = np.zeros(rows.size, dtype=bool)
     for dr in (-1, 0, 1):
         for dc in (-1, 0, 1):
             if dr == 0 and dc == 0:
                 continue
-            nb = padded[1 + dr : 1 + dr + m, 1 + dc : 1 + dc + n]
-            nb_bad = pad_bad[1 + dr : 1 + dr + m, 1 + dc : 1 + dc + n]
-            similar |= ((nb - med) * sign >= half) & ~nb_bad
-    return cand & ~similar
+            nb = padded[rows + 1 + dr, cols + 1 + dc]
+            nb_bad = pad_bad[rows + 1 + dr, cols + 1 + dc]
+            similar |= ((nb - centre) * sign >= half) & ~nb_bad
+    out = np.zeros(x.shape, dtype=bool)
+    out[rows[~similar], cols[~similar]] = True
+    return out
 
 
 def fill_masked(image, mask) -> np.ndarray:
@@ -366,7 +382,7 @@ def fill_masked(image, mask) -> np.ndarray:
     if not mask.any():
         return x.copy()
     filled = _rad_nearest_fill(x, mask)
-    med = ndimage.median_filter(filled, size=3, mode="mirror")
+    med = _rad_median3(filled)
     out = x.copy()
     out[mask] = med[mask]
     return out
