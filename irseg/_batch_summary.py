@@ -22,6 +22,9 @@ ANOMALY_COLUMNS = (
     "mean_c", "min_c", "max_c", "reference_c", "delta_k", "excess_w", "excess_low_w", "excess_high_w",
     "excess_kwh_year", "f_rsi", "mould_risk", "centroid_row", "centroid_col",
     "bbox_row0", "bbox_col0", "bbox_row1", "bbox_col1", "severity",
+    # beyond the contract's list, appended so its order stays intact: the area in pixels is the one
+    # area that is known when the shot's geometry is not
+    "area_px",
 )
 
 #: Columns of OUT/failures.csv.

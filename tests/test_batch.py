@@ -52,7 +52,8 @@ def test_clean_run_meets_the_output_contract(tmp_path):
     assert not (out / "failures.csv").exists()
 
     header = (out / "anomalies.csv").read_bytes().split(b"\r\n")[0].decode()
-    assert header.split(",") == CONTRACT_COLUMNS == list(ANOMALY_COLUMNS)
+    # the contract's columns in its order, then the extra area_px (known even without geometry)
+    assert header.split(",") == CONTRACT_COLUMNS + ["area_px"] == list(ANOMALY_COLUMNS)
     rows = _rows(out)
     assert [r["image"] for r in rows] == [p.name for p in paths]  # input order, one patch each
 
