@@ -217,7 +217,13 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
         mean_c = float(vals.mean())
         reference_c = float(refs.mean())
         delta_k = mean_c - reference_c
-        loss_sum = float(sum(m.loss_sum_kpx for m in unit))
+        # a soft-rim pixel shared by pieces of one anomaly counts once (the largest piece's value)
+        ordered = [main] + [m for m in unit if m is not main]
+        rim_idx = np.concatenate([m.rim_index for m in ordered])
+        rim_loss = np.concatenate([m.rim_loss_kpx for m in ordered])
+        _, first = np.unique(rim_idx, return_index=True)
+        loss_sum = float(sum(m.loss_sum_kpx for m in unit)) + float(rim_loss[first].sum())
+        n_rim = int(first.size)
         centroid_row = float(prow.mean())
         centroid_col = float(pcol.mean())
         bbox = (int(prow.min()), int(pcol.min()), int(prow.max()) + 1, int(pcol.max()) + 1)
@@ -245,7 +251,7 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
             mould = None if f_rsi is None else bool(f_rsi < an.frsi_limit)
         bands = BandInputs(
             area_px=area_px, perimeter_px=int(sum(m.shape.perimeter_px for m in unit)), loss_sum_kpx=loss_sum,
-            n_footprint=int(sum(m.n_footprint for m in unit)), pixel_area_m2=px_area, h_convective=h_c,
+            n_footprint=int(sum(m.n_footprint for m in unit)) + n_rim, pixel_area_m2=px_area, h_convective=h_c,
             h_radiative=h_r, emissivity=surf.emissivity, emissivity_uncertainty=surf.emissivity_uncertainty,
             distance_uncertainty=an.distance_uncertainty, h_uncertainty=an.h_uncertainty, netd_k=cam.netd_k,
             reference_sigma_k=max(m.cand.ref.sigma_k for m in unit),
@@ -392,8 +398,10 @@ class _Measured:
     kind: str
     shape: Shape
     bbox: tuple[int, int, int, int]
-    loss_sum_kpx: float
-    n_footprint: int
+    loss_sum_kpx: float  # over the region's own pixels, K·px (loss-signed)
+    n_footprint: int  # the region's own pixels
+    rim_index: np.ndarray  # flat image indices of its soft-rim pixels
+    rim_loss_kpx: np.ndarray  # their loss-signed contrast, K
     inside: np.ndarray  # region pixels (in c.rr, c.cc order) inside the half-contrast edge
 
 
@@ -418,7 +426,9 @@ def _measure_candidate(
     rr_in, cc_in = c.rr, c.cc
     in_ref = c.ref.plane.evaluate(rr_in + float(c.r0), cc_in + float(c.c0))
     in_contrast = t_c[rr_in, cc_in] - in_ref
-    loss_sum = loss_sign * (float(in_contrast.sum()) + float(rim_contrast[keep].sum()))
+    loss_sum = loss_sign * float(in_contrast.sum())
+    rim_index = np.ravel_multi_index((c.r0 + rr[keep], c.c0 + cc[keep]), labels.shape)
+    rim_loss = loss_sign * rim_contrast[keep]
     reference[c.r0 + rr_in, c.c0 + cc_in] = in_ref
     reference[c.r0 + rr[keep], c.c0 + cc[keep]] = rim_ref[keep]
     # shape features on a tight crop: bounding box + 3 px
@@ -446,5 +456,5 @@ def _measure_candidate(
     if int(inside.sum()) < MIN_SPOT_PX:
         inside = np.ones(rr_in.size, bool)
     return _Measured(
-        c, "cold" if c.delta_k < 0 else "warm", shape, bbox, loss_sum, int(rr_in.size + keep.sum()), inside
+        c, "cold" if c.delta_k < 0 else "warm", shape, bbox, loss_sum, int(rr_in.size), rim_index, rim_loss, inside
     )

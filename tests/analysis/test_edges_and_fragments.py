@@ -102,3 +102,17 @@ def test_sliver_of_a_soft_rim_is_not_a_separate_anomaly():
     # its heat stays in the bay's footprint: the total h·Σ(reference − T) of the image
     total = res.h_w_m2k * float((SOUND_C - t).sum()) * PIXEL_M**2
     assert a.excess_w == pytest.approx(total, rel=0.03)
+
+
+
+def test_absorbed_fragment_on_the_edge_does_not_count_the_shared_rim_twice():
+    # a 10 × 10 px piece 0.2 K warmer at the patch's corner; a 2 px rim of 0.5 K contrast around both
+    t, d = _patch_with_piece(-2.8, (slice(20, 30), slice(30, 40)))
+    patch = d > 0
+    ring = ndimage.binary_dilation(patch, structure=np.ones((3, 3), bool), iterations=2) & ~patch
+    t[ring] = SOUND_C - 0.5
+    res = analyse(make_frame(t, make_meta(camera={"pixel_m": PIXEL_M})), make_seg(d, u=t))
+    (a,) = res.anomalies
+    # h·Σ(reference − T) over region and rim, each rim pixel once (issue 4; exact for this step scene)
+    loss_kpx = 3.0 * (50 * 60 - 100) + 2.8 * 100 + 0.5 * int(ring.sum())
+    assert a.excess_w == pytest.approx(res.h_w_m2k * loss_kpx * PIXEL_M**2, rel=1e-9)
