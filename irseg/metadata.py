@@ -197,7 +197,7 @@ _SCHEMA: dict[str, dict[str, _Check]] = {
         "atmosphere_c": _md_temperature(),
     },
     "surface": {
-        "emissivity": _md_range(0, 1, **_POS, fix="use the material's long-wave emissivity, in (0, 1]"),
+        "emissivity": _md_range(0, 1, **_POS, fix="use the material's long-wave emissivity"),
         "reflected_c": _md_temperature(),
         "view": _md_choice(("interior", "exterior", "roof")),
         "heat_flow": _md_choice(("horizontal", "upward", "downward"), optional=True),

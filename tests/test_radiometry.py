@@ -168,6 +168,15 @@ def test_transmittance_round_trip_and_direction():
     assert back == pytest.approx(30.0, abs=1e-3)
 
 
+def test_out_of_range_emissivity_and_transmittance():
+    # physics: emissivity and transmittance are fractions in (0, 1]; both conversions check them
+    for convert in (object_to_apparent, apparent_to_object):
+        with pytest.raises(ConfigError, match=r"transmittance = 1.5 is outside \(0, 1\]; give"):
+            convert(10.0, emissivity=0.9, reflected_c=20.0, transmittance=1.5)
+        with pytest.raises(ConfigError, match=r"emissivity = 0.0 is outside \(0, 1\]"):
+            convert(10.0, emissivity=0.0, reflected_c=20.0)
+
+
 def test_unphysical_reading_is_nan():
     # a reading far colder than eps 0.1 with 20 °C surroundings allows has negative object radiance
     assert math.isnan(apparent_to_object(-30.0, emissivity=0.1, reflected_c=20.0))
@@ -327,7 +336,7 @@ def test_fill_masked_local_median():
     mask[2, 2] = True
     img[2, 2] = 1e6
     out = fill_masked(img, mask)
-    # neighbours of (2,2) after nearest fill: 6,7,8,11,(fill),13,16,17,18 -> median 12 or 13
+    # neighbours of (2,2) after nearest fill: 6,7,8,11,(fill = 7, 11, 13 or 17),13,16,17,18 -> median 11 or 13
     assert 11.0 <= out[2, 2] <= 13.0
     assert out[0, 0] == 0.0
 

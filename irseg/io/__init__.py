@@ -12,7 +12,7 @@ from pathlib import Path
 
 from ..errors import ConfigError
 from ..types import RawFrame
-from ._registry import _READERS, _reg_by_name, _reg_by_suffix, _reg_detect, _reg_names
+from ._registry import _reg_by_name, _reg_by_suffix, _reg_detect, _reg_names
 
 __all__ = ["read_thermogram", "list_readers", "is_candidate", "DEFAULT_MAX_PIXELS"]
 
@@ -73,11 +73,3 @@ def is_candidate(path: str | os.PathLike[str]) -> bool:
     if p.suffix.lower() == ".toml" or p.name.startswith("."):
         return False
     return _reg_by_suffix(p) is not None
-
-
-def reader_suffixes() -> dict[str, tuple[str, ...]]:
-    """Suffixes each reader recognises, e.g. ``{"tiff": (".tif", ".tiff"), ...}``."""
-    return {r.name: r.suffixes for r in _READERS}
-
-
-__all__.append("reader_suffixes")

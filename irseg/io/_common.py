@@ -24,20 +24,24 @@ def _io_display(path: str | os.PathLike[str]) -> str:
     return os.fspath(path)
 
 
+def _io_os_error(name: str, exc: OSError) -> InputError:
+    """The InputError (naming the file and the fix) for an operating-system read failure."""
+    if isinstance(exc, FileNotFoundError):
+        return InputError(f"{name}: no such file; check the path")
+    if isinstance(exc, IsADirectoryError):
+        return InputError(f"{name}: is a folder, not an image file")
+    if isinstance(exc, PermissionError):
+        return InputError(f"{name}: permission denied; make the file readable")
+    return InputError(f"{name}: cannot be read ({exc.strerror or exc}); check the disk or re-copy the file")
+
+
 def _io_open_bytes(path: str | os.PathLike[str], *, limit: int | None = None) -> bytes:
     """Read a file read-only (at most ``limit`` bytes), mapping OS errors to InputError."""
-    name = _io_display(path)
     try:
         with open(path, "rb") as fh:
             return fh.read() if limit is None else fh.read(limit)
-    except FileNotFoundError:
-        raise InputError(f"{name}: no such file; check the path") from None
-    except IsADirectoryError:
-        raise InputError(f"{name}: is a folder, not an image file") from None
-    except PermissionError:
-        raise InputError(f"{name}: permission denied; make the file readable") from None
     except OSError as exc:
-        raise InputError(f"{name}: cannot be read ({exc.strerror or exc})") from None
+        raise _io_os_error(_io_display(path), exc) from None
 
 
 def _io_file_size(path: str | os.PathLike[str]) -> int:
@@ -45,10 +49,8 @@ def _io_file_size(path: str | os.PathLike[str]) -> int:
     name = _io_display(path)
     try:
         st = os.stat(path)
-    except FileNotFoundError:
-        raise InputError(f"{name}: no such file; check the path") from None
     except OSError as exc:
-        raise InputError(f"{name}: cannot be read ({exc.strerror or exc})") from None
+        raise _io_os_error(name, exc) from None
     if Path(path).is_dir():
         raise InputError(f"{name}: is a folder, not an image file")
     return int(st.st_size)

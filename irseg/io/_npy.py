@@ -8,7 +8,14 @@ import numpy as np
 
 from ..errors import InputError, IrsegError, UnsupportedFormatError
 from ..types import RawFrame
-from ._common import _io_check_budget, _io_check_dtype, _io_display, _io_file_size, _io_squeeze_2d
+from ._common import (
+    _io_check_budget,
+    _io_check_dtype,
+    _io_display,
+    _io_file_size,
+    _io_os_error,
+    _io_squeeze_2d,
+)
 
 __all__ = ["read_npy", "NPY_MAGIC", "NPY_SUFFIXES"]
 
@@ -80,10 +87,8 @@ def read_npy(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
             blob = fh.read(nbytes)
     except IrsegError:
         raise
-    except PermissionError:
-        raise InputError(f"{name}: permission denied; make the file readable") from None
     except OSError as exc:
-        raise InputError(f"{name}: cannot be read ({exc.strerror or exc})") from None
+        raise _io_os_error(name, exc) from None
     if len(blob) < nbytes:
         raise InputError(
             f"{name}: truncated NPY: {m} x {n} {dtype} values need {nbytes} bytes, the file holds {len(blob)}"

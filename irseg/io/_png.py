@@ -69,8 +69,8 @@ def read_png(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
     import imageio.v3 as iio
 
     name = _io_display(path)
-    blob = _io_open_bytes(path)
-    width, height, depth, colour = _png_header(name, blob)
+    # signature + IHDR only (33 bytes): colour type and pixel budget are checked before the rest is read
+    width, height, depth, colour = _png_header(name, _io_open_bytes(path, limit=33))
     if colour != 0:
         raise UnsupportedFormatError(
             f"{name}: a {_PNG_COLOUR_TYPES[colour]} PNG, not a radiometric thermogram (a colour picture "
@@ -78,6 +78,7 @@ def read_png(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
             "or NPY instead"
         )
     _io_check_budget(name, (height, width), max_pixels)
+    blob = _io_open_bytes(path)
     try:
         with _io_quiet():
             data = iio.imread(io.BytesIO(blob), extension=".png", plugin="pillow")

@@ -16,6 +16,7 @@ from ._common import (
     _io_corrupt,
     _io_display,
     _io_file_size,
+    _io_os_error,
     _io_quiet,
     _io_squeeze_2d,
 )
@@ -129,10 +130,8 @@ def read_tiff(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
         raise
     except MemoryError:
         raise InputError(f"{name}: not enough memory to decode this TIFF; lower its size") from None
-    except FileNotFoundError:
-        raise InputError(f"{name}: no such file; check the path") from None
-    except PermissionError:
-        raise InputError(f"{name}: permission denied; make the file readable") from None
+    except (FileNotFoundError, PermissionError) as exc:
+        raise _io_os_error(name, exc) from None
     except Exception as exc:  # noqa: BLE001 - any decoder failure is a corrupt file
         if "imagecodecs" in str(exc):
             raise UnsupportedFormatError(
