@@ -43,8 +43,10 @@ class InputImage:
 
 def metadata_candidates(path: str | os.PathLike[str]) -> tuple[Path, Path]:
     """The metadata files that can apply to an image: folder ``survey.toml``, sidecar ``<stem>.toml``."""
+    from .metadata import SURVEY_FILE
+
     image = Path(path)
-    return image.parent / "survey.toml", image.with_suffix(".toml")
+    return image.parent / SURVEY_FILE, image.with_suffix(".toml")
 
 
 def _is_candidate(path: Path) -> bool:

@@ -11,6 +11,7 @@ from collections.abc import Sequence
 from typing import Any
 
 from ._version import __version__
+from .analysis import CAUSES
 from .outputs import normalise_json
 from .report import CAUTIONS as _REPORT_CAUTIONS
 
@@ -29,9 +30,6 @@ ANOMALY_COLUMNS = (
 
 #: Columns of OUT/failures.csv.
 FAILURE_COLUMNS = ("file", "stage", "message")
-
-#: Causes, in the order totals are listed.
-CAUSES = ("missing_insulation", "thermal_bridge", "air_leakage", "moisture", "unclassified")
 
 #: Cautions carried by summary.json (the report's own, single source).
 CAUTIONS = _REPORT_CAUTIONS

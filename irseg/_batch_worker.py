@@ -112,8 +112,6 @@ class ImageOutcome:
     labels_png: bytes | None = field(default=None, repr=False)
 
 
-
-
 def _relativise(text: str, root: str) -> str:
     """Drop the survey root folder from messages (no absolute paths in data files)."""
     prefix = root.rstrip(os.sep)
@@ -203,7 +201,7 @@ def _dedupe(messages: Iterable[str], root: str) -> list[str]:
 
 def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[str]) -> dict[str, Any]:
     """The content of result.json for one processed image (normalised JSON data)."""
-    from dataclasses import asdict, fields, is_dataclass
+    from dataclasses import asdict, is_dataclass
 
     from .metadata import meta_to_dict
 
@@ -220,7 +218,7 @@ def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[st
     params_dict = asdict(params) if is_dataclass(params) else dict(params)
     inside, outside = meta.air.inside_c, meta.air.outside_c
     delta_t = None if inside is None or outside is None else float(inside) - float(outside)
-    anomalies = [{f.name: getattr(a, f.name) for f in fields(a)} for a in analysis.anomalies]
+    anomalies = [asdict(a) for a in analysis.anomalies]
     warnings = _dedupe([*frame.warnings, *result.warnings, *analysis.warnings, *render_warnings], root)
     rows, cols = frame.temperature_c.shape
     record = {

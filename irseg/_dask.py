@@ -6,7 +6,8 @@ dask's nanny starts workers with ``MALLOC_TRIM_THRESHOLD_=65536`` (config key
 ``distributed.nanny.pre-spawn-environ``) so that glibc returns freed memory to
 the system early. For irseg's pattern (many medium NumPy temporaries per
 image) it makes every allocation above 64 KiB go back and forth to the kernel;
-it was measured at 5-6x slower numpy tasks. So:
+numpy tasks were reported 5-6x slower under it (the figure comes from the issue that
+asked for this path; it was not re-measured in this repository). So:
 
 - a cluster irseg starts itself (``"local"``) is created with that variable
   removed from the pre-spawn environment (glibc's adaptive default applies);

@@ -188,8 +188,10 @@ def _check_out_dir(out_dir: Path) -> None:
 
 def _validate_settings(settings: SurveySettings) -> None:
     """Fail early on overrides or a reader name that would fail every image."""
-    if settings.overrides:
-        _validate_overrides(settings.overrides)
+    if settings.overrides:  # checked once, so a bad one fails the run instead of every image
+        from .metadata import check_overrides
+
+        check_overrides(settings.overrides)
     if settings.format is not None:
         from .io import list_readers
 
@@ -201,13 +203,6 @@ def _validate_settings(settings: SurveySettings) -> None:
     colormap_lut(settings.cmap)
     if int(settings.max_pixels) < 1:
         raise ConfigError(f"--max-pixels {settings.max_pixels} must be at least 1")
-
-
-def _validate_overrides(overrides: Mapping[str, Mapping[str, Any]]) -> None:
-    """Check the overrides once, so a bad one fails the run instead of every image."""
-    from .metadata import check_overrides
-
-    check_overrides(overrides)
 
 
 def run_survey(

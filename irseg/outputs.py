@@ -177,9 +177,10 @@ def encode_png(image: np.ndarray) -> bytes:
     """Encode a uint8 RGB ``(M, N, 3)``, or a uint8/uint16 ``(M, N)`` array, as PNG bytes.
 
     Colour images are given in RGB order (converted to OpenCV's BGR here). The
-    compression settings are fixed (zlib level 1, no row filter: on 640x480 overlays
-    about 4x faster than OpenCV's default and smaller), so the same array always gives
-    the same bytes with the same OpenCV version.
+    compression settings are fixed (zlib level 1, no row filter: on the 590x736 overlay of
+    a 640x480 benchmark frame, measured with OpenCV 5.0, about as fast as OpenCV's default
+    and 0.55x its size), so the same array always gives the same bytes with the same
+    OpenCV version.
 
     Raises
     ------

@@ -22,6 +22,7 @@ from typing import Any
 import cv2
 import numpy as np
 
+from .analysis import CAUSES
 from .errors import ConfigError, OutputError
 from ._render_margins import LEFT as _LEFT
 from ._render_margins import NO_DATA as _NO_DATA
@@ -42,9 +43,6 @@ __all__ = [
     "render_overlay",
     "label_image",
 ]
-
-#: The five anomaly causes, in legend order.
-CAUSES = ("missing_insulation", "thermal_bridge", "air_leakage", "moisture", "unclassified")
 
 #: Outline colour (R, G, B) of each cause. Saturated hues that none of the open colour maps
 #: (inferno, magma, gray ...) produce, so outlines stay visible on any thermogram.
@@ -215,9 +213,9 @@ def colormap_lut(name: str) -> np.ndarray:
         key = "gray"
     if key not in COLORMAPS:
         near = difflib.get_close_matches(key, list(COLORMAPS), n=1)
-        hint = f"; did you mean {near[0]!r}?" if near else ""
+        hint = f" (did you mean {near[0]!r}?)" if near else ""
         raise ConfigError(
-            f"colour map {name!r} is not available{hint} Use one of: {', '.join(COLORMAPS)}"
+            f"colour map {name!r} is not available{hint}; use one of: {', '.join(COLORMAPS)}"
         )
     ramp = np.arange(256, dtype=np.uint8).reshape(256, 1)
     code = COLORMAPS[key]

@@ -263,6 +263,17 @@ def test_null_numbers_render_as_a_dash():
     assert row[9:] == [DASH, DASH, DASH]
 
 
+def test_area_in_pixels_is_shown_when_the_geometry_is_unknown():
+    summary, overlays = make_summary()
+    row_data = next(a for a in summary["anomalies"] if a["image"] == "west_wall_0001.tif" and a["anomaly"] == 1)
+    row_data["area_px"] = 37  # area_m2 is None for this row: the pixel count is the only area known
+    p = parse(render_report(summary, overlays))
+    row = next(r for r in p.rows if r[1] == "west_wall_0001.tif" and r[2] == "1")
+    assert row[6] == f"{DASH} 37 px"
+    other = next(r for r in p.rows if r[1] == "west_wall_0001.tif" and r[2] == "2")
+    assert "px" not in other[6]  # with m² known, no pixel count
+
+
 def test_small_values_are_not_shown_as_zero():
     summary, overlays = make_summary()
     summary["anomalies"][0].update(area_m2=0.0034, area_low_m2=0.0029, area_high_m2=0.0041, excess_w=-0.00001)

@@ -14,6 +14,7 @@ from typing import Any
 import click
 
 from ..errors import IrsegError
+from ..pipeline import DEFAULT_MAX_PIXELS
 
 __all__ = ["segment_cmd", "parse_set"]
 
@@ -24,22 +25,33 @@ CAUTION_LINE = (
     "codes and licensed practice, and mind the safety cautions in the report."
 )
 
-# option name -> (section, key)
-_OVERRIDES = {
-    "emissivity": ("surface", "emissivity"),
-    "reflected_c": ("surface", "reflected_c"),
-    "view": ("surface", "view"),
-    "inside_c": ("air", "inside_c"),
-    "outside_c": ("air", "outside_c"),
-    "wind": ("air", "wind_m_s"),
-    "distance": ("camera", "distance_m"),
-    "hfov": ("camera", "hfov_deg"),
-    "pixel_m": ("camera", "pixel_m"),
-    "min_step_k": ("segment", "min_step_k"),
-    "noise_k": ("segment", "noise_k"),
-    "degree_days": ("analysis", "degree_days"),
-    "frsi_limit": ("analysis", "frsi_limit"),
-}
+# The metadata options: flag, [section] key, type, help. The one table behind both the click
+# options and the overrides they become.
+_OVERRIDE_OPTIONS: tuple[tuple[str, str, str, Any, str], ...] = (
+    ("--emissivity", "surface", "emissivity", float, "[surface] emissivity, (0, 1]."),
+    ("--reflected-c", "surface", "reflected_c", float, "[surface] reflected_c, reflected temperature in °C."),
+    ("--view", "surface", "view", click.Choice(["interior", "exterior", "roof"]), "[surface] view."),
+    ("--inside-c", "air", "inside_c", float, "[air] inside_c, inside air temperature in °C."),
+    ("--outside-c", "air", "outside_c", float, "[air] outside_c, outside air temperature in °C."),
+    ("--wind", "air", "wind_m_s", float, "[air] wind_m_s, wind speed at the surface in m/s."),
+    ("--distance", "camera", "distance_m", float, "[camera] distance_m, camera to surface in m."),
+    ("--hfov", "camera", "hfov_deg", float, "[camera] hfov_deg, horizontal field of view in degrees."),
+    ("--pixel-m", "camera", "pixel_m", float, "[camera] pixel_m, pixel footprint on the surface in m."),
+    ("--min-step-k", "segment", "min_step_k", float, "[segment] min_step_k, smallest step that makes an edge, K."),
+    ("--noise-k", "segment", "noise_k", float, "[segment] noise_k, image noise in K (default: estimated)."),
+    ("--degree-days", "analysis", "degree_days", float, "[analysis] degree_days, K·d per year."),
+    ("--frsi-limit", "analysis", "frsi_limit", float, "[analysis] frsi_limit, mould-risk limit of f_Rsi."),
+)
+
+# click's parameter name of each option -> (section, key)
+_OVERRIDES = {flag[2:].replace("-", "_"): (section, key) for flag, section, key, _, _ in _OVERRIDE_OPTIONS}
+
+
+def _override_options(command: Any) -> Any:
+    """Add the metadata options of :data:`_OVERRIDE_OPTIONS`, in table order, to a click command."""
+    for flag, _, _, kind, text in reversed(_OVERRIDE_OPTIONS):
+        command = click.option(flag, type=kind, help=text)(command)
+    return command
 
 
 def parse_set(text: str) -> tuple[str, str, Any]:
@@ -91,12 +103,19 @@ def _sigterm_as_interrupt() -> Iterator[None]:
         signal.signal(signal.SIGTERM, previous)
 
 
-def _heat_text(excess_w: float | None, excess_kwh_year: float | None) -> str:
+def _heat_text(excess_w: float | None, excess_kwh_year: float | None, *, n_anomalies: int,
+               n_unmeasured: int) -> str:
+    if n_anomalies == 0:
+        return "no excess heat loss to estimate"
     if excess_w is None and excess_kwh_year is None:
-        return "no excess heat-loss estimate (needs geometry and inside/outside temperatures)"
-    watts = "n/a" if excess_w is None else f"{excess_w:,.0f} W"
-    energy = "n/a" if excess_kwh_year is None else f"{excess_kwh_year:,.0f} kWh/year"
-    return f"estimated excess heat loss {watts}, {energy}"
+        return ("no excess heat-loss estimate; where the report warns of missing geometry or air "
+                "temperatures, give --distance and --hfov (or --pixel-m) and --inside-c/--outside-c")
+    watts = "W n/a" if excess_w is None else f"{excess_w:,.0f} W"
+    energy = "kWh/year n/a" if excess_kwh_year is None else f"{excess_kwh_year:,.0f} kWh/year"
+    text = f"estimated excess heat loss {watts}, {energy}"
+    if n_unmeasured:
+        text += f" ({n_unmeasured} of {n_anomalies} anomalies have no estimate and are not counted)"
+    return text
 
 
 def _readers() -> list[str]:
@@ -120,24 +139,12 @@ def _readers() -> list[str]:
               "(tcp://host:8786) whose workers have irseg installed.")
 @click.option("--format", "format_", type=click.Choice(_readers()), default=None,
               help="Force a reader instead of detecting the format.")
-@click.option("--max-pixels", type=click.IntRange(min=1), default=40_000_000, show_default=True,
-              help="Largest image accepted, checked before decoding.")
+@click.option("--max-pixels", type=click.IntRange(min=1), default=DEFAULT_MAX_PIXELS, show_default=True,
+              help="Largest image accepted, in pixels (rows x columns), checked before decoding.")
 @click.option("--cmap", default="inferno", show_default=True,
               help="Colour map of the overlays (inferno, magma, plasma, viridis, cividis, turbo, gray).")
 @click.option("--fail-fast", is_flag=True, help="Stop at the first failed image (exit 1).")
-@click.option("--emissivity", type=float, help="[surface] emissivity, (0, 1].")
-@click.option("--reflected-c", type=float, help="[surface] reflected_c, reflected temperature in °C.")
-@click.option("--view", type=click.Choice(["interior", "exterior", "roof"]), help="[surface] view.")
-@click.option("--inside-c", type=float, help="[air] inside_c, inside air temperature in °C.")
-@click.option("--outside-c", type=float, help="[air] outside_c, outside air temperature in °C.")
-@click.option("--wind", type=float, help="[air] wind_m_s, wind speed at the surface in m/s.")
-@click.option("--distance", type=float, help="[camera] distance_m, camera to surface in m.")
-@click.option("--hfov", type=float, help="[camera] hfov_deg, horizontal field of view in degrees.")
-@click.option("--pixel-m", type=float, help="[camera] pixel_m, pixel footprint on the surface in m.")
-@click.option("--min-step-k", type=float, help="[segment] min_step_k, smallest step that makes an edge, K.")
-@click.option("--noise-k", type=float, help="[segment] noise_k, image noise in K (default: estimated).")
-@click.option("--degree-days", type=float, help="[analysis] degree_days, K·d per year.")
-@click.option("--frsi-limit", type=float, help="[analysis] frsi_limit, mould-risk limit of f_Rsi.")
+@_override_options
 @click.option("--set", "sets", metavar="SECTION.KEY=VALUE", multiple=True,
               help="Any metadata key, e.g. --set camera.tilt_deg=20 (repeatable; applied before the options above).")
 @click.option("-q", "--quiet", is_flag=True, help="Print only errors and failed images.")
@@ -219,9 +226,11 @@ def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, job
     if not quiet:
         resumed = f" ({result.n_skipped} resumed)" if result.n_skipped else ""
         failed = f", {result.n_failed} failed (see {out_dir / 'failures.csv'})" if result.n_failed else ""
+        heat = _heat_text(result.excess_w, result.excess_kwh_year, n_anomalies=result.n_anomalies,
+                          n_unmeasured=int(result.summary["totals"].get("n_unmeasured") or 0))
         click.echo(
             f"irseg: {result.n_ok} of {len(result.outcomes)} images ok{resumed}{failed}; "
-            f"{result.n_anomalies} anomalies; {_heat_text(result.excess_w, result.excess_kwh_year)}; "
+            f"{result.n_anomalies} anomalies; {heat}; "
             f"report: {result.report_path}"
         )
         click.echo(CAUTION_LINE)

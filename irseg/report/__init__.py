@@ -66,6 +66,7 @@ _ANOMALY_TABLE_KEYS = (
     "area_m2",
     "area_low_m2",
     "area_high_m2",
+    "area_px",
     "delta_k",
     "excess_w",
     "excess_low_w",

@@ -161,3 +161,17 @@ def test_module_entry_point_runs(tmp_path):
     )
     assert proc.returncode == 0, proc.stderr
     assert "1 of 1 images ok" in proc.stdout
+
+
+def test_heat_text_says_what_is_missing_and_what_was_not_counted():
+    from irseg.cli.segment import _heat_text
+
+    # nothing found: nothing to estimate, and no advice to add geometry
+    assert _heat_text(None, None, n_anomalies=0, n_unmeasured=0) == "no excess heat loss to estimate"
+    # anomalies but no estimate at all: the line names the options that supply the inputs
+    text = _heat_text(None, None, n_anomalies=3, n_unmeasured=3)
+    assert "--distance" in text and "--inside-c" in text
+    # partial: units on both figures and the count that the sums skip
+    text = _heat_text(1234.4, 5678.9, n_anomalies=4, n_unmeasured=1)
+    assert "1,234 W" in text and "5,679 kWh/year" in text and "1 of 4 anomalies" in text
+    assert "kWh/year n/a" in _heat_text(10.0, None, n_anomalies=1, n_unmeasured=0)
