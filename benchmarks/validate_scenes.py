@@ -86,7 +86,7 @@ def _settings(results: list[dict]) -> str:
             f"layers {layers}. Conditions: {cond}. Viewed-face h {s['h_view_w_m2k']:.3f} W/m²K "
             f"(analysis used {res['h_w_m2k_analysis']:.3f}). Camera: HFOV {c['hfov_deg']}°, distance "
             f"{c['distance_m']} m, tilt {c['tilt_deg']}°, PSF σ {c['psf_sigma_px']} px, NETD {c['netd_k']} K, "
-            f"column σ {0.02 if c['column_sigma_k'] is None else c['column_sigma_k']} K, shading {c['shading']}, "
+            f"column σ {c['column_sigma_k']} K, shading {c['shading']}, "
             f"dead pixels {c['dead_pixels']}, seed {c['seed']}."
         )
     return "\n".join(out)

@@ -11,6 +11,7 @@ import click
 
 __all__ = ["scene_cmd"]
 
+# copies of irseg.scenes.PRESETS / FORMATS, so --help needs no physics import (test_survey keeps them in step)
 _KINDS = ("timber-wall", "ceiling", "masonry-wall", "flat-roof")
 _FORMATS = ("tiff-float", "tiff-u16", "png16", "csv", "npy")
 # default camera distance per kind: the view must fit on the simulated element
@@ -59,16 +60,20 @@ def sample_cmd(out: Path) -> None:
 @click.argument("kind", type=click.Choice(_KINDS))
 @click.argument("out", type=click.Path(file_okay=False, path_type=Path))
 @click.option("--stem", default=None, help="File name without suffix (default: the kind).")
-@click.option("--format", "fmt", type=click.Choice(_FORMATS), default="tiff-float", show_default=True)
+@click.option("--format", "fmt", type=click.Choice(_FORMATS), default="tiff-float", show_default=True,
+              help="Image file format.")
 @click.option("--inside", "inside_c", type=float, default=20.0, show_default=True, help="Inside air, °C.")
 @click.option("--outside", "outside_c", type=float, default=0.0, show_default=True,
               help="Outside air, °C (flat-roof: ignored, the day-night schedule sets it).")
 @click.option("--wind", "wind_m_s", type=float, default=1.0, show_default=True, help="Wind speed, m/s.")
-@click.option("--distance", "distance_m", type=float, default=None, help="Camera distance, m.")
+@click.option("--distance", "distance_m", type=float, default=None,
+              help="Camera distance, m (default: 2.4-4.4 m by kind, so the view fits on the element).")
 @click.option("--hfov", "hfov_deg", type=float, default=45.0, show_default=True, help="Horizontal FOV, degrees.")
-@click.option("--size", type=(int, int), default=(320, 240), show_default=True, help="Columns, rows.")
-@click.option("--netd", "netd_k", type=float, default=0.05, show_default=True, help="Noise, K.")
-@click.option("--seed", type=int, default=0, show_default=True)
+@click.option("--size", type=(int, int), default=(320, 240), show_default=True,
+              help="Image size: columns, rows (pixels).")
+@click.option("--netd", "netd_k", type=float, default=0.05, show_default=True, help="Temporal noise (NETD), K.")
+@click.option("--seed", type=int, default=0, show_default=True,
+              help="Seed of the camera noise (same seed, same file).")
 def make_cmd(kind: str, out: Path, stem: str | None, fmt: str, inside_c: float, outside_c: float,
              wind_m_s: float, distance_m: float | None, hfov_deg: float, size: tuple[int, int], netd_k: float,
              seed: int) -> None:

@@ -113,9 +113,19 @@ class Shot:
     camera: CameraModel
 
 
+# The camera is the truth side of the validation: it keeps its own footprint formula instead of
+# calling irseg.analysis.pixel_footprint_m, so a slip in the analysis' geometry shows up as an
+# area error in benchmarks/validate_scenes.py instead of cancelling out (and the bundled samples
+# do not move when the analysis changes).
 def pixel_footprint_m(*, hfov_deg: float, distance_m: float, n_cols: int) -> float:
     """``2·d·tan(HFOV/2)/N``: one pixel's width on a surface normal to the view, m."""
     return 2.0 * distance_m * float(np.tan(np.radians(hfov_deg) / 2.0)) / n_cols
+
+
+def _pixel_pitch_m(camera: CameraModel) -> tuple[float, float]:
+    """Pixel pitch on the surface across a row and down a column (stretched by 1/cos tilt), m."""
+    p = pixel_footprint_m(hfov_deg=camera.hfov_deg, distance_m=camera.distance_m, n_cols=camera.n_cols)
+    return p, p / float(np.cos(np.radians(camera.tilt_deg)))
 
 
 def view_window(element, camera: CameraModel) -> tuple[float, float, float, float]:
@@ -126,8 +136,7 @@ def view_window(element, camera: CameraModel) -> tuple[float, float, float, floa
     ConfigError
         When the view does not fit on the element.
     """
-    p = pixel_footprint_m(hfov_deg=camera.hfov_deg, distance_m=camera.distance_m, n_cols=camera.n_cols)
-    py = p / float(np.cos(np.radians(camera.tilt_deg)))
+    p, py = _pixel_pitch_m(camera)
     cx, cy = (element.width_m / 2, element.height_m / 2) if camera.centre_m is None else camera.centre_m
     w, h = camera.n_cols * p, camera.n_rows * py
     if (cx - w / 2 < -1e-9 or cx + w / 2 > element.width_m + 1e-9
@@ -140,8 +149,7 @@ def view_window(element, camera: CameraModel) -> tuple[float, float, float, floa
 
 
 def _sample_coords(scene, cam: CameraModel) -> tuple[np.ndarray, np.ndarray, float]:
-    p = pixel_footprint_m(hfov_deg=cam.hfov_deg, distance_m=cam.distance_m, n_cols=cam.n_cols)
-    py = p / float(np.cos(np.radians(cam.tilt_deg)))
+    p, py = _pixel_pitch_m(cam)
     x0, x1, y0, y1 = view_window(scene.element, cam)
     cx, cy = 0.5 * (x0 + x1), 0.5 * (y0 + y1)
     s = cam.supersample
@@ -151,13 +159,22 @@ def _sample_coords(scene, cam: CameraModel) -> tuple[np.ndarray, np.ndarray, flo
     return ys, xs, p
 
 
-def _resample(field: np.ndarray, ys: np.ndarray, xs: np.ndarray, cell: float, order: int, s: int) -> np.ndarray:
-    """Sample a cell-centred field at (ys × xs) and average s×s sub-samples per pixel."""
+def _at_samples(field: np.ndarray, ys: np.ndarray, xs: np.ndarray, cell: float, order: int) -> np.ndarray:
+    """A cell-centred field sampled at the sub-sample points (ys × xs in m), same units as ``field``."""
     rr = np.broadcast_to((ys / cell - 0.5)[:, None], (ys.size, xs.size))
     cc = np.broadcast_to((xs / cell - 0.5)[None, :], (ys.size, xs.size))
-    v = ndimage.map_coordinates(field.astype(float), [rr, cc], order=order, mode="nearest")
-    m, n = ys.size // s, xs.size // s
+    return ndimage.map_coordinates(field.astype(float), [rr, cc], order=order, mode="nearest")
+
+
+def _pixel_mean(v: np.ndarray, s: int) -> np.ndarray:
+    """Average the s×s sub-samples of every pixel."""
+    m, n = v.shape[0] // s, v.shape[1] // s
     return v.reshape(m, s, n, s).mean(axis=(1, 3))
+
+
+def _resample(field: np.ndarray, ys: np.ndarray, xs: np.ndarray, cell: float, order: int, s: int) -> np.ndarray:
+    """Sample a cell-centred field at (ys × xs) and average s×s sub-samples per pixel."""
+    return _pixel_mean(_at_samples(field, ys, xs, cell, order), s)
 
 
 def shoot(scene, camera: CameraModel) -> Shot:
@@ -182,16 +199,11 @@ def shoot(scene, camera: CameraModel) -> Shot:
     eps = scene.conditions.emissivity
     band = camera.band_um
 
-    def radiance_image(surface_c: np.ndarray) -> np.ndarray:
-        rr = np.broadcast_to((ys / cell - 0.5)[:, None], (ys.size, xs.size))
-        cc = np.broadcast_to((xs / cell - 0.5)[None, :], (ys.size, xs.size))
-        ts = ndimage.map_coordinates(surface_c, [rr, cc], order=1, mode="nearest")
-        tr = ndimage.map_coordinates(scene.radiant_c, [rr, cc], order=1, mode="nearest")
-        lum = eps * band_radiance(ts + _K0, band_um=band) + (1 - eps) * band_radiance(tr + _K0, band_um=band)
-        m, n = ys.size // s, xs.size // s
-        return lum.reshape(m, s, n, s).mean(axis=(1, 3))
-
-    lum = radiance_image(scene.surface_c)
+    # radiance leaving the surface at every sub-sample, then integrated over the pixel
+    ts = _at_samples(scene.surface_c, ys, xs, cell, 1)
+    tr = _at_samples(scene.radiant_c, ys, xs, cell, 1)
+    lum = eps * band_radiance(ts + _K0, band_um=band) + (1 - eps) * band_radiance(tr + _K0, band_um=band)
+    lum = _pixel_mean(lum, s)
     if camera.psf_sigma_px > 0:
         lum = ndimage.gaussian_filter(lum, camera.psf_sigma_px, mode="nearest")
     m, n = lum.shape
@@ -211,7 +223,7 @@ def shoot(scene, camera: CameraModel) -> Shot:
         dead.flat[idx] = True
         jump = rng.uniform(15.0, 40.0, camera.dead_pixels) * rng.choice([-1.0, 1.0], camera.dead_pixels)
         apparent.flat[idx] += jump
-    obj = _resample(scene.surface_c, ys, xs, cell, 1, s)
+    obj = _pixel_mean(ts, s)
     base = _resample(scene.baseline_c, ys, xs, cell, 1, s)
-    fps = np.stack([_resample(f.astype(float), ys, xs, cell, 0, s) >= 0.5 for f in scene.footprints])
+    fps = np.stack([_resample(f, ys, xs, cell, 0, s) >= 0.5 for f in scene.footprints])
     return Shot(apparent, obj, base, fps, dead, p, reflected, camera)

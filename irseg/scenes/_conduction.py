@@ -315,8 +315,8 @@ def solve_transient(
     capacity_j_k : (nz, ny, nx) ndarray
         Heat capacity of each cell, ρc·V, J/K.
     rhs_of_time : callable
-        ``rhs_of_time(time_s) -> (op_boundary_update, rhs)``: a (g_in, g_out) pair or
-        None to keep the operator, and the source vector at that time.
+        ``rhs_of_time(time_s) -> rhs``: the (nz, ny, nx) source vector at the end of the
+        step, W (the operator, surface coefficients included, stays that of ``op``).
     t0 : (nz, ny, nx) ndarray
         Initial temperatures.
     dt_s : float

@@ -363,7 +363,7 @@ def lintel(element: Element, *, x0_m: float, x1_m: float, y0_m: float, height_m:
         mat = MATERIALS["concrete"]
         zi = element.insulation
         blocks = (Block(mat, x0_m, x1_m, y0_m, y0_m + height_m, *z),
-                  Block(MATERIALS["concrete"], x0_m, x1_m, y0_m, y0_m + height_m, zi[0], zi[0] + 0.5 * (zi[1] - zi[0])))
+                  Block(mat, x0_m, x1_m, y0_m, y0_m + height_m, zi[0], zi[0] + 0.5 * (zi[1] - zi[0])))
         text = "concrete lintel, insulation thinned over it"
     else:
         blocks = (Block(MATERIALS["softwood"], x0_m, x1_m, y0_m, y0_m + height_m, *element.insulation),)

@@ -14,6 +14,7 @@ so a seeded survey is byte-identical when remade.
 
 from __future__ import annotations
 
+import io
 import math
 import os
 from pathlib import Path
@@ -23,6 +24,8 @@ import numpy as np
 import tifffile
 
 from irseg.errors import ConfigError, OutputError
+from irseg.metadata import parse_metadata_text
+from irseg.outputs import write_bytes
 from irseg.radiometry import apparent_to_object
 
 __all__ = ["FORMATS", "encode_values", "write_image", "write_toml", "toml_text"]
@@ -52,13 +55,10 @@ def encode_values(
     return vals
 
 
-def _atomic_bytes(path: Path, data: bytes) -> None:
-    tmp = path.with_name(path.name + ".part")
-    try:
-        tmp.write_bytes(data)
-        os.replace(tmp, path)
-    except OSError as exc:
-        raise OutputError(f"{path}: cannot write ({exc.strerror}); check the folder is writable") from exc
+def _tiff_bytes(array: np.ndarray) -> bytes:
+    buf = io.BytesIO()
+    tifffile.imwrite(buf, array, photometric="minisblack", software=None, metadata=None)
+    return buf.getvalue()
 
 
 def _to_raw(vals: np.ndarray, scale: float, offset: float) -> np.ndarray:
@@ -111,22 +111,14 @@ def write_image(
         raise ConfigError(f"fmt={fmt!r} is not one of {FORMATS}")
     path = Path(directory) / (stem + _SUFFIX[fmt])
     if fmt == "tiff-float":
-        import io
-
-        buf = io.BytesIO()
-        tifffile.imwrite(buf, values.astype(np.float32), photometric="minisblack", software=None, metadata=None)
-        _atomic_bytes(path, buf.getvalue())
+        data = _tiff_bytes(values.astype(np.float32))
     elif fmt == "tiff-u16":
-        import io
-
-        buf = io.BytesIO()
-        tifffile.imwrite(buf, _to_raw(values, scale, offset), photometric="minisblack", software=None, metadata=None)
-        _atomic_bytes(path, buf.getvalue())
+        data = _tiff_bytes(_to_raw(values, scale, offset))
     elif fmt == "png16":
         ok, enc = cv2.imencode(".png", _to_raw(values, scale, offset), [cv2.IMWRITE_PNG_COMPRESSION, 9])
         if not ok:
             raise OutputError(f"{path}: PNG encoding failed")
-        _atomic_bytes(path, enc.tobytes())
+        data = enc.tobytes()
     elif fmt == "csv":
         if delimiter == decimal:
             raise ConfigError(f"CSV delimiter {delimiter!r} equals the decimal mark; use ';' with decimal ','")
@@ -136,14 +128,12 @@ def write_image(
             if decimal != ".":
                 cells = [c.replace(".", decimal) for c in cells]
             lines.append(delimiter.join(cells))
-        _atomic_bytes(path, ("\n".join(lines) + "\n").encode("ascii"))
+        data = ("\n".join(lines) + "\n").encode("ascii")
     else:
-        import io
-
         buf = io.BytesIO()
         np.save(buf, values.astype(np.float32), allow_pickle=False)
-        _atomic_bytes(path, buf.getvalue())
-    return path
+        data = buf.getvalue()
+    return write_bytes(path, data)
 
 
 def _toml_value(v) -> str:
@@ -177,7 +167,18 @@ def toml_text(sections: dict, *, header: str = "") -> str:
 
 
 def write_toml(path: str | os.PathLike[str], sections: dict, *, header: str = "") -> Path:
-    """Write a metadata TOML file atomically; returns its path."""
-    p = Path(path)
-    _atomic_bytes(p, toml_text(sections, header=header).encode("utf-8"))
-    return p
+    """Write a metadata TOML file atomically; returns its path.
+
+    The text is first checked against the metadata schema (``irseg.types`` sections, via
+    :func:`irseg.metadata.parse_metadata_text`), so a file irseg would refuse is never written.
+
+    Raises
+    ------
+    MetadataError
+        Unknown section or key, or a value out of range.
+    OutputError
+        The file cannot be written.
+    """
+    text = toml_text(sections, header=header)
+    parse_metadata_text(text, source=Path(path).name)
+    return write_bytes(path, text.encode("utf-8"))

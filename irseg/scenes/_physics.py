@@ -4,6 +4,13 @@ The coefficients follow the ISO 6946 annex (surface resistances): a convective
 part plus a linearised radiative part ``h_r = ε·4σT_m³`` (REFERENCE-VALUES §2.2),
 so the simulated surfaces obey the same physics the analysis assumes when it
 turns ΔT into watts.
+
+These helpers deliberately repeat ``irseg.analysis``'s ``h_radiative`` /
+``h_convective_interior`` / ``h_convective_exterior`` instead of calling them: the
+scenes are the truth side of the validation, so a slip in the analysis'
+coefficients must show up as an excess-heat error there rather than cancel out,
+and the bundled sample survey must not change when the analysis does. Both are
+checked against the same ISO 6946 / ISO 13789 values in their own tests.
 """
 
 from __future__ import annotations

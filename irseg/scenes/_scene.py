@@ -66,6 +66,10 @@ class Scene:
         Heat flows in/out of the defective element (W) and the relative imbalance.
     settings : dict
         Plain description of the simulation (for documents and truth files).
+    excess_w_m2 : (ny, nx) ndarray
+        Extra heat flux density through the viewed face caused by the defects, W/m².
+    owner : (ny, nx) int ndarray
+        Index of the defect each cell's excess is charged to (−1: none); see ``rim_m``.
     """
 
     name: str
@@ -239,6 +243,7 @@ def simulate_scene(
     if not defects:
         raise ConfigError("a scene needs at least one defect (the truth compares with and without)")
     face = "inside" if view == "interior" else "outside"
+    key = "in" if face == "inside" else "out"
     dz = element.dz_m()
     results = []
     for ds in (defects, ()):
@@ -248,7 +253,6 @@ def simulate_scene(
             t = _steady(element, k, fc)
         else:
             t, fc = _night(element, k, c, conditions, night)
-        key = "in" if face == "inside" else "out"
         ts, q = surface_fields(t, conductivity=k, dz_m=dz, h=fc[f"h_{key}"], ambient=fc[f"amb_{key}"], face=face)
         _, q_in = surface_fields(t, conductivity=k, dz_m=dz, h=fc["h_in"], ambient=fc["amb_in"], face="inside")
         _, q_out = surface_fields(t, conductivity=k, dz_m=dz, h=fc["h_out"], ambient=fc["amb_out"], face="outside")
@@ -276,7 +280,6 @@ def simulate_scene(
     balance = {"inside_face_w": q_into, "outside_face_w": q_leave,
                "relative_imbalance": None if night is not None
                else abs(q_into - q_leave) / max(abs(q_into), 1e-12)}
-    key = "in" if face == "inside" else "out"
     settings = {
         "element": element.description, "kind": element.kind, "view": view,
         "width_m": element.width_m, "height_m": element.height_m, "cell_m": element.cell_m,

@@ -8,14 +8,18 @@ byte-identical files.
 
 from __future__ import annotations
 
+import inspect
+import io
 import json
 import os
+import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
 from irseg.errors import ConfigError
+from irseg.outputs import write_bytes, write_text
 from irseg.scenes import _elements as E
 from irseg.scenes._camera import CameraModel, Shot, shoot, view_window
 from irseg.scenes._export import encode_values, write_image, write_toml
@@ -147,8 +151,6 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
         builder = PRESETS[kind]
     except KeyError:
         raise ConfigError(f"scene kind {kind!r} is unknown; use one of {sorted(PRESETS)}") from None
-    import inspect
-
     allowed = set(inspect.signature(builder).parameters)
     unknown = sorted(set(options) - allowed)
     if unknown:
@@ -176,9 +178,8 @@ def _sidecar(recipe: ImageRecipe, scene: Scene, shot: Shot) -> dict:
         camera.update(scale=recipe.scale, offset=recipe.offset)
     if recipe.export_emissivity != 1.0:
         camera.update(export_emissivity=recipe.export_emissivity, export_reflected_c=round(shot.reflected_c, 2))
-    heat_flow = "upward" if scene.element.heat_flow == "upward" else "horizontal"
     surface = {"emissivity": cond.emissivity, "reflected_c": round(shot.reflected_c, 2), "view": scene.view,
-               "heat_flow": heat_flow}
+               "heat_flow": scene.element.heat_flow}
     air = {"inside_c": cond.inside_c, "outside_c": round(float(scene.settings["outside_c"]), 2),
            "wind_m_s": cond.wind_m_s}
     out = {"camera": camera, "surface": surface, "air": air}
@@ -245,43 +246,39 @@ def export_image(recipe: ImageRecipe, directory: str | os.PathLike[str], *, side
 # --------------------------------------------------------------------------- the sample survey
 
 
-def _cam(**kw) -> CameraModel:
-    return CameraModel(**kw)
-
-
 SAMPLE_RECIPES: tuple[ImageRecipe, ...] = (
     ImageRecipe("lf01_lounge_north_wall", "Lounge, north wall from inside: studs at 600 mm, one empty bay",
                 "timber-wall", {"defects": ("bay:1",), "outside_c": 1.0},
-                _cam(hfov_deg=45.0, distance_m=2.6, centre_m=(1.2, 0.9), seed=101, dead_pixels=3),
+                CameraModel(hfov_deg=45.0, distance_m=2.6, centre_m=(1.2, 0.9), seed=101, dead_pixels=3),
                 "tiff-float"),
     ImageRecipe("lf02_bedroom1_west_wall", "Bedroom 1, west wall from inside: studs at 400 mm, settled fill",
                 "timber-wall", {"spacing_m": 0.4, "defects": ("settled:2:0.30", "void:1.43:1.79:1.05:1.5:0.098"),
                                 "outside_c": 1.0},
-                _cam(hfov_deg=45.0, distance_m=2.6, centre_m=(1.2, 0.9), seed=102), "png16",
+                CameraModel(hfov_deg=45.0, distance_m=2.6, centre_m=(1.2, 0.9), seed=102), "png16",
                 scale=0.01, offset=-50.0),
     ImageRecipe("lf03_landing_wall", "Landing wall from inside: timber header and a half-empty bay",
                 "timber-wall", {"defects": ("bay:3:0.9",), "lintel": (0.0, 1.2, 0.3, 0.195), "outside_c": 1.0},
-                _cam(n_cols=160, n_rows=120, hfov_deg=45.0, distance_m=2.6, centre_m=(1.2, 0.9), seed=103,
-                     psf_sigma_px=0.7), "csv", delimiter=";", decimal=","),
+                CameraModel(n_cols=160, n_rows=120, hfov_deg=45.0, distance_m=2.6, centre_m=(1.2, 0.9), seed=103,
+                            psf_sigma_px=0.7), "csv", delimiter=";", decimal=","),
     ImageRecipe("lf04_bedroom2_ceiling", "Bedroom 2 ceiling below the loft: insulation pushed aside",
                 "ceiling", {"outside_c": 1.0, "patch": (1.32, 1.95, 0.6, 1.2)},
-                _cam(hfov_deg=45.0, distance_m=2.4, centre_m=(1.2, 0.9), seed=104), "npy"),
+                CameraModel(hfov_deg=45.0, distance_m=2.4, centre_m=(1.2, 0.9), seed=104), "npy"),
     ImageRecipe("lf05_extension_east_wall", "Rear extension, east wall from outside: slab edge and a missing board",
                 "masonry-wall", {"slab_y": 1.9, "patch": (0.9, 1.7, 0.7, 1.3), "outside_c": 1.0, "wind_m_s": 1.5},
-                _cam(hfov_deg=45.0, distance_m=4.4, centre_m=(2.0, 1.5), seed=105, dead_pixels=2), "tiff-u16",
+                CameraModel(hfov_deg=45.0, distance_m=4.4, centre_m=(2.0, 1.5), seed=105, dead_pixels=2), "tiff-u16",
                 units="kelvin", scale=0.01, offset=0.0),
     ImageRecipe("lf06_extension_south_wall", "Rear extension, south wall from outside: window lintel, thin boards",
                 "masonry-wall", {"lintel": (1.1, 2.9, 0.6, 0.2), "void": (2.6, 3.4, 1.5, 2.3, 0.075),
                                  "outside_c": 1.0, "wind_m_s": 1.5},
-                _cam(n_cols=160, n_rows=120, hfov_deg=45.0, distance_m=4.4, centre_m=(2.0, 1.5), seed=106,
-                     psf_sigma_px=0.7), "csv", export_emissivity=0.95),
+                CameraModel(n_cols=160, n_rows=120, hfov_deg=45.0, distance_m=4.4, centre_m=(2.0, 1.5), seed=106,
+                            psf_sigma_px=0.7), "csv", export_emissivity=0.95),
     ImageRecipe("lf07_extension_roof_west", "Extension flat roof, west half, 22:00 after a sunny day: wet boards",
                 "flat-roof", {"wet": ((1.0, 2.4, 0.8, 1.9, 0.15),)},
-                _cam(hfov_deg=45.0, distance_m=3.5, tilt_deg=30.0, centre_m=(2.0, 1.5), seed=107), "tiff-float",
+                CameraModel(hfov_deg=45.0, distance_m=3.5, tilt_deg=30.0, centre_m=(2.0, 1.5), seed=107), "tiff-float",
                 units="kelvin"),
     ImageRecipe("lf08_extension_roof_east", "Extension flat roof, east half, 22:00: two damp patches",
                 "flat-roof", {"wet": ((0.8, 1.8, 0.9, 1.7, 0.10), (2.5, 3.1, 1.6, 2.2, 0.25))},
-                _cam(hfov_deg=45.0, distance_m=4.4, centre_m=(2.0, 1.5), seed=108), "png16",
+                CameraModel(hfov_deg=45.0, distance_m=4.4, centre_m=(2.0, 1.5), seed=108), "png16",
                 scale=0.005, offset=-60.0),
 )
 
@@ -320,10 +317,7 @@ def make_sample_survey(directory: str | os.PathLike[str], *, recipes: tuple[Imag
                "notes": "Synthetic truth from irseg.scenes; excess_w is the change in heat flow through the "
                         "viewed face, charged to each defect's footprint plus a 0.3 m rim."}
     write_truth_json(d / "truth.json", payload)
-    (d / "README.md").write_text(_readme(records), encoding="utf-8")
-    import io
-    import zipfile
-
+    write_text(d / "README.md", _readme(records))
     # deterministic npz: fixed zip timestamps
     buf = io.BytesIO()
     with zipfile.ZipFile(buf, "w", zipfile.ZIP_DEFLATED) as zf:
@@ -333,7 +327,7 @@ def make_sample_survey(directory: str | os.PathLike[str], *, recipes: tuple[Imag
             info = zipfile.ZipInfo(f"{stem}.npy", date_time=(2026, 1, 1, 0, 0, 0))
             info.compress_type = zipfile.ZIP_DEFLATED
             zf.writestr(info, arr.getvalue())
-    (d / "truth_masks.npz").write_bytes(buf.getvalue())
+    write_bytes(d / "truth_masks.npz", buf.getvalue())
     return records
 
 
@@ -384,6 +378,4 @@ def _readme(records: list[dict]) -> str:
 def write_truth_json(path: str | os.PathLike[str], record: dict) -> Path:
     """Write a truth record as sorted, indented JSON (keys starting with ``_`` are left out)."""
     clean = {k: v for k, v in record.items() if not k.startswith("_")}
-    p = Path(path)
-    p.write_text(json.dumps(clean, indent=1, sort_keys=True) + "\n", encoding="utf-8")
-    return p
+    return write_text(path, json.dumps(clean, indent=1, sort_keys=True) + "\n")

@@ -26,8 +26,8 @@ import numpy as np
 from irseg.scenes._camera import CameraModel
 from irseg.scenes._survey import ImageRecipe, export_image
 
-__all__ = ["VALIDATION_RECIPES", "TARGETS", "compare_analysis", "validate_recipe", "validate_sample", "validate_all",
-           "passes", "with_seed"]
+__all__ = ["VALIDATION_RECIPES", "TARGETS", "compare_analysis", "validate_recipe", "validate_sample", "passes",
+           "with_seed"]
 
 #: Acceptance targets of issue 6.
 TARGETS = {"iou_min": 0.85, "area_rel": 0.10, "excess_rel": 0.15, "reference_abs_k": 0.3}
@@ -130,6 +130,18 @@ def compare_analysis(analysis, defects: list[dict], masks: np.ndarray) -> dict:
     }
 
 
+def _result(rec: dict, analysis, masks: np.ndarray, seconds: dict) -> dict:
+    """One image's validation row: the truth record's description plus :func:`compare_analysis`."""
+    out = {
+        "image": rec["image"], "title": rec["title"], "view": rec["view"], "format": rec["format"],
+        "pixel_m": rec["pixel_m"], "size": rec["size"], "simulation": rec["simulation"], "camera": rec["camera"],
+        "h_w_m2k_truth": rec["simulation"]["h_view_w_m2k"], "h_w_m2k_analysis": analysis.h_w_m2k,
+        "seconds": seconds,
+    }
+    out.update(compare_analysis(analysis, rec["defects"], masks))
+    return out
+
+
 def validate_recipe(recipe: ImageRecipe, directory: str | os.PathLike[str]) -> dict:
     """Simulate, write and process one validation recipe; returns figures per defect.
 
@@ -145,14 +157,7 @@ def validate_recipe(recipe: ImageRecipe, directory: str | os.PathLike[str]) -> d
     t1 = time.perf_counter()
     res = process_image(Path(directory) / rec["image"])
     t2 = time.perf_counter()
-    out = {
-        "image": rec["image"], "title": recipe.title, "view": rec["view"], "format": recipe.fmt,
-        "pixel_m": rec["pixel_m"], "size": rec["size"], "simulation": rec["simulation"], "camera": rec["camera"],
-        "h_w_m2k_truth": rec["simulation"]["h_view_w_m2k"], "h_w_m2k_analysis": res.analysis.h_w_m2k,
-        "seconds": {"simulate": t1 - t0, "pipeline": t2 - t1},
-    }
-    out.update(compare_analysis(res.analysis, rec["defects"], rec["_masks"]))
-    return out
+    return _result(rec, res.analysis, rec["_masks"], {"simulate": t1 - t0, "pipeline": t2 - t1})
 
 
 def validate_sample(directory: str | os.PathLike[str]) -> list[dict]:
@@ -168,13 +173,8 @@ def validate_sample(directory: str | os.PathLike[str]) -> list[dict]:
     for rec in truth["images"]:
         t0 = time.perf_counter()
         res = process_image(d / rec["image"])
-        row = {"image": rec["image"], "title": rec["title"], "view": rec["view"], "format": rec["format"],
-               "pixel_m": rec["pixel_m"], "size": rec["size"], "simulation": rec["simulation"],
-               "camera": rec["camera"], "h_w_m2k_truth": rec["simulation"]["h_view_w_m2k"],
-               "h_w_m2k_analysis": res.analysis.h_w_m2k,
-               "seconds": {"simulate": 0.0, "pipeline": time.perf_counter() - t0}}
-        row.update(compare_analysis(res.analysis, rec["defects"], masks[Path(rec["image"]).stem]))
-        out.append(row)
+        seconds = {"simulate": 0.0, "pipeline": time.perf_counter() - t0}
+        out.append(_result(rec, res.analysis, masks[Path(rec["image"]).stem], seconds))
     return out
 
 
@@ -188,11 +188,6 @@ def passes(row: dict) -> dict[str, bool]:
         "reference": ok(row["reference_err_k"], TARGETS["reference_abs_k"]),
         "cause": row["causes"] == [row["cause"]],
     }
-
-
-def validate_all(directory: str | os.PathLike[str], *, recipes=VALIDATION_RECIPES) -> list[dict]:
-    """Run :func:`validate_recipe` for every recipe (files go to ``directory``)."""
-    return [validate_recipe(r, directory) for r in recipes]
 
 
 def with_seed(recipe: ImageRecipe, seed: int) -> ImageRecipe:

@@ -7,7 +7,7 @@ import tomllib
 import numpy as np
 import pytest
 
-from irseg.errors import ConfigError
+from irseg.errors import ConfigError, MetadataError
 from irseg.io import read_thermogram
 from irseg.metadata import load_metadata
 from irseg.radiometry import calibrate
@@ -72,6 +72,15 @@ def test_integer_range_overflow_is_refused(tmp_path):
         write_image(tmp_path, "x", np.full((4, 4), 80.0), fmt="png16", scale=0.001, offset=0.0)
     with pytest.raises(ConfigError, match="decimal"):
         write_image(tmp_path, "x", np.full((4, 4), 20.0), fmt="csv", delimiter=",", decimal=",")
+
+
+def test_write_toml_refuses_metadata_irseg_would_reject(tmp_path):
+    # the metadata schema (irseg.types / irseg.metadata): [surface] emissivity must lie in (0, 1]
+    with pytest.raises(MetadataError, match="emissivity"):
+        write_toml(tmp_path / "bad.toml", {"surface": {"emissivity": 1.7}})
+    with pytest.raises(MetadataError, match="hfov"):
+        write_toml(tmp_path / "bad.toml", {"camera": {"hfov": 45.0}})
+    assert not (tmp_path / "bad.toml").exists()
 
 
 def test_toml_text_parses_and_skips_none():

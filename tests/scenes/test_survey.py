@@ -45,6 +45,8 @@ def test_sidecars_load_without_warnings():
 
 def test_sample_survey_is_mixed_and_small():
     files = [p for p in BUNDLED.iterdir() if p.suffix in (".tif", ".tiff", ".png", ".csv", ".npy")]
+    # 6-10 images in every readable format, under 5 MB in all: the project's sample-survey
+    # requirement (not a physical value)
     assert 6 <= len(files) <= 10
     assert {p.suffix for p in files} >= {".tiff", ".tif", ".png", ".csv", ".npy"}
     assert sum(p.stat().st_size for p in BUNDLED.iterdir()) < 5_000_000
@@ -64,6 +66,15 @@ def test_cli_make_writes_image_sidecar_and_truth(tmp_path):
     assert rec["defects"] and rec["defects"][0]["excess_w"] > 0
     bad = CliRunner().invoke(scene_cmd, ["make", "igloo", str(tmp_path)])
     assert bad.exit_code == 2
+
+
+def test_cli_choices_match_the_scene_package():
+    # the CLI keeps its own copies so that --help loads no physics; they must name what irseg.scenes makes
+    from irseg.cli.scene import _FORMATS, _KINDS
+    from irseg.scenes import FORMATS, PRESETS
+
+    assert _FORMATS == FORMATS
+    assert _KINDS == tuple(PRESETS)
 
 
 @pytest.mark.slow
