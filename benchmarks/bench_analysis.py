@@ -24,30 +24,15 @@ import argparse
 import statistics
 import sys
 import time
-from dataclasses import dataclass
 
 import numpy as np
 from scipy import ndimage
 from skimage.measure import regionprops_table
 
 from irseg.analysis import analyse
+from irseg.segment import Segmentation
+from irseg.segment._params import derive_params
 from irseg.types import Air, Camera, SurveyMeta, Surface, ThermalFrame
-
-
-@dataclass(frozen=True)
-class _Params:
-    noise_k: float = 0.05
-    min_step_k: float = 0.5
-
-
-@dataclass(frozen=True)
-class _Seg:
-    u: np.ndarray
-    v: np.ndarray
-    edges: np.ndarray
-    labels: np.ndarray
-    n_regions: int
-    params: _Params
 
 
 def _scene(seed: int = 0):
@@ -74,7 +59,12 @@ def _scene(seed: int = 0):
     edges[1:] |= labels[1:] != labels[:-1]
     edges[:, 1:] |= labels[:, 1:] != labels[:, :-1]
     noisy = t + np.random.default_rng(seed).normal(0, 0.05, t.shape)
-    seg = _Seg(t, np.where(edges, 0.0, 1.0), edges, labels, int(labels.max()), _Params())
+    # the segmenter's own result type and weights, with the known labels in place of a solve
+    params = derive_params(noise_k=0.05, noise_estimated=False, min_step_k=0.5, min_feature_px=4.0,
+                           value_range_k=float(np.ptp(t)), levels=1, max_num_iter=0, tol=0.0)
+    seg = Segmentation(u=t, v=np.where(edges, 0.0, 1.0), edges=edges, labels=labels, n_regions=int(labels.max()),
+                       energy=(), iterations=0, converged=True, message="known truth labels (benchmark)",
+                       params=params)
     meta = SurveyMeta(camera=Camera(hfov_deg=45.0, distance_m=3.0), surface=Surface(view="interior"),
                       air=Air(inside_c=20.0, outside_c=0.0))
     frame = ThermalFrame(path="bench.npy", temperature_c=noisy, mask=np.zeros((m, n), bool), apparent_c=noisy, meta=meta)

@@ -210,10 +210,10 @@ def encode_png(image: np.ndarray) -> bytes:
 
 def _describe_os_error(exc: OSError) -> str:
     if exc.errno == errno.ENOSPC:
-        return "the disk is full; free some space or choose another output folder with -o"
+        return "the disk is full; free some space or choose another output folder"
     if exc.errno in (errno.EACCES, errno.EPERM, errno.EROFS):
-        return "the folder is not writable; choose a writable output folder with -o"
-    return f"{exc.strerror or exc}; check the output folder given with -o"
+        return "the folder is not writable; choose a writable output folder"
+    return f"{exc.strerror or exc}; check the output folder"
 
 
 def write_bytes(path: str | os.PathLike[str], data: bytes) -> Path:

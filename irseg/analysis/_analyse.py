@@ -9,6 +9,7 @@ import numpy as np
 from scipy import ndimage
 
 from ..errors import ConfigError
+from ..segment import estimate_noise_k
 from ..types import ThermalFrame
 from ._classify import Shape, classify_cause, find_lines, find_regular_sets, shape_features
 from ._conditions import check_conditions
@@ -16,7 +17,7 @@ from ._extent import inside_edge_line
 from ._confidence import BandInputs, confidence_bands
 from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
 from ._geometry import MIN_SPOT_PX, pixel_area_m2, pixel_footprint_m
-from ._reference import Plane, RingReference, estimate_noise_k, find_sound_regions, rim_extent_px, ring_reference
+from ._reference import Plane, RingReference, find_sound_regions, rim_extent_px, ring_reference
 from ._surface import CONVENTIONAL_WIND_M_S, h_convective_exterior, h_convective_interior, h_radiative, resolve_heat_flow
 from ._types import Analysis, Anomaly, severity_key, severity_score
 
@@ -50,6 +51,7 @@ class _Candidate:
     gap_px: float
     rr: np.ndarray  # region pixels in the crop
     cc: np.ndarray
+    ref_in: np.ndarray  # the reference plane on them, °C
 
 
 def significance_threshold_k(*, noise_k: float, netd_k: float, min_step_k: float, min_contrast_k: float | None) -> float:
@@ -121,7 +123,7 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
     params = getattr(seg, "params", None)
     noise = getattr(params, "noise_k", None)
     if noise is None or not math.isfinite(float(noise)) or float(noise) <= 0:
-        noise = estimate_noise_k(t, valid=valid, edges=edges)
+        noise = estimate_noise_k(t, mask=~valid)  # as the segmenter estimates it
     noise = float(noise)
     min_step = getattr(params, "min_step_k", None)
     min_step = float(meta.segment.min_step_k if min_step is None else min_step)
@@ -209,10 +211,7 @@ def analyse(frame: ThermalFrame, seg) -> Analysis:
         pcol = np.concatenate([m.cand.cc[m.inside] + m.cand.c0 for m in unit])
         out_labels[prow, pcol] = i
         vals = t[prow, pcol]
-        refs = np.concatenate([
-            m.cand.ref.plane.evaluate(m.cand.rr[m.inside] + float(m.cand.r0), m.cand.cc[m.inside] + float(m.cand.c0))
-            for m in unit
-        ])
+        refs = np.concatenate([m.cand.ref_in[m.inside] for m in unit])
         area_px = int(vals.size)
         mean_c = float(vals.mean())
         reference_c = float(refs.mean())
@@ -332,7 +331,7 @@ def _local_contrast(
     # the median contrast must agree: a sound region pulled by a neighbour's rim is not an anomaly
     if abs(delta) < needed or abs(float(np.median(t_reg - ref_vals))) < needed:
         return None
-    return _Candidate(lab, r0, c0, crop, region, dist, ref, mean_c, reference_c, delta, gap, rr, cc)
+    return _Candidate(lab, r0, c0, crop, region, dist, ref, mean_c, reference_c, delta, gap, rr, cc, ref_vals)
 
 
 def _group_fragments(
@@ -424,7 +423,7 @@ def _measure_candidate(
     rim_contrast = t_c[rr, cc] - rim_ref
     keep = np.sign(c.delta_k) * rim_contrast > noise_k
     rr_in, cc_in = c.rr, c.cc
-    in_ref = c.ref.plane.evaluate(rr_in + float(c.r0), cc_in + float(c.c0))
+    in_ref = c.ref_in
     in_contrast = t_c[rr_in, cc_in] - in_ref
     loss_sum = loss_sign * float(in_contrast.sum())
     rim_index = np.ravel_multi_index((c.r0 + rr[keep], c.c0 + cc[keep]), labels.shape)

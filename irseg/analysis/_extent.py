@@ -13,6 +13,9 @@ from scipy import ndimage
 __all__ = ["inside_edge_line", "EDGE_SIGMA_PX"]
 
 EDGE_SIGMA_PX = 1.0  # Gaussian derivative scale of the edge-line gradient (Canny 1986), px
+_TRUNCATE = 4.0  # Gaussian kernel radius in sigmas (scipy.ndimage.gaussian_filter default)
+_STEP_R = np.array([0, 1, 1, 1])  # neighbour step along 0°, 45°, 90°, 135° of the gradient angle
+_STEP_C = np.array([1, 1, 0, -1])
 
 
 def inside_edge_line(
@@ -58,39 +61,79 @@ def inside_edge_line(
     band = region & edges_crop
     out = np.zeros(region.shape, bool)
     if band.any():
-        # normalised Gaussian smoothing over valid pixels only (masked values carry no information)
-        w = ndimage.gaussian_filter(valid_crop.astype(float), EDGE_SIGMA_PX, mode="nearest")
-        sm = ndimage.gaussian_filter(np.where(valid_crop, u_crop, 0.0), EDGE_SIGMA_PX, mode="nearest")
-        u_s = np.where(w > 1e-6, sm / np.maximum(w, 1e-6), u_crop)
-        gr, gc = np.gradient(u_s)
-        g = np.hypot(gr, gc)
-        m, n = g.shape
-        gp = np.pad(g, 2, mode="edge")
-        up = np.pad(np.where(valid_crop, u_crop, u_s), 2, mode="edge")
-        dp = np.pad(ndimage.distance_transform_edt(region), 2, mode="constant")
-        q = np.round(np.mod(np.arctan2(gr, gc), np.pi) / (np.pi / 4)).astype(int) % 4
-        sgn = 1.0 if delta_k >= 0 else -1.0
-
-        def shifted(a: np.ndarray, dr: int, dc: int) -> np.ndarray:
-            return a[2 + dr : 2 + dr + m, 2 + dc : 2 + dc + n]
-
-        for k, (dr, dc) in enumerate(((0, 1), (1, 1), (1, 0), (1, -1))):
-            sel = band & (q == k)
-            if not sel.any():
-                continue
-            # inward = deeper into the region (a neighbour more extreme than the region is not its outside)
-            da, db = shifted(dp, dr, dc), shifted(dp, -dr, -dc)
-            a_is_in = (da > db) | ((da == db) & (sgn * shifted(up, dr, dc) >= sgn * shifted(up, -dr, -dc)))
-            g_in = np.where(a_is_in, shifted(gp, dr, dc), shifted(gp, -dr, -dc))
-            g_out = np.where(a_is_in, shifted(gp, -dr, -dc), shifted(gp, dr, dc))
-            u_in2 = np.where(a_is_in, shifted(up, 2 * dr, 2 * dc), shifted(up, -2 * dr, -2 * dc))
-            u_out2 = np.where(a_is_in, shifted(up, -2 * dr, -2 * dc), shifted(up, 2 * dr, 2 * dc))
-            outer_flank = (g_in > g) & (g_out <= g)
-            peak = (g_in <= g) & (g_out <= g)
-            u_p = shifted(up, 0, 0)
-            nearer_out = np.abs(u_p - u_out2) < np.abs(u_p - u_in2)
-            # on a ramp down to the outside: the pixel lies between the inner and the outer values
-            between = (sgn * (u_in2 - u_p) > 0) & (sgn * (u_p - u_out2) > 0)
-            between &= np.where(a_is_in, shifted(dp, 2 * dr, 2 * dc), shifted(dp, -2 * dr, -2 * dc)) > 0  # in the region
-            out |= sel & between & (outer_flank | (peak & nearer_out))
+        # work on the band's bounding box plus the filters' reach (2 px of neighbours along the
+        # gradient, 1 px of central difference, the Gaussian's truncation radius): every value used
+        # is then the same as on the whole crop
+        margin = 3 + int(_TRUNCATE * EDGE_SIGMA_PX + 0.5)
+        br, bc = np.nonzero(band)
+        r0, c0 = max(0, int(br.min()) - margin), max(0, int(bc.min()) - margin)
+        r1 = min(region.shape[0], int(br.max()) + margin + 1)
+        c1 = min(region.shape[1], int(bc.max()) + margin + 1)
+        win = (slice(r0, r1), slice(c0, c1))
+        out[win] = _outer_flank(band[win], region=region, win=win, delta_k=delta_k, u_crop=u_crop[win],
+                                valid_crop=valid_crop[win])
     return ~out[rr, cc]
+
+
+def _inner_distance(region: np.ndarray, *, band: np.ndarray, win: tuple[slice, slice]) -> np.ndarray:
+    """Euclidean distance to the nearest pixel off ``region``, on the window ``win`` of it.
+
+    Computed on the window alone when that gives the whole region's distance on the
+    pixels the neighbour comparison reads (the band and its 8 neighbours): a distance
+    shorter than the way to every side where the window cuts the region cannot have
+    been lengthened by the cut. Otherwise the whole region's transform is cropped.
+    """
+    d = ndimage.distance_transform_edt(region[win])
+    m, n = d.shape
+    rows, cols = np.arange(m)[:, None], np.arange(n)[None, :]
+    room = np.full(d.shape, np.inf)
+    if win[0].start > 0:
+        room = np.minimum(room, rows + 1.0)
+    if win[0].stop < region.shape[0]:
+        room = np.minimum(room, m - rows + 0.0)
+    if win[1].start > 0:
+        room = np.minimum(room, cols + 1.0)
+    if win[1].stop < region.shape[1]:
+        room = np.minimum(room, n - cols + 0.0)
+    read = ndimage.binary_dilation(band, structure=np.ones((3, 3), bool))
+    if region[win].all() or bool(np.any(d[read] >= room[read])):
+        return ndimage.distance_transform_edt(region)[win]
+    return d
+
+
+def _outer_flank(
+    band: np.ndarray, *, region: np.ndarray, win: tuple[slice, slice], delta_k: float, u_crop: np.ndarray,
+    valid_crop: np.ndarray,
+) -> np.ndarray:
+    """Jump-band pixels (of the window ``win`` of the crop) on the outer flank of the edge."""
+    # normalised Gaussian smoothing over valid pixels only (masked values carry no information)
+    w = ndimage.gaussian_filter(valid_crop.astype(float), EDGE_SIGMA_PX, mode="nearest", truncate=_TRUNCATE)
+    sm = ndimage.gaussian_filter(np.where(valid_crop, u_crop, 0.0), EDGE_SIGMA_PX, mode="nearest", truncate=_TRUNCATE)
+    u_s = np.where(w > 1e-6, sm / np.maximum(w, 1e-6), u_crop)
+    gr, gc = np.gradient(u_s)
+    gp = np.pad(np.hypot(gr, gc), 2, mode="edge")
+    up = np.pad(np.where(valid_crop, u_crop, u_s), 2, mode="edge")
+    dp = np.pad(_inner_distance(region, band=band, win=win), 2, mode="constant")
+    sgn = 1.0 if delta_k >= 0 else -1.0
+    # on each band pixel, its two neighbours along the gradient direction (quantised to 45°)
+    br, bc = np.nonzero(band)
+    q = np.round(np.mod(np.arctan2(gr[br, bc], gc[br, bc]), np.pi) / (np.pi / 4)).astype(int) % 4
+    dr, dc = _STEP_R[q], _STEP_C[q]
+    br, bc = br + 2, bc + 2  # padded coordinates
+    # inward = deeper into the region (a neighbour more extreme than the region is not its outside)
+    da, db = dp[br + dr, bc + dc], dp[br - dr, bc - dc]
+    a_is_in = (da > db) | ((da == db) & (sgn * up[br + dr, bc + dc] >= sgn * up[br - dr, bc - dc]))
+    ir, ic = np.where(a_is_in, dr, -dr), np.where(a_is_in, dc, -dc)  # one step inwards
+    g_p = gp[br, bc]
+    g_in, g_out = gp[br + ir, bc + ic], gp[br - ir, bc - ic]
+    u_in2, u_out2 = up[br + 2 * ir, bc + 2 * ic], up[br - 2 * ir, bc - 2 * ic]
+    outer_flank = (g_in > g_p) & (g_out <= g_p)
+    peak = (g_in <= g_p) & (g_out <= g_p)
+    u_p = up[br, bc]
+    nearer_out = np.abs(u_p - u_out2) < np.abs(u_p - u_in2)
+    # on a ramp down to the outside: the pixel lies between the inner and the outer values
+    between = (sgn * (u_in2 - u_p) > 0) & (sgn * (u_p - u_out2) > 0)
+    between &= dp[br + 2 * ir, bc + 2 * ic] > 0  # in the region
+    out = np.zeros(band.shape, bool)
+    out[br - 2, bc - 2] = between & (outer_flank | (peak & nearer_out))
+    return out

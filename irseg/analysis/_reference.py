@@ -28,7 +28,6 @@ __all__ = [
     "Plane",
     "RingReference",
     "robust_sigma",
-    "estimate_noise_k",
     "fit_plane",
     "find_sound_regions",
     "ring_reference",
@@ -73,28 +72,6 @@ def robust_sigma(x: np.ndarray) -> float:
     if x.size < 2:
         return 0.0
     return float(_MAD_TO_SIGMA * np.median(np.abs(x - np.median(x))))
-
-
-def estimate_noise_k(temperature: np.ndarray, *, valid: np.ndarray, edges: np.ndarray | None = None) -> float:
-    """Robust pixel-noise estimate from neighbour differences, K.
-
-    Differences of horizontally and vertically adjacent valid pixels (off the jump
-    set) cancel smooth structure; their robust spread divided by √2 is the
-    per-pixel noise.
-    """
-    t = np.asarray(temperature, dtype=float)
-    ok = valid if edges is None else valid & ~edges
-    parts = []
-    for a, b, m in (
-        (t[:, 1:], t[:, :-1], ok[:, 1:] & ok[:, :-1]),
-        (t[1:, :], t[:-1, :], ok[1:, :] & ok[:-1, :]),
-    ):
-        d = (a - b)[m]
-        if d.size:
-            parts.append(d[:: max(1, d.size // 100_000)])
-    if not parts:
-        return 0.0
-    return robust_sigma(np.concatenate(parts)) / np.sqrt(2.0)
 
 
 def fit_plane(

@@ -25,7 +25,6 @@ __all__ = [
     "Workspace",
     "apply_weighted_laplacian",
     "apply_screened_laplacian",
-    "weighted_laplacian_diagonal",
     "pcg",
 ]
 
@@ -117,25 +116,6 @@ def apply_screened_laplacian(
     np.multiply(x, diag, out=ws.op)
     out += ws.op
     return out
-
-
-def weighted_laplacian_diagonal(
-    cx: np.ndarray | float,
-    cy: np.ndarray | float,
-    diag: np.ndarray | float,
-    shape: tuple[int, int],
-    dtype: np.dtype,
-) -> np.ndarray:
-    """Diagonal of the operator of :func:`apply_weighted_laplacian` (for Jacobi preconditioning)."""
-    d = np.empty(shape, dtype)
-    d[...] = diag
-    cxa = np.broadcast_to(np.asarray(cx, dtype), (shape[0], shape[1] - 1))
-    cya = np.broadcast_to(np.asarray(cy, dtype), (shape[0] - 1, shape[1]))
-    d[:, :-1] += cxa
-    d[:, 1:] += cxa
-    d[:-1, :] += cya
-    d[1:, :] += cya
-    return d
 
 
 def _dot(a: np.ndarray, b: np.ndarray) -> float:

@@ -95,22 +95,21 @@ def test_irregular_spacing_is_not_reported_as_a_regular_set():
     assert all("parallel" not in a.reason for a in res.anomalies)
 
 
-def test_lone_long_narrow_band_is_thermal_bridge_never_missing_insulation():
-    # a horizontal slab-edge / lintel band, 80 mm tall across the wall
+@pytest.mark.parametrize(
+    "rows, cols, delta, cause, word",
+    [
+        # a horizontal slab-edge / lintel band, 80 mm tall across the wall: never missing insulation
+        pytest.param(slice(60, 68), slice(10, 230), -1.5, "thermal_bridge", "band", id="lone-long-narrow-band"),
+        # 0.8 K at 20 K inside-outside: partial-depth void (0.04 < 0.10 of the difference)
+        pytest.param(slice(30, 90), slice(60, 120), -0.8, "missing_insulation", "partial", id="weak-compact-void"),
+    ],
+)
+def test_single_cold_patch_cause(rows, cols, delta, cause, word):
     t, d = _wall()
-    t[60:68, 10:230] -= 1.5
-    d[60:68, 10:230] = 1
+    t[rows, cols] += delta
+    d[rows, cols] = 1
     (a,) = _run(t, d).anomalies
-    assert a.cause == "thermal_bridge" and "band" in a.reason
-
-
-def test_weak_compact_void_is_partial_missing_insulation():
-    # 0.8 K at 20 K inside-outside: partial-depth void (0.04 < 0.10 of the difference)
-    t, d = _wall()
-    t[30:90, 60:120] -= 0.8
-    d[30:90, 60:120] = 1
-    (a,) = _run(t, d).anomalies
-    assert a.cause == "missing_insulation" and "partial" in a.reason
+    assert a.cause == cause and word in a.reason
 
 
 def _fan(shape=(120, 240), apex=(118, 60), depth=3.0, half_angle_deg=22.0, decay_px=45.0):

@@ -104,7 +104,6 @@ def test_sliver_of_a_soft_rim_is_not_a_separate_anomaly():
     assert a.excess_w == pytest.approx(total, rel=0.03)
 
 
-
 def test_absorbed_fragment_on_the_edge_does_not_count_the_shared_rim_twice():
     # a 10 × 10 px piece 0.2 K warmer at the patch's corner; a 2 px rim of 0.5 K contrast around both
     t, d = _patch_with_piece(-2.8, (slice(20, 30), slice(30, 40)))
