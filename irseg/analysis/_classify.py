@@ -355,6 +355,8 @@ def classify_cause(
         band_reason = f"one of {n} parallel {kind} bands at regular {gap} spacing: framing members (studs, joists)"
         if pixel_m is not None and not (STUD_SPACING_M[0] <= gap_px * pixel_m <= STUD_SPACING_M[1]):
             band_reason += " (spacing outside the usual 400-600 mm centres)"
+        # regular framing is part of the construction, not a fault (REFERENCE-VALUES §4.2, common practice)
+        band_reason += "; expected in framed construction: repair only a member clearly colder than its neighbours"
     elif line is not None:
         band_reason = (
             f"long narrow straight {kind} band in {line[0]} pieces (length/width {line[1]:.1f}{width_txt}): "

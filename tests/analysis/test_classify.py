@@ -55,6 +55,8 @@ def test_stud_pattern_is_thermal_bridge_and_the_bay_is_missing_insulation():
     for a in studs:
         assert a.cause == "thermal_bridge", a.reason
         assert "parallel" in a.reason and "0.40 m" in a.reason
+        # the crew must read regular framing as normal construction (common practice: normal if regular)
+        assert "expected in framed construction" in a.reason
     bay = _at(res, 60, 120)
     assert bay.cause == "missing_insulation", bay.reason
     assert bay.excess_w > max(a.excess_w for a in studs)
