@@ -2,18 +2,22 @@
 
 Subpackages and modules, one line each:
 
-- ``irseg.io``        -- readers for open radiometric formats (TIFF, PNG 16-bit, CSV/TXT, NPY).
-- ``irseg.metadata``  -- survey.toml / sidecar TOML loading and validation.
-- ``irseg.radiometry``-- band-limited Planck radiance, emissivity and reflected-temperature correction.
-- ``irseg.segment``   -- Ambrosio–Tortorelli phase-field segmentation (smooth field + jump set + regions).
-- ``irseg.analysis``  -- local sound reference, cause, area, excess heat loss, f_Rsi, confidence.
-- ``irseg.render``    -- annotated overlay and label images (arrays; saving lives in irseg.outputs).
-- ``irseg.outputs``   -- atomic writers for CSV/JSON/PNG outputs.
-- ``irseg.report``    -- the self-contained HTML survey report.
-- ``irseg.pipeline``  -- one image end to end (the only place the stages are chained).
-- ``irseg.batch``     -- a whole survey: process pool or dask.distributed, resume, failures.
-- ``irseg.scenes``    -- physics-based synthetic scenes and the bundled sample survey.
-- ``irseg.cli``       -- the ``irseg`` command, a thin layer over the above.
+- ``irseg.errors``       -- the one exception and warning hierarchy (root :class:`IrsegError`).
+- ``irseg.types``        -- frozen data passed between the stages.
+- ``irseg.vocabulary``   -- causes, their labels and colours, stage names, views, cautions.
+- ``irseg.io``           -- readers for open radiometric formats, bounded reads, atomic writers.
+- ``irseg.metadata``     -- survey.toml / sidecar TOML: parse, validate, merge, resolve defaults once.
+- ``irseg.radiometry``   -- band-limited Planck radiance, emissivity and reflected-temperature correction.
+- ``irseg.segmentation`` -- Ambrosio–Tortorelli phase-field segmentation (smooth field + jump set + regions).
+- ``irseg.analysis``     -- local sound reference, cause, area, excess heat loss, f_Rsi, confidence.
+- ``irseg.render``       -- annotated overlay and label images (arrays).
+- ``irseg.report``       -- the self-contained HTML survey report.
+- ``irseg.pipeline``     -- one image end to end (the only place the stages are chained).
+- ``irseg.batch``        -- a whole survey: process pool or dask.distributed, resume, failures.
+- ``irseg.scenes``       -- physics-based synthetic scenes and the bundled sample survey.
+- ``irseg.cli``          -- the ``irseg`` command, a thin layer over the above.
+
+``irseg.segment`` is the segmentation function (:func:`irseg.segmentation.segment`).
 
 Public names are loaded lazily so that ``import irseg`` stays cheap in worker
 processes.
@@ -41,8 +45,8 @@ from .errors import (
 
 # public name -> module that defines it
 _LAZY = {
-    "segment": "irseg.segment",
-    "Segmentation": "irseg.segment",
+    "segment": "irseg.segmentation",
+    "Segmentation": "irseg.segmentation",
     "read_thermogram": "irseg.io",
     "load_metadata": "irseg.metadata",
     "calibrate": "irseg.radiometry",

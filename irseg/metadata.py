@@ -16,10 +16,10 @@ import math
 import os
 import tomllib
 from collections.abc import Callable, Mapping
-from pathlib import Path
 from typing import Any
 
-from .errors import MetadataError
+from .errors import InputError, MetadataError
+from .io import SURVEY_FILE, read_metadata_texts
 from .types import Air, AnalysisSettings, Camera, SegmentSettings, Surface, SurveyMeta
 
 __all__ = [
@@ -32,8 +32,6 @@ __all__ = [
     "SURVEY_FILE",
 ]
 
-#: Name of the folder-wide defaults file.
-SURVEY_FILE = "survey.toml"
 
 _SECTIONS: dict[str, type] = {
     "camera": Camera,
@@ -350,20 +348,6 @@ def merge_metadata(*layers: Mapping[str, Mapping[str, Any]], sources: tuple[str,
     return SurveyMeta(**parts, sources=tuple(sources))
 
 
-def _md_read_file(path: Path) -> dict[str, dict[str, Any]]:
-    name = os.fspath(path)
-    try:
-        blob = path.read_bytes()
-    except OSError as exc:
-        raise MetadataError(f"{name}: cannot be read ({exc.strerror or exc}); check permissions") from None
-    try:
-        text = blob.decode("utf-8-sig")
-    except UnicodeDecodeError as exc:
-        line = blob[: exc.start].count(b"\n") + 1
-        raise MetadataError(f"{name}: line {line} is not valid UTF-8; save the file as UTF-8 text") from None
-    return parse_metadata_text(text, source=name)
-
-
 def load_metadata(
     image_path: str | os.PathLike[str], *, overrides: Mapping[str, Mapping[str, Any]] | None = None
 ) -> SurveyMeta:
@@ -389,17 +373,15 @@ def load_metadata(
     MetadataError
         Any syntax, key, type or range problem, naming file, key, value and fix.
     """
-    image = Path(image_path)
-    folder_file = image.parent / SURVEY_FILE
-    sidecar = image.with_suffix(".toml")
+    try:
+        texts = read_metadata_texts(image_path)
+    except InputError as exc:
+        raise MetadataError(str(exc)) from None
     layers: list[dict[str, dict[str, Any]]] = []
     sources: list[str] = []
-    if folder_file.is_file():
-        layers.append(_md_read_file(folder_file))
-        sources.append(os.fspath(folder_file))
-    if sidecar.is_file() and sidecar.resolve() != folder_file.resolve():
-        layers.append(_md_read_file(sidecar))
-        sources.append(os.fspath(sidecar))
+    for name, text in texts:
+        layers.append(parse_metadata_text(text, source=name))
+        sources.append(name)
     if overrides:
         layers.append(check_overrides(overrides))
         sources.append("command line")

@@ -23,23 +23,17 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, TypeVar
 
+from ._shared import DEFAULT_MAX_PIXELS
 from .errors import IrsegWarning
 from .types import RawFrame, SurveyMeta, ThermalFrame
 
 __all__ = [
-    "STAGES",
-    "DEFAULT_MAX_PIXELS",
     "ImageResult",
     "process_image",
     "render_result",
     "failure_stage",
 ]
 
-#: Stage names, in order, as they appear in failures.csv.
-STAGES = ("read", "metadata", "calibrate", "segment", "analyse", "render", "write")
-
-#: Default pixel budget of one image (checked from the header before decoding).
-DEFAULT_MAX_PIXELS = 40_000_000
 
 _STAGE_ATTR = "irseg_stage"
 _T = TypeVar("_T")
@@ -152,7 +146,7 @@ def process_image(
     from .io import read_thermogram
     from .metadata import load_metadata
     from .radiometry import calibrate
-    from .segment import segment
+    from .segmentation import segment
 
     timings: dict[str, float] = {}
     caught: list[str] = []
@@ -234,7 +228,7 @@ def render_result(result: ImageResult, *, cmap: str = "inferno") -> tuple[bytes,
     IrsegError
         Rendering errors; tagged with stage ``"render"``.
     """
-    from .outputs import encode_png
+    from .io import encode_png
     from .render import label_image, render_overlay
 
     caught: list[str] = []

@@ -4,10 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from test_batch_support import SHAPE, make_survey, wall_image
+from tests.support.survey import SHAPE, make_survey, wall_image
 
 from irseg.errors import InputError, MetadataError
-from irseg.pipeline import STAGES, ImageResult, failure_stage, process_image, render_result
+from irseg.vocabulary import STAGES
+from irseg.pipeline import ImageResult, failure_stage, process_image, render_result
 
 
 def test_process_image_finds_the_drawn_patch(tmp_path):
@@ -46,7 +47,7 @@ def test_exceptions_carry_their_stage(tmp_path):
         process_image(tmp_path / "ok.npy")
     assert failure_stage(info.value) == "metadata"
     assert failure_stage(ValueError("untagged")) is None
-    assert STAGES[0] == "read" and STAGES[-1] == "write"
+    assert STAGES == ("read", "metadata", "calibrate", "segment", "analyse", "render", "write", "worker")
 
 
 def test_stage_warnings_are_collected_not_emitted(tmp_path):

@@ -8,7 +8,7 @@ every rule, formula, default and its source.
 from __future__ import annotations
 
 from ._analyse import analyse, significance_threshold_k
-from ._classify import CAUSES
+from ..vocabulary import CAUSES
 from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
 from ._geometry import MIN_SPOT_PX, pixel_area_m2, pixel_footprint_m, tilt_factor
 from ._surface import (

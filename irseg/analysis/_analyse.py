@@ -9,7 +9,7 @@ import numpy as np
 from scipy import ndimage
 
 from ..errors import ConfigError
-from ..segment import estimate_noise_k
+from ..segmentation import estimate_noise_k
 from ..types import ThermalFrame
 from ._classify import Shape, classify_cause, find_lines, find_regular_sets, shape_features
 from ._conditions import check_conditions

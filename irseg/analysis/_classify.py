@@ -14,9 +14,11 @@ import cv2
 import numpy as np
 from scipy import ndimage
 
+from .._shared import robust_sigma
+from ..vocabulary import CAUSES
+
 __all__ = ["Shape", "CAUSES", "shape_features", "find_regular_sets", "find_lines", "classify_cause"]
 
-CAUSES = ("missing_insulation", "thermal_bridge", "air_leakage", "moisture", "unclassified")
 
 BAND_ELONGATION = 5.0  # length/width of a "long narrow band"
 SET_ELONGATION = 2.5  # a shorter band still counts when it belongs to a regular parallel set
@@ -129,7 +131,7 @@ def shape_features(
     transition = abs(delta_k) / g90 if g90 > 1e-12 else float("inf")
     inner = region & ~boundary if (region & ~boundary).sum() >= 4 else region
     vals = u_crop[inner] - reference_crop[inner]  # contrast, free of the sound gradient
-    spread = float(1.4826 * np.median(np.abs(vals - np.median(vals)))) if vals.size > 1 else 0.0
+    spread = robust_sigma(vals)
     spread = math.sqrt(max(spread * spread - noise_k * noise_k, 0.0))
     return Shape(
         area_px=area,

@@ -24,6 +24,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .._shared import MAD_TO_SIGMA
+
 __all__ = [
     "Plane",
     "RingReference",
@@ -34,7 +36,7 @@ __all__ = [
     "rim_extent_px",
 ]
 
-_MAD_TO_SIGMA = 1.4826  # normal consistency factor of the median absolute deviation
+_MAD_TO_SIGMA = MAD_TO_SIGMA  # normal consistency factor of the median absolute deviation
 _MAX_TREND_SAMPLES = 8_000
 _MAX_RING_SAMPLES = 4_000
 _MIN_RING_PX = 24

@@ -16,6 +16,7 @@ import math
 
 from scipy.constants import Stefan_Boltzmann
 
+from .._shared import KELVIN_AT_0C, check_emissivity
 from ..errors import ConfigError
 
 __all__ = [
@@ -45,12 +46,7 @@ _VIEWS = ("interior", "exterior", "roof")
 
 
 def _check_emissivity(emissivity: float) -> float:
-    e = float(emissivity)
-    if not (0.0 < e <= 1.0) or not math.isfinite(e):
-        raise ConfigError(
-            f"[surface] emissivity = {emissivity!r} is outside (0, 1]; use the material's long-wave emissivity"
-        )
-    return e
+    return check_emissivity(emissivity)
 
 
 def h_radiative(t_mean_c: float, emissivity: float = 1.0) -> float:
@@ -77,7 +73,7 @@ def h_radiative(t_mean_c: float, emissivity: float = 1.0) -> float:
     ----------
     ISO 6946:2017, annex on surface resistances (h_r0 = 4σT_m³).
     """
-    t_k = float(t_mean_c) + 273.15
+    t_k = float(t_mean_c) + KELVIN_AT_0C
     if not (t_k > 0.0) or not math.isfinite(t_k):
         raise ConfigError(f"mean temperature {t_mean_c!r} °C is not a physical temperature")
     return _check_emissivity(emissivity) * 4.0 * SIGMA * t_k**3

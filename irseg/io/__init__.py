@@ -1,4 +1,5 @@
-"""Readers for open radiometric image formats: TIFF, 16-bit PNG, CSV/TXT, NPY.
+"""The I/O layer: readers for open radiometric image formats (TIFF, 16-bit PNG, CSV/TXT, NPY),
+bounded reads of irseg's own small files, and atomic writers for every output.
 
 Every reader opens its file read-only, checks the declared image size against a pixel
 budget before decoding, and raises only irseg's own errors (:class:`~irseg.errors.InputError`,
@@ -10,14 +11,66 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
+from .._shared import DEFAULT_MAX_PIXELS
 from ..errors import ConfigError
 from ..types import RawFrame
+from ._files import (
+    MAX_TEXT_BYTES,
+    SURVEY_FILE,
+    metadata_candidates,
+    read_json_file,
+    read_metadata_texts,
+    read_small_bytes,
+    read_small_text,
+)
 from ._registry import _reg_by_name, _reg_by_suffix, _reg_detect, _reg_names
+from ._writers import (
+    SIGNIFICANT_DIGITS,
+    TEMP_PREFIX,
+    csv_bytes,
+    dumps_json,
+    encode_png,
+    format_float,
+    normalise_json,
+    remove_file,
+    remove_temp_files,
+    resolve_inside,
+    safe_component,
+    write_bytes,
+    write_csv,
+    write_json,
+    write_text,
+)
 
-__all__ = ["read_thermogram", "list_readers", "is_candidate", "DEFAULT_MAX_PIXELS"]
+__all__ = [
+    "read_thermogram",
+    "list_readers",
+    "is_candidate",
+    "DEFAULT_MAX_PIXELS",
+    "MAX_TEXT_BYTES",
+    "read_small_bytes",
+    "read_small_text",
+    "read_json_file",
+    "SURVEY_FILE",
+    "metadata_candidates",
+    "read_metadata_texts",
+    "TEMP_PREFIX",
+    "SIGNIFICANT_DIGITS",
+    "format_float",
+    "normalise_json",
+    "dumps_json",
+    "csv_bytes",
+    "encode_png",
+    "write_bytes",
+    "write_text",
+    "write_json",
+    "write_csv",
+    "remove_file",
+    "remove_temp_files",
+    "safe_component",
+    "resolve_inside",
+]
 
-#: Default pixel budget: 40 megapixels (larger than any thermal camera's frame).
-DEFAULT_MAX_PIXELS = 40_000_000
 
 
 def read_thermogram(

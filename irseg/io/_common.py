@@ -65,7 +65,7 @@ def _io_check_budget(name: str, shape: tuple[int, ...], max_pixels: int) -> None
         dims = " x ".join(str(int(s)) for s in shape)
         raise InputError(
             f"{name}: declared size {dims} = {n} pixels exceeds the pixel budget of {max_pixels}; "
-            "raise max_pixels if the image is genuine, otherwise the file is corrupt"
+            "raise the max_pixels setting if the image is genuine, otherwise the file is corrupt"
         )
 
 

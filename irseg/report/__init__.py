@@ -22,40 +22,13 @@ from typing import Any
 import jinja2
 
 from ..errors import ConfigError
-from ..render import CAUSE_COLOURS, CAUSE_LABELS, CAUSES
+from ..vocabulary import CAUSE_COLOURS, CAUSE_LABELS, CAUSES, CAUTIONS
 
-__all__ = ["CAUTIONS", "render_report"]
+__all__ = ["render_report"]
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 DASH = "—"
 
-#: Safety and estimate cautions every report carries (``summary["cautions"]`` may add more).
-CAUTIONS: tuple[str, ...] = (
-    "Working at height: roofs, ladders and scaffolds are dangerous, above all at night. Never go on "
-    "a roof alone: work in a team of at least two, with edge protection or fall arrest in place, and "
-    "make sure the deck will carry you (wet or decayed decks may not).",
-    "Electrical equipment: keep a safe distance from energised panels, cables and switchgear; only a "
-    "qualified person opens an electrical enclosure for imaging.",
-    "Combustion appliances: before a building is depressurised with a fan for air-leakage imaging, "
-    "make sure stoves, fireplaces, boilers and other open-flued appliances are off and cold; "
-    "depressurisation can draw flue gases, embers and ash into the rooms.",
-    "All figures are estimates. Areas, heat flows and yearly energy come from surface temperatures "
-    "measured at one moment and from the stated emissivity, reflected temperature, distance, "
-    "surface heat-transfer coefficient and degree-days. The low–high bands cover the stated "
-    "uncertainties of those inputs only; they do not cover unsteady weather, earlier sun, wind "
-    "gusts, stored heat or construction hidden from the camera.",
-    "Confirm before acting: check each anomaly on site by contact or invasive means (moisture meter, "
-    "contact thermometer, inspection opening or borescope) before ordering repairs or budgets.",
-    "Temperature factor: f_Rsi here is computed from the temperatures measured during the survey, "
-    "with the real surface resistance at that time. The design check in building codes uses "
-    "R_si = 0.25 m²K/W and standard climate values, so the on-site figure differs from the design "
-    "value (it is usually higher) and is an indication only.",
-    "This report does not replace an assessment under local building codes and regulations, nor "
-    "the judgement of licensed engineers, surveyors and contractors; defer to them and to local "
-    "practice.",
-    "Thermograms of occupied buildings can show people, belongings and routines; share them only "
-    "with the consent of the occupants.",
-)
 
 _ANOMALY_TABLE_KEYS = (
     "image",

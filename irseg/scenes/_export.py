@@ -25,7 +25,7 @@ import tifffile
 
 from irseg.errors import ConfigError, OutputError
 from irseg.metadata import parse_metadata_text
-from irseg.outputs import write_bytes
+from irseg.io import write_bytes
 from irseg.radiometry import apparent_to_object
 
 __all__ = ["FORMATS", "encode_values", "write_image", "write_toml", "toml_text"]

@@ -19,7 +19,7 @@ from pathlib import Path
 import numpy as np
 
 from irseg.errors import ConfigError
-from irseg.outputs import write_bytes, write_text
+from irseg.io import write_bytes, write_text
 from irseg.scenes import _elements as E
 from irseg.scenes._camera import CameraModel, Shot, shoot, view_window
 from irseg.scenes._export import encode_values, write_image, write_toml

@@ -6,7 +6,7 @@ import dataclasses
 
 import numpy as np
 import pytest
-from analysis_fakes import make_frame, make_meta, make_seg
+from tests.support.fakes import make_frame, make_meta, make_seg
 
 from irseg.analysis import analyse, severity_key
 

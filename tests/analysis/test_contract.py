@@ -8,7 +8,7 @@ import warnings
 
 import numpy as np
 import pytest
-from analysis_fakes import FakeParams, make_frame, make_meta, make_seg
+from tests.support.fakes import FakeParams, make_frame, make_meta, make_seg
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 

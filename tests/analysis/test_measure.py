@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from analysis_fakes import make_frame, make_meta, make_seg
+from tests.support.fakes import make_frame, make_meta, make_seg
 from scipy import ndimage
 
 from irseg.analysis import analyse

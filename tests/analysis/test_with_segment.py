@@ -4,11 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from analysis_fakes import make_frame, make_meta
+from tests.support.fakes import make_frame, make_meta
 
 from irseg.analysis import analyse
 
-segment_mod = pytest.importorskip("irseg.segment")
+segment_mod = pytest.importorskip("irseg.segmentation")
 
 
 def test_framed_wall_with_an_empty_bay(rng):

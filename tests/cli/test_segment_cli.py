@@ -9,10 +9,12 @@ import sys
 
 import pytest
 from click.testing import CliRunner
-from test_batch_support import make_survey
+from tests.support.survey import make_survey
 
 from irseg.cli.main import cli
-from irseg.cli.segment import CAUTION_LINE, parse_set
+from irseg.errors import IrsegError
+from irseg.cli.options import parse_set
+from irseg.vocabulary import CAUTION_LINE
 
 
 def _invoke(*args: str):
@@ -53,7 +55,7 @@ def test_some_failed_exits_3_and_names_the_file(tmp_path):
         (["-o", "OUT", "-j", "0"], "-j"),
         (["-o", "OUT", "--set", "emissivity0.9"], "section.key=value"),
         (["-o", "OUT", "--view", "sideways"], "--view"),
-        (["-o", "OUT", "--format", "jpeg"], "--format"),
+        (["-o", "OUT", "--reader", "jpeg"], "--reader"),
     ],
 )
 def test_usage_errors_exit_2(tmp_path, args, needle):
@@ -120,11 +122,11 @@ def test_options_become_overrides(tmp_path, monkeypatch):
 
     def capture(inputs, out_dir, **kwargs):
         seen.update(kwargs)
-        raise irseg.batch.IrsegError("stop here")
+        raise IrsegError("stop here")
 
     monkeypatch.setattr(irseg.batch, "run_survey", capture)
     make_survey(tmp_path / "s", 1)
-    result = _invoke(str(tmp_path / "s"), "-o", str(tmp_path / "out"), "--inside-c", "21", "--wind", "2",
+    result = _invoke(str(tmp_path / "s"), "-o", str(tmp_path / "out"), "--inside-c", "21", "--wind-m-s", "2",
                      "--set", "camera.band_um=[8.0, 14.0]", "--set", "surface.view=roof", "--min-step-k", "0.3",
                      "--cmap", "magma", "--max-pixels", "5000", "-j", "2")
     assert result.exit_code == 1 and "Error: stop here" in result.stderr
@@ -170,7 +172,7 @@ def test_heat_text_says_what_is_missing_and_what_was_not_counted():
     assert _heat_text(None, None, n_anomalies=0, n_unmeasured=0) == "no excess heat loss to estimate"
     # anomalies but no estimate at all: the line names the options that supply the inputs
     text = _heat_text(None, None, n_anomalies=3, n_unmeasured=3)
-    assert "--distance" in text and "--inside-c" in text
+    assert "--distance-m" in text and "--inside-c" in text
     # partial: units on both figures and the count that the sums skip
     text = _heat_text(1234.4, 5678.9, n_anomalies=4, n_unmeasured=1)
     assert "1,234 W" in text and "5,679 kWh/year" in text and "1 of 4 anomalies" in text

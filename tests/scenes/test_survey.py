@@ -58,8 +58,8 @@ def test_sample_survey_is_mixed_and_small():
 
 
 def test_cli_make_writes_image_sidecar_and_truth(tmp_path):
-    res = CliRunner().invoke(scene_cmd, ["make", "ceiling", str(tmp_path), "--size", "160", "120",
-                                         "--format", "png16", "--seed", "3"])
+    res = CliRunner().invoke(scene_cmd, ["make", "ceiling", str(tmp_path), "--size-px", "120", "160",
+                                         "--writer", "png16", "--seed", "3"])
     assert res.exit_code == 0, res.output
     assert {p.name for p in tmp_path.iterdir()} == {"ceiling.png", "ceiling.toml", "ceiling.truth.json"}
     rec = json.loads((tmp_path / "ceiling.truth.json").read_text())

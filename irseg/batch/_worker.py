@@ -1,0 +1,169 @@
+"""The worker side of a survey run: one image to a small, picklable outcome (used by irseg.batch).
+
+:func:`run_task` runs in a worker process (or a dask worker, or in the calling
+process with ``jobs=1``). It reads the input and returns the ``result.json``
+record and the PNG bytes; it never writes into the output folder and never
+raises for a bad input: the failure, with its stage, is part of the outcome.
+"""
+
+from __future__ import annotations
+
+import os
+from collections.abc import Iterable, Sequence
+from typing import Any
+
+from .. import io as irio
+from .._version import __version__
+from ..errors import IrsegError
+from ._records import ImageFailure, ImageOutcome, SurveySettings
+
+__all__ = ["run_task", "run_task_single_threaded", "import_stages"]
+
+
+def _relativise(text: str, root: str) -> str:
+    """Drop the survey root folder from messages (no absolute paths in data files)."""
+    prefix = root.rstrip(os.sep)
+    if prefix:  # never for the filesystem root, which would eat every separator
+        text = text.replace(prefix + os.sep, "")
+    return " ".join(text.split())
+
+
+def import_stages() -> None:
+    """Import every stage module, so their native thread pools exist before they are limited."""
+    import importlib
+
+    for name in ("irseg.io", "irseg.metadata", "irseg.radiometry", "irseg.segmentation", "irseg.analysis",
+                 "irseg.render"):
+        importlib.import_module(name)
+
+
+def run_task_single_threaded(task: dict[str, Any]) -> ImageOutcome:
+    """:func:`run_task` with BLAS/OpenMP pools limited to one thread (dask tasks)."""
+    import cv2
+    from threadpoolctl import threadpool_limits
+
+    import_stages()
+    cv2.setNumThreads(1)  # a dask worker runs irseg tasks one per thread; keep OpenCV serial
+    with threadpool_limits(limits=1):
+        return run_task(task)
+
+
+def run_task(task: dict[str, Any]) -> ImageOutcome:
+    """Process one image; runs in a worker. Never raises for a bad input.
+
+    Callers limit native thread pools to one thread (same bits whatever the
+    worker count): the pool initializer, the in-process loop, or
+    :func:`run_task_single_threaded` on dask.
+    """
+    import traceback
+
+    from . import _dask
+    from ..pipeline import failure_stage, process_image, render_result
+
+    _dask.guard_malloc_trim()
+    settings: SurveySettings = task["settings"]
+    image, stem, root = task["image"], task["stem"], task["root"]
+    timings: dict[str, float] = {}
+    stage = "read"  # the stage of a failure that carries no stage of its own
+    try:
+        result = process_image(
+            task["path"],
+            overrides=settings.overrides or None,
+            format=settings.format,
+            max_pixels=settings.max_pixels,
+        )
+        timings = result.timings
+        stage = "render"
+        overlay_png, labels_png, render_warnings = render_result(result, cmap=settings.cmap)
+        stage = "write"
+        record = _make_record(result, task, render_warnings)
+    except Exception as exc:  # one bad input must never stop the survey
+        stage = failure_stage(exc) or stage
+        if isinstance(exc, IrsegError):
+            message = str(exc)
+        else:
+            message = f"unexpected {type(exc).__name__}: {exc} (the verbose setting shows the traceback)"
+        if isinstance(exc, MemoryError):
+            message = f"out of memory ({exc}); lower the max_pixels setting or the jobs setting"
+        failure = ImageFailure(
+            file=image,
+            stage=stage,
+            message=_relativise(message, root) or type(exc).__name__,
+            traceback=traceback.format_exc(),
+        )
+        return ImageOutcome(task["index"], image, stem, "failed", failure=failure, timings=timings)
+    return ImageOutcome(
+        task["index"], image, stem, "ok", record=record, timings=dict(timings),
+        overlay_png=overlay_png, labels_png=labels_png,
+    )
+
+
+def _dedupe(messages: Iterable[str], root: str) -> list[str]:
+    seen: list[str] = []
+    for message in messages:
+        text = _relativise(str(message), root)
+        if text and text not in seen:
+            seen.append(text)
+    return seen
+
+
+def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[str]) -> dict[str, Any]:
+    """The content of result.json for one processed image (normalised JSON data)."""
+    from dataclasses import asdict, is_dataclass
+
+    from ..metadata import meta_to_dict
+
+    meta, frame, seg, analysis = result.meta, result.frame, result.segmentation, result.analysis
+    stem, root = task["stem"], task["root"]
+    meta_dict = meta_to_dict(meta)
+    if isinstance(meta_dict, dict) and "sources" in meta_dict:
+        meta_dict = dict(meta_dict)
+        meta_dict["sources"] = [
+            s if s == "command line" else _relativise(os.path.relpath(s, root) if os.path.isabs(s) else s, root)
+            for s in meta_dict["sources"]
+        ]
+    params = seg.params
+    params_dict = asdict(params) if is_dataclass(params) else dict(params)
+    inside, outside = meta.air.inside_c, meta.air.outside_c
+    delta_t = None if inside is None or outside is None else float(inside) - float(outside)
+    anomalies = [asdict(a) for a in analysis.anomalies]
+    warnings = _dedupe([*frame.warnings, *result.warnings, *analysis.warnings, *render_warnings], root)
+    rows, cols = frame.temperature_c.shape
+    record = {
+        "irseg_version": __version__,
+        "status": "ok",
+        "image": task["image"],
+        "source": task["rel"],
+        "stem": stem,
+        "fingerprint": task["fingerprint"],
+        "outputs": {
+            "labels": f"{stem}/labels.png",
+            "overlay": f"{stem}/overlay.png",
+            "result": f"{stem}/result.json",
+        },
+        "view": meta.surface.view,
+        "delta_t_k": delta_t,
+        "metadata": meta_dict,
+        "parameters": {"segment": params_dict, "settings": task["settings"].to_dict()},
+        "image_size": {"rows": int(rows), "cols": int(cols)},
+        "pixels": {
+            "n_dead": int(frame.n_dead),
+            "n_nan": int(frame.n_nan),
+            "n_masked": int(frame.mask.sum()),
+        },
+        "segmentation": {
+            "n_regions": int(seg.n_regions),
+            "iterations": int(seg.iterations),
+            "converged": bool(seg.converged),
+            "message": _relativise(str(seg.message), root),
+        },
+        "analysis": {
+            "pixel_m": analysis.pixel_m,
+            "pixel_area_m2": analysis.pixel_area_m2,
+            "h_w_m2k": analysis.h_w_m2k,
+            "n_anomalies": len(anomalies),
+        },
+        "warnings": warnings,
+        "anomalies": anomalies,
+    }
+    return irio.normalise_json(record)

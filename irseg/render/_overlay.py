@@ -1,0 +1,250 @@
+"""Annotated overlay and label images of one analysed thermogram (arrays only).
+
+:func:`render_overlay` turns a corrected thermogram, its segmentation and its analysis into
+one RGB picture a thermographer can put in front of a client: the surface temperature in an
+open colour map, the jump set of the segmentation, every anomaly outlined in the colour of its
+probable cause with its id, a °C colour bar, a metre scale bar and a title line.
+:func:`label_image` gives the 16-bit label image (pixel = anomaly id). Saving the arrays is
+the job of :mod:`irseg.outputs`; nothing here touches the filesystem.
+
+All drawing uses OpenCV (``cv2.findContours``, ``cv2.drawContours``, ``cv2.putText``), which
+is deterministic: the same inputs give byte-identical arrays.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+import cv2
+import numpy as np
+
+from ..errors import ConfigError, OutputError
+from ..vocabulary import CAUSE_COLOURS, CAUSE_LABELS, CAUSES
+from ._margins import NO_DATA as _NO_DATA
+from ._margins import draw_bottom, draw_colour_bar, draw_title
+from ._marks import blend_edges, thin_jump_lines
+from ._text import draw_text, text_width
+from ._colours import COLORMAPS, colormap_lut, display_range
+from ._layout import BACKGROUND as _BACKGROUND
+from ._layout import ID_SCALE as _ID_SCALE
+from ._layout import OverlayLayout, overlay_layout, scale_bar_length_m
+
+__all__ = ["render_overlay", "label_image"]
+
+
+def label_image(analysis: Any) -> np.ndarray:
+    """Return the label image of an analysis: pixel = anomaly id, 0 elsewhere.
+
+    Parameters
+    ----------
+    analysis : Analysis
+        Needs ``analysis.labels``, an ``(M, N)`` integer array of anomaly ids (0 = none).
+
+    Returns
+    -------
+    (M, N) uint16 ndarray
+
+    Raises
+    ------
+    OutputError
+        Ids above 65535 (a 16-bit PNG cannot hold them) or negative ids.
+    """
+    labels = np.asarray(analysis.labels)
+    if labels.ndim != 2:
+        raise OutputError(f"label image: labels must be a 2-D (M, N) array, got shape {labels.shape}")
+    if labels.size and labels.dtype.kind not in "iub":
+        raise OutputError(f"label image: labels must be integers, got dtype {labels.dtype}")
+    if labels.size:
+        top, bottom = int(labels.max()), int(labels.min())
+        if top > 65535:
+            raise OutputError(
+                f"label image: anomaly id {top} does not fit a 16-bit label image (max 65535); "
+                "raise [analysis] min_contrast_k or [segment] min_feature_px to merge small anomalies"
+            )
+        if bottom < 0:
+            raise OutputError(f"label image: negative anomaly id {bottom}; ids must be 0 (none) or 1..k")
+    return labels.astype(np.uint16)
+
+
+# --------------------------------------------------------------------------- overlay
+
+
+def render_overlay(frame: Any, seg: Any, analysis: Any, *, cmap: str = "inferno") -> np.ndarray:
+    """Draw the annotated overlay of one analysed thermogram.
+
+    Parameters
+    ----------
+    frame : ThermalFrame
+        Uses ``temperature_c`` (M, N) °C, ``mask`` (M, N) bool, ``path`` (title),
+        ``meta.surface.view`` and ``meta.air.inside_c`` / ``outside_c`` (title ΔT).
+    seg : Segmentation
+        Uses ``edges``, the (M, N) bool jump set: blended into the picture at full size, drawn
+        as 1-pixel lines through the (thinned) jump set when the thermogram is enlarged.
+    analysis : Analysis
+        Uses ``labels`` (M, N) anomaly ids, ``anomalies`` (``anomaly``, ``cause``,
+        ``centroid_row``, ``centroid_col``, ``bbox_*``) and ``pixel_m`` (scale bar).
+    cmap : str, optional
+        Open colour-map name, see :func:`colormap_lut`. Default ``"inferno"``.
+
+    Returns
+    -------
+    (M', N', 3) uint8 ndarray
+        RGB picture; shape and positions are given by :func:`overlay_layout` ``((M, N))``. The
+        temperatures are mapped linearly from :func:`display_range` (1st–99th percentile,
+        values outside are clipped to the ends); masked pixels are a grey checkerboard;
+        anomaly outlines use :data:`CAUSE_COLOURS`.
+
+    Raises
+    ------
+    ConfigError
+        Unknown ``cmap``, or arrays whose shapes disagree.
+
+    Notes
+    -----
+    Drawing order: colour-mapped thermogram, no-data checkerboard, jump set, outlines (outer
+    contours of each anomaly's pixels from ``cv2.findContours``, 2 px wide, centred on the
+    anomaly's boundary pixels), id badges, then the margins. About 10 ms for a 640×480 frame on
+    one laptop core. Output is byte-identical for identical inputs.
+
+    References
+    ----------
+    .. [1] S. Suzuki and K. Abe, "Topological structural analysis of digitized binary images by
+       border following", CVGIP 30(1), 32-46, 1985, doi:10.1016/0734-189X(85)90016-7
+       (the contour tracing behind ``cv2.findContours``).
+    .. [2] Z. Guo and R. W. Hall, "Parallel thinning with two-subiteration algorithms",
+       Commun. ACM 32(3), 359-373, 1989, doi:10.1145/62065.62074 (``skimage.morphology.thin``).
+    .. [3] The perceptually uniform colour maps inferno, magma, plasma and viridis by S. van der
+       Walt and N. Smith (2015), as shipped with OpenCV's ``applyColorMap``.
+    """
+    lut = colormap_lut(cmap)
+    temp = np.asarray(frame.temperature_c)
+    if temp.ndim != 2:
+        raise ConfigError(f"render_overlay: temperature_c must be (M, N), got shape {temp.shape}")
+    shape = temp.shape
+    mask = _as_bool(getattr(frame, "mask", None), shape, "frame.mask")
+    edges = _as_bool(getattr(seg, "edges", None), shape, "seg.edges")
+    labels = np.asarray(analysis.labels)
+    if labels.shape != shape:
+        raise ConfigError(f"render_overlay: analysis.labels has shape {labels.shape}, image has {shape}")
+    lay = overlay_layout(shape)
+    s = lay.scale
+
+    lo, hi = display_range(temp, mask=mask)
+    canvas = np.empty(lay.shape, dtype=np.uint8)
+    canvas[...] = _BACKGROUND
+
+    # thermogram in the colour map
+    with np.errstate(invalid="ignore", over="ignore"):
+        norm = (temp.astype(np.float32) - np.float32(lo)) * np.float32(255.0 / (hi - lo))
+    idx = np.clip(np.nan_to_num(norm, nan=0.0, posinf=255.0, neginf=0.0) + 0.5, 0, 255).astype(np.uint8)
+    rgb = lut[idx]
+    if mask is not None and mask.any():
+        checker = ((np.add.outer(np.arange(shape[0]), np.arange(shape[1])) & 1) == 0)
+        rgb[mask & checker] = _NO_DATA[0]
+        rgb[mask & ~checker] = _NO_DATA[1]
+    jumps = None
+    if edges is not None and edges.any():
+        jumps = edges & ~mask if mask is not None else edges
+    if s == 1:
+        if jumps is not None:
+            blend_edges(rgb, jumps)
+    else:
+        rgb = np.repeat(np.repeat(rgb, s, axis=0), s, axis=1)
+        if jumps is not None:
+            blend_edges(rgb, thin_jump_lines(jumps, s))
+    view = canvas[lay.image_row0 : lay.image_row0 + lay.image_rows, lay.image_col0 : lay.image_col0 + lay.image_cols]
+    view[...] = rgb
+
+    anomalies = tuple(getattr(analysis, "anomalies", ()) or ())
+    _draw_outlines(canvas, labels, anomalies, lay)
+    _draw_ids(canvas, anomalies, lay)
+    draw_colour_bar(canvas, lut, lo, hi, lay)
+    draw_title(canvas, frame, len(anomalies), lay)
+    has_mask = bool(mask is not None and mask.any())
+    pixel_m = getattr(analysis, "pixel_m", None)
+    bar_m = None
+    if _is_positive(pixel_m):
+        bar_m = scale_bar_length_m(float(pixel_m), width_px=shape[1])
+    draw_bottom(
+        canvas,
+        anomalies,
+        None if bar_m is None else (bar_m, int(round(bar_m / float(pixel_m) * s))),
+        has_mask,
+        lay,
+        causes=CAUSES,
+        colours=CAUSE_COLOURS,
+        labels=CAUSE_LABELS,
+    )
+    return canvas
+
+
+def _is_positive(value: Any) -> bool:
+    if value is None or isinstance(value, bool):
+        return False
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        return False
+    return math.isfinite(v) and v > 0
+
+
+def _as_bool(arr: Any, shape: tuple[int, ...], name: str) -> np.ndarray | None:
+    if arr is None:
+        return None
+    a = np.asarray(arr, dtype=bool)
+    if a.shape != shape:
+        raise ConfigError(f"render_overlay: {name} has shape {a.shape}, image has {shape}")
+    return a
+
+
+def _draw_outlines(canvas: np.ndarray, labels: np.ndarray, anomalies: tuple, lay: OverlayLayout) -> None:
+    s = lay.scale
+    m, n = labels.shape
+    thickness = 2
+    for a in anomalies:
+        aid = int(a.anomaly)
+        r0, c0, r1, c1 = _bbox(a, m, n)
+        crop = labels[r0:r1, c0:c1] == aid
+        if not crop.any():
+            continue
+        crop = crop.astype(np.uint8)
+        if s > 1:
+            crop = np.repeat(np.repeat(crop, s, axis=0), s, axis=1)
+        contours, _ = cv2.findContours(
+            crop, cv2.RETR_EXTERNAL, cv2.CHAIN_APPROX_NONE, offset=(lay.image_col0 + c0 * s, lay.image_row0 + r0 * s)
+        )
+        colour = CAUSE_COLOURS.get(str(a.cause), CAUSE_COLOURS["unclassified"])
+        cv2.drawContours(canvas, contours, -1, colour, thickness, lineType=cv2.LINE_8)
+
+
+def _bbox(a: Any, m: int, n: int) -> tuple[int, int, int, int]:
+    try:
+        r0, c0 = max(0, int(a.bbox_row0)), max(0, int(a.bbox_col0))
+        r1, c1 = min(m, int(a.bbox_row1)), min(n, int(a.bbox_col1))
+    except (AttributeError, TypeError, ValueError):
+        return 0, 0, m, n
+    if r1 <= r0 or c1 <= c0:
+        return 0, 0, m, n
+    return r0, c0, r1, c1
+
+
+def _draw_ids(canvas: np.ndarray, anomalies: tuple, lay: OverlayLayout) -> None:
+    s = lay.scale
+    for a in anomalies:
+        try:
+            row = (float(a.centroid_row) + 0.5) * s + lay.image_row0
+            col = (float(a.centroid_col) + 0.5) * s + lay.image_col0
+        except (AttributeError, TypeError, ValueError):
+            continue
+        if not (math.isfinite(row) and math.isfinite(col)):
+            continue
+        text = str(int(a.anomaly))
+        w = text_width(text, _ID_SCALE, 1)
+        x0, y0 = int(round(col - w / 2)), int(round(row - 7))
+        colour = CAUSE_COLOURS.get(str(a.cause), CAUSE_COLOURS["unclassified"])
+        cv2.rectangle(canvas, (x0 - 3, y0 - 2), (x0 + w + 2, y0 + 15), (0, 0, 0), -1)
+        cv2.rectangle(canvas, (x0 - 3, y0 - 2), (x0 + w + 2, y0 + 15), colour, 1)
+        draw_text(canvas, text, (x0, y0 + 12), _ID_SCALE, (255, 255, 255), 1)
+
+
