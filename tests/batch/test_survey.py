@@ -145,7 +145,8 @@ def test_mixed_folder_fails_bad_files_alone(tmp_path):
         assert failures[name]["stage"] == stage, (name, failures[name])
         message = failures[name]["message"]
         assert message and "\n" not in message and "Traceback" not in message
-    assert "budget" in failures["too_big.npy"]["message"] or "pixels" in failures["too_big.npy"]["message"]
+    assert "pixel budget of 10000" in failures["too_big.npy"]["message"]
+    assert "max_pixels" in failures["too_big.npy"]["message"]
     assert "emissivity" in failures["bad_eps.npy"]["message"]
     assert "distance_m" in failures["bad_distance.npy"]["message"]
     assert "radiometric" in failures["photo.png"]["message"]

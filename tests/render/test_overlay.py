@@ -175,7 +175,7 @@ def test_colormap_lut_matches_opencv_and_published_inferno_ends():
     assert lut.shape == (256, 3) and lut.dtype == np.uint8
     assert np.array_equal(lut, reference_lut(cv2.COLORMAP_INFERNO))
     # inferno's published end colours (matplotlib's listed data, 0.0015/0.0005/0.0139 and
-    # 0.9884/0.9984/0.6449 times 255) [M: from memory]
+    # 0.9884/0.9984/0.6449 times 255), from memory [M]
     assert np.abs(lut[0].astype(int) - [0, 0, 4]).max() <= 1
     assert np.abs(lut[255].astype(int) - [252, 255, 164]).max() <= 1
     gray = colormap_lut("grey")

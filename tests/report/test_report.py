@@ -12,7 +12,6 @@ import io
 import os
 import shutil
 import subprocess
-import time
 from html.parser import HTMLParser
 from importlib import resources
 from types import SimpleNamespace
@@ -236,14 +235,14 @@ def test_safety_and_estimate_cautions_are_present():
     summary, overlays = make_summary()
     text = " ".join("".join(parse(render_report(summary, overlays)).text).split())
     for phrase in (
-        "at least two",  # roofs at night: never alone (ASTM C1153 §1.1 warning, [V] in REFERENCE-VALUES 4.4)
+        "at least two",  # at least two people on a roof at night (ASTM C1153, section 1.1 safety warning) [V]
         "edge protection",  # working at height [CP]
         "electrical",  # energised equipment (ASTM E1862/E1933 warnings [V])
         "depressuris",  # combustion appliances during fan depressurisation [CP]
         "estimates",
         "low–high",
         "contact or invasive",
-        "R_si = 0.25",  # design f_Rsi convention (ISO 13788 worst case, REFERENCE-VALUES §3 [V])
+        "R_si = 0.25",  # design f_Rsi convention, ISO 13788 worst-case R_si [V] (as quoted by a secondary source)
         "local building codes",
         "licensed",
         "Batch note: two images were taken through glazing.",  # the summary's own cautions too
@@ -370,7 +369,6 @@ def test_report_opens_in_a_headless_browser(tmp_path):
     assert html.count("</body>") == 1
     wrapper.write_text(html.replace("</body>", CHECK_SCRIPT + "</body>"), encoding="utf-8")
 
-    t0 = time.perf_counter()
     dom = run_chromium(exe, tmp_path / "profile1", "--virtual-time-budget=10000", "--dump-dom", wrapper.as_uri())
     assert dom.returncode == 0, dom.stderr[-2000:]
     check = parse(dom.stdout)
@@ -391,4 +389,3 @@ def test_report_opens_in_a_headless_browser(tmp_path):
     rgb = img[..., :3].reshape(-1, 3)
     assert rgb.std() > 20  # not a blank page
     assert len(np.unique(rgb[::7], axis=0)) > 200  # text plus the embedded thermograms
-    assert time.perf_counter() - t0 < 170
