@@ -1,8 +1,9 @@
 """Where an anomaly's edge lies, and pieces of one anomaly that a segmentation cuts apart.
 
 - Edge position: a blurred step's edge is at the peak of the gradient along its
-  normal, its inflection point (Canny 1986; for a symmetric blur of a step between
-  two plateaus it is the half-way level) [V: Canny, IEEE PAMI 8 (1986)]. The camera
+  normal, its inflection point (Canny, "A computational approach to edge detection",
+  IEEE Trans. PAMI 8(6), 1986) [V]; for a symmetric blur of a step between two plateaus
+  that is the half-way level [C]. The camera
   point-spread function and lateral conduction in the lining both act as such a blur
   [CP]. An empty bay beside colder-than-sound studs must therefore not grow onto the
   studs, as a half-of-the-reference-contrast level would make it.
@@ -11,7 +12,7 @@
   temperature touching a larger anomaly is part of it [CP]; two touching regions of
   clearly different temperature stay apart (issue 2).
 - Rim slivers: a thin piece of a larger anomaly's soft rim is that anomaly's edge, not
-  a defect of its own [CP: practice — defects are judged on their own pattern]; its
+  a defect of its own [CP] (practice: defects are judged on their own pattern); its
   heat still belongs to the anomaly's thermal footprint (issue 4).
 """
 

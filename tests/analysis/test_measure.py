@@ -32,11 +32,12 @@ def test_uniform_square_gives_exact_area_and_heat_loss():
     assert a.area_m2 == pytest.approx(900 * 1e-4, rel=1e-12)
     assert a.delta_k == pytest.approx(-2.0, abs=1e-9)
     assert a.reference_c == pytest.approx(18.0, abs=1e-9)
-    # h_si = h_ci + ε·4σT_m³ (ISO 6946 annex), T_m = mean of sound surface 18 °C and surroundings (inside air 20 °C)
+    # h_si = h_ci + ε·4σT_m³ (ISO 6946:2017 Annex C) [C], T_m = mean of the sound surface (18 °C) and the
+    # surroundings (inside air 20 °C)
     h = 2.5 + 0.93 * 4 * SIGMA_SB * (19.0 + 273.15) ** 3
     assert res.h_w_m2k == pytest.approx(h, rel=1e-9)
     assert a.excess_w == pytest.approx(h * 2.0 * 900 * 1e-4, rel=1e-9)
-    # degree-day energy (§6): ΔQ/(T_i − T_e)·HDD·24/1000 with 20 K and 3000 K·d
+    # degree-day method [CP]: ΔQ/(T_i − T_e)·HDD·24/1000 with 20 K and 3000 K·d
     assert a.excess_kwh_year == pytest.approx(a.excess_w / 20.0 * 3000 * 24 / 1000, rel=1e-12)
     assert (a.bbox_row0, a.bbox_col0, a.bbox_row1, a.bbox_col1) == (40, 60, 70, 90)
     assert (a.centroid_row, a.centroid_col) == pytest.approx((54.5, 74.5))
@@ -46,8 +47,10 @@ def test_uniform_square_gives_exact_area_and_heat_loss():
 
 @pytest.mark.parametrize("tilt, area_m2, excess_w, kwh", [(0.0, 0.1728, 2.658, 9.57), (30.0, 0.1995, 3.070, 11.05)])
 def test_pixel_sum_worked_example(tilt, area_m2, excess_w, kwh):
-    # REFERENCE-VALUES §6.2 [C]: 320 px, 25°, 3 m, 10 000 px 2.0 K colder, inside view, h_si = 1/0.13 = 7.69;
-    # HDD 3000, T_i − T_e = 20 K. Our h_si (2.5 + 0.9·4σT³ at 20 °C = 7.64) differs from 1/0.13 by 0.65 %.
+    # worked here [C]: 320 px, 25°, 3 m (p = 2·d·tan(FOV/2)/N), 10 000 px 2.0 K colder, inside view,
+    # ΔQ = h_si·ΔT·A with h_si = 1/0.13 = 7.69 (ISO 6946:2017 Table 7 R_si [V], as quoted by secondary
+    # sources); degree-day method [CP] with HDD 3000, T_i − T_e = 20 K; 30° tilt: area × 1/cos 30°.
+    # Our h_si (2.5 + 0.9·4σT³ at 20 °C = 7.64) differs from 1/0.13 by 0.65 %.
     t, d = _square_scene(shape=(240, 320), box=(70, 170, 110, 210), base=20.0, delta=-2.0)
     meta = make_meta(
         camera={"hfov_deg": 25.0, "distance_m": 3.0, "tilt_deg": tilt},
@@ -120,7 +123,7 @@ def test_sign_rule_for_excess_heat():
     res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), make_seg(d, u=t))
     (a,) = res.anomalies
     assert a.kind == "warm" and a.excess_w is None and a.excess_kwh_year is None and a.excess_low_w is None
-    # outside view: warm = heat loss, positive; exterior h = 4 + 4v + ε·4σT_m³ (ISO 6946 annex)
+    # outside view: warm = heat loss, positive; exterior h = 4 + 4v + ε·4σT_m³ (ISO 6946 annex [M])
     meta = make_meta(camera={"pixel_m": 0.01}, surface={"view": "exterior", "reflected_c": 2.0},
                      air={"inside_c": 20.0, "outside_c": 2.0, "wind_m_s": 1.0})
     t2, d2 = _square_scene(base=3.0, delta=+1.0)
@@ -134,9 +137,11 @@ def test_sign_rule_for_excess_heat():
 
 
 def test_f_rsi_from_the_anomaly_and_mould_flag():
-    # thermal index check: T_i 20, T_e 10 and a surface at 17.5 °C -> 0.75 [V, secondary]
+    # f = (θ_si − θ_e)/(θ_i − θ_e), ISO 13788 definition: T_i 20, T_e 10, surface 17.5 °C -> 0.75 [C]
     t, d = _square_scene(base=19.0, delta=-1.5)
-    for limit, risk in ((0.70, False), (0.76, True)):  # 0.70 DIN 4108-2 [V, secondary]; 0.75 UK practice [V]
+    # limits: 0.70, DIN 4108-2 minimum f_Rsi; 0.75, BRE IP 1/06 f_CRsi for dwellings (UK); both [V] as
+    # quoted by secondary sources
+    for limit, risk in ((0.70, False), (0.76, True)):
         meta = make_meta(camera={"pixel_m": 0.01}, air={"inside_c": 20.0, "outside_c": 10.0},
                          analysis={"frsi_limit": limit})
         (a,) = analyse(make_frame(t, meta), make_seg(d, u=t)).anomalies
