@@ -175,7 +175,7 @@ def process_image(
             min_feature_px=knobs.min_feature_px,
         ),
     )
-    analysis = _run_stage("analyse", timings, caught, lambda: analyse(frame, seg))
+    analysis = _run_stage("analyse", timings, caught, lambda: analyse(frame, seg, meta))
     return ImageResult(
         path=image,
         meta=meta,

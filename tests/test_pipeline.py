@@ -74,10 +74,10 @@ def test_irseg_warnings_recorded_others_passed_through(tmp_path, monkeypatch):
     (path,) = make_survey(tmp_path, 1, tiff=False)
     real = irseg.analysis.analyse
 
-    def noisy(frame, seg):
+    def noisy(frame, seg, meta):
         warnings.warn("wind above the limit (test)", ConditionsWarning, stacklevel=2)
         warnings.warn("a library's own warning (test)", UserWarning, stacklevel=2)
-        return real(frame, seg)
+        return real(frame, seg, meta)
 
     monkeypatch.setattr(irseg.analysis, "analyse", noisy)
     with pytest.warns(UserWarning, match="library's own") as caught:

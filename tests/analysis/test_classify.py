@@ -32,7 +32,7 @@ def _studs(t, d, *, cols, width=5, delta=-0.8, rows=slice(None)):
 def _run(t, d, *, u=None, noise=0.03, seed=3, **meta_sections):
     meta_sections.setdefault("camera", {"pixel_m": PIXEL_M})
     t_noisy = t + np.random.default_rng(seed).normal(0.0, noise, t.shape)
-    res = analyse(make_frame(t_noisy, make_meta(**meta_sections)), make_seg(d, u=t if u is None else u))
+    res = analyse(make_frame(t_noisy), make_seg(d, u=t if u is None else u), make_meta(**meta_sections))
     for a in res.anomalies:
         assert a.cause in CAUSES and a.reason
     return res

@@ -27,7 +27,7 @@ def _scene(rng=None, *, noise=0.0):
 
 def _analyse(t, seg, **sections):
     sections.setdefault("camera", {"pixel_m": 0.01})
-    return analyse(make_frame(t, make_meta(**sections)), seg)
+    return analyse(make_frame(t), seg, make_meta(**sections))
 
 
 def test_small_inside_outside_difference_warns():

@@ -25,7 +25,7 @@ def _square_scene(shape=(120, 160), box=(40, 70, 60, 90), base=18.0, delta=-2.0)
 def test_uniform_square_gives_exact_area_and_heat_loss():
     t, d = _square_scene()
     meta = make_meta(camera={"pixel_m": 0.01})
-    res = analyse(make_frame(t, meta), make_seg(d, u=t))
+    res = analyse(make_frame(t), make_seg(d, u=t), meta)
     assert len(res.anomalies) == 1
     a = res.anomalies[0]
     assert (a.kind, a.area_px) == ("cold", 900)
@@ -57,7 +57,7 @@ def test_pixel_sum_worked_example(tilt, area_m2, excess_w, kwh):
         surface={"emissivity": 0.9, "reflected_c": 20.0},
         air={"inside_c": 20.0, "outside_c": 0.0},
     )
-    res = analyse(make_frame(t, meta), make_seg(d, u=t))
+    res = analyse(make_frame(t), make_seg(d, u=t), meta)
     (a,) = res.anomalies
     assert a.area_px == 10_000
     assert a.area_m2 == pytest.approx(area_m2, rel=1e-3)
@@ -72,7 +72,7 @@ def test_soft_rim_carries_heat():
     t = ndimage.gaussian_filter(t, 2.0)
     d = (t < 18.0 - 1.5).astype(int)  # region = pixels beyond half the contrast
     meta = make_meta(camera={"pixel_m": 0.01})
-    res = analyse(make_frame(t, meta), make_seg(d, u=t))
+    res = analyse(make_frame(t), make_seg(d, u=t), meta)
     (a,) = res.anomalies
     total = res.h_w_m2k * float((18.0 - t).sum()) * 1e-4  # true excess over the whole image
     region_only = res.h_w_m2k * float((18.0 - t)[d == 1].sum()) * 1e-4
@@ -92,7 +92,7 @@ def test_reference_follows_a_linear_gradient_within_0p1_k(rng):
     u = t.copy()
     t = t + rng.normal(0.0, 0.05, t.shape)
     meta = make_meta(camera={"pixel_m": 0.01})
-    res = analyse(make_frame(t, meta), make_seg(d, u=u))
+    res = analyse(make_frame(t), make_seg(d, u=u), meta)
     (a,) = res.anomalies
     truth = float(sound[d == 1].mean())
     assert abs(a.reference_c - truth) < 0.1
@@ -110,8 +110,8 @@ def test_reference_under_gradient_without_segmented_background_split(rng):
     d[50:90, 10:50] = 1
     d[50:90, 150:190] = 2
     t = sound + np.where(d == 1, -1.0, 0.0) + np.where(d == 2, 1.0, 0.0)
-    res = analyse(make_frame(t + rng.normal(0, 0.03, t.shape), make_meta(camera={"pixel_m": 0.01})),
-                  make_seg(d, u=t))
+    res = analyse(make_frame(t + rng.normal(0, 0.03, t.shape)), make_seg(d, u=t),
+                  make_meta(camera={"pixel_m": 0.01}))
     assert [a.kind for a in res.anomalies] == ["cold", "warm"]
     for a, lab in zip(res.anomalies, (1, 2)):
         assert abs(a.reference_c - float(sound[d == lab].mean())) < 0.1
@@ -120,14 +120,14 @@ def test_reference_under_gradient_without_segmented_background_split(rng):
 def test_sign_rule_for_excess_heat():
     # inside view: cold = heat loss (positive W), warm = not a heat-loss signature (None)
     t, d = _square_scene(delta=+2.0)
-    res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), make_seg(d, u=t))
+    res = analyse(make_frame(t), make_seg(d, u=t), make_meta(camera={"pixel_m": 0.01}))
     (a,) = res.anomalies
     assert a.kind == "warm" and a.excess_w is None and a.excess_kwh_year is None and a.excess_low_w is None
     # outside view: warm = heat loss, positive; exterior h = 4 + 4v + ε·4σT_m³ (ISO 6946 annex [M])
     meta = make_meta(camera={"pixel_m": 0.01}, surface={"view": "exterior", "reflected_c": 2.0},
                      air={"inside_c": 20.0, "outside_c": 2.0, "wind_m_s": 1.0})
     t2, d2 = _square_scene(base=3.0, delta=+1.0)
-    res2 = analyse(make_frame(t2, meta), make_seg(d2, u=t2))
+    res2 = analyse(make_frame(t2), make_seg(d2, u=t2), meta)
     (b,) = res2.anomalies
     h_se = 4 + 4 * 1.0 + 0.93 * 4 * SIGMA_SB * (2.5 + 273.15) ** 3
     assert b.kind == "warm"
@@ -144,7 +144,7 @@ def test_f_rsi_from_the_anomaly_and_mould_flag():
     for limit, risk in ((0.70, False), (0.76, True)):
         meta = make_meta(camera={"pixel_m": 0.01}, air={"inside_c": 20.0, "outside_c": 10.0},
                          analysis={"frsi_limit": limit})
-        (a,) = analyse(make_frame(t, meta), make_seg(d, u=t)).anomalies
+        (a,) = analyse(make_frame(t), make_seg(d, u=t), meta).anomalies
         assert a.f_rsi == pytest.approx(0.75, abs=1e-9)
         assert a.mould_risk is risk
 
@@ -154,7 +154,7 @@ def test_f_rsi_uses_the_coldest_robust_value():
     t, d = _square_scene(base=18.0, delta=-2.0)
     t[40:55, 60:90] = 12.0
     meta = make_meta(camera={"pixel_m": 0.01}, air={"inside_c": 20.0, "outside_c": 0.0})
-    (a,) = analyse(make_frame(t, meta), make_seg(d, u=t)).anomalies
+    (a,) = analyse(make_frame(t), make_seg(d, u=t), meta).anomalies
     assert a.f_rsi == pytest.approx((12.0 - 0.0) / 20.0, abs=1e-9)
     assert a.mould_risk is True  # 0.60 < 0.70 (DIN 4108-2)
 
@@ -170,7 +170,7 @@ def test_bay_at_the_image_edge_keeps_its_reference():
     # the reference must not extrapolate a slope into the bay nor sit in the rim
     t = _soft_bay(blur=7.0)
     d = (t < (19.3 + 15.8) / 2).astype(int)
-    res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), make_seg(d, u=t))
+    res = analyse(make_frame(t), make_seg(d, u=t), make_meta(camera={"pixel_m": 0.01}))
     (a,) = res.anomalies
     assert a.reference_c == pytest.approx(19.3, abs=0.05)
     total = res.h_w_m2k * float((19.3 - t).sum()) * 1e-4
@@ -187,7 +187,7 @@ def test_sound_strip_pulled_by_a_neighbours_rim_is_not_an_anomaly():
     strip &= d == 0
     d[strip] = 2
     assert 19.3 - float(t[strip].mean()) > 0.25  # its mean alone would pass the 0.25 K threshold
-    res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), make_seg(d, u=t))
+    res = analyse(make_frame(t), make_seg(d, u=t), make_meta(camera={"pixel_m": 0.01}))
     assert len(res.anomalies) == 1 and res.anomalies[0].area_px == int((d == 1).sum())
 
 
@@ -199,7 +199,7 @@ def test_region_drawn_wider_than_the_defect_is_measured_at_half_contrast():
     d[38:72, 58:102] = 1
     t[38:40, 58:102] = t[70:72, 58:102] = 18.0 - 0.5  # the outer band holds a quarter of the contrast
     t[38:72, 58:60] = t[38:72, 100:102] = 18.0 - 0.5
-    res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), make_seg(d, u=t))
+    res = analyse(make_frame(t), make_seg(d, u=t), make_meta(camera={"pixel_m": 0.01}))
     (a,) = res.anomalies
     assert a.area_px == 30 * 40 and int((res.labels == 1).sum()) == 30 * 40
     assert (a.bbox_row0, a.bbox_col0, a.bbox_row1, a.bbox_col1) == (40, 60, 70, 100)

@@ -13,7 +13,7 @@ from irseg.analysis import (
     h_interior,
     h_radiative,
     pixel_area_m2,
-    pixel_footprint_m,
+    pixel_size_m,
     surface_resistance_exterior,
     surface_resistance_interior,
     temperature_factor,
@@ -89,39 +89,39 @@ def test_bad_physics_inputs_raise_config_errors_naming_the_key():
         h_exterior(wind_m_s=-1.0)
 
 
-# Pixel footprint p = 2·d·tan(FOV/2)/N, pinhole geometry [C]
+# One pixel's side on the surface p = 2·d·tan(FOV/2)/N, pinhole geometry [C]
 @pytest.mark.parametrize(
     "n, fov, d, p_mm",
     [(160, 25.0, 5.0, 13.86), (320, 25.0, 5.0, 6.93), (640, 25.0, 5.0, 3.46), (640, 45.0, 3.0, 3.88),
      (1280, 25.0, 10.0, 3.46), (320, 25.0, 3.0, 4.157)],
 )
-def test_pixel_footprint_table(n, fov, d, p_mm):
-    assert 1000 * pixel_footprint_m(n_columns=n, hfov_deg=fov, distance_m=d) == pytest.approx(p_mm, abs=0.006)
+def test_pixel_size_table(n, fov, d, p_mm):
+    assert 1000 * pixel_size_m(n_cols=n, hfov_deg=fov, distance_m=d) == pytest.approx(p_mm, abs=0.006)
 
 
 def test_pixel_area_and_explicit_pixel_size():
     # 320 px, 25°, 3 m: pixel area p² = 1.7279e-5 m² [C]
-    p = pixel_footprint_m(n_columns=320, hfov_deg=25.0, distance_m=3.0)
-    assert pixel_area_m2(footprint_m=p) == pytest.approx(1.7279e-5, rel=1e-4)
-    assert pixel_footprint_m(n_columns=320, hfov_deg=25.0, distance_m=3.0, pixel_m=0.01) == 0.01
-    assert pixel_footprint_m(n_columns=320, hfov_deg=25.0) is None
-    assert pixel_area_m2(footprint_m=None) is None
+    p = pixel_size_m(n_cols=320, hfov_deg=25.0, distance_m=3.0)
+    assert pixel_area_m2(pixel_m=p) == pytest.approx(1.7279e-5, rel=1e-4)
+    assert pixel_size_m(n_cols=320, hfov_deg=25.0, distance_m=3.0, pixel_m=0.01) == 0.01
+    assert pixel_size_m(n_cols=320, hfov_deg=25.0) is None
+    assert pixel_area_m2(pixel_m=None) is None
 
 
 @pytest.mark.parametrize("tilt, factor", [(0.0, 1.0), (30.0, 1.1547), (45.0, 1.4142), (60.0, 2.0)])
 def test_tilt_factor(tilt, factor):
     # oblique area factor 1/cos θ, projection of a plane tilted θ from the line of sight [C]
     assert tilt_factor(tilt) == pytest.approx(factor, abs=1e-4)
-    assert pixel_area_m2(footprint_m=0.01, tilt_deg=tilt) == pytest.approx(1e-4 * factor, rel=1e-4)
+    assert pixel_area_m2(pixel_m=0.01, tilt_deg=tilt) == pytest.approx(1e-4 * factor, rel=1e-4)
 
 
 def test_geometry_errors():
     with pytest.raises(ConfigError, match="tilt_deg"):
         tilt_factor(85.0)
     with pytest.raises(ConfigError, match="distance_m"):
-        pixel_footprint_m(n_columns=320, hfov_deg=25.0, distance_m=0.0)
+        pixel_size_m(n_cols=320, hfov_deg=25.0, distance_m=0.0)
     with pytest.raises(ConfigError, match="pixel_m"):
-        pixel_footprint_m(n_columns=320, pixel_m=-1.0)
+        pixel_size_m(n_cols=320, pixel_m=-1.0)
 
 
 @pytest.mark.parametrize("hdd, kwh", [(3000, 168.4), (2858, 160.4), (2000, 112.3)])

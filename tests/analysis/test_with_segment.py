@@ -21,7 +21,7 @@ def test_framed_wall_with_an_empty_bay(rng):
     t[20:100, 110:140] -= 3.0
     t = t + rng.normal(0.0, 0.05, t.shape)
     seg = segment(t)
-    res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), seg)
+    res = analyse(make_frame(t), seg, make_meta(camera={"pixel_m": 0.01}))
     causes = [a.cause for a in res.anomalies]
     assert causes.count("missing_insulation") == 1
     assert causes.count("thermal_bridge") >= 5

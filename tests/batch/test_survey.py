@@ -255,10 +255,10 @@ def test_unexpected_stage_error_fails_one_image(tmp_path, monkeypatch):
     paths = make_survey(survey, 3)
     real = irseg.analysis.analyse
 
-    def flaky(frame, seg):
+    def flaky(frame, seg, meta):
         if Path(frame.path).name == paths[1].name:
             raise ZeroDivisionError("division by zero")
-        return real(frame, seg)
+        return real(frame, seg, meta)
 
     monkeypatch.setattr(irseg.analysis, "analyse", flaky)
     result = run_survey([survey], tmp_path / "out", jobs=1)
