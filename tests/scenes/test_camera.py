@@ -94,7 +94,7 @@ def test_truth_footprint_area_on_camera_grid():
     (t,) = truth_in_window(sc, x0_m=x0, x1_m=x1, y0_m=y0, y1_m=y1)
     assert t.area_m2 < sc.truth[0].area_m2  # the bay runs past the top and bottom of the view
     # pixel area matches the surface-grid area in the view to within a rim of half a cell
-    fp = shot.footprints[0]
+    fp = shot.defect_masks[0]
     rows, cols = np.nonzero(fp)
     perimeter_m = 2 * ((np.ptp(rows) + 1) + (np.ptp(cols) + 1)) * p
     assert abs(fp.sum() * p * p - t.area_m2) < perimeter_m * el.cell_m / 2

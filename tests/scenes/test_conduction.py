@@ -101,7 +101,7 @@ def test_defect_increases_heat_flow_and_cools_inside_face():
     assert t.excess_w > 0
     assert t.excess_w >= t.excess_footprint_w > 0
     assert t.mean_c < t.reference_c - 1.0
-    fp = sc.footprints[0]
+    fp = sc.defect_masks[0]
     assert (sc.surface_c[fp] < sc.baseline_c[fp] - 0.5).all()
     # total heat from the room through the element rises by the defect's excess
     assert sc.balance["inside_face_w"] > t.excess_w > 0

@@ -10,10 +10,10 @@ from irseg.scenes import (
     MATERIALS,
     Conditions,
     air_layer,
+    defect_mask,
     face_conditions,
-    footprint,
-    h_convective_inside,
-    h_convective_outside,
+    h_convective_exterior,
+    h_convective_interior,
     h_radiative,
     masonry_wall,
     missing_bay,
@@ -38,18 +38,18 @@ def test_conventional_surface_resistances_are_reproduced():
     # 1/(5.13 + 5.0) = 0.10 (upward), 1/(5.13 + 0.7) = 0.17 (downward); these are the conventional
     # R_si of ISO 6946:2017 Table 7 [V] (read as quoted by secondary sources)
     h_ri = h_radiative(20.0, 0.9)
-    assert round(1 / (h_convective_inside("horizontal") + h_ri), 2) == 0.13
-    assert round(1 / (h_convective_inside("upward") + h_ri), 2) == 0.10
-    assert round(1 / (h_convective_inside("downward") + h_ri), 2) == 0.17
+    assert round(1 / (h_convective_interior("horizontal") + h_ri), 2) == 0.13
+    assert round(1 / (h_convective_interior("upward") + h_ri), 2) == 0.10
+    assert round(1 / (h_convective_interior("downward") + h_ri), 2) == 0.17
     # R_se(v) = 1/(4 + 4v + 4.14) [C] rounds to ISO 6946:2007 Table A.2 [V] (the table as quoted in
     # open-source code, not in the standard's own text)
     table = {1: 0.08, 2: 0.06, 3: 0.05, 4: 0.04, 5: 0.04, 7: 0.03, 10: 0.02}
     for v, r in table.items():
-        assert round(1 / (h_convective_outside(v) + 4.14), 2) == r
+        assert round(1 / (h_convective_exterior(v) + 4.14), 2) == r
     # linearised h_se = 4 + 4v (ISO 6946 annex [M]) + 0.9*4 sigma T^3 at 0 °C: v = 1 -> 12.16,
     # v = 4 -> 24.16 W/m²K [C]
-    assert h_convective_outside(1.0) + h_radiative(0.0, 0.9) == pytest.approx(12.16, abs=0.01)
-    assert h_convective_outside(4.0) + h_radiative(0.0, 0.9) == pytest.approx(24.16, abs=0.01)
+    assert h_convective_exterior(1.0) + h_radiative(0.0, 0.9) == pytest.approx(12.16, abs=0.01)
+    assert h_convective_exterior(4.0) + h_radiative(0.0, 0.9) == pytest.approx(24.16, abs=0.01)
 
 
 def test_face_conditions_stratification_and_sky():
@@ -59,7 +59,7 @@ def test_face_conditions_stratification_and_sky():
     fc = face_conditions(el, cond)
     # inside: the convective share of the ambient follows the air, +1 K/m upwards
     slope = (fc["amb_in"][0, 0] - fc["amb_in"][-1, 0]) / (1.9 * 1.0)
-    assert slope == pytest.approx(h_convective_inside("horizontal") / fc["h_in"][0, 0], rel=1e-9)
+    assert slope == pytest.approx(h_convective_interior("horizontal") / fc["h_in"][0, 0], rel=1e-9)
     # outside: radiant temperature from the sky-view fraction (0.2 sky at the top, 0.6 at the bottom)
     assert fc["rad_out"][0, 0] == pytest.approx((0.2 + 0.4 * 0.05 / 2.0) * -20.0, abs=1e-9)
     assert fc["rad_out"][-1, 0] < fc["rad_out"][0, 0]
@@ -86,13 +86,14 @@ def test_timber_frame_geometry_and_defects():
     # studs 45 mm wide at 600 mm centres: 4 studs of 3 cells each in 2.4 m
     assert studs.sum() == 12
     d = missing_bay(el, 1)
-    fp = footprint(el, d)
+    fp = defect_mask(el, d)
     a, b = el.bays[1]
     assert fp.sum() * el.cell_m**2 == pytest.approx((b - a) * 1.2, rel=1e-9)
     kd, _ = rasterise(el, (d,))
     assert np.allclose(kd[zi][:, fp], air_layer(0.14).conductivity_w_mk)
     s = settled_insulation(el, 2, void_m=0.3)
-    assert footprint(el, s).sum() * el.cell_m**2 == pytest.approx((el.bays[2][1] - el.bays[2][0]) * 0.3, rel=1e-6)
+    assert defect_mask(el, s).sum() * el.cell_m**2 == pytest.approx((el.bays[2][1] - el.bays[2][0]) * 0.3,
+                                                                     rel=1e-6)
     with pytest.raises(ConfigError, match="masonry"):
         slab_edge(el, y0_m=0.5)
 
