@@ -5,7 +5,7 @@ errors (an IrsegError subclass). Anything else is counted as "UNEXPECTED" and th
 few are printed with their traceback; the script then exits with status 1.
 
 Inputs are mutations of small valid files written by the reference writers (tifffile,
-imageio, numpy) and by irseg's own image writers (``irseg.io._scene_writers``, which make
+imageio, numpy) and by irseg's own image writers (``irseg.io``, which make
 the sample survey): truncation, bit flips, header corruption, inserted/deleted chunks,
 random bytes (with and without the format's signature) and huge declared dimensions.
 
@@ -34,7 +34,7 @@ import numpy as np
 
 from irseg.errors import IrsegError
 from irseg.io import read_thermogram
-from irseg.io._scene_writers import csv_matrix_text, npy_bytes, png16_bytes, quantise_u16, tiff_bytes
+from irseg.io import csv_matrix_text, npy_bytes, png16_bytes, quantise_u16, tiff_bytes
 
 MAX_PIXELS = 4_000_000
 

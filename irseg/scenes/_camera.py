@@ -113,7 +113,7 @@ class Shot:
 
 
 # The camera is the truth side of the validation: it keeps its own pixel-footprint formula on purpose
-# instead of calling irseg.analysis.pixel_footprint_m, so a slip in the analysis' geometry shows up as an
+# instead of calling irseg.analysis.pixel_size_m, so a slip in the analysis' geometry shows up as an
 # area error in benchmarks/validate_scenes.py instead of cancelling out (and the bundled samples
 # do not move when the analysis changes).
 def pixel_footprint_m(*, hfov_deg: float, distance_m: float, n_cols: int) -> float:

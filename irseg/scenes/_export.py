@@ -10,7 +10,7 @@ Formats (``fmt``):
 
 This module decides *what* is written (the export's temperatures, the format and file
 name, metadata that irseg accepts); the encoders and atomic writers are the I/O layer's
-(:mod:`irseg.io._scene_writers`). Dead pixels keep their stuck value. Writers are
+(:mod:`irseg.io`). Dead pixels keep their stuck value. Writers are
 deterministic (no time stamps), so a seeded survey is byte-identical when remade.
 """
 
@@ -24,7 +24,7 @@ import numpy as np
 from irseg._shared import KELVIN_AT_0C
 from irseg.errors import ConfigError
 from irseg.io import write_text
-from irseg.io._scene_writers import (
+from irseg.io import (
     format_metadata_toml,
     write_csv_matrix,
     write_npy,
@@ -116,7 +116,7 @@ def write_image(
 def write_toml(path: str | os.PathLike[str], sections: dict, *, header: str = "") -> Path:
     """Write a metadata TOML file atomically; returns its path.
 
-    The text (:func:`irseg.io._scene_writers.format_metadata_toml`) is first checked against
+    The text (:func:`irseg.io.format_metadata_toml`) is first checked against
     the metadata schema (``irseg.types`` sections, via :func:`irseg.metadata.parse_metadata_text`),
     so a file irseg would refuse is never written.
 

@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from irseg.io import write_text
-from irseg.io._scene_writers import write_exact_json, write_npz
+from irseg.io import write_exact_json, write_npz
 from irseg.scenes._camera import CameraModel, Shot, shoot, view_window
 from irseg.scenes._export import encode_values, write_image, write_toml
 from irseg.scenes._presets import make_preset

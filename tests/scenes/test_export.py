@@ -9,7 +9,7 @@ import pytest
 
 from irseg.errors import ConfigError, MetadataError, OutputError
 from irseg.io import read_thermogram
-from irseg.io._scene_writers import (
+from irseg.io import (
     format_metadata_toml,
     npz_bytes,
     png16_bytes,
