@@ -7,8 +7,8 @@ import pytest
 from tests.support.survey import SHAPE, make_survey, wall_image
 
 from irseg.errors import InputError, MetadataError
-from irseg.pipeline import failure_stage, process_image, render_result
 from irseg.vocabulary import STAGES
+from irseg.pipeline import ImageResult, RenderedImage, failure_stage, process_image, render_result
 
 
 def test_process_image_finds_the_drawn_patch(tmp_path):
@@ -27,9 +27,13 @@ def test_process_image_finds_the_drawn_patch(tmp_path):
     assert anomaly.kind == "cold"
     assert anomaly.centroid_row == pytest.approx(27.5, abs=1.0)
     assert anomaly.centroid_col == pytest.approx(39.5, abs=1.0)
-    overlay_png, labels_png, warnings = render_result(result)
-    assert overlay_png[:8] == labels_png[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec 5.2)
-    assert "render" in result.timings
+    timings_before = dict(result.timings)
+    rendered = render_result(result)
+    assert isinstance(rendered, RenderedImage)
+    # PNG signature: PNG specification (ISO/IEC 15948), section 5.2 [V]
+    assert rendered.overlay_png[:8] == rendered.labels_png[:8] == b"\x89PNG\r\n\x1a\n"
+    assert rendered.seconds > 0.0 and rendered.warnings == ()
+    assert result.timings == timings_before  # the frozen result is not changed: the time is returned
 
 
 def test_overrides_are_applied_last(tmp_path):
