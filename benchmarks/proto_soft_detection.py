@@ -58,11 +58,10 @@ per sign; objects under the minimum area removed.
 from __future__ import annotations
 
 import argparse
-import math
 import os
 import statistics
 import time
-from dataclasses import dataclass, replace
+from dataclasses import dataclass
 
 import cv2
 import numpy as np
@@ -226,7 +225,7 @@ PHYSICS = {
 def physics_frame(name, n_cols, n_rows, netd, seed):
     sc = _phys_scene(name)
     dist = {"ceiling": 2.4, "timber": 2.4, "roof": 4.4}[name]
-    hfov = 45.0 if n_cols * 0.75 == n_rows else 45.0
+    hfov = 45.0
     cam = CameraModel(n_cols=n_cols, n_rows=n_rows, hfov_deg=hfov, distance_m=dist, netd_k=netd, seed=seed,
                       column_sigma_k=COLUMN_K, shading=0.08, housing_c=float(sc.radiant_c.mean()) + 15.0,
                       centre_m=(sc.element.width_m / 2, sc.element.height_m / 2))

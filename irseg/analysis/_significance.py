@@ -123,7 +123,6 @@ MAX_EXCLUDED_FRACTION = 0.5  # the second sound surface needs at least half of t
 _FINE_SCALES = (0.7, 1.0, 1.4, 2.0, 2.8, 4.0, 5.7, 8.0, 11.3, 16.0)
 _FULL_RES_MAX_S = 3.0
 _MAX_PASSES = 12
-_CROSS = ndimage.generate_binary_structure(2, 1)
 _SQUARE = ndimage.generate_binary_structure(2, 2)
 
 
@@ -523,8 +522,7 @@ def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, mi
             rims[lab] = rim_px
             rr, cc = np.nonzero(core)
             edge = bool(rr.min() + r0 == 0 or cc.min() + c0 == 0 or rr.max() + r0 == m - 1 or cc.max() + c0 == n - 1)
-            g_split = split_from
-            regions.append(RegionInfo(lab, sign, sign * peak, sign * level, area, s_f, edge, g_split))
+            regions.append(RegionInfo(lab, sign, sign * peak, sign * level, area, s_f, edge, split_from))
         claimed |= band if accept else _dilate(core, 1)
         if not accept and not touching and int(core.sum()) < min_area_px:
             claimed |= band  # a small isolated peak: its tail is not a defect either

@@ -17,24 +17,29 @@ Model (fitted on a coarse grid of block means, ``block_px`` pixels a side)::
   coordinates ``x, y ∈ [−1, 1]`` (plane, curvature, twist; ``x² + y²`` is the
   ``r²`` shading term) plus ``r⁴`` about the frame centre, so the radial shading
   of the lens, which grows fastest at the corners, is absorbed there too, where
-  a local model has neighbours on one side only;
-- ``ℓ``: a local correction, the robust *normalized convolution* (Knutsson &
-  Westin 1993) of what ``P`` leaves: a Gaussian-weighted mean at the sound
-  length ``length_px`` of the residuals, each block weighted by its robust
-  weight. It follows stratification that is not linear, corner and junction
-  cooling and sky-view gradients at that length and no shorter. Where the
-  weights vanish over a large area (inside a big anomaly) the correction is
-  shrunk toward zero (``ℓ = Σw·e / (Σw + ε)``), so the global part bridges
-  the gap instead of an extrapolation from one side.
+  a local model has neighbours on one side only; optionally (``edge_length_px``)
+  a decay ``exp(−d/λ)`` from each of the four frame edges, the shape of the
+  cooling toward a corner or a floor/ceiling junction that runs along an edge;
+- ``ℓ``: a local correction, the robust first-order *normalized convolution*
+  (Knutsson & Westin 1993) of what ``P`` leaves: at every block a plane fitted
+  to the residuals in a Gaussian window of std ``length_px``, each block
+  weighted by its robust weight. It follows stratification that is not linear
+  and sky-view gradients at that length and no shorter, up to the frame edge.
+  Where the weights vanish over a large area (inside a big anomaly) the plane's
+  offset is shrunk toward zero and its slopes toward flat, so the global part
+  bridges the gap instead of an extrapolation from one side.
 
-Robustness: iteratively reweighted least squares with Tukey's biweight
+Robustness: a least-trimmed-squares start of the global part (robust
+to up to 45 % of the frame being anomalous), then iteratively reweighted least squares with Tukey's biweight
 ``w = (1 − (r/c·s)²)²`` for ``|r| < c·s``, else 0, ``c = 4.685`` (95 % efficiency
 under Gaussian errors; Holland & Welsch 1977, from memory), on the residual of
 each block mean. The scale ``s`` is the normalised median absolute deviation of
 the block residuals about their median (1.4826·MAD), floored at the noise of a
 block mean; the median is taken over *all* valid blocks, so it stays in the sound
 population while anomalies cover less than half of the frame. ``P`` and ``ℓ`` are
-updated in turn (backfitting). Blocks whose weight falls to zero are excluded:
+updated in turn (backfitting), the local window shrinking from 4 to 2 to 1 sound
+lengths, so a large anomaly is excluded by the stiff fits before a flexible one
+could follow it. Blocks whose weight falls to zero are excluded:
 those are the anomaly candidates, and the surface passes under them.
 
 Scale choice: the sound length is a physical length (``length_px`` comes from
