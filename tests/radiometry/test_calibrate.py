@@ -1,4 +1,4 @@
-"""Radiometry checks against Planck's law (scipy), REFERENCE-VALUES.md §1 and physics."""
+"""Radiometry checks against Planck's law (scipy quadrature, CODATA constants), worked values computed from it, and physics."""
 
 from __future__ import annotations
 
@@ -11,7 +11,8 @@ from hypothesis import strategies as st
 from scipy import constants as sc
 from scipy import integrate, optimize
 
-from irseg.errors import CalibrationError, ConfigError, InputError
+from irseg.errors import CalibrationError, ConfigError, InputError, MetadataWarning
+from irseg.metadata import load_metadata
 from irseg.radiometry import (
     apparent_to_object,
     band_radiance,
@@ -58,7 +59,7 @@ def test_band_radiance_outside_table_matches_quad():
 @pytest.mark.parametrize(
     ("t_c", "l_75", "l_8", "l_35"),
     [
-        # REFERENCE-VALUES.md §1.2 band radiance table, W m-2 sr-1 [C]
+        # band radiance, W m-2 sr-1: [C] Planck's law integrated over each band (CODATA 2018 constants)
         (-20.0, 25.216, 23.825, 0.2545),
         (0.0, 37.533, 35.152, 0.6443),
         (10.0, 44.919, 41.891, 0.9787),
@@ -74,7 +75,7 @@ def test_band_radiance_reference_table(t_c, l_75, l_8, l_35):
 
 
 def test_band_fraction_of_sigma_t4():
-    # REFERENCE-VALUES.md §1.2: 7.5-14 um at 20 °C carries 0.399 of sigma T^4 / pi [C]
+    # 7.5-14 um at 20 °C carries 0.399 of sigma T^4 / pi: [C] band integral of Planck's law over the total
     t_k = 293.15
     frac = band_radiance(t_k) / band_radiance(t_k, method="broadband")
     assert frac == pytest.approx(0.399, abs=5e-4)
@@ -96,7 +97,7 @@ def test_inversion_within_10_mk(band):
 
 
 def test_inversion_against_brentq_independent():
-    # reference library: scipy.optimize.brentq on [150 K, 600 K] (REFERENCE-VALUES.md §1.1 method)
+    # reference library: scipy.optimize.brentq (Brent's method) on [150 K, 600 K]
     target = 47.0
     ref = optimize.brentq(lambda t: planck_quad(t, (7.5, 14.0)) - target, 150.0, 600.0, xtol=1e-9)
     assert band_temperature(target) == pytest.approx(ref, abs=1e-3)
@@ -113,7 +114,7 @@ def test_bad_band_and_method():
 
 
 def test_worked_round_trip():
-    # REFERENCE-VALUES.md §7.7 / §1.2 row 1: eps 0.93, 15 °C, reflected 20 °C -> apparent 15.359 °C [C]
+    # eps 0.93, 15 °C, reflected 20 °C -> apparent 15.359 °C, 7.5-14 um: [C] Planck's law integrated over the band (CODATA 2018 constants, scipy.constants), tau = 1
     app = object_to_apparent(15.0, emissivity=0.93, reflected_c=20.0)
     assert app == pytest.approx(15.359, abs=1e-3)
     # ... and inverting returns 15.000 °C (error < 1 mK) [C]
@@ -123,7 +124,8 @@ def test_worked_round_trip():
 @pytest.mark.parametrize(
     ("t_obj", "t_refl", "eps", "t_app", "t_sigma"),
     [
-        # REFERENCE-VALUES.md §1.2, sigma T^4 versus band error table, 7.5-14 um [C]
+        # band apparent temperature and its sigma T^4 inversion, 7.5-14 um: [C] Planck's law integrated over the band (CODATA 2018 constants, scipy.constants), tau = 1;
+        # sigma T^4 inversion: the Stefan-Boltzmann law
         (15.0, 20.0, 0.93, 15.359, 15.000),
         (2.0, -20.0, 0.90, 0.053, 2.027),
         (2.0, -40.0, 0.90, -1.289, 2.113),
@@ -141,13 +143,13 @@ def test_broadband_error_table(t_obj, t_refl, eps, t_app, t_sigma):
 
 
 def test_glass_and_aluminium_examples():
-    # REFERENCE-VALUES.md §1.2 worked examples, 7.5-14 um, tau 1, reflected 20 °C [C]
+    # glass (eps 0.84) and bare aluminium (eps 0.10) at 10 °C, reflected 20 °C, 7.5-14 um: [C] Planck's law integrated over the band (CODATA 2018 constants, scipy.constants), tau = 1
     assert object_to_apparent(10.0, emissivity=0.84, reflected_c=20.0) == pytest.approx(11.67, abs=0.01)
     assert object_to_apparent(10.0, emissivity=0.10, reflected_c=20.0) == pytest.approx(19.05, abs=0.01)
 
 
 def test_emissivity_sensitivity():
-    # REFERENCE-VALUES.md §1.2: true 15 °C wall (eps 0.93, refl 20) processed with 0.90 -> 14.83, 0.95 -> 15.11 [C]
+    # true 15 °C wall (eps 0.93, refl 20) processed with 0.90 -> 14.83, 0.95 -> 15.11: [C] Planck's law integrated over the band (CODATA 2018 constants, scipy.constants), tau = 1
     app = object_to_apparent(15.0, emissivity=0.93, reflected_c=20.0)
     assert apparent_to_object(app, emissivity=0.90, reflected_c=20.0) == pytest.approx(14.83, abs=0.01)
     assert apparent_to_object(app, emissivity=0.95, reflected_c=20.0) == pytest.approx(15.11, abs=0.01)
@@ -196,7 +198,7 @@ def _meta(**camera) -> SurveyMeta:
 def test_calibrate_celsius_float(rng):
     app = 15.359 + rng.normal(0, 0.01, (12, 14))
     f = calibrate(_frame(app.astype(np.float32)), _meta())
-    # REFERENCE-VALUES.md §7.7: 15.359 apparent -> 15.000 °C with eps 0.93, refl 20 [C]
+    # 15.359 apparent -> 15.000 °C with eps 0.93, refl 20, 7.5-14 um: [C] Planck's law integrated over the band (CODATA 2018 constants, scipy.constants), tau = 1
     assert np.median(f.temperature_c) == pytest.approx(15.0, abs=0.01)
     np.testing.assert_allclose(f.apparent_c, app, atol=1e-5)
     assert f.n_dead == 0 and f.n_nan == 0 and not f.mask.any()
@@ -259,18 +261,31 @@ def test_export_emissivity_needs_reflected():
         calibrate(_frame(np.full((5, 5), 15.0)), meta)
 
 
-def test_reflected_default_from_air_side():
+def test_reflected_from_the_metadata_and_the_same_rule_for_hand_built_metadata(tmp_path):
     app = np.full((6, 6), 15.0)
+    # load_metadata resolves the reflected temperature (interior view: the inside air) and records it
+    (tmp_path / "survey.toml").write_text("[surface]\nemissivity = 0.93\nview = 'interior'\n[air]\ninside_c = 21.0\n")
+    with pytest.warns(MetadataWarning, match="reflected temperature assumed 21 °C"):
+        loaded = load_metadata(tmp_path / "a.npy")
+    f_loaded = calibrate(_frame(app), loaded)
+    expected_in = apparent_to_object(15.0, emissivity=0.93, reflected_c=21.0)
+    assert f_loaded.temperature_c[0, 0] == pytest.approx(expected_in)
+    # a hand-built SurveyMeta without reflected_c gets the same rule (irseg._defaults.resolve_reflected_c)
     interior = SurveyMeta(surface=Surface(view="interior"), air=Air(inside_c=21.0, outside_c=-3.0))
     exterior = SurveyMeta(surface=Surface(view="exterior"), air=Air(inside_c=21.0, outside_c=-3.0))
     f_in = calibrate(_frame(app), interior)
     f_out = calibrate(_frame(app), exterior)
-    assert f_in.temperature_c[0, 0] == pytest.approx(apparent_to_object(15.0, emissivity=0.93, reflected_c=21.0))
+    assert f_in.temperature_c[0, 0] == pytest.approx(expected_in)
     assert f_out.temperature_c[0, 0] == pytest.approx(apparent_to_object(15.0, emissivity=0.93, reflected_c=-3.0))
-    assert not f_in.warnings and not f_out.warnings
     f_none = calibrate(_frame(app), SurveyMeta())
     assert f_none.temperature_c[0, 0] == pytest.approx(apparent_to_object(15.0, emissivity=0.93, reflected_c=20.0))
-    assert any("20 °C" in w for w in f_none.warnings)
+    # the assumption is announced once, by the metadata stage; calibrate adds no warning of its own
+    assert not f_loaded.warnings and not f_in.warnings and not f_out.warnings and not f_none.warnings
+
+
+def test_frame_is_data_only():
+    f = calibrate(_frame(np.full((4, 4), 15.0)), _meta())
+    assert not hasattr(f, "meta")  # settings travel explicitly as the SurveyMeta argument of each stage
 
 
 def test_broadband_method_differs_outdoors():
@@ -278,7 +293,7 @@ def test_broadband_method_differs_outdoors():
     app = np.full((5, 5), 13.727)
     planck = calibrate(_frame(app), meta)
     broad = calibrate(_frame(app), meta, method="broadband")
-    # REFERENCE-VALUES.md §1.2 row 4: 20 °C true, sigma T^4 gives 20.121 °C [C]
+    # 20 °C true, sigma T^4 inversion gives 20.121 °C: [C] Planck's law integrated over the band (CODATA 2018 constants, scipy.constants), tau = 1 and the Stefan-Boltzmann law
     assert planck.temperature_c[0, 0] == pytest.approx(20.0, abs=2e-3)
     assert broad.temperature_c[0, 0] == pytest.approx(20.121, abs=2e-3)
     with pytest.raises(ConfigError):
