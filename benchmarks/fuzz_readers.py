@@ -5,7 +5,8 @@ errors (an IrsegError subclass). Anything else is counted as "UNEXPECTED" and th
 few are printed with their traceback; the script then exits with status 1.
 
 Inputs are mutations of small valid files written by the reference writers (tifffile,
-imageio, numpy): truncation, bit flips, header corruption, inserted/deleted chunks,
+imageio, numpy) and by irseg's own image writers (``irseg.io``, which make
+the sample survey): truncation, bit flips, header corruption, inserted/deleted chunks,
 random bytes (with and without the format's signature) and huge declared dimensions.
 
 Usage::
@@ -33,6 +34,7 @@ import numpy as np
 
 from irseg.errors import IrsegError
 from irseg.io import read_thermogram
+from irseg.io import csv_matrix_text, npy_bytes, png16_bytes, quantise_u16, tiff_bytes
 
 MAX_PIXELS = 4_000_000
 
@@ -58,6 +60,9 @@ def _tiff_seeds(rng: np.random.Generator) -> list[bytes]:
         buf = io.BytesIO()
         tifffile.imwrite(buf, arr, **kwargs)
         out.append(buf.getvalue())
+    # irseg's own writers, as the sample survey uses them (float32 °C, uint16 counts)
+    out.append(tiff_bytes(base.astype(np.float32)))
+    out.append(tiff_bytes(quantise_u16(base, scale=0.01, offset=-50.0)))
     return out
 
 
@@ -70,7 +75,9 @@ def _png_seeds(rng: np.random.Generator) -> list[bytes]:
         rng.integers(0, 255, (8, 8, 3), dtype=np.uint8),
         rng.integers(0, 255, (8, 8, 4), dtype=np.uint8),
     ]
-    return [iio.imwrite("<bytes>", a, extension=".png") for a in arrs]
+    out = [iio.imwrite("<bytes>", a, extension=".png") for a in arrs]
+    out.append(png16_bytes(quantise_u16(rng.normal(18.0, 2.0, (16, 20)), scale=0.01, offset=-50.0)))  # irseg's
+    return out
 
 
 def _npy_seeds(rng: np.random.Generator) -> list[bytes]:
@@ -84,6 +91,7 @@ def _npy_seeds(rng: np.random.Generator) -> list[bytes]:
         buf = io.BytesIO()
         np.lib.format.write_array(buf, arr, version=version, allow_pickle=False)
         out.append(buf.getvalue())
+    out.append(npy_bytes(rng.normal(18.0, 2.0, (16, 20)).astype(np.float32)))  # irseg's own writer
     return out
 
 
@@ -93,7 +101,8 @@ def _csv_seeds(rng: np.random.Generator) -> list[bytes]:
     semi = "Export\nx;y\n" + "\n".join(";".join(f"{v:.2f}".replace(".", ",") for v in r) for r in m)
     tab = "\r\n".join("\t".join(f"{v:g}" for v in r) for r in m)
     ws = "# title\n" + "\n".join("  ".join(f"{int(v * 10)}" for v in r) for r in m)
-    return [s.encode() for s in (comma, semi, tab, ws)]
+    own = csv_matrix_text(m, delimiter=";", decimal=",")  # irseg's own writer, decimal comma
+    return [s.encode() for s in (comma, semi, tab, ws, own)]
 
 
 # ----------------------------------------------------------------------------- huge dimensions

@@ -22,6 +22,7 @@ import warnings
 from pathlib import Path
 
 from irseg import __version__
+from irseg.io import write_text
 from irseg.scenes._validation import TARGETS, VALIDATION_RECIPES, passes, validate_recipe, validate_sample, with_seed
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -53,7 +54,7 @@ def _rows(results: list[dict]) -> list[list[str]]:
 
 
 _HEAD = ["image", "seed", "defect", "true cause", "reported cause", "IoU", "area m² true", "est.", "err",
-         "excess W true (footprint only)", "est.", "err", "ref °C true", "est.", "err K", "verdict"]
+         "excess W true (mask only)", "est.", "err", "ref °C true", "est.", "err K", "verdict"]
 
 
 def _markdown_table(head: list[str], rows: list[list[str]]) -> str:
@@ -113,17 +114,17 @@ must be confirmed on site under local codes and licensed practice.
 ## What is compared
 
 Each scene is an envelope element simulated by `irseg.scenes` (steady or transient 3-D
-finite-volume conduction, Robin surface conditions with ISO 6946 surface coefficients
+finite-volume conduction, surface heat exchange with ISO 6946 surface coefficients
 h = h_c + ε·4σT_m³, stratified inside air, sky radiation outside) **with and without** its
 defects. The camera model resamples the viewed face onto the detector grid, blurs it,
 applies band-limited (7.5–14 µm) emissivity/reflection, NETD noise, a column pattern, lens
 shading and dead pixels, and writes a radiometric file plus its TOML sidecar. The file then
 goes through `irseg.pipeline.process_image` (read → metadata → calibrate → segment → analyse).
 
-Truth per defect: footprint (pixels at least half covered), area (surface grid, in view),
+Truth per defect: defect mask (pixels at least half covered), area (surface grid, in view),
 excess heat = change of the viewed face's heat flow with vs. without the defects, charged to the
-footprint plus a 0.3 m rim (nearest defect wins), reference = no-defect surface temperature
-averaged over the footprint. Reported anomalies lying ≥ 50 % inside a footprint are merged and
+defect mask plus a 0.3 m rim (nearest defect wins), reference = no-defect surface temperature
+averaged over the defect mask. Reported anomalies lying ≥ 50 % inside a defect mask are merged and
 compared with it. Structural features (studs, slab edges, lintels) are not required to be found,
 but must never be reported as missing insulation.
 
@@ -151,7 +152,7 @@ as ISO 6946 unventilated layers (R 0.18 horizontal / 0.16 upward m²K/W); wet in
 ISO 10456 moisture factor exp(4ψ) with the water's heat capacity added. The solver is checked
 against ISO 6946 U-values and surface temperatures in `tests/scenes/test_conduction.py`.
 """
-    path.write_text(text, encoding="utf-8")
+    write_text(path, text)
 
 
 def _print_table(rows: list[list[str]]) -> None:
@@ -209,7 +210,8 @@ def solver_benchmark(repeats: int = 3, *, with_lu: bool = False) -> list[tuple[s
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--seeds", type=int, default=1, help="camera-noise seeds per scene")
-    ap.add_argument("--doc", type=Path, default=ROOT / "docs" / "validation.md")
+    ap.add_argument("--doc", type=Path, default=ROOT / "docs" / "validation.md",
+                    help="Markdown page to write (default: docs/validation.md)")
     ap.add_argument("--solver", action="store_true", help="only time the conduction solver against scipy peers")
     ap.add_argument("--with-lu", action="store_true", help="with --solver: also time scipy spsolve (slow)")
     ap.add_argument("--sample", type=Path, default=None,
@@ -240,7 +242,6 @@ def main(argv: list[str] | None = None) -> int:
     pipe = [r["seconds"]["pipeline"] for r in results]
     sim = [r["seconds"]["simulate"] for r in results]
     print(f"median seconds per scene: simulate {statistics.median(sim):.2f}, pipeline {statistics.median(pipe):.2f}")
-    args.doc.parent.mkdir(parents=True, exist_ok=True)
     write_doc(args.doc, results, args.seeds, seconds)
     print(f"wrote {args.doc}")
     return 0

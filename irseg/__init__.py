@@ -55,6 +55,9 @@ _LAZY = {
     "Anomaly": "irseg.analysis",
     "process_image": "irseg.pipeline",
     "run_survey": "irseg.batch",
+    "SurveyAnomaly": "irseg.batch",
+    "ImageRecord": "irseg.batch",
+    "anomaly_table": "irseg.batch",
 }
 
 __all__ = [

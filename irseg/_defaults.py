@@ -1,46 +1,76 @@
-"""Fallback rules for metadata that was not given (a leaf module: imports only irseg.types).
+"""Defaults that depend on other settings, resolved by one rule each (a leaf module).
 
-Each rule lives here once, so the metadata stage (which resolves and records it) and
-any stage handed a hand-built :class:`~irseg.types.SurveyMeta` apply the same value.
+It imports only :mod:`irseg.types`, so the metadata stage, the radiometric correction and
+the analysis can all apply the same rule instead of each keeping its own fallback.
 """
 
 from __future__ import annotations
 
 from .types import SurveyMeta
 
-__all__ = ["DEFAULT_REFLECTED_C", "resolve_reflected_c"]
+__all__ = ["DEFAULT_REFLECTED_C", "REFLECTED_KEY", "camera_side_air_c", "resolve_reflected_c"]
 
-#: Reflected temperature assumed when neither it nor the air on the camera's side is known:
-#: a room temperature (common practice; indoor design temperatures are about 20 °C).
+#: Reflected temperature assumed when neither ``[surface] reflected_c`` nor the air temperature on
+#: the camera's side is known, °C (a heated room; common practice).
 DEFAULT_REFLECTED_C = 20.0
 
+#: The ``SurveyMeta.assumed`` key of an assumed reflected temperature.
+REFLECTED_KEY = "surface.reflected_c"
 
-def resolve_reflected_c(meta: SurveyMeta) -> tuple[float, str | None]:
-    """The reflected temperature in force, and why when it was not given.
 
-    Rule: ``[surface] reflected_c`` when given; otherwise the air temperature on the
-    camera's side (``[air] inside_c`` for an ``"interior"`` view, ``outside_c`` for
-    ``"exterior"`` and ``"roof"``); otherwise :data:`DEFAULT_REFLECTED_C` (20 °C).
+def camera_side_air_c(meta: SurveyMeta) -> float | None:
+    """Air temperature on the camera's side: ``inside_c`` for an interior view, ``outside_c`` otherwise.
 
     Parameters
     ----------
     meta : SurveyMeta
-        Metadata in force.
+        The metadata in force.
 
     Returns
     -------
-    value : float
-        Reflected apparent temperature, °C.
+    float or None
+        °C, or None when that air temperature is not given.
+    """
+    air = meta.air
+    return air.inside_c if meta.surface.view == "interior" else air.outside_c
+
+
+def resolve_reflected_c(meta: SurveyMeta) -> tuple[float, str | None]:
+    """Reflected temperature in force and, when it was not given, why this value.
+
+    The rule: ``[surface] reflected_c`` when given; else the air temperature on the
+    camera's side (:func:`camera_side_air_c`: the surroundings a camera sees are at
+    about the air temperature of the room or street it stands in); else
+    :data:`DEFAULT_REFLECTED_C`.
+
+    Parameters
+    ----------
+    meta : SurveyMeta
+        The metadata in force.
+
+    Returns
+    -------
+    reflected_c : float
+        °C.
     reason : str or None
-        None when ``reflected_c`` was given; otherwise where the value came from
-        (``"the inside air"``, ``"the outside air"`` or ``"no air temperature on the
-        camera's side either"``).
+        None when ``[surface] reflected_c`` was given; otherwise a sentence naming the
+        value taken and the setting that fixes it. A SurveyMeta from
+        :func:`irseg.metadata.load_metadata` already holds the resolved value and records
+        it in ``assumed`` (key :data:`REFLECTED_KEY`); the recorded reason is returned
+        then, so a None reason always means "given".
     """
     given = meta.surface.reflected_c
     if given is not None:
-        return float(given), None
-    interior = meta.surface.view == "interior"
-    side_air = meta.air.inside_c if interior else meta.air.outside_c
+        recorded = next((a.reason for a in meta.assumed if a.key == REFLECTED_KEY), None)
+        return float(given), recorded
+    side_air = camera_side_air_c(meta)
     if side_air is not None:
-        return float(side_air), "the inside air" if interior else "the outside air"
-    return DEFAULT_REFLECTED_C, "no air temperature on the camera's side either"
+        side = "inside" if meta.surface.view == "interior" else "outside"
+        return float(side_air), (
+            f"no [surface] reflected_c: reflected temperature taken as the {side} air temperature, "
+            f"{float(side_air):g} °C; measure it (reflector method) for an accurate estimate"
+        )
+    return DEFAULT_REFLECTED_C, (
+        "no [surface] reflected_c and no air temperature on the camera's side: reflected "
+        f"temperature taken as {DEFAULT_REFLECTED_C:g} °C; measure it (reflector method) for an accurate estimate"
+    )

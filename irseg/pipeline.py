@@ -6,8 +6,8 @@
     render_overlay + label_image -> PNG bytes                              (render_result)
 
 Both functions are pure with respect to the output folder: they read the input
-image and its metadata files and return data. Writing is left to
-:mod:`irseg.batch` and :mod:`irseg.outputs`.
+image and its metadata files and return data; neither changes its arguments.
+Writing is left to :mod:`irseg.batch` and :mod:`irseg.io`.
 
 Every exception leaving :func:`process_image` or :func:`render_result` carries
 the stage it came from (:func:`failure_stage`), so a survey run can say
@@ -29,6 +29,7 @@ from .types import RawFrame, SurveyMeta, ThermalFrame
 
 __all__ = [
     "ImageResult",
+    "RenderedImage",
     "process_image",
     "render_result",
     "failure_stage",
@@ -51,7 +52,7 @@ class ImageResult:
         Metadata in force (folder defaults, sidecar, overrides).
     frame : ThermalFrame
         Corrected surface temperature, °C, and its validity mask, ``(M, N)``.
-    segmentation : irseg.segment.Segmentation
+    segmentation : irseg.segmentation.Segmentation
         Smooth field, jump set and regions.
     analysis : irseg.analysis.Analysis
         Anomalies with areas, excess heat loss and confidence bands.
@@ -69,6 +70,28 @@ class ImageResult:
     analysis: Any
     timings: dict[str, float] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True)
+class RenderedImage:
+    """The pictures of one result, encoded (from :func:`render_result`).
+
+    Attributes
+    ----------
+    overlay_png : bytes
+        RGB PNG of the annotated thermogram.
+    labels_png : bytes
+        16-bit grey PNG, the image's size, pixel = anomaly id, 0 elsewhere.
+    warnings : tuple of str
+        Messages of the irseg warnings raised while drawing.
+    seconds : float
+        Time spent drawing and encoding (the ``render`` stage).
+    """
+
+    overlay_png: bytes = field(repr=False)
+    labels_png: bytes = field(repr=False)
+    warnings: tuple[str, ...]
+    seconds: float
 
 
 def failure_stage(exc: BaseException) -> str | None:
@@ -159,7 +182,7 @@ def process_image(
         "metadata", timings, caught, lambda: load_metadata(image, overrides=overrides)
     )
     frame: ThermalFrame = _run_stage("calibrate", timings, caught, lambda: calibrate(raw, meta))
-    flat = _flat_warning(frame)
+    flat = _flat_warning(frame, meta)
     if flat is not None:
         caught.append(flat)
     knobs = meta.segment
@@ -175,7 +198,7 @@ def process_image(
             min_feature_px=knobs.min_feature_px,
         ),
     )
-    analysis = _run_stage("analyse", timings, caught, lambda: analyse(frame, seg))
+    analysis = _run_stage("analyse", timings, caught, lambda: analyse(frame, seg, meta))
     return ImageResult(
         path=image,
         meta=meta,
@@ -187,7 +210,7 @@ def process_image(
     )
 
 
-def _flat_warning(frame: ThermalFrame) -> str | None:
+def _flat_warning(frame: ThermalFrame, meta: SurveyMeta) -> str | None:
     """A warning when the valid pixels span less than the camera's NETD (nothing to segment)."""
     import numpy as np
 
@@ -195,7 +218,7 @@ def _flat_warning(frame: ThermalFrame) -> str | None:
     if valid.size == 0:
         return None
     span = float(np.max(valid) - np.min(valid))
-    netd = float(frame.meta.camera.netd_k)
+    netd = float(meta.camera.netd_k)
     if span >= netd:
         return None
     return (
@@ -204,24 +227,21 @@ def _flat_warning(frame: ThermalFrame) -> str | None:
     )
 
 
-def render_result(result: ImageResult, *, cmap: str = "inferno") -> tuple[bytes, bytes, tuple[str, ...]]:
+def render_result(result: ImageResult, *, cmap: str = "inferno") -> RenderedImage:
     """Draw the overlay and the label image of one result and encode both as PNG.
 
     Parameters
     ----------
     result : ImageResult
-        From :func:`process_image`.
+        From :func:`process_image`; not changed (the render time is returned, not added to
+        ``result.timings``).
     cmap : str
         Open colour-map name for the thermogram (``inferno``, ``magma``, ``gray`` ...).
 
     Returns
     -------
-    overlay_png : bytes
-        RGB PNG of the annotated thermogram.
-    labels_png : bytes
-        16-bit grey PNG, the image's size, pixel = anomaly id, 0 elsewhere.
-    warnings : tuple of str
-        Warnings raised while drawing.
+    RenderedImage
+        Both PNGs, the warnings raised while drawing and the seconds spent.
 
     Raises
     ------
@@ -232,12 +252,12 @@ def render_result(result: ImageResult, *, cmap: str = "inferno") -> tuple[bytes,
     from .render import label_image, render_overlay
 
     caught: list[str] = []
-    timings = result.timings
+    timings: dict[str, float] = {}
 
     def _draw() -> tuple[bytes, bytes]:
-        overlay = render_overlay(result.frame, result.segmentation, result.analysis, cmap=cmap)
+        overlay = render_overlay(result.frame, result.segmentation, result.analysis, result.meta, cmap=cmap)
         labels = label_image(result.analysis)
         return encode_png(overlay), encode_png(labels)
 
     overlay_png, labels_png = _run_stage("render", timings, caught, _draw)
-    return overlay_png, labels_png, tuple(caught)
+    return RenderedImage(overlay_png, labels_png, tuple(caught), timings["render"])

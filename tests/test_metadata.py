@@ -188,9 +188,9 @@ def test_no_files_gives_defaults_and_records_what_was_assumed(tmp_path):
     assert meta.camera.hfov_deg is None  # missing geometry is not an error here
     messages = [str(w.message) for w in record]
     assert len(messages) == 3
-    assert any('view assumed "interior"' in m for m in messages)
-    assert any("emissivity assumed 0.93" in m for m in messages)
-    assert any("reflected temperature assumed 20 °C" in m for m in messages)
+    assert any('view taken as "interior"' in m for m in messages)
+    assert any("emissivity taken as 0.93" in m for m in messages)
+    assert any("reflected temperature taken as 20 °C" in m for m in messages)
 
 
 def test_error_in_sidecar_names_the_sidecar(tmp_path):
@@ -219,7 +219,8 @@ def test_meta_round_trip_keeps_the_assumptions(tmp_path):
     with pytest.warns(MetadataWarning):
         meta = load_metadata(tmp_path / "img.tif", overrides={"air": {"inside_c": 21.5}})
     record = json.loads(json.dumps(meta_to_dict(meta)))
-    assert {"key": "surface.reflected_c", "value": 21.5, "reason": "the inside air"} in record["assumed"]
+    (entry,) = [a for a in record["assumed"] if a["key"] == "surface.reflected_c"]
+    assert entry["value"] == 21.5 and "inside air temperature, 21.5 °C" in entry["reason"]
     assert meta_from_dict(record) == meta  # every key is in the record: nothing assumed again, no warning
 
 
@@ -241,25 +242,28 @@ def _surface_toml(view: str | None) -> str:
 
 
 @pytest.mark.parametrize(
-    ("view", "expected", "reason"),
-    [("interior", 19.5, "the inside air"), ("exterior", -2.5, "the outside air"), ("roof", -2.5, "the outside air")],
+    ("view", "expected", "side"),
+    [("interior", 19.5, "inside"), ("exterior", -2.5, "outside"), ("roof", -2.5, "outside")],
 )
-def test_reflected_assumed_from_the_air_on_the_camera_side(tmp_path, view, expected, reason):
+def test_reflected_assumed_from_the_air_on_the_camera_side(tmp_path, view, expected, side):
     _write(tmp_path / "survey.toml", _surface_toml(view) + "[air]\ninside_c = 19.5\noutside_c = -2.5\n")
     with pytest.warns(MetadataWarning) as record:
         meta = load_metadata(tmp_path / "a.tif")
     assert meta.surface.reflected_c == expected
-    assert meta.assumed == (Assumption("surface.reflected_c", expected, reason),)
-    assert [str(w.message) for w in record] == [
-        f"no [surface] reflected_c given: reflected temperature assumed {expected:g} °C ({reason}); "
-        "measure it for an accurate estimate"
-    ]
+    (message,) = [str(w.message) for w in record]  # one warning, naming the value taken and the fix
+    assert message == (
+        f"no [surface] reflected_c: reflected temperature taken as the {side} air temperature, "
+        f"{expected:g} °C; measure it (reflector method) for an accurate estimate"
+    )
+    assert meta.assumed == (Assumption("surface.reflected_c", expected, message),)
+    # later stages see the resolved value and, through the record, that it was not given
+    assert resolve_reflected_c(meta) == (expected, message)
 
 
 def test_reflected_assumed_20_c_without_air_on_the_camera_side(tmp_path):
     # only the outside air is known, but the camera is inside: the room-temperature default [CP]
     _write(tmp_path / "survey.toml", _surface_toml("interior") + "[air]\noutside_c = -2.5\n")
-    with pytest.warns(MetadataWarning, match=r"reflected temperature assumed 20 °C \(no air temperature"):
+    with pytest.warns(MetadataWarning, match=r"no air temperature on the camera's side: reflected temperature taken as 20"):
         meta = load_metadata(tmp_path / "a.tif")
     assert meta.surface.reflected_c == 20.0
     assert [a.key for a in meta.assumed] == ["surface.reflected_c"]
@@ -274,7 +278,7 @@ def test_given_reflected_is_kept_and_nothing_is_assumed(tmp_path, recwarn):
 
 def test_reflected_none_in_overrides_means_not_given(tmp_path):
     _write(tmp_path / "survey.toml", _surface_toml("interior") + "reflected_c = 18.0\n[air]\ninside_c = 21.0\n")
-    with pytest.warns(MetadataWarning, match="assumed 21 °C"):
+    with pytest.warns(MetadataWarning, match="taken as the inside air temperature, 21 °C"):
         meta = load_metadata(tmp_path / "a.tif", overrides={"surface": {"reflected_c": None}})
     assert meta.surface.reflected_c == 21.0
 
@@ -284,10 +288,10 @@ def test_view_and_emissivity_assumed_only_when_no_layer_gives_them():
         meta = merge_metadata({"surface": {"reflected_c": 20.0}}, {"surface": {"emissivity": 0.95}})
     assert meta.assumed == (Assumption("surface.view", "interior", "the default"),)
     assert [str(w.message) for w in record] == [
-        'no [surface] view given: view assumed "interior" (the default); '
+        'no [surface] view given: view taken as "interior" (the default); '
         'set view = "exterior" or "roof" for shots taken from outside'
     ]
-    with pytest.warns(MetadataWarning, match=r"emissivity assumed 0.93 \(the default"):
+    with pytest.warns(MetadataWarning, match=r"emissivity taken as 0.93 \(the default"):
         meta = merge_metadata({"surface": {"reflected_c": 20.0, "view": "exterior"}})
     assert [a.key for a in meta.assumed] == ["surface.emissivity"]
 
@@ -296,11 +300,14 @@ def test_resolve_reflected_c_on_hand_built_metadata():
     # the same rule for a SurveyMeta built without load_metadata
     assert resolve_reflected_c(SurveyMeta(surface=Surface(reflected_c=-30.0))) == (-30.0, None)
     air = Air(inside_c=21.0, outside_c=-3.0)
-    assert resolve_reflected_c(SurveyMeta(surface=Surface(view="interior"), air=air)) == (21.0, "the inside air")
-    assert resolve_reflected_c(SurveyMeta(surface=Surface(view="exterior"), air=air)) == (-3.0, "the outside air")
-    assert resolve_reflected_c(SurveyMeta(surface=Surface(view="roof"), air=air)) == (-3.0, "the outside air")
+    for view, expected in (("interior", 21.0), ("exterior", -3.0), ("roof", -3.0)):
+        value, reason = resolve_reflected_c(SurveyMeta(surface=Surface(view=view), air=air))
+        assert value == expected and reason is not None and f"{expected:g} °C" in reason
     value, reason = resolve_reflected_c(SurveyMeta(surface=Surface(view="roof"), air=Air(inside_c=21.0)))
-    assert value == 20.0 and reason is not None
+    assert value == 20.0 and "taken as 20 °C" in reason
+    # a resolved value recorded as assumed keeps its reason: "None" always means "given"
+    recorded = Assumption("surface.reflected_c", 21.0, "why")
+    assert resolve_reflected_c(SurveyMeta(surface=Surface(reflected_c=21.0), assumed=(recorded,))) == (21.0, "why")
 
 
 # ----------------------------------------------------------------------------- renamed keys

@@ -8,24 +8,32 @@ from tests.support.survey import SHAPE, make_survey, wall_image
 
 from irseg.errors import InputError, MetadataError
 from irseg.vocabulary import STAGES
-from irseg.pipeline import ImageResult, failure_stage, process_image, render_result
+from irseg.pipeline import ImageResult, RenderedImage, failure_stage, process_image, render_result
 
 
 def test_process_image_finds_the_drawn_patch(tmp_path):
     (path,) = make_survey(tmp_path, 1, tiff=False)
     result = process_image(path)
-    assert isinstance(result, ImageResult)
+    assert result.path == str(path)
     assert result.frame.temperature_c.shape == SHAPE
+    # the wall is drawn at 20 °C and reflected_c is 20 °C: an object at the temperature of its
+    # surroundings reads its true temperature whatever the emissivity (Kirchhoff's law), so the
+    # corrected sound wall stays at 20 °C (noise 0.05 K by construction)
+    assert float(np.median(result.frame.temperature_c)) == pytest.approx(20.0, abs=0.01)
     assert set(result.timings) == {"read", "metadata", "calibrate", "segment", "analyse"}
     (anomaly,) = result.analysis.anomalies
-    # The patch is rows 20..36, cols 30..50 by construction (test_batch_support.wall_image);
+    # The patch is rows 20..36, cols 30..50 by construction (tests.support.survey.wall_image);
     # its centre is at (27.5, 39.5) in pixel-centre coordinates.
     assert anomaly.kind == "cold"
     assert anomaly.centroid_row == pytest.approx(27.5, abs=1.0)
     assert anomaly.centroid_col == pytest.approx(39.5, abs=1.0)
-    overlay_png, labels_png, warnings = render_result(result)
-    assert overlay_png[:8] == labels_png[:8] == b"\x89PNG\r\n\x1a\n"  # PNG signature (PNG spec 5.2)
-    assert "render" in result.timings
+    timings_before = dict(result.timings)
+    rendered = render_result(result)
+    assert isinstance(rendered, RenderedImage)
+    # PNG signature: PNG specification (ISO/IEC 15948), section 5.2 [V]
+    assert rendered.overlay_png[:8] == rendered.labels_png[:8] == b"\x89PNG\r\n\x1a\n"
+    assert rendered.seconds > 0.0 and rendered.warnings == ()
+    assert result.timings == timings_before  # the frozen result is not changed: the time is returned
 
 
 def test_overrides_are_applied_last(tmp_path):
@@ -56,7 +64,9 @@ def test_stage_warnings_are_collected_not_emitted(tmp_path):
     result = process_image(tmp_path / "flat.npy")
     assert result.analysis.anomalies == ()
     assert any("uniform" in w for w in result.warnings)
-    assert any("geometry" in w or "inside" in w for w in (*result.warnings, *result.analysis.warnings))
+    stage_warnings = (*result.warnings, *result.analysis.warnings)
+    assert any("no geometry" in w for w in stage_warnings)
+    assert any("inside_c and outside_c not given" in w for w in stage_warnings)
 
 
 def test_irseg_warnings_recorded_others_passed_through(tmp_path, monkeypatch):
@@ -68,10 +78,10 @@ def test_irseg_warnings_recorded_others_passed_through(tmp_path, monkeypatch):
     (path,) = make_survey(tmp_path, 1, tiff=False)
     real = irseg.analysis.analyse
 
-    def noisy(frame, seg):
+    def noisy(frame, seg, meta):
         warnings.warn("wind above the limit (test)", ConditionsWarning, stacklevel=2)
         warnings.warn("a library's own warning (test)", UserWarning, stacklevel=2)
-        return real(frame, seg)
+        return real(frame, seg, meta)
 
     monkeypatch.setattr(irseg.analysis, "analyse", noisy)
     with pytest.warns(UserWarning, match="library's own") as caught:

@@ -1,6 +1,6 @@
 """Anomaly analysis: local sound reference, cause, area, excess heat loss, f_Rsi, confidence.
 
-``analyse(frame, seg)`` turns the regions of a segmentation into measured,
+``analyse(frame, seg, meta)`` turns the regions of a segmentation into measured,
 classified anomalies. All quantities are estimates; see ``docs/analysis.md`` for
 every rule, formula, default and its source.
 """
@@ -10,7 +10,7 @@ from __future__ import annotations
 from ._analyse import analyse, significance_threshold_k
 from ..vocabulary import CAUSES
 from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
-from ._geometry import MIN_SPOT_PX, pixel_area_m2, pixel_footprint_m, tilt_factor
+from ._geometry import MIN_SPOT_PX, pixel_area_m2, pixel_size_m, tilt_factor
 from ._surface import (
     H_CI,
     SIGMA,
@@ -42,7 +42,7 @@ __all__ = [
     "h_exterior",
     "surface_resistance_interior",
     "surface_resistance_exterior",
-    "pixel_footprint_m",
+    "pixel_size_m",
     "excess_heat_w",
     "annual_energy_kwh",
     "temperature_factor",

@@ -11,15 +11,36 @@ ASTM C1060: wind at most 15 mph (6.7 m/s).
 
 from __future__ import annotations
 
-from ..types import SurveyMeta
+from .._defaults import DEFAULT_REFLECTED_C
+from ..types import Air, AnalysisSettings
 
 __all__ = ["check_conditions"]
 
 
-def check_conditions(meta: SurveyMeta, *, has_geometry: bool) -> tuple[str, ...]:
-    """Human-readable warnings about the survey conditions and missing metadata."""
+def check_conditions(
+    *, air: Air, analysis: AnalysisSettings, view: str, reflected_given: bool, has_geometry: bool
+) -> tuple[str, ...]:
+    """Human-readable warnings about the survey conditions and missing metadata.
+
+    Parameters
+    ----------
+    air : Air
+        Air temperatures and wind at survey time.
+    analysis : AnalysisSettings
+        The limits (``min_delta_t_k``, ``max_wind_m_s``).
+    view : {"interior", "exterior", "roof"}
+        Side the camera looks at.
+    reflected_given : bool
+        Whether ``[surface] reflected_c`` was given (a roof needs the sky temperature).
+    has_geometry : bool
+        Whether the pixel side on the surface is known.
+
+    Returns
+    -------
+    tuple of str
+    """
     out: list[str] = []
-    air, an, view = meta.air, meta.analysis, meta.surface.view
+    an = analysis
     if air.inside_c is None or air.outside_c is None:
         missing = " and ".join(k for k, v in (("inside_c", air.inside_c), ("outside_c", air.outside_c)) if v is None)
         out.append(
@@ -49,10 +70,11 @@ def check_conditions(meta: SurveyMeta, *, has_geometry: bool) -> tuple[str, ...]
                 f"wind {air.wind_m_s:g} m/s exceeds {an.max_wind_m_s:g} m/s (ASTM C1060 practice): convection "
                 "masks surface contrasts and the heat-loss estimates are unreliable"
             )
-    if view == "roof" and meta.surface.reflected_c is None:
+    if view == "roof" and not reflected_given:
+        used = "the outside air" if air.outside_c is not None else f"{DEFAULT_REFLECTED_C:g} °C"
         out.append(
             "[surface] reflected_c not given for a roof view: set it to the sky temperature; the radiative "
-            "coefficient then uses the outside air and the check for sky-reflecting patches is off"
+            f"coefficient then uses {used} and the check for sky-reflecting patches is off"
         )
     if not has_geometry:
         out.append(

@@ -26,16 +26,16 @@ class BandInputs:
     area_px, perimeter_px : int
         Region size and outline length, px (the outline is uncertain by ±½ px).
     loss_sum_kpx : float
-        Σ of the loss-signed contrast over the thermal footprint, K·px.
-    n_footprint : int
-        Pixels in the thermal footprint.
+        Σ of the loss-signed contrast over the thermal region (region + soft rim), K·px.
+    thermal_area_px : int
+        Pixels in the thermal region.
     pixel_area_m2 : float or None
         Area of one pixel, m².
-    h_convective, h_radiative : float or None
+    h_convective_w_m2k, h_radiative_w_m2k : float or None
         Parts of the surface coefficient, W/m²K.
-    emissivity, emissivity_uncertainty : float
+    emissivity, emissivity_uncertainty_abs : float
         Surface emissivity and its ± uncertainty (absolute).
-    distance_uncertainty, h_uncertainty : float
+    distance_uncertainty_rel, h_uncertainty_rel : float
         Relative uncertainties (one standard deviation).
     netd_k : float
         Camera noise, K per pixel.
@@ -47,14 +47,14 @@ class BandInputs:
     area_px: int
     perimeter_px: int
     loss_sum_kpx: float
-    n_footprint: int
+    thermal_area_px: int
     pixel_area_m2: float | None
-    h_convective: float | None
-    h_radiative: float | None
+    h_convective_w_m2k: float | None
+    h_radiative_w_m2k: float | None
     emissivity: float
-    emissivity_uncertainty: float
-    distance_uncertainty: float
-    h_uncertainty: float
+    emissivity_uncertainty_abs: float
+    distance_uncertainty_rel: float
+    h_uncertainty_rel: float
     netd_k: float
     reference_sigma_k: float
 
@@ -77,23 +77,23 @@ def confidence_bands(
     rng = np.random.default_rng([int(seed) & 0xFFFFFFFF, int(anomaly_id)])
     z = rng.standard_normal((6, N_DRAWS))
     outline = rng.uniform(-0.5, 0.5, N_DRAWS)
-    scale_d = np.clip(1.0 + inputs.distance_uncertainty * z[0], 0.1, None)  # footprint ∝ distance
+    scale_d = np.clip(1.0 + inputs.distance_uncertainty_rel * z[0], 0.1, None)  # pixel side ∝ distance
     a_px = inputs.pixel_area_m2 * scale_d**2
     area_draws = np.clip(inputs.area_px + outline * inputs.perimeter_px, 1.0, None) * a_px
     area_lo, area_hi = _band(area_draws, area_m2)
-    if excess_w is None or inputs.h_convective is None or inputs.h_radiative is None:
+    if excess_w is None or inputs.h_convective_w_m2k is None or inputs.h_radiative_w_m2k is None:
         return area_lo, area_hi, None, None
     eps = inputs.emissivity
-    eps_draw = np.clip(eps + inputs.emissivity_uncertainty * z[1], 0.05, 1.0)
+    eps_draw = np.clip(eps + inputs.emissivity_uncertainty_abs * z[1], 0.05, 1.0)
     # a contrast corrected with ε when the truth is ε' scales by about ε/ε'; h_r scales with ε'
     contrast_scale = eps / eps_draw
-    h_draw = (inputs.h_convective + inputs.h_radiative * eps_draw / eps) * np.clip(
-        1.0 + inputs.h_uncertainty * z[2], 0.05, None
+    h_draw = (inputs.h_convective_w_m2k + inputs.h_radiative_w_m2k * eps_draw / eps) * np.clip(
+        1.0 + inputs.h_uncertainty_rel * z[2], 0.05, None
     )
     loss = (
         inputs.loss_sum_kpx * contrast_scale
-        + inputs.reference_sigma_k * z[3] * inputs.n_footprint
-        + inputs.netd_k * np.sqrt(max(inputs.n_footprint, 1)) * z[4]
+        + inputs.reference_sigma_k * z[3] * inputs.thermal_area_px
+        + inputs.netd_k * np.sqrt(max(inputs.thermal_area_px, 1)) * z[4]
     )
     w_draws = h_draw * loss * a_px
     w_lo, w_hi = _band(w_draws, excess_w)

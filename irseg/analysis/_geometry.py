@@ -1,8 +1,8 @@
-"""Camera geometry: pixel footprint on the surface and the oblique-view area factor.
+"""Camera geometry: one pixel's side on the surface and the oblique-view area factor.
 
 References
 ----------
-OIML R 141:2008 (FOV, IFOV); pixel footprint ``p = 2·d·tan(FOV/2)/N`` and the
+OIML R 141:2008 (FOV, IFOV); the pixel side ``p = 2·d·tan(FOV/2)/N`` and the
 oblique area factor ``1/cos θ`` follow from the pinhole model.
 """
 
@@ -12,31 +12,31 @@ import math
 
 from ..errors import ConfigError
 
-__all__ = ["pixel_footprint_m", "tilt_factor", "pixel_area_m2", "MIN_SPOT_PX"]
+__all__ = ["pixel_size_m", "tilt_factor", "pixel_area_m2", "MIN_SPOT_PX"]
 
 #: A reading needs at least 3×3 pixels (common practice).
 MIN_SPOT_PX: int = 9
 
 
-def pixel_footprint_m(
+def pixel_size_m(
     *,
-    n_columns: int,
+    n_cols: int,
     hfov_deg: float | None = None,
     distance_m: float | None = None,
     pixel_m: float | None = None,
 ) -> float | None:
-    """Side length of one pixel's footprint on the surface, metres.
+    """Side of the surface patch one pixel sees, metres.
 
     Parameters
     ----------
-    n_columns : int
+    n_cols : int
         Image width N in pixels (the horizontal field of view spans N pixels).
     hfov_deg : float, optional
         Horizontal field of view, degrees, in (0, 180).
     distance_m : float, optional
         Camera-to-surface distance along the line of sight, metres.
     pixel_m : float, optional
-        Footprint given directly; takes precedence over hfov_deg + distance_m.
+        The pixel side given directly; takes precedence over hfov_deg + distance_m.
 
     Returns
     -------
@@ -58,9 +58,9 @@ def pixel_footprint_m(
         raise ConfigError(f"[camera] hfov_deg = {hfov_deg!r} must be in (0, 180) degrees")
     if not (float(distance_m) > 0.0) or not math.isfinite(float(distance_m)):
         raise ConfigError(f"[camera] distance_m = {distance_m!r} must be a positive distance in metres")
-    if int(n_columns) < 1:
-        raise ConfigError(f"image has {n_columns} columns; need at least one")
-    return 2.0 * float(distance_m) * math.tan(math.radians(float(hfov_deg)) / 2.0) / int(n_columns)
+    if int(n_cols) < 1:
+        raise ConfigError(f"image has {n_cols} columns; need at least one")
+    return 2.0 * float(distance_m) * math.tan(math.radians(float(hfov_deg)) / 2.0) / int(n_cols)
 
 
 def tilt_factor(tilt_deg: float) -> float:
@@ -77,8 +77,8 @@ def tilt_factor(tilt_deg: float) -> float:
     return 1.0 / math.cos(math.radians(t))
 
 
-def pixel_area_m2(*, footprint_m: float | None, tilt_deg: float = 0.0) -> float | None:
-    """Surface area seen by one pixel, ``p²/cos θ``, m² (None without a footprint)."""
-    if footprint_m is None:
+def pixel_area_m2(*, pixel_m: float | None, tilt_deg: float = 0.0) -> float | None:
+    """Surface area seen by one pixel, ``p²/cos θ``, m² (None without the pixel side ``pixel_m``)."""
+    if pixel_m is None:
         return None
-    return footprint_m * footprint_m * tilt_factor(tilt_deg)
+    return pixel_m * pixel_m * tilt_factor(tilt_deg)

@@ -21,7 +21,7 @@ def excess_heat_w(*, h_w_m2k: float, loss_sum_kpx: float, pixel_area_m2: float) 
     h_w_m2k : float
         Surface heat-transfer coefficient, W/m²K.
     loss_sum_kpx : float
-        Sum over the thermal footprint of the loss-signed contrast, K·px
+        Sum over the thermal region (region + soft rim) of the loss-signed contrast, K·px
         (reference − T from inside, T − reference from outside).
     pixel_area_m2 : float
         Surface area of one pixel, m².

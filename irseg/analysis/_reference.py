@@ -24,19 +24,17 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .._shared import MAD_TO_SIGMA
+from .._shared import MAD_TO_SIGMA, robust_sigma
 
 __all__ = [
     "Plane",
     "RingReference",
-    "robust_sigma",
     "fit_plane",
     "find_sound_regions",
     "ring_reference",
     "rim_extent_px",
 ]
 
-_MAD_TO_SIGMA = MAD_TO_SIGMA  # normal consistency factor of the median absolute deviation
 _MAX_TREND_SAMPLES = 8_000
 _MAX_RING_SAMPLES = 4_000
 _MIN_RING_PX = 24
@@ -66,14 +64,6 @@ class RingReference:
     sigma_k: float  # robust spread of the measured temperature about the plane in the ring
     n_ring: int
     source: str  # "ring", "wide ring" or "trend"
-
-
-def robust_sigma(x: np.ndarray) -> float:
-    """1.4826 × median absolute deviation (0 for fewer than two values)."""
-    x = np.asarray(x, dtype=float)
-    if x.size < 2:
-        return 0.0
-    return float(_MAD_TO_SIGMA * np.median(np.abs(x - np.median(x))))
 
 
 def fit_plane(
@@ -108,7 +98,7 @@ def fit_plane(
         sw = np.sqrt(w)
         coef, *_ = np.linalg.lstsq(design * sw[:, None], z * sw, rcond=None)
         res = z - design @ coef
-        s = _MAD_TO_SIGMA * float(np.median(np.abs(res)))  # residuals of a fit with an intercept: centre ≈ 0
+        s = MAD_TO_SIGMA * float(np.median(np.abs(res)))  # residuals of a fit with an intercept: centre ≈ 0
         if s <= 1e-12:
             break
         u = res / (4.685 * s)

@@ -18,6 +18,7 @@ from scipy.constants import Stefan_Boltzmann
 
 from .._shared import KELVIN_AT_0C, check_emissivity
 from ..errors import ConfigError
+from ..vocabulary import HEAT_FLOWS, VIEWS
 
 __all__ = [
     "SIGMA",
@@ -41,13 +42,6 @@ H_CI: dict[str, float] = {"upward": 5.0, "horizontal": 2.5, "downward": 0.7}
 
 #: Wind speed behind the conventional h_ce = 20 W/m²K of ISO 13789 Table 8 (4 + 4·4).
 CONVENTIONAL_WIND_M_S: float = 4.0
-
-_VIEWS = ("interior", "exterior", "roof")
-
-
-def _check_emissivity(emissivity: float) -> float:
-    return check_emissivity(emissivity)
-
 
 def h_radiative(t_mean_c: float, emissivity: float = 1.0) -> float:
     """Linearised radiative coefficient ``h_r = ε·4σT_m³``.
@@ -76,7 +70,7 @@ def h_radiative(t_mean_c: float, emissivity: float = 1.0) -> float:
     t_k = float(t_mean_c) + KELVIN_AT_0C
     if not (t_k > 0.0) or not math.isfinite(t_k):
         raise ConfigError(f"mean temperature {t_mean_c!r} °C is not a physical temperature")
-    return _check_emissivity(emissivity) * 4.0 * SIGMA * t_k**3
+    return check_emissivity(emissivity) * 4.0 * SIGMA * t_k**3
 
 
 def h_convective_interior(heat_flow: str = "horizontal") -> float:
@@ -99,7 +93,7 @@ def h_convective_interior(heat_flow: str = "horizontal") -> float:
         return H_CI[heat_flow]
     except KeyError:
         raise ConfigError(
-            f"[surface] heat_flow = {heat_flow!r} is not one of horizontal, upward, downward"
+            f"[surface] heat_flow = {heat_flow!r} is not one of {', '.join(HEAT_FLOWS)}"
         ) from None
 
 
@@ -178,8 +172,8 @@ def resolve_heat_flow(view: str, heat_flow: str | None) -> str:
     ConfigError
         Unknown view or direction.
     """
-    if view not in _VIEWS:
-        raise ConfigError(f"[surface] view = {view!r} is not one of interior, exterior, roof")
+    if view not in VIEWS:
+        raise ConfigError(f"[surface] view = {view!r} is not one of {', '.join(VIEWS)}")
     if heat_flow is None:
         return "upward" if view == "roof" else "horizontal"
     h_convective_interior(heat_flow)  # validates

@@ -95,13 +95,13 @@ class Analysis:
     labels : (M, N) int32 ndarray
         Anomaly id per pixel of its measured extent, 0 elsewhere.
     pixel_m : float or None
-        Pixel footprint, m.
+        One pixel's side on the surface, m (None without geometry).
     pixel_area_m2 : float or None
         Area of one pixel including the tilt factor, m².
     h_w_m2k : float or None
         Surface heat-transfer coefficient used, W/m²K.
     reference_c : (M, N) float ndarray
-        Local sound reference, °C: each anomaly's ring plane over its footprint, the
+        Local sound reference, °C: each anomaly's ring plane over its thermal region, the
         image's sound trend elsewhere; NaN on masked pixels.
     warnings : tuple of str
         Conditions and metadata warnings.

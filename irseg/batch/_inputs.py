@@ -8,9 +8,9 @@ from dataclasses import dataclass
 from pathlib import Path, PurePosixPath
 
 from ..errors import ConfigError, InputError
-from ..io import metadata_candidates, safe_component
+from ..io import is_candidate, metadata_candidates, safe_component
 
-__all__ = ["InputImage", "collect_inputs", "metadata_candidates", "RESERVED_NAMES"]
+__all__ = ["InputImage", "collect_inputs", "RESERVED_NAMES"]
 
 #: Names under OUT that belong to the survey-level files.
 RESERVED_NAMES = ("anomalies.csv", "summary.json", "report.html", "failures.csv", "run.log")
@@ -41,14 +41,6 @@ class InputImage:
     stem: str
 
 
-def _is_candidate(path: Path) -> bool:
-    from ..io import is_candidate
-
-    if path.suffix.lower() == ".toml":
-        return False
-    return bool(is_candidate(path))
-
-
 def _walk(folder: Path, exclude: Path | None) -> list[Path]:
     found: list[Path] = []
     for dirpath, dirnames, filenames in os.walk(folder, followlinks=False):
@@ -63,10 +55,8 @@ def _walk(folder: Path, exclude: Path | None) -> list[Path]:
             keep.append(name)
         dirnames[:] = sorted(keep)
         for name in filenames:
-            if name.startswith("."):
-                continue  # hidden files, editor and copy leftovers
             file = current / name
-            if _is_candidate(file) and file.is_file():
+            if is_candidate(file) and file.is_file():  # not hidden files, metadata or other suffixes
                 found.append(file)
     return sorted(found, key=lambda p: p.relative_to(folder).as_posix())
 
@@ -84,9 +74,10 @@ def collect_inputs(
 ) -> tuple[list[InputImage], str]:
     """Expand files and folders into the survey's images, in a deterministic order.
 
-    Files given explicitly are kept in the order given (even with an unknown
-    suffix, so the failure is reported); folders are searched recursively and
-    their images sorted by relative path. Repeats are dropped.
+    Folders are searched recursively for the files :func:`irseg.io.is_candidate`
+    accepts, sorted by relative path. Files given explicitly are kept in the order
+    given, even when no reader claims them (so the failure is reported), except
+    metadata files (a ``survey.toml`` or a sidecar). Repeats are dropped.
 
     Parameters
     ----------
@@ -127,8 +118,8 @@ def collect_inputs(
                 )
             files.extend(found)
         elif entry.is_file():
-            if entry.suffix.lower() != ".toml":
-                files.append(entry)
+            if is_candidate(entry) or entry not in metadata_candidates(entry):
+                files.append(entry)  # kept even when no reader claims it, so its failure is reported
         elif os.path.lexists(entry):
             raise InputError(f"{entry}: is neither a file nor a folder (broken link?); check the path")
         else:

@@ -1,17 +1,22 @@
 """Plain records passed between the survey's main process and its workers (a leaf of irseg.batch).
 
 The process pool, the dask path and the worker all import from here, never from each other,
-so the execution back-ends stay free of import cycles.
+so the execution back-ends stay free of import cycles. :class:`ImageRecord` is the typed
+content of one image's ``result.json``; its anomalies are :class:`irseg.report.SurveyAnomaly`
+records (the report's leaf module, which imports nothing heavy).
 """
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
 from .._shared import DEFAULT_MAX_PIXELS
+from ..errors import ConfigError
+from ..report._table import SurveyAnomaly
 
-__all__ = ["SurveySettings", "ImageFailure", "ImageOutcome", "worker_died"]
+__all__ = ["SurveySettings", "ImageFailure", "ImageOutcome", "ImageRecord", "worker_died"]
 
 
 @dataclass(frozen=True)
@@ -51,18 +56,19 @@ class ImageFailure:
 
     Attributes
     ----------
-    file : str
-        The input as named in the outputs (file name, or relative path when names repeat).
+    image : str
+        The input as named in the outputs (file name, or relative path when names repeat);
+        the ``file`` column of failures.csv and summary.json.
     stage : str
         ``read``, ``metadata``, ``calibrate``, ``segment``, ``analyse``, ``render``,
         ``write`` or ``worker`` (the worker process died).
     message : str
         One line: what failed and what to do.
     traceback : str or None
-        Full traceback text, for ``-v``.
+        Full traceback text, shown with the verbose setting.
     """
 
-    file: str
+    image: str
     stage: str
     message: str
     traceback: str | None = None
@@ -80,8 +86,8 @@ class ImageOutcome:
         Name in the outputs, and its output folder under OUT.
     status : str
         ``"ok"`` or ``"failed"``.
-    record : dict or None
-        The content of ``result.json`` (normalised JSON data) when ok.
+    record : ImageRecord or None
+        The content of ``result.json`` when ok.
     failure : ImageFailure or None
         When failed.
     skipped : bool
@@ -96,7 +102,7 @@ class ImageOutcome:
     image: str
     stem: str
     status: str
-    record: dict[str, Any] | None = None
+    record: ImageRecord | None = None
     failure: ImageFailure | None = None
     skipped: bool = False
     timings: dict[str, float] = field(default_factory=dict)
@@ -104,11 +110,148 @@ class ImageOutcome:
     labels_png: bytes | None = field(default=None, repr=False)
 
 
+#: Sections of result.json kept as JSON objects (provenance; the survey tables do not read them).
+_DETAIL_KEYS = ("metadata", "parameters", "image_size", "pixels", "segmentation", "analysis")
+
+
+@dataclass(frozen=True)
+class ImageRecord:
+    """The content of one image's ``result.json``, written last as the image's completion marker.
+
+    Attributes
+    ----------
+    image, source, stem : str
+        Name in the outputs, path relative to the survey root, output folder under OUT.
+    fingerprint : str
+        ``"sha256:<hex>"`` of the input, its metadata files, the settings and the version.
+    irseg_version : str
+    view : str or None
+        ``interior`` or ``exterior``.
+    delta_t_k : float or None
+        Inside minus outside air temperature, K.
+    anomalies : tuple of SurveyAnomaly
+        In id order; ``image_severity`` set, ``severity`` None (the survey ranks them).
+    warnings : tuple of str
+        Every stage's warnings, without repeats and without the survey's root folder.
+    assumed : tuple of dict
+        ``{"key", "value", "reason"}``: each value irseg assumed because the metadata lacked it.
+    metadata, parameters, image_size, pixels, segmentation, analysis : dict
+        JSON sections recording how the image was processed.
+
+    Notes
+    -----
+    Values are normalised JSON data (:func:`irseg.io.normalise_json`), so a record read back
+    from its file equals the one written: a resumed survey rebuilds the same tables.
+    """
+
+    image: str
+    source: str
+    stem: str
+    fingerprint: str
+    irseg_version: str
+    view: str | None
+    delta_t_k: float | None
+    anomalies: tuple[SurveyAnomaly, ...]
+    warnings: tuple[str, ...]
+    assumed: tuple[dict[str, Any], ...]
+    metadata: dict[str, Any]
+    parameters: dict[str, Any]
+    image_size: dict[str, Any]
+    pixels: dict[str, Any]
+    segmentation: dict[str, Any]
+    analysis: dict[str, Any]
+
+    @property
+    def outputs(self) -> dict[str, str]:
+        """The image's files, relative to OUT."""
+        return {name: f"{self.stem}/{name}.{ext}" for name, ext in
+                (("labels", "png"), ("overlay", "png"), ("result", "json"))}
+
+    @classmethod
+    def from_json(cls, data: Any) -> ImageRecord:
+        """The record of a ``result.json`` object (normalised JSON data).
+
+        Raises
+        ------
+        ConfigError
+            Not the object irseg writes (a key missing, a wrong type, status not ``"ok"``).
+        """
+        where = "result.json"
+        if not isinstance(data, Mapping) or data.get("status") != "ok":
+            raise ConfigError(f"{where}: not the record of a processed image; delete the file to recompute the image")
+        image = _typed(data, "image", str, where)
+        anomalies = tuple(
+            _anomaly_from_result(image, row, f"{where}: anomalies[{k}]")
+            for k, row in enumerate(_typed(data, "anomalies", list, where))
+        )
+        assumed = _typed(data, "assumed", list, where, missing=[])  # absent from older records
+        if not all(isinstance(a, Mapping) for a in assumed):
+            raise ConfigError(f"{where}: assumed must hold objects; delete the file to recompute the image")
+        return cls(
+            image=image,
+            source=_typed(data, "source", str, where),
+            stem=_typed(data, "stem", str, where),
+            fingerprint=_typed(data, "fingerprint", str, where),
+            irseg_version=_typed(data, "irseg_version", str, where),
+            view=_typed(data, "view", str, where, missing=None),
+            delta_t_k=_typed(data, "delta_t_k", (int, float), where, missing=None),
+            anomalies=anomalies,
+            warnings=tuple(str(w) for w in _typed(data, "warnings", list, where)),
+            assumed=tuple(dict(a) for a in assumed),
+            **{key: dict(_typed(data, key, Mapping, where)) for key in _DETAIL_KEYS},
+        )
+
+    def to_json(self) -> dict[str, Any]:
+        """The ``result.json`` object; :meth:`from_json` reads it back to an equal record."""
+        return {
+            "irseg_version": self.irseg_version,
+            "status": "ok",
+            "image": self.image,
+            "source": self.source,
+            "stem": self.stem,
+            "fingerprint": self.fingerprint,
+            "outputs": self.outputs,
+            "view": self.view,
+            "delta_t_k": self.delta_t_k,
+            **{key: getattr(self, key) for key in _DETAIL_KEYS},
+            "warnings": list(self.warnings),
+            "assumed": [dict(a) for a in self.assumed],
+            "anomalies": [_anomaly_to_result(a) for a in self.anomalies],
+        }
+
+
+# result.json holds each anomaly as irseg.analysis.Anomaly's fields: no image, and
+# ``severity`` is the rank within the image (SurveyAnomaly.image_severity).
+_SURVEY_ONLY = ("image", "severity", "image_severity")
+
+
+def _anomaly_from_result(image: str, row: Any, where: str) -> SurveyAnomaly:
+    if not isinstance(row, Mapping):
+        raise ConfigError(f"{where}: must be an object; delete the file to recompute the image")
+    values = {key: value for key, value in row.items() if key not in _SURVEY_ONLY}
+    return SurveyAnomaly.from_json({**values, "image": image, "image_severity": row.get("severity")}, where=where)
+
+
+def _anomaly_to_result(anomaly: SurveyAnomaly) -> dict[str, Any]:
+    row = {key: value for key, value in anomaly.to_json().items() if key not in _SURVEY_ONLY}
+    row["severity"] = anomaly.image_severity
+    return row
+
+
+def _typed(data: Mapping[str, Any], key: str, kind: Any, where: str, **default: Any) -> Any:
+    """``data[key]`` checked against ``kind``; ``missing=`` is returned for an absent or null value."""
+    value = data.get(key)
+    if value is None and "missing" in default:
+        return default["missing"]
+    if not isinstance(value, kind) or isinstance(value, bool):
+        raise ConfigError(f"{where}: {key} = {value!r} is not what irseg writes; delete the file to recompute the image")
+    return value
+
 
 def worker_died(task: dict[str, Any]) -> ImageOutcome:
     """The outcome of a task whose worker process died (out of memory, a native crash)."""
     failure = ImageFailure(
-        file=task["image"],
+        image=task["image"],
         stage="worker",
         message="the worker process died while processing this image (out of memory or a crash); "
         "lower the max_pixels setting or the jobs setting, or run it alone with jobs = 1 and the verbose setting",

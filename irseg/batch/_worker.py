@@ -2,8 +2,9 @@
 
 :func:`run_task` runs in a worker process (or a dask worker, or in the calling
 process with ``jobs=1``). It reads the input and returns the ``result.json``
-record and the PNG bytes; it never writes into the output folder and never
-raises for a bad input: the failure, with its stage, is part of the outcome.
+record (:class:`~irseg.batch.ImageRecord`) and the PNG bytes; it never writes into
+the output folder and never raises for a bad input: the failure, with its stage,
+is part of the outcome.
 """
 
 from __future__ import annotations
@@ -15,7 +16,7 @@ from typing import Any
 from .. import io as irio
 from .._version import __version__
 from ..errors import IrsegError
-from ._records import ImageFailure, ImageOutcome, SurveySettings
+from ._records import ImageFailure, ImageOutcome, ImageRecord, SurveySettings
 
 __all__ = ["run_task", "run_task_single_threaded", "import_stages"]
 
@@ -72,11 +73,12 @@ def run_task(task: dict[str, Any]) -> ImageOutcome:
             format=settings.format,
             max_pixels=settings.max_pixels,
         )
-        timings = result.timings
+        timings = dict(result.timings)
         stage = "render"
-        overlay_png, labels_png, render_warnings = render_result(result, cmap=settings.cmap)
+        rendered = render_result(result, cmap=settings.cmap)
+        timings["render"] = rendered.seconds
         stage = "write"
-        record = _make_record(result, task, render_warnings)
+        record = _make_record(result, task, rendered.warnings)
     except Exception as exc:  # one bad input must never stop the survey
         stage = failure_stage(exc) or stage
         if isinstance(exc, IrsegError):
@@ -86,15 +88,15 @@ def run_task(task: dict[str, Any]) -> ImageOutcome:
         if isinstance(exc, MemoryError):
             message = f"out of memory ({exc}); lower the max_pixels setting or the jobs setting"
         failure = ImageFailure(
-            file=image,
+            image=image,
             stage=stage,
             message=_relativise(message, root) or type(exc).__name__,
             traceback=traceback.format_exc(),
         )
         return ImageOutcome(task["index"], image, stem, "failed", failure=failure, timings=timings)
     return ImageOutcome(
-        task["index"], image, stem, "ok", record=record, timings=dict(timings),
-        overlay_png=overlay_png, labels_png=labels_png,
+        task["index"], image, stem, "ok", record=record, timings=timings,
+        overlay_png=rendered.overlay_png, labels_png=rendered.labels_png,
     )
 
 
@@ -107,8 +109,8 @@ def _dedupe(messages: Iterable[str], root: str) -> list[str]:
     return seen
 
 
-def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[str]) -> dict[str, Any]:
-    """The content of result.json for one processed image (normalised JSON data)."""
+def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[str]) -> ImageRecord:
+    """The content of result.json for one processed image (built from normalised JSON data)."""
     from dataclasses import asdict, is_dataclass
 
     from ..metadata import meta_to_dict
@@ -127,6 +129,10 @@ def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[st
     inside, outside = meta.air.inside_c, meta.air.outside_c
     delta_t = None if inside is None or outside is None else float(inside) - float(outside)
     anomalies = [asdict(a) for a in analysis.anomalies]
+    assumed = [  # SurveyMeta.assumed: what the metadata lacked and irseg assumed
+        {"key": a.key, "value": a.value, "reason": _relativise(str(a.reason), root)}
+        for a in getattr(meta, "assumed", ())
+    ]
     warnings = _dedupe([*frame.warnings, *result.warnings, *analysis.warnings, *render_warnings], root)
     rows, cols = frame.temperature_c.shape
     record = {
@@ -135,12 +141,7 @@ def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[st
         "image": task["image"],
         "source": task["rel"],
         "stem": stem,
-        "fingerprint": task["fingerprint"],
-        "outputs": {
-            "labels": f"{stem}/labels.png",
-            "overlay": f"{stem}/overlay.png",
-            "result": f"{stem}/result.json",
-        },
+        "fingerprint": task["fingerprint"],  # "outputs" follow from the stem (ImageRecord.outputs)
         "view": meta.surface.view,
         "delta_t_k": delta_t,
         "metadata": meta_dict,
@@ -164,6 +165,7 @@ def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[st
             "n_anomalies": len(anomalies),
         },
         "warnings": warnings,
+        "assumed": assumed,
         "anomalies": anomalies,
     }
-    return irio.normalise_json(record)
+    return ImageRecord.from_json(irio.normalise_json(record))

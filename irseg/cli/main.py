@@ -8,12 +8,12 @@ irseg's exceptions. :class:`_IrsegGroup` does, here and nowhere else: an
 :class:`~irseg.errors.IrsegError` becomes exit 1 with its message, a bug becomes exit 1 with
 a short message (the traceback with ``-v``), an interrupt exit 130 with the command's hint.
 Library messages name *settings* ("the max_pixels setting"); :func:`describe` rewrites them
-to the flags of :data:`irseg.cli.options.SETTING_FLAGS`.
+to the flags of :data:`irseg.cli.options.SETTING_FLAGS` (``_exit.py`` holds the codes and
+:func:`describe`, so commands and this map share them without importing each other).
 """
 
 from __future__ import annotations
 
-import re
 import signal
 import traceback
 from collections.abc import Iterator
@@ -24,29 +24,9 @@ import click
 
 from .._version import __version__
 from ..errors import IrsegError
-from .options import SETTING_FLAGS
+from ._exit import EXIT_ERROR, EXIT_INTERRUPTED, INTERRUPT_HINT, VERBOSE, describe
 
-__all__ = ["cli", "describe", "EXIT_OK", "EXIT_ERROR", "EXIT_USAGE", "EXIT_PARTIAL", "EXIT_INTERRUPTED",
-           "INTERRUPT_HINT", "VERBOSE"]
-
-EXIT_OK, EXIT_ERROR, EXIT_USAGE, EXIT_PARTIAL, EXIT_INTERRUPTED = 0, 1, 2, 3, 130
-
-#: ``ctx.meta`` keys a command sets for the error map: the hint printed on an interrupt, and -v.
-INTERRUPT_HINT = "irseg.interrupt_hint"
-VERBOSE = "irseg.verbose"
-
-_SETTING = re.compile(r"\bthe (\w+) setting\b")
-
-
-def describe(message: str) -> str:
-    """A library message in command-line words: "the max_pixels setting" -> "the option --max-pixels"."""
-
-    def flag(match: re.Match[str]) -> str:
-        name = match.group(1)
-        return f"the option {SETTING_FLAGS[name]}" if name in SETTING_FLAGS else match.group(0)
-
-    return _SETTING.sub(flag, message)
-
+__all__ = ["cli"]
 
 @contextmanager
 def _sigterm_as_interrupt() -> Iterator[None]:

@@ -30,7 +30,7 @@ _DEFAULT_OPTIONS = {
 @click.group("scene", short_help="Make synthetic thermograms with known defects (sample survey, tests).")
 def scene_cmd() -> None:
     """Physics-based synthetic thermograms: each scene is simulated with and without its
-    defects, so the truth (footprints, excess heat, reference temperatures) is known.
+    defects, so the truth (defect masks, excess heat, reference temperatures) is known.
 
     \b
     Examples:

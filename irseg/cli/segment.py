@@ -10,6 +10,7 @@ import click
 
 from ..vocabulary import CAUTION_LINE
 from . import options as opt
+from ._exit import EXIT_OK, EXIT_PARTIAL, INTERRUPT_HINT, VERBOSE, describe
 
 __all__ = ["segment_cmd"]
 
@@ -70,7 +71,6 @@ def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, job
     --resume to finish).
     """
     from ..batch import run_survey
-    from .main import EXIT_OK, EXIT_PARTIAL, INTERRUPT_HINT, VERBOSE, describe
 
     ctx.meta[VERBOSE] = verbose
     ctx.meta[INTERRUPT_HINT] = (f"completed images are kept in {out_dir}; run the same command with "
@@ -95,8 +95,8 @@ def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, job
             bar.set_postfix_str(outcome.image, refresh=False)
         if outcome.failure is not None:
             failure = outcome.failure
-            message = describe(failure.message.removeprefix(f"{Path(failure.file).name}: "))
-            say_err(f"{failure.file}: failed at {failure.stage}: {message}")
+            message = describe(failure.message.removeprefix(f"{Path(failure.image).name}: "))
+            say_err(f"{failure.image}: failed at {failure.stage}: {message}")
             if verbose and failure.traceback:
                 say_err(failure.traceback.rstrip())
 

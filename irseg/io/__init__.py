@@ -24,6 +24,24 @@ from ._files import (
     read_small_text,
 )
 from ._registry import _reg_by_name, _reg_by_suffix, _reg_detect, _reg_names
+from ._scene_writers import (
+    csv_matrix_text,
+    exact_json_text,
+    format_metadata_toml,
+    npy_bytes,
+    npz_bytes,
+    png16_bytes,
+    quantise_u16,
+    tiff_bytes,
+    write_csv_matrix,
+    write_exact_json,
+    write_metadata_toml,
+    write_npy,
+    write_npz,
+    write_png16,
+    write_tiff_float,
+    write_tiff_u16,
+)
 from ._writers import (
     SIGNIFICANT_DIGITS,
     TEMP_PREFIX,
@@ -69,6 +87,22 @@ __all__ = [
     "remove_temp_files",
     "safe_component",
     "resolve_inside",
+    "quantise_u16",
+    "tiff_bytes",
+    "png16_bytes",
+    "csv_matrix_text",
+    "npy_bytes",
+    "npz_bytes",
+    "format_metadata_toml",
+    "exact_json_text",
+    "write_tiff_float",
+    "write_tiff_u16",
+    "write_png16",
+    "write_csv_matrix",
+    "write_npy",
+    "write_npz",
+    "write_metadata_toml",
+    "write_exact_json",
 ]
 
 

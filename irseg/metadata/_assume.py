@@ -12,7 +12,7 @@ import warnings
 from collections.abc import Mapping
 from typing import Any
 
-from .._defaults import resolve_reflected_c
+from .._defaults import REFLECTED_KEY, resolve_reflected_c
 from ..errors import MetadataWarning
 from ..types import Assumption, SurveyMeta
 
@@ -34,24 +34,21 @@ def _md_assume(meta: SurveyMeta, surface_given: Mapping[str, Any]) -> SurveyMeta
     if surface_given.get("view") is None:
         assumed.append(Assumption("surface.view", surface.view, "the default"))
         _md_warn(
-            f'no [surface] view given: view assumed "{surface.view}" (the default); '
+            f'no [surface] view given: view taken as "{surface.view}" (the default); '
             'set view = "exterior" or "roof" for shots taken from outside'
         )
     if surface_given.get("emissivity") is None:
         reason = "the default, typical of painted and mineral building surfaces"
         assumed.append(Assumption("surface.emissivity", surface.emissivity, reason))
         _md_warn(
-            f"no [surface] emissivity given: emissivity assumed {surface.emissivity:g} ({reason}); "
+            f"no [surface] emissivity given: emissivity taken as {surface.emissivity:g} ({reason}); "
             "give the material's long-wave emissivity"
         )
     reflected_c, reason = resolve_reflected_c(meta)
-    if reason is not None:
+    if reason is not None:  # the reason names the value taken and how to give it
         surface = dataclasses.replace(surface, reflected_c=reflected_c)
-        assumed.append(Assumption("surface.reflected_c", reflected_c, reason))
-        _md_warn(
-            f"no [surface] reflected_c given: reflected temperature assumed {reflected_c:g} °C ({reason}); "
-            "measure it for an accurate estimate"
-        )
+        assumed.append(Assumption(REFLECTED_KEY, reflected_c, reason))
+        _md_warn(reason)
     return dataclasses.replace(meta, surface=surface, assumed=(*meta.assumed, *assumed))
 
 

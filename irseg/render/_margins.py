@@ -67,11 +67,11 @@ def _fit(text: str, width: int, scale: float) -> str:
     return text + "..."
 
 
-def draw_title(canvas: np.ndarray, frame: Any, n_anomalies: int, lay: Any) -> None:
+def draw_title(canvas: np.ndarray, frame: Any, meta: Any, n_anomalies: int, lay: Any) -> None:
+    """The file name, then view, ΔT in–out (from ``meta``) and the anomaly count."""
     width = lay.shape[1] - 2 * LEFT
     name = os.path.basename(str(getattr(frame, "path", "") or "")) or "(unnamed image)"
     draw_text(canvas, _fit(name, width, TITLE_SCALE), (LEFT, 19), TITLE_SCALE, FOREGROUND, 1)
-    meta = getattr(frame, "meta", None)
     view = getattr(getattr(meta, "surface", None), "view", None) or "unknown"
     air = getattr(meta, "air", None)
     t_in, t_out = getattr(air, "inside_c", None), getattr(air, "outside_c", None)

@@ -5,7 +5,7 @@ one RGB picture a thermographer can put in front of a client: the surface temper
 open colour map, the jump set of the segmentation, every anomaly outlined in the colour of its
 probable cause with its id, a °C colour bar, a metre scale bar and a title line.
 :func:`label_image` gives the 16-bit label image (pixel = anomaly id). Saving the arrays is
-the job of :mod:`irseg.outputs`; nothing here touches the filesystem.
+the job of :mod:`irseg.io`; nothing here touches the filesystem.
 
 All drawing uses OpenCV (``cv2.findContours``, ``cv2.drawContours``, ``cv2.putText``), which
 is deterministic: the same inputs give byte-identical arrays.
@@ -25,7 +25,7 @@ from ._margins import NO_DATA as _NO_DATA
 from ._margins import draw_bottom, draw_colour_bar, draw_title
 from ._marks import blend_edges, thin_jump_lines
 from ._text import draw_text, text_width
-from ._colours import COLORMAPS, colormap_lut, display_range
+from ._colours import colormap_lut, display_range
 from ._layout import BACKGROUND as _BACKGROUND
 from ._layout import ID_SCALE as _ID_SCALE
 from ._layout import OverlayLayout, overlay_layout, scale_bar_length_m
@@ -70,20 +70,22 @@ def label_image(analysis: Any) -> np.ndarray:
 # --------------------------------------------------------------------------- overlay
 
 
-def render_overlay(frame: Any, seg: Any, analysis: Any, *, cmap: str = "inferno") -> np.ndarray:
+def render_overlay(frame: Any, seg: Any, analysis: Any, meta: Any, *, cmap: str = "inferno") -> np.ndarray:
     """Draw the annotated overlay of one analysed thermogram.
 
     Parameters
     ----------
     frame : ThermalFrame
-        Uses ``temperature_c`` (M, N) °C, ``mask`` (M, N) bool, ``path`` (title),
-        ``meta.surface.view`` and ``meta.air.inside_c`` / ``outside_c`` (title ΔT).
+        Uses ``temperature_c`` (M, N) °C, ``mask`` (M, N) bool and ``path`` (title).
     seg : Segmentation
         Uses ``edges``, the (M, N) bool jump set: blended into the picture at full size, drawn
         as 1-pixel lines through the (thinned) jump set when the thermogram is enlarged.
     analysis : Analysis
         Uses ``labels`` (M, N) anomaly ids, ``anomalies`` (``anomaly``, ``cause``,
         ``centroid_row``, ``centroid_col``, ``bbox_*``) and ``pixel_m`` (scale bar).
+    meta : SurveyMeta
+        The image's metadata; the title line uses ``surface.view`` and ``air.inside_c`` /
+        ``air.outside_c`` (ΔT in–out). None prints both as unknown.
     cmap : str, optional
         Open colour-map name, see :func:`colormap_lut`. Default ``"inferno"``.
 
@@ -160,7 +162,7 @@ def render_overlay(frame: Any, seg: Any, analysis: Any, *, cmap: str = "inferno"
     _draw_outlines(canvas, labels, anomalies, lay)
     _draw_ids(canvas, anomalies, lay)
     draw_colour_bar(canvas, lut, lo, hi, lay)
-    draw_title(canvas, frame, len(anomalies), lay)
+    draw_title(canvas, frame, meta, len(anomalies), lay)
     has_mask = bool(mask is not None and mask.any())
     pixel_m = getattr(analysis, "pixel_m", None)
     bar_m = None

@@ -7,6 +7,8 @@ file can be mailed, archived or printed as it is. The page is built from the jin
 ``irseg/report/templates/report.html`` (package data, loaded with :mod:`importlib.resources`)
 with autoescaping on, so image names and messages can never inject markup.
 
+The summary's anomaly rows are read as :class:`SurveyAnomaly` records (module ``_table``, a
+leaf shared with :mod:`irseg.batch`, which builds the rows with :func:`anomaly_table`).
 Nothing here touches the filesystem except reading the package's own template; the batch
 writes the returned text atomically.
 """
@@ -19,36 +21,14 @@ from collections.abc import Mapping, Sequence
 from importlib import resources
 from typing import Any
 
-import jinja2
-
 from ..errors import ConfigError
 from ..vocabulary import CAUSE_COLOURS, CAUSE_LABELS, CAUSES, CAUTIONS
+from ._table import ANOMALY_COLUMNS, SurveyAnomaly, anomaly_table
 
-__all__ = ["render_report"]
+__all__ = ["render_report", "SurveyAnomaly", "anomaly_table", "ANOMALY_COLUMNS"]
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 DASH = "—"
-
-
-_ANOMALY_TABLE_KEYS = (
-    "image",
-    "anomaly",
-    "kind",
-    "cause",
-    "reason",
-    "area_m2",
-    "area_low_m2",
-    "area_high_m2",
-    "area_px",
-    "delta_k",
-    "excess_w",
-    "excess_low_w",
-    "excess_high_w",
-    "excess_kwh_year",
-    "f_rsi",
-    "mould_risk",
-    "severity",
-)
 
 _TOTAL_KEYS = ("count", "area_m2", "excess_w", "excess_kwh_year", "n_unmeasured")
 
@@ -89,14 +69,10 @@ def _band(low: Any, high: Any, digits: int = 1) -> str:
     return f"{_num(low, digits)}–{_num(high, digits)}"
 
 
-def _yesno(value: Any) -> str:
-    if value is True:
-        return "yes"
-    if value is False:
-        return "no"
-    if isinstance(value, str) and value.strip().lower() in ("true", "false"):
-        return "yes" if value.strip().lower() == "true" else "no"
-    return DASH
+def _yesno(value: bool | None) -> str:
+    if value is None:
+        return DASH
+    return "yes" if value else "no"
 
 
 def _text(value: Any) -> str:
@@ -122,16 +98,14 @@ def _data_uri(image: str, png: Any) -> str:
     if not data.startswith(PNG_SIGNATURE):
         raise ConfigError(
             f"report: the overlay given for image {image!r} is not PNG data "
-            "(pass the bytes of overlay.png as written by irseg.outputs.encode_png)"
+            "(pass the bytes of overlay.png as written by irseg.io.encode_png)"
         )
     return "data:image/png;base64," + base64.b64encode(data).decode("ascii")
 
 
-def _severity_key(row: Mapping[str, Any]) -> tuple:
-    sev = row.get("severity")
-    rank = float(sev) if _is_number(sev) else math.inf
-    anomaly = row.get("anomaly")
-    return (rank, str(row.get("image", "")), float(anomaly) if _is_number(anomaly) else math.inf)
+def _severity_key(record: SurveyAnomaly) -> tuple:
+    """Survey rank (unranked last), then image and id."""
+    return (math.inf if record.severity is None else record.severity, record.image, record.anomaly)
 
 
 def _list(summary: Mapping[str, Any], key: str) -> Sequence[Any]:
@@ -154,10 +128,11 @@ def _totals_rows(by_cause: Mapping[str, Any]) -> list[dict[str, Any]]:
 
 def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> dict[str, Any]:
     images = [dict(i) for i in _list(summary, "images")]
-    anomalies = sorted((dict(a) for a in _list(summary, "anomalies")), key=_severity_key)
-    for a in anomalies:
-        for key in _ANOMALY_TABLE_KEYS:
-            a.setdefault(key, None)
+    anomalies = sorted(
+        (SurveyAnomaly.from_json(a, where=f"report: summary['anomalies'][{k}]")
+         for k, a in enumerate(_list(summary, "anomalies"))),
+        key=_severity_key,
+    )
     anchors: dict[str, str] = {}
     for n, img in enumerate(images, start=1):
         for key in ("image", "status", "view", "delta_t_k", "n_anomalies"):
@@ -166,14 +141,9 @@ def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> di
         anchors.setdefault(name, f"image-{n}")
         img["anchor"] = anchors[name]
         img["warnings"] = [str(w) for w in (img.get("warnings") or [])]
-        img["anomalies"] = sorted(
-            (a for a in anomalies if str(a.get("image", "")) == name),
-            key=lambda a: float(a["anomaly"]) if _is_number(a["anomaly"]) else math.inf,
-        )
+        img["anomalies"] = sorted((a for a in anomalies if a.image == name), key=lambda a: a.anomaly)
         png = overlays.get(name)
         img["overlay_uri"] = _data_uri(name, png) if png is not None else None
-    for a in anomalies:
-        a["anchor"] = anchors.get(str(a.get("image", "")))
     ok = [i for i in images if i.get("status") == "ok"]
     deltas = [float(i["delta_t_k"]) for i in ok if _is_number(i.get("delta_t_k"))]
     views = sorted({str(i["view"]) for i in ok if i.get("view")})
@@ -191,13 +161,16 @@ def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> di
         "totals_by_cause": _totals_rows(summary.get("totals_by_cause") or {}),
         "totals": {k: totals.get(k) for k in _TOTAL_KEYS},
         "anomalies": anomalies,
+        "anchors": anchors,
         "failures": [dict(f) for f in _list(summary, "failures")],
         "warnings": [dict(w) for w in _list(summary, "warnings")],
         "cautions": list(CAUTIONS) + list(dict.fromkeys(extra)),
     }
 
 
-def _environment() -> jinja2.Environment:
+def _environment() -> Any:
+    import jinja2  # here, so that importing irseg.report (for its records) stays cheap
+
     templates = resources.files(__name__).joinpath("templates")
 
     def load(name: str) -> str | None:
@@ -226,8 +199,8 @@ def render_report(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> 
         The survey summary in the ``summary.json`` schema: ``irseg_version``, ``images``
         (``image``, ``status``, ``view``, ``delta_t_k``, ``n_anomalies``, ``warnings``,
         ``overlay``, ``result``), ``totals_by_cause``, ``totals``, ``anomalies`` (rows as in
-        ``anomalies.csv``), ``failures``, ``warnings`` and ``cautions``. Numbers may be null;
-        they print as "—".
+        ``anomalies.csv``, read with :meth:`SurveyAnomaly.from_json`), ``failures``, ``warnings``
+        and ``cautions``. Numbers may be null; they print as "—".
     overlays : mapping of str to bytes
         PNG bytes of each image's overlay, keyed by the image name (``images[i]["image"]``).
         Images without an entry are shown without a picture.
@@ -241,7 +214,8 @@ def render_report(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> 
     Raises
     ------
     ConfigError
-        ``summary`` is not a mapping or one of its lists is not a list, or an overlay is not PNG.
+        ``summary`` is not a mapping or one of its lists is not a list, an anomaly row has a value
+        of the wrong JSON type, or an overlay is not PNG.
 
     Notes
     -----

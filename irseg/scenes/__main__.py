@@ -1,19 +1,21 @@
-"""``python -m irseg.scenes OUT``: remake the sample survey in OUT (default ``sample_images``)."""
+"""``python -m irseg.scenes [OUT]``: remake the sample survey in OUT (default ``sample_images``).
+
+The same as ``irseg scene sample OUT``, and run through the ``irseg`` command line, so an
+error prints one ``Error: ...`` line and exits with status 1 (see :mod:`irseg.cli.main`).
+"""
 
 from __future__ import annotations
 
 import sys
 
-from irseg.scenes._survey import make_sample_survey
+
+def main(argv: list[str] | None = None) -> None:
+    """Run ``irseg scene sample`` with ``argv`` (default ``sys.argv[1:]``, or ``sample_images``); exits."""
+    from irseg.cli.main import cli
+
+    args = list(sys.argv[1:] if argv is None else argv) or ["sample_images"]
+    cli.main(["scene", "sample", *args], prog_name="irseg")
 
 
-def main(argv: list[str] | None = None) -> int:
-    args = sys.argv[1:] if argv is None else argv
-    out = args[0] if args else "sample_images"
-    records = make_sample_survey(out, on_image=lambda stem: print(f"wrote {stem}", file=sys.stderr))
-    print(f"{len(records)} images, truth.json and survey.toml in {out}")
-    return 0
-
-
-if __name__ == "__main__":  # pragma: no cover
-    raise SystemExit(main())
+if __name__ == "__main__":  # pragma: no cover - exercised through a subprocess test
+    main()

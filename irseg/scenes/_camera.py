@@ -3,11 +3,11 @@
 Steps, in the order light takes them:
 
 1. geometry: pixel centres on the surface from the field of view and distance,
-   footprint ``p = 2·d·tan(HFOV/2)/N`` (REFERENCE-VALUES §5.1), rows stretched by
-   1/cos(tilt) for an oblique view;
+   pixel footprint ``p = 2·d·tan(HFOV/2)/N`` (pinhole camera; FOV as defined in
+   OIML R 141:2008), rows stretched by 1/cos(tilt) for an oblique view;
 2. band radiance leaving the surface, ``ε·L_b(T_s) + (1 − ε)·L_b(T_refl)`` with the
-   local radiant temperature of the surroundings (REFERENCE-VALUES §1.1, τ = 1),
-   integrated over each pixel (supersampling);
+   local radiant temperature of the surroundings (opaque grey surface, Kirchhoff's
+   law, τ = 1), integrated over each pixel (supersampling);
 3. optics blur: a Gaussian point-spread function in radiance;
 4. lens shading: towards the corners part of the signal comes from the housing;
 5. conversion to the apparent (ε = 1) temperature, then NETD noise, a fixed
@@ -23,12 +23,11 @@ from dataclasses import dataclass
 import numpy as np
 from scipy import ndimage
 
+from irseg._shared import KELVIN_AT_0C
 from irseg.errors import ConfigError
 from irseg.radiometry import band_radiance, band_temperature
 
 __all__ = ["CameraModel", "Shot", "shoot", "pixel_footprint_m", "view_window"]
-
-_K0 = 273.15
 
 
 @dataclass(frozen=True)
@@ -37,8 +36,8 @@ class CameraModel:
 
     Attributes
     ----------
-    n_cols, n_rows : int
-        Detector size (N columns, M rows).
+    n_rows, n_cols : int
+        Detector size (M rows, N columns).
     hfov_deg : float
         Horizontal field of view, degrees.
     distance_m : float
@@ -67,8 +66,8 @@ class CameraModel:
         Seed of the noise, column pattern and dead pixels.
     """
 
-    n_cols: int = 320
     n_rows: int = 240
+    n_cols: int = 320
     hfov_deg: float = 45.0
     distance_m: float = 3.0
     tilt_deg: float = 0.0
@@ -94,8 +93,8 @@ class Shot:
         Apparent temperature an ε = 1 camera stores, °C (noise, pattern, dead pixels).
     object_c, baseline_c : (M, N) ndarray
         Noise-free surface temperature with and without the defects, pixel means, °C.
-    footprints : (k, M, N) bool ndarray
-        Pixels at least half covered by each defect's footprint.
+    defect_masks : (k, M, N) bool ndarray
+        Pixels at least half covered by each defect's region.
     dead : (M, N) bool ndarray
     pixel_m : float
         Pixel footprint across a row, m (rows are ``pixel_m/cos(tilt)`` tall).
@@ -106,15 +105,15 @@ class Shot:
     apparent_c: np.ndarray
     object_c: np.ndarray
     baseline_c: np.ndarray
-    footprints: np.ndarray
+    defect_masks: np.ndarray
     dead: np.ndarray
     pixel_m: float
     reflected_c: float
     camera: CameraModel
 
 
-# The camera is the truth side of the validation: it keeps its own footprint formula instead of
-# calling irseg.analysis.pixel_footprint_m, so a slip in the analysis' geometry shows up as an
+# The camera is the truth side of the validation: it keeps its own pixel-footprint formula on purpose
+# instead of calling irseg.analysis.pixel_size_m, so a slip in the analysis' geometry shows up as an
 # area error in benchmarks/validate_scenes.py instead of cancelling out (and the bundled samples
 # do not move when the analysis changes).
 def pixel_footprint_m(*, hfov_deg: float, distance_m: float, n_cols: int) -> float:
@@ -202,7 +201,8 @@ def shoot(scene, camera: CameraModel) -> Shot:
     # radiance leaving the surface at every sub-sample, then integrated over the pixel
     ts = _at_samples(scene.surface_c, ys, xs, cell, 1)
     tr = _at_samples(scene.radiant_c, ys, xs, cell, 1)
-    lum = eps * band_radiance(ts + _K0, band_um=band) + (1 - eps) * band_radiance(tr + _K0, band_um=band)
+    ts_kelvin, tr_kelvin = ts + KELVIN_AT_0C, tr + KELVIN_AT_0C
+    lum = eps * band_radiance(ts_kelvin, band_um=band) + (1 - eps) * band_radiance(tr_kelvin, band_um=band)
     lum = _pixel_mean(lum, s)
     if camera.psf_sigma_px > 0:
         lum = ndimage.gaussian_filter(lum, camera.psf_sigma_px, mode="nearest")
@@ -213,8 +213,9 @@ def shoot(scene, camera: CameraModel) -> Shot:
         xx = (np.arange(n) - (n - 1) / 2) / ((n - 1) / 2)
         r2 = (yy[:, None] ** 2 + xx[None, :] ** 2) / 2.0
         housing = reflected if camera.housing_c is None else camera.housing_c
-        lum = (1 - camera.shading * r2) * lum + camera.shading * r2 * band_radiance(housing + _K0, band_um=band)
-    apparent = band_temperature(lum, band_um=band) - _K0
+        housing_radiance = band_radiance(housing + KELVIN_AT_0C, band_um=band)
+        lum = (1 - camera.shading * r2) * lum + camera.shading * r2 * housing_radiance
+    apparent = band_temperature(lum, band_um=band) - KELVIN_AT_0C
     rng = np.random.default_rng(camera.seed)
     apparent = apparent + rng.normal(0.0, camera.column_sigma_k, n)[None, :] + rng.normal(0.0, camera.netd_k, (m, n))
     dead = np.zeros((m, n), bool)
@@ -225,5 +226,5 @@ def shoot(scene, camera: CameraModel) -> Shot:
         apparent.flat[idx] += jump
     obj = _pixel_mean(ts, s)
     base = _resample(scene.baseline_c, ys, xs, cell, 1, s)
-    fps = np.stack([_resample(f, ys, xs, cell, 0, s) >= 0.5 for f in scene.footprints])
-    return Shot(apparent, obj, base, fps, dead, p, reflected, camera)
+    masks = np.stack([_resample(f, ys, xs, cell, 0, s) >= 0.5 for f in scene.defect_masks])
+    return Shot(apparent, obj, base, masks, dead, p, reflected, camera)

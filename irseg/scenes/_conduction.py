@@ -5,7 +5,7 @@ face) by ``ny`` rows by ``nx`` columns (in the plane of the surface). Every cell
 has a conductivity λ (W/m·K) and a volumetric heat capacity ρc (J/m³·K). Face
 conductances between neighbouring cells use the harmonic mean (two half-cell
 resistances in series), which makes a stack of homogeneous layers exact. Both
-large faces carry a Robin condition ``q = h·(T_surface − T_ambient)`` with a
+large faces exchange heat with their surroundings, ``q = h·(T_surface − T_ambient)`` with a
 per-cell coefficient and ambient temperature; the four edges are adiabatic.
 
 The linear system is solved by conjugate gradients preconditioned with a
@@ -42,7 +42,7 @@ class Operator:
     gy : (nz, ny-1, nx) ndarray
     gz : (nz-1, ny, nx) ndarray
     gb : (nz, ny, nx) ndarray
-        Diagonal contributions: Robin faces and, in time steps, C/Δt.
+        Diagonal contributions: the surface coefficients of the two large faces and, in time steps, C/Δt.
     """
 
     gx: np.ndarray
@@ -274,7 +274,7 @@ def solve_steady(
     ----------
     op : Operator
     rhs : (nz, ny, nx) ndarray
-        Source vector, W (Robin faces contribute ``g·T_ambient``).
+        Source vector, W (the two large faces contribute ``g·T_ambient``).
     x0 : ndarray, optional
         Starting guess (default: rhs-weighted mean ambient).
     rtol : float
@@ -311,7 +311,7 @@ def solve_transient(
     Parameters
     ----------
     op : Operator
-        Steady operator (Robin faces included).
+        Steady operator (surface coefficients of the large faces included).
     capacity_j_k : (nz, ny, nx) ndarray
         Heat capacity of each cell, ρc·V, J/K.
     rhs_of_time : callable

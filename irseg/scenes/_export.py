@@ -1,4 +1,4 @@
-"""Write simulated thermograms in the open formats irseg reads, with their TOML metadata.
+"""Simulated thermograms as a camera export holds them, written in the open formats irseg reads.
 
 Formats (``fmt``):
 
@@ -8,27 +8,34 @@ Formats (``fmt``):
 - ``csv``: text matrix, ``delimiter`` and ``decimal`` mark chosen per file;
 - ``npy``: float32 NumPy array.
 
-Dead pixels keep their stuck value. Writers are deterministic (no time stamps),
-so a seeded survey is byte-identical when remade.
+This module decides *what* is written (the export's temperatures, the format and file
+name, metadata that irseg accepts); the encoders and atomic writers are the I/O layer's
+(:mod:`irseg.io`). Dead pixels keep their stuck value. Writers are
+deterministic (no time stamps), so a seeded survey is byte-identical when remade.
 """
 
 from __future__ import annotations
 
-import io
-import math
 import os
 from pathlib import Path
 
-import cv2
 import numpy as np
-import tifffile
 
-from irseg.errors import ConfigError, OutputError
+from irseg._shared import KELVIN_AT_0C
+from irseg.errors import ConfigError
+from irseg.io import write_text
+from irseg.io import (
+    format_metadata_toml,
+    write_csv_matrix,
+    write_npy,
+    write_png16,
+    write_tiff_float,
+    write_tiff_u16,
+)
 from irseg.metadata import parse_metadata_text
-from irseg.io import write_bytes
 from irseg.radiometry import apparent_to_object
 
-__all__ = ["FORMATS", "encode_values", "write_image", "write_toml", "toml_text"]
+__all__ = ["FORMATS", "encode_values", "write_image", "write_toml"]
 
 FORMATS = ("tiff-float", "tiff-u16", "png16", "csv", "npy")
 _SUFFIX = {"tiff-float": ".tiff", "tiff-u16": ".tif", "png16": ".png", "csv": ".csv", "npy": ".npy"}
@@ -49,26 +56,10 @@ def encode_values(
             raise ConfigError("export_emissivity != 1 needs export_reflected_c")
         vals = apparent_to_object(vals, emissivity=export_emissivity, reflected_c=export_reflected_c, band_um=band_um)
     if units == "kelvin":
-        vals = vals + 273.15
+        vals = vals + KELVIN_AT_0C
     elif units != "celsius":
         raise ConfigError(f"units={units!r}; use celsius or kelvin")
     return vals
-
-
-def _tiff_bytes(array: np.ndarray) -> bytes:
-    buf = io.BytesIO()
-    tifffile.imwrite(buf, array, photometric="minisblack", software=None, metadata=None)
-    return buf.getvalue()
-
-
-def _to_raw(vals: np.ndarray, scale: float, offset: float) -> np.ndarray:
-    raw = np.rint((vals - offset) / scale)
-    if raw.min() < 0 or raw.max() > 65535:
-        raise ConfigError(
-            f"scale={scale}, offset={offset} cannot hold values {vals.min():.2f}..{vals.max():.2f} in 16 bits; "
-            "lower the offset or raise the scale"
-        )
-    return raw.astype(np.uint16)
 
 
 def write_image(
@@ -88,6 +79,7 @@ def write_image(
     Parameters
     ----------
     directory : path-like
+        Created if missing.
     stem : str
     values : (M, N) ndarray
         Temperatures in the export's units (see :func:`encode_values`).
@@ -111,74 +103,32 @@ def write_image(
         raise ConfigError(f"fmt={fmt!r} is not one of {FORMATS}")
     path = Path(directory) / (stem + _SUFFIX[fmt])
     if fmt == "tiff-float":
-        data = _tiff_bytes(values.astype(np.float32))
-    elif fmt == "tiff-u16":
-        data = _tiff_bytes(_to_raw(values, scale, offset))
-    elif fmt == "png16":
-        ok, enc = cv2.imencode(".png", _to_raw(values, scale, offset), [cv2.IMWRITE_PNG_COMPRESSION, 9])
-        if not ok:
-            raise OutputError(f"{path}: PNG encoding failed")
-        data = enc.tobytes()
-    elif fmt == "csv":
-        if delimiter == decimal:
-            raise ConfigError(f"CSV delimiter {delimiter!r} equals the decimal mark; use ';' with decimal ','")
-        lines = []
-        for row in np.asarray(values, float):
-            cells = [f"{v:.{digits}f}" for v in row]
-            if decimal != ".":
-                cells = [c.replace(".", decimal) for c in cells]
-            lines.append(delimiter.join(cells))
-        data = ("\n".join(lines) + "\n").encode("ascii")
-    else:
-        buf = io.BytesIO()
-        np.save(buf, values.astype(np.float32), allow_pickle=False)
-        data = buf.getvalue()
-    return write_bytes(path, data)
-
-
-def _toml_value(v) -> str:
-    if isinstance(v, bool):
-        return "true" if v else "false"
-    if isinstance(v, int):
-        return str(v)
-    if isinstance(v, float):
-        if not math.isfinite(v):
-            raise ConfigError(f"cannot write non-finite value {v!r} to TOML")
-        return repr(round(v, 6))
-    if isinstance(v, str):
-        return '"' + v.replace("\\", "\\\\").replace('"', '\\"') + '"'
-    if isinstance(v, (tuple, list)):
-        return "[" + ", ".join(_toml_value(x) for x in v) + "]"
-    raise ConfigError(f"cannot write {type(v).__name__} value {v!r} to TOML")
-
-
-def toml_text(sections: dict, *, header: str = "") -> str:
-    """TOML text of ``{"section": {"key": value}}`` (None values are left out)."""
-    out = [f"# {line}" for line in header.splitlines()] if header else []
-    for name, keys in sections.items():
-        items = [(k, v) for k, v in keys.items() if v is not None]
-        if not items:
-            continue
-        if out:
-            out.append("")
-        out.append(f"[{name}]")
-        out += [f"{k} = {_toml_value(v)}" for k, v in items]
-    return "\n".join(out) + "\n"
+        return write_tiff_float(path, values)
+    if fmt == "tiff-u16":
+        return write_tiff_u16(path, values, scale=scale, offset=offset)
+    if fmt == "png16":
+        return write_png16(path, values, scale=scale, offset=offset)
+    if fmt == "csv":
+        return write_csv_matrix(path, values, delimiter=delimiter, decimal=decimal, digits=digits)
+    return write_npy(path, values)
 
 
 def write_toml(path: str | os.PathLike[str], sections: dict, *, header: str = "") -> Path:
     """Write a metadata TOML file atomically; returns its path.
 
-    The text is first checked against the metadata schema (``irseg.types`` sections, via
-    :func:`irseg.metadata.parse_metadata_text`), so a file irseg would refuse is never written.
+    The text (:func:`irseg.io.format_metadata_toml`) is first checked against
+    the metadata schema (``irseg.types`` sections, via :func:`irseg.metadata.parse_metadata_text`),
+    so a file irseg would refuse is never written.
 
     Raises
     ------
     MetadataError
         Unknown section or key, or a value out of range.
+    ConfigError
+        A value TOML cannot hold (see ``format_metadata_toml``).
     OutputError
         The file cannot be written.
     """
-    text = toml_text(sections, header=header)
+    text = format_metadata_toml(sections, header=header)
     parse_metadata_text(text, source=Path(path).name)
-    return write_bytes(path, text.encode("utf-8"))
+    return write_text(path, text)

@@ -1,8 +1,8 @@
 """Surface heat-transfer coefficients and the survey-time conditions of a scene.
 
 The coefficients follow the ISO 6946 annex (surface resistances): a convective
-part plus a linearised radiative part ``h_r = ε·4σT_m³`` (REFERENCE-VALUES §2.2),
-so the simulated surfaces obey the same physics the analysis assumes when it
+part plus a linearised radiative part ``h_r = ε·4σT_m³`` (ISO 6946:2017 Annex C [M for the
+clause]), so the simulated surfaces obey the same physics the analysis assumes when it
 turns ΔT into watts.
 
 These helpers deliberately repeat ``irseg.analysis``'s ``h_radiative`` /
@@ -10,7 +10,8 @@ These helpers deliberately repeat ``irseg.analysis``'s ``h_radiative`` /
 scenes are the truth side of the validation, so a slip in the analysis'
 coefficients must show up as an excess-heat error there rather than cancel out,
 and the bundled sample survey must not change when the analysis does. Both are
-checked against the same ISO 6946 / ISO 13789 values in their own tests.
+checked against the same ISO 6946 / ISO 13789 values in their own tests. Only the
+Kelvin offset is shared (:data:`irseg._shared.KELVIN_AT_0C`): it is a definition, not a model.
 """
 
 from __future__ import annotations
@@ -19,23 +20,23 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from irseg._shared import KELVIN_AT_0C
 from irseg.errors import ConfigError
 
-__all__ = ["Conditions", "NightSchedule", "h_radiative", "h_convective_inside", "h_convective_outside"]
+__all__ = ["Conditions", "NightSchedule", "h_radiative", "h_convective_interior", "h_convective_exterior"]
 
-# CODATA 2018 Stefan-Boltzmann constant (REFERENCE-VALUES, constants [V]).
+# Stefan-Boltzmann constant, CODATA 2018 recommended value [V] (scipy.constants.sigma).
 SIGMA = 5.670374419e-8
-KELVIN = 273.15
 # ISO 13789 Table 8 / ISO 6946 annex internal convection, W/m²K [V, via open-source code]
 _H_CI = {"horizontal": 2.5, "upward": 5.0, "downward": 0.7}
 
 
 def h_radiative(t_mean_c: float, emissivity: float) -> float:
     """Linearised radiative coefficient ``ε·4σT_m³`` (ISO 6946 annex), W/m²K."""
-    return emissivity * 4.0 * SIGMA * (t_mean_c + KELVIN) ** 3
+    return emissivity * 4.0 * SIGMA * (t_mean_c + KELVIN_AT_0C) ** 3
 
 
-def h_convective_inside(heat_flow: str) -> float:
+def h_convective_interior(heat_flow: str) -> float:
     """Internal convective coefficient h_ci for a heat-flow direction, W/m²K."""
     try:
         return _H_CI[heat_flow]
@@ -43,7 +44,7 @@ def h_convective_inside(heat_flow: str) -> float:
         raise ConfigError(f"heat_flow={heat_flow!r} is not one of {sorted(_H_CI)}") from None
 
 
-def h_convective_outside(wind_m_s: float) -> float:
+def h_convective_exterior(wind_m_s: float) -> float:
     """External convective coefficient ``4 + 4v`` (ISO 6946 annex) [M], W/m²K."""
     return 4.0 + 4.0 * wind_m_s
 

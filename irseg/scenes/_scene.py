@@ -3,12 +3,13 @@
 The viewed face is the inside face for ``view="interior"`` and the outside face for
 ``"exterior"`` and ``"roof"``. Truth per defect (on the surface grid):
 
-- ``footprint``: cells whose build-up the defect changes;
+- defect mask (``Scene.defect_masks``): the cells whose build-up the defect changes;
 - ``excess_w``: extra heat flow through the viewed face, the difference of the
-  surface heat flow with and without the defects, summed over the footprint and a
+  surface heat flow with and without the defects, summed over the defect mask and a
   rim (cells closer to this defect than to any other and within ``rim_m``);
-- ``excess_footprint_w``: the same over the footprint only;
-- ``reference_c``: mean no-defect surface temperature over the footprint.
+- ``excess_footprint_w``: the same over the defect mask only (the name is kept by
+  ``truth.json``);
+- ``reference_c``: mean no-defect surface temperature over the defect mask.
 """
 
 from __future__ import annotations
@@ -20,14 +21,17 @@ from scipy import ndimage
 
 from irseg.errors import ConfigError
 from irseg.scenes._conduction import build_operator, solve_steady, solve_transient, surface_fields
-from irseg.scenes._elements import MATERIALS, Defect, Element, footprint, rasterise
+from irseg.scenes._defects import Defect
+from irseg.scenes._elements import Element
+from irseg.scenes._materials import MATERIALS
 from irseg.scenes._physics import (
     Conditions,
     NightSchedule,
-    h_convective_inside,
-    h_convective_outside,
+    h_convective_exterior,
+    h_convective_interior,
     h_radiative,
 )
+from irseg.scenes._raster import defect_mask, rasterise
 
 __all__ = ["DefectTruth", "Scene", "simulate_scene", "face_conditions", "truth_in_window"]
 
@@ -60,7 +64,8 @@ class Scene:
         Radiant temperature of the viewed side's surroundings (what the face reflects), °C.
     h_w_m2k : (ny, nx) ndarray
         Combined surface coefficient of the viewed face, W/m²K.
-    footprints : (k, ny, nx) bool ndarray
+    defect_masks : (k, ny, nx) bool ndarray
+        Each defect's region on the surface grid.
     truth : tuple of DefectTruth
     balance : dict
         Heat flows in/out of the defective element (W) and the relative imbalance.
@@ -81,7 +86,7 @@ class Scene:
     baseline_c: np.ndarray
     radiant_c: np.ndarray
     h_w_m2k: np.ndarray
-    footprints: np.ndarray
+    defect_masks: np.ndarray
     truth: tuple[DefectTruth, ...]
     balance: dict
     settings: dict = field(default_factory=dict)
@@ -99,7 +104,7 @@ def _r_total_1d(element: Element) -> float:
 
 def face_conditions(element: Element, cond: Conditions, *, outside_c: float | None = None,
                     sky_c: float | None = None, solar_w_m2: float = 0.0) -> dict:
-    """Per-cell Robin coefficients and ambient temperatures of both faces.
+    """Per-cell surface coefficients and ambient temperatures of both faces (``q = h·(T_amb − T_s)``).
 
     Returns a dict with ``h_in, amb_in, rad_in, h_out, amb_out, rad_out`` (ny, nx) arrays.
     The ambient of a face is the h-weighted mean of air and radiant temperature
@@ -115,7 +120,7 @@ def face_conditions(element: Element, cond: Conditions, *, outside_c: float | No
         height = np.full(ny, cond.top_height_m)
     t_air = cond.inside_c + cond.stratification_k_m * (height - 1.5)
     # 1-D estimate of the surface temperatures, for the mean temperature in h_r.
-    hci = h_convective_inside(element.heat_flow)
+    hci = h_convective_interior(element.heat_flow)
     r_si = 1.0 / (hci + h_radiative(cond.inside_c, cond.emissivity))
     r_t = r_si + _r_total_1d(element) + 0.04
     t_si = cond.inside_c - r_si / r_t * (cond.inside_c - te)
@@ -134,7 +139,7 @@ def face_conditions(element: Element, cond: Conditions, *, outside_c: float | No
         frac = cond.sky_view_top + (cond.sky_view_bottom - cond.sky_view_top) * yc / element.height_m
         rad_row = frac * tsky + (1.0 - frac) * te
         t_se = te + 0.04 / r_t * (cond.inside_c - te)
-        hce = h_convective_outside(cond.wind_m_s)
+        hce = h_convective_exterior(cond.wind_m_s)
         hre = h_radiative(0.5 * (t_se + float(rad_row.mean())), cond.emissivity)
         h_out = np.full((ny, nx), hce + hre)
         amb_row = (hce * te + hre * rad_row + solar_w_m2) / (hce + hre)
@@ -189,15 +194,15 @@ def _night(element: Element, k: np.ndarray, c: np.ndarray, cond: Conditions, sch
     return t, fc_at(sched.end_h)
 
 
-def _attribute(footprints: np.ndarray, rim_m: float, cell_m: float) -> np.ndarray:
+def _attribute(masks: np.ndarray, rim_m: float, cell_m: float) -> np.ndarray:
     """Index (0..k-1) of the defect each cell's excess is charged to, −1 for none."""
-    k = footprints.shape[0]
-    owner = np.full(footprints.shape[1:], -1, int)
+    k = masks.shape[0]
+    owner = np.full(masks.shape[1:], -1, int)
     if k == 0:
         return owner
-    dist = np.empty(footprints.shape)
+    dist = np.empty(masks.shape)
     for i in range(k):
-        dist[i] = ndimage.distance_transform_edt(~footprints[i]) * cell_m
+        dist[i] = ndimage.distance_transform_edt(~masks[i]) * cell_m
     best = np.argmin(dist, axis=0)
     near = np.take_along_axis(dist, best[None], 0)[0] <= rim_m
     owner[near] = best[near]
@@ -227,7 +232,7 @@ def simulate_scene(
     night : NightSchedule, optional
         Run the transient day-to-night case instead of a steady state.
     rim_m : float
-        Rim around each footprint to which lateral excess flow is charged, m.
+        Rim around each defect mask to which lateral excess flow is charged, m.
 
     Returns
     -------
@@ -261,11 +266,11 @@ def simulate_scene(
     area = element.cell_m ** 2
     # heat loss counted positive: out of the room (inside face) or out of the element (outside face)
     dq = (q_b - q_d) if face == "inside" else (q_d - q_b)
-    fps = np.stack([footprint(element, d) for d in defects])
-    owner = _attribute(fps, rim_m, element.cell_m)
+    masks = np.stack([defect_mask(element, d) for d in defects])
+    owner = _attribute(masks, rim_m, element.cell_m)
     truth = []
     for i, d in enumerate(defects):
-        fp = fps[i]
+        fp = masks[i]
         truth.append(DefectTruth(
             name=d.name, cause=d.cause, description=d.description,
             area_m2=float(fp.sum() * area),
@@ -297,13 +302,13 @@ def simulate_scene(
             "sky_depression_k": night.sky_depression_k},
     }
     return Scene(name, view, element, tuple(defects), conditions, ts_d, ts_b, fc[f"rad_{key}"],
-                 fc[f"h_{key}"], fps, tuple(truth), balance, settings, dq, owner)
+                 fc[f"h_{key}"], masks, tuple(truth), balance, settings, dq, owner)
 
 
 def truth_in_window(scene: Scene, *, x0_m: float, x1_m: float, y0_m: float, y1_m: float) -> tuple[DefectTruth, ...]:
     """The truth restricted to the surface cells whose centres lie in a window (a camera view).
 
-    Defects with no footprint cell in the window are left out.
+    Defects with no cell of their mask in the window are left out.
     """
     el = scene.element
     c = el.cell_m
@@ -312,7 +317,7 @@ def truth_in_window(scene: Scene, *, x0_m: float, x1_m: float, y0_m: float, y1_m
     win = ((yc >= y0_m) & (yc < y1_m))[:, None] & ((xc >= x0_m) & (xc < x1_m))[None, :]
     out = []
     for i, t in enumerate(scene.truth):
-        fp = scene.footprints[i] & win
+        fp = scene.defect_masks[i] & win
         if not fp.any():
             continue
         own = (scene.owner == i) & win

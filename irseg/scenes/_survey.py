@@ -1,4 +1,4 @@
-"""Scene presets, one-image export with its sidecar and truth, and the bundled sample survey.
+"""One-image export with its sidecar and truth, and the bundled sample survey.
 
 The sample survey is set at an invented building, "the Larchfield test house": a
 two-storey timber-frame house with a rear extension of solid brick (external EPS
@@ -8,26 +8,21 @@ byte-identical files.
 
 from __future__ import annotations
 
-import inspect
-import io
-import json
 import os
-import zipfile
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
 
-from irseg.errors import ConfigError
-from irseg.io import write_bytes, write_text
-from irseg.scenes import _elements as E
+from irseg.io import write_text
+from irseg.io import write_exact_json, write_npz
 from irseg.scenes._camera import CameraModel, Shot, shoot, view_window
 from irseg.scenes._export import encode_values, write_image, write_toml
-from irseg.scenes._physics import Conditions, NightSchedule
-from irseg.scenes._scene import Scene, simulate_scene, truth_in_window
+from irseg.scenes._presets import make_preset
+from irseg.scenes._scene import Scene, truth_in_window
 
-__all__ = ["ImageRecipe", "SAMPLE_RECIPES", "make_preset", "render_recipe", "export_image", "make_sample_survey",
-           "PRESETS", "write_truth_json"]
+__all__ = ["ImageRecipe", "SAMPLE_RECIPES", "render_recipe", "export_image", "make_sample_survey",
+           "write_truth_json"]
 
 # Camera settings shared by the whole sample survey (survey.toml).
 _SURVEY_DEFAULTS = {
@@ -54,109 +49,6 @@ class ImageRecipe:
     decimal: str = "."
     export_emissivity: float = 1.0
     extra_meta: dict = field(default_factory=dict)
-
-
-# --------------------------------------------------------------------------- presets
-
-
-def _timber_wall(*, spacing_m=0.6, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, defects=("bay:1",),
-                 lintel=None):
-    el = E.timber_frame_wall(stud_spacing_m=spacing_m, first_stud_m=0.3 if spacing_m == 0.6 else 0.2)
-    ds = []
-    for spec in defects:
-        kind, *args = spec.split(":")
-        if kind == "bay":
-            ds.append(E.missing_bay(el, int(args[0]), y0_m=float(args[1]) if len(args) > 1 else 0.0))
-        elif kind == "settled":
-            ds.append(E.settled_insulation(el, int(args[0]), void_m=float(args[1])))
-        elif kind == "void":
-            x0, x1, y0, y1, depth = (float(a) for a in args)
-            ds.append(E.partial_void(el, x0_m=x0, x1_m=x1, y0_m=y0, y1_m=y1, depth_m=depth))
-        else:
-            raise ConfigError(f"unknown timber-wall defect {spec!r}; use bay:N, settled:N:M or void:x0:x1:y0:y1:d")
-    if lintel is not None:
-        ds.append(E.lintel(el, x0_m=lintel[0], x1_m=lintel[1], y0_m=lintel[2], height_m=lintel[3]))
-    cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, outside_exposure="ventilated",
-                      top_height_m=2.1)
-    return el, tuple(ds), cond, "interior", None
-
-
-def _ceiling(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, patch=(0.9, 1.5, 0.6, 1.2)):
-    el = E.timber_ceiling()
-    z0 = el.insulation[0]
-    mat = E.air_layer(el.thickness_m() - z0, "upward")
-    d = E.Defect("displaced_insulation", "missing_insulation",
-                 (E.Block(mat, patch[0], patch[1], patch[2], patch[3], z0, el.thickness_m()),),
-                 "insulation pushed aside over a patch (both layers)")
-    cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, outside_exposure="loft",
-                      top_height_m=2.4)
-    return el, (d,), cond, "interior", None
-
-
-def _masonry(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, slab_y=None, patch=None, lintel=None, void=None,
-             sky_view=(0.4, 0.5)):
-    el = E.masonry_wall()
-    ds = []
-    if slab_y is not None:
-        ds.append(E.slab_edge(el, y0_m=slab_y))
-    if patch is not None:
-        ds.append(E.missing_patch(el, x0_m=patch[0], x1_m=patch[1], y0_m=patch[2], y1_m=patch[3]))
-    if lintel is not None:
-        ds.append(E.lintel(el, x0_m=lintel[0], x1_m=lintel[1], y0_m=lintel[2], height_m=lintel[3]))
-    if void is not None:
-        ds.append(E.partial_void(el, x0_m=void[0], x1_m=void[1], y0_m=void[2], y1_m=void[3], depth_m=void[4]))
-    cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, sky_view_top=sky_view[0],
-                      sky_view_bottom=sky_view[1], top_height_m=3.0)
-    return el, tuple(ds), cond, "exterior", None
-
-
-def _roof(*, inside_c=20.0, wind_m_s=1.0, insulation="eps", wet=((1.2, 2.4, 0.9, 1.9, 0.15),), dt_s=900.0,
-          end_h=22.0, air_mean_c=10.0):
-    el = E.flat_roof(insulation=insulation)
-    ds = tuple(E.wet_patch(el, x0_m=w[0], x1_m=w[1], y0_m=w[2], y1_m=w[3], water_fraction=w[4], name=f"wet_{i}")
-               for i, w in enumerate(wet))
-    cond = Conditions(inside_c=inside_c, wind_m_s=wind_m_s, sky_view_top=1.0, sky_view_bottom=1.0)
-    return el, ds, cond, "roof", NightSchedule(dt_s=dt_s, end_h=end_h, air_mean_c=air_mean_c)
-
-
-PRESETS = {"timber-wall": _timber_wall, "ceiling": _ceiling, "masonry-wall": _masonry, "flat-roof": _roof}
-
-
-def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
-    """Simulate one preset scene.
-
-    Parameters
-    ----------
-    kind : {"timber-wall", "ceiling", "masonry-wall", "flat-roof"}
-    name : str
-        Scene name carried into the truth.
-    **options
-        Preset options: ``inside_c``, ``outside_c``, ``wind_m_s`` for all; timber wall:
-        ``spacing_m``, ``defects`` (``"bay:N[:y0]"``, ``"settled:N:void_m"``,
-        ``"void:x0:x1:y0:y1:depth"``), ``lintel`` (x0, x1, y0, height); ceiling: ``patch``
-        (x0, x1, y0, y1); masonry wall: ``slab_y``, ``patch``, ``lintel``, ``void``
-        (x0, x1, y0, y1, depth), ``sky_view`` (top, bottom); flat roof: ``insulation``,
-        ``wet`` ((x0, x1, y0, y1, water fraction), ...), ``dt_s``, ``end_h``, ``air_mean_c``.
-
-    Returns
-    -------
-    Scene
-
-    Raises
-    ------
-    ConfigError
-        Unknown kind or defect specification.
-    """
-    try:
-        builder = PRESETS[kind]
-    except KeyError:
-        raise ConfigError(f"scene kind {kind!r} is unknown; use one of {sorted(PRESETS)}") from None
-    allowed = set(inspect.signature(builder).parameters)
-    unknown = sorted(set(options) - allowed)
-    if unknown:
-        raise ConfigError(f"scene kind {kind!r} has no option(s) {unknown}; valid: {sorted(allowed)}")
-    el, ds, cond, view, night = builder(**options)
-    return simulate_scene(el, ds, cond, view=view, name=name, night=night)
 
 
 # --------------------------------------------------------------------------- export
@@ -194,13 +86,12 @@ def export_image(recipe: ImageRecipe, directory: str | os.PathLike[str], *, side
     Returns
     -------
     dict
-        JSON-ready truth: defects in view (area, excess W, reference °C, footprint
-        pixels), camera geometry, energy balance and simulation settings. The key
-        ``"_masks"`` holds the (k, M, N) camera-grid footprints (not JSON).
+        JSON-ready truth: defects in view (area, excess W, reference °C, mask pixels),
+        camera geometry, energy balance and simulation settings. The key ``"_masks"``
+        holds the (k, M, N) camera-grid defect masks (not JSON).
     """
     scene, shot = render_recipe(recipe)
     d = Path(directory)
-    d.mkdir(parents=True, exist_ok=True)
     refl = round(shot.reflected_c, 2)
     vals = encode_values(shot.apparent_c, units=recipe.units, export_emissivity=recipe.export_emissivity,
                          export_reflected_c=refl, band_um=recipe.camera.band_um)
@@ -215,7 +106,7 @@ def export_image(recipe: ImageRecipe, directory: str | os.PathLike[str], *, side
     defects = []
     for t in tw:
         k = names.index(t.name)
-        fp = shot.footprints[k]
+        fp = shot.defect_masks[k]
         rows, cols = np.nonzero(fp)
         defects.append({
             "name": t.name, "cause": t.cause, "description": t.description,
@@ -238,7 +129,7 @@ def export_image(recipe: ImageRecipe, directory: str | os.PathLike[str], *, side
         "energy_balance": {k: (None if v is None else round(v, 6) if k != "relative_imbalance"
                                else float(f"{v:.3g}")) for k, v in scene.balance.items()},
         "simulation": scene.settings,
-        "_masks": shot.footprints,
+        "_masks": shot.defect_masks,
         "_scene": scene, "_shot": shot,
     }
 
@@ -301,7 +192,6 @@ def make_sample_survey(directory: str | os.PathLike[str], *, recipes: tuple[Imag
         The truth records (as written to ``truth.json``).
     """
     d = Path(directory)
-    d.mkdir(parents=True, exist_ok=True)
     write_toml(d / "survey.toml", _SURVEY_DEFAULTS,
                header="The Larchfield test house (invented): survey defaults.\n"
                       "Each image's <stem>.toml overrides these key by key.")
@@ -318,16 +208,7 @@ def make_sample_survey(directory: str | os.PathLike[str], *, recipes: tuple[Imag
                         "viewed face, charged to each defect's footprint plus a 0.3 m rim."}
     write_truth_json(d / "truth.json", payload)
     write_text(d / "README.md", _readme(records))
-    # deterministic npz: fixed zip timestamps
-    buf = io.BytesIO()
-    with zipfile.ZipFile(buf, "w", zipfile.ZIP_DEFLATED) as zf:
-        for stem in sorted(masks):
-            arr = io.BytesIO()
-            np.save(arr, np.asarray(masks[stem], bool), allow_pickle=False)
-            info = zipfile.ZipInfo(f"{stem}.npy", date_time=(2026, 1, 1, 0, 0, 0))
-            info.compress_type = zipfile.ZIP_DEFLATED
-            zf.writestr(info, arr.getvalue())
-    write_bytes(d / "truth_masks.npz", buf.getvalue())
+    write_npz(d / "truth_masks.npz", {stem: np.asarray(m, bool) for stem, m in masks.items()})
     return records
 
 
@@ -378,4 +259,4 @@ def _readme(records: list[dict]) -> str:
 def write_truth_json(path: str | os.PathLike[str], record: dict) -> Path:
     """Write a truth record as sorted, indented JSON (keys starting with ``_`` are left out)."""
     clean = {k: v for k, v in record.items() if not k.startswith("_")}
-    return write_text(path, json.dumps(clean, indent=1, sort_keys=True) + "\n")
+    return write_exact_json(path, clean, indent=1)

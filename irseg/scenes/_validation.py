@@ -2,20 +2,22 @@
 
 The validation scenes differ from the sample survey (other bays, spacings, conditions,
 formats and seeds). For each truth defect the anomalies that lie mostly (≥ 50 % of
-their pixels) inside its camera-grid footprint are merged and compared with it:
+their pixels) inside its camera-grid defect mask are merged and compared with it:
 
-- IoU of the merged anomaly mask and the footprint;
-- area (m²), excess heat (W, against the footprint + rim truth) and reference
+- IoU of the merged anomaly mask and the defect mask;
+- area (m²), excess heat (W, against the defect mask + rim truth) and reference
   temperature (°C, area-weighted) relative/absolute errors;
 - the cause assigned.
 
 Structural features (studs, plates, slab edges, lintels) must never be reported as
 ``missing_insulation``: an anomaly of that cause that lies mostly outside every
-missing-insulation footprint counts as a false report.
+missing-insulation defect mask counts as a false report.
 """
 
 from __future__ import annotations
 
+import io
+import json
 import os
 import time
 from dataclasses import replace
@@ -23,6 +25,7 @@ from pathlib import Path
 
 import numpy as np
 
+from irseg.io import read_small_bytes, read_small_text
 from irseg.scenes._camera import CameraModel
 from irseg.scenes._survey import ImageRecipe, export_image
 
@@ -33,6 +36,8 @@ __all__ = ["VALIDATION_RECIPES", "TARGETS", "compare_analysis", "validate_recipe
 TARGETS = {"iou_min": 0.85, "area_rel": 0.10, "excess_rel": 0.15, "reference_abs_k": 0.3}
 
 _CHECKED_CAUSES = ("missing_insulation", "moisture")
+# largest truth.json / truth_masks.npz read back (the sample survey's are about 20 kB and 10 kB)
+_TRUTH_MAX_BYTES = 64 << 20
 
 VALIDATION_RECIPES: tuple[ImageRecipe, ...] = (
     ImageRecipe("val1_timber600_bay", "timber wall, studs 600 mm, empty bay, timber header, 21/-3 °C",
@@ -83,7 +88,7 @@ def compare_analysis(analysis, defects: list[dict], masks: np.ndarray) -> dict:
         Truth records as in ``truth.json`` (``name``, ``cause``, ``area_m2``, ``excess_w``,
         ``excess_footprint_w``, ``reference_c``, ``delta_k``, ``mask_index``).
     masks : (k, M, N) bool ndarray
-        Camera-grid footprints, indexed by ``mask_index``.
+        Camera-grid defect masks, indexed by ``mask_index``.
 
     Returns
     -------
@@ -161,14 +166,19 @@ def validate_recipe(recipe: ImageRecipe, directory: str | os.PathLike[str]) -> d
 
 
 def validate_sample(directory: str | os.PathLike[str]) -> list[dict]:
-    """Process a folder made by :func:`~irseg.scenes.make_sample_survey` and compare with its truth."""
-    import json
+    """Process a folder made by :func:`~irseg.scenes.make_sample_survey` and compare with its truth.
 
+    Raises
+    ------
+    InputError
+        ``truth.json`` or ``truth_masks.npz`` is missing, unreadable or larger than 64 MiB.
+    """
     from irseg.pipeline import process_image
 
     d = Path(directory)
-    truth = json.loads((d / "truth.json").read_text(encoding="utf-8"))
-    masks = np.load(d / "truth_masks.npz")
+    truth = json.loads(read_small_text(d / "truth.json", max_bytes=_TRUTH_MAX_BYTES, what="truth file"))
+    masks = np.load(io.BytesIO(read_small_bytes(d / "truth_masks.npz", max_bytes=_TRUTH_MAX_BYTES,
+                                                what="truth mask archive")), allow_pickle=False)
     out = []
     for rec in truth["images"]:
         t0 = time.perf_counter()

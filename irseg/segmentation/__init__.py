@@ -11,6 +11,7 @@ from __future__ import annotations
 
 from ._noise import estimate_noise_k
 from ._params import SegmentParams
-from ._segment import MIN_SIZE_PX, Segmentation, segment
+from ._inputs import MIN_SIZE_PX
+from ._segment import Segmentation, segment
 
 __all__ = ["segment", "Segmentation", "SegmentParams", "estimate_noise_k", "MIN_SIZE_PX"]

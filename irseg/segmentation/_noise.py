@@ -1,4 +1,4 @@
-"""Robust estimate of the sensor noise of a thermogram, in the image's units (K).
+"""Robust estimate of the sensor noise of a thermogram, in kelvin (a °C or K thermogram's differences).
 
 The image is filtered with Immerkær's 3 x 3 kernel (a difference of two discrete
 Laplacians)::
@@ -33,7 +33,6 @@ from .._shared import MAD_TO_SIGMA
 
 __all__ = ["estimate_noise_k", "noise_statistics"]
 
-_MAD_TO_SIGMA = MAD_TO_SIGMA  # 1 / Phi^-1(3/4), Gaussian consistency of the MAD
 _KERNEL_NORM = 6.0  # sqrt(sum of squared kernel coefficients) = sqrt(36)
 
 
@@ -55,11 +54,11 @@ def _mad_sigma(g: np.ndarray, bad: np.ndarray | None, step: int) -> float | None
     if resp.size > 100_000:  # a regular subsample keeps the median's error near 0.5 %
         resp = resp[:: resp.size // 50_000]
     mad = float(np.median(np.abs(resp)))  # median of |response| (its own median is ~0)
-    return mad * _MAD_TO_SIGMA / _KERNEL_NORM
+    return mad * MAD_TO_SIGMA / _KERNEL_NORM
 
 
 def estimate_noise_k(temperature: np.ndarray, *, mask: np.ndarray | None = None) -> float:
-    """Estimate the standard deviation of the sensor noise, same units as the image.
+    """Estimate the standard deviation of the sensor noise, K.
 
     The Immerkær response is evaluated with taps 1 and 3 pixels apart and the
     larger estimate is kept. For white noise both agree; camera noise is often
@@ -77,7 +76,7 @@ def estimate_noise_k(temperature: np.ndarray, *, mask: np.ndarray | None = None)
     Returns
     -------
     noise_k : float
-        Robust noise standard deviation (about 0 for a noise-free piecewise-linear image).
+        Robust noise standard deviation, K (about 0 for a noise-free piecewise-linear image).
 
     References
     ----------

@@ -1,7 +1,8 @@
 """From a thermographer's knobs to the weights of the Ambrosio–Tortorelli functional.
 
 The derivation is in ``docs/method.md`` ("Choosing the weights"). In short, with
-lengths in pixels and temperatures in the image's units (K or °C):
+lengths in pixels and temperatures in °C or K, so that every difference (each ``_k``
+quantity) is in kelvin:
 
 * ``ell = max(1, min_feature_px / 2)`` is the smoothing length of ``u``
   (``beta = 1 / ell**2``): the u-equation ``u - Δu / beta = g`` smooths over ``ell``.
@@ -44,12 +45,12 @@ EPSILON_PER_FEATURE = 0.25  # epsilon = max(1 px, min_feature_px / 4)
 
 @dataclass(frozen=True)
 class SegmentParams:
-    """Parameters actually used by :func:`irseg.segment.segment`.
+    """Parameters actually used by :func:`irseg.segmentation.segment`.
 
     Attributes
     ----------
     noise_k : float
-        Noise standard deviation, image units (estimated when not given).
+        Noise standard deviation, K (estimated when not given).
     noise_estimated : bool
         True when ``noise_k`` was estimated from the image.
     noise_correlation : float
@@ -57,17 +58,17 @@ class SegmentParams:
         ``noise_k`` was given). Correlated noise forms blobs that look like small steps,
         so the noise floor of the step threshold rises with it, by up to 50 %.
     min_step_k : float
-        Requested smallest step that should make an edge, image units.
+        Requested smallest step that should make an edge, K.
     min_feature_px : float
         Smallest feature worth separating, pixels.
     jump_threshold_k : float
-        Mumford–Shah step threshold ``h*`` the weights encode, image units
+        Mumford–Shah step threshold ``h*`` the weights encode, K
         (``max(STEP_MARGIN * min_step_k, NOISE_FACTOR * noise_k)``).
     smoothing_px : float
         Smoothing length ``ell = 1 / sqrt(beta)``, pixels.
     alpha, beta, epsilon, eta : float
         Weights of the functional on the full-resolution grid (pixel units):
-        edge weight (image units² per pixel of jump length), data weight
+        edge weight (K² per pixel of jump length), data weight
         (per pixel²), phase-field width (pixels) and the residual stiffness on the jump set.
     edge_threshold, weak_edge_threshold : float
         The jump set is ``v < edge_threshold`` plus the ``v < weak_edge_threshold``
@@ -115,13 +116,13 @@ def derive_params(
     Parameters
     ----------
     noise_k, min_step_k : float
-        Noise level and smallest step, image units.
+        Noise level and smallest step, K.
     noise_estimated : bool
         Whether ``noise_k`` came from :func:`estimate_noise_k`.
     min_feature_px : float
         Smallest feature, pixels.
     value_range_k : float
-        Robust range of the image (used for ``eta``).
+        Robust range of the temperatures, K (used for ``eta``).
     noise_correlation : float
         See :class:`SegmentParams`.
     levels, max_num_iter, tol

@@ -3,8 +3,6 @@
 from __future__ import annotations
 
 import functools
-import math
-import numbers
 import warnings
 from collections.abc import Iterator
 from contextlib import contextmanager
@@ -14,15 +12,15 @@ import cv2
 import numpy as np
 from threadpoolctl import ThreadpoolController
 
-from ..errors import ConfigError, ConvergenceWarning, InputError, SolverError
-from ._at import prolong, restrict, solve_level
+from ..errors import ConvergenceWarning, SolverError
+from ._at import LevelResult, prolong, restrict, solve_level
+from ._inputs import MIN_SIZE_PX, check_inputs, check_max_num_iter, check_number
 from ._noise import noise_statistics
 from ._params import STEP_MARGIN, SegmentParams, derive_params, robust_range
 from ._regions import extract_regions
 
 __all__ = ["Segmentation", "segment", "MIN_SIZE_PX"]
 
-MIN_SIZE_PX = 8  # smallest accepted image side
 _COARSEST_PX = 48  # no grid coarser than this (shorter side)
 _MAX_LEVELS = 3
 _COARSE_ALTERNATIONS = 8
@@ -38,7 +36,7 @@ class Segmentation:
     Attributes
     ----------
     u : (M, N) float ndarray
-        Piecewise-smooth temperature field, same units and float dtype as the input
+        Piecewise-smooth temperature field, same scale (°C or K) and float dtype as the input
         (float64 for integer input).
     v : (M, N) float ndarray
         Phase field in [0, 1]: about 0 on the jump set, about 1 elsewhere; 1 on masked pixels.
@@ -71,61 +69,6 @@ class Segmentation:
     converged: bool
     message: str
     params: SegmentParams
-
-
-def _check_number(name: str, value: object, *, low: float, low_open: bool, allow_none: bool = False) -> float | None:
-    if value is None and allow_none:
-        return None
-    if isinstance(value, bool) or not isinstance(value, numbers.Real):
-        raise ConfigError(f"segment: {name} = {value!r} is not a number; give a finite real value")
-    x = float(value)
-    bad = not math.isfinite(x) or (x <= low if low_open else x < low)
-    if bad:
-        rel = ">" if low_open else ">="
-        raise ConfigError(f"segment: {name} = {value!r} is out of range; it must be finite and {rel} {low:g}")
-    return x
-
-
-def _check_inputs(temperature: object, mask: object) -> tuple[np.ndarray, np.ndarray | None]:
-    arr = np.asarray(temperature)
-    if arr.dtype.kind not in "fiu":
-        raise InputError(
-            f"segment: temperature has dtype {arr.dtype}; pass a real-valued (float or integer) "
-            "temperature array, e.g. np.asarray(t, dtype=np.float32)"
-        )
-    if arr.ndim != 2:
-        raise InputError(
-            f"segment: temperature must be a 2-D (M, N) array, got shape {arr.shape}; "
-            "pass one single-channel frame at a time"
-        )
-    if min(arr.shape) < MIN_SIZE_PX:
-        raise InputError(
-            f"segment: temperature of shape {arr.shape} is too small; "
-            f"the minimum is {MIN_SIZE_PX} x {MIN_SIZE_PX} pixels"
-        )
-    m = None
-    if mask is not None:
-        m = np.asarray(mask)
-        if m.shape != arr.shape:
-            raise InputError(f"segment: mask shape {m.shape} differs from temperature shape {arr.shape}")
-        if m.dtype != bool:
-            if m.dtype.kind in "iu" and np.isin(m, (0, 1)).all():
-                m = m.astype(bool)
-            else:
-                raise InputError(f"segment: mask has dtype {m.dtype}; pass a bool array (True = invalid pixel)")
-        if m.all():
-            raise InputError("segment: every pixel is masked; there is nothing to segment")
-    if arr.dtype.kind == "f":
-        finite = np.isfinite(arr)
-        bad = ~finite if m is None else (~finite & ~m)
-        n_bad = int(np.count_nonzero(bad))
-        if n_bad:
-            where = "and no mask" if m is None else "outside the mask"
-            raise InputError(
-                f"segment: temperature has {n_bad} non-finite pixel(s) (NaN/inf) {where}; "
-                "pass mask=~np.isfinite(temperature) to exclude them"
-            )
-    return arr, m
 
 
 @functools.lru_cache(maxsize=1)
@@ -199,13 +142,14 @@ def segment(
     Parameters
     ----------
     temperature : (M, N) float or integer ndarray
-        Temperatures (K or °C); M, N >= 8.
+        Temperatures in °C or K (integer arrays hold whole degrees); M, N >= 8. Every
+        ``_k`` knob is a temperature difference, in kelvin.
     mask : (M, N) bool ndarray, optional
         True on invalid pixels: they carry no data term, create no edges and get label 0.
     noise_k : float, optional
-        Noise standard deviation, same units; estimated robustly when None.
+        Noise standard deviation, K; estimated robustly when None.
     min_step_k : float
-        Smallest temperature step that should make an edge.
+        Smallest temperature step that should make an edge, K.
     min_feature_px : float
         Smallest feature worth separating, pixels (>= 1).
     max_num_iter : int
@@ -239,30 +183,16 @@ def segment(
     B. Bourdin, ESAIM: M2AN 33(2):229-244, 1999 (finite elements and alternating
     minimisation for this functional; from memory).
     """
-    arr, m = _check_inputs(temperature, mask)
-    noise_in = _check_number("noise_k", noise_k, low=0.0, low_open=False, allow_none=True)
-    step = _check_number("min_step_k", min_step_k, low=0.0, low_open=True)
-    feature = _check_number("min_feature_px", min_feature_px, low=1.0, low_open=False)
-    if isinstance(max_num_iter, bool) or not isinstance(max_num_iter, numbers.Integral) or max_num_iter < 1:
-        raise ConfigError(f"segment: max_num_iter = {max_num_iter!r} must be an integer >= 1")
-    tol_f = _check_number("tol", tol, low=0.0, low_open=False)
+    arr, m = check_inputs(temperature, mask)
+    noise_in = check_number("noise_k", noise_k, low=0.0, low_open=False, allow_none=True)
+    step = check_number("min_step_k", min_step_k, low=0.0, low_open=True)
+    feature = check_number("min_feature_px", min_feature_px, low=1.0, low_open=False)
+    n_iter = check_max_num_iter(max_num_iter)
+    tol_f = check_number("tol", tol, low=0.0, low_open=False)
 
-    out_dtype = arr.dtype if arr.dtype.kind == "f" and arr.dtype.itemsize >= 4 else np.dtype(np.float64)
-    if arr.dtype.kind == "f" and arr.dtype.itemsize < 4:
-        out_dtype = np.dtype(np.float32)
-    has_mask = m is not None and bool(m.any())
-    if has_mask:
-        valid_vals = arr[~m]
-        ref = float(np.mean(valid_vals, dtype=np.float64))
-        # float32 relative to a representative value: 7 digits resolve mK on any scale
-        g = np.subtract(np.where(m, ref, arr), ref, dtype=np.float32)
-        g = _fill_masked(g, m)
-    else:
-        valid_vals = arr.ravel()
-        ref = float(np.mean(valid_vals, dtype=np.float64))
-        g = np.subtract(arr, ref, dtype=np.float32)
+    data = _offset_data(arr, m)
     if noise_in is None:
-        noise, correlation = noise_statistics(g, mask=m if has_mask else None)
+        noise, correlation = noise_statistics(data.g, mask=data.mask)
     else:
         noise, correlation = noise_in, 1.0
     levels = _n_levels(arr.shape)
@@ -271,20 +201,92 @@ def segment(
         noise_estimated=noise_in is None,
         min_step_k=step,
         min_feature_px=feature,
-        value_range_k=robust_range(valid_vals),
+        value_range_k=robust_range(data.valid_values),
         noise_correlation=correlation,
         levels=levels,
-        max_num_iter=int(max_num_iter),
+        max_num_iter=n_iter,
         tol=tol_f,
     )
+    u, v, res, total = _solve_pyramid(data, params, levels=levels, tol=tol_f)
+    if not (np.isfinite(u).all() and np.isfinite(v).all()):
+        raise SolverError(
+            "segment: the Ambrosio–Tortorelli solver produced non-finite values; "
+            "check the input for extreme values or report the image"
+        )
+    u_out = np.add(u, data.ref, dtype=data.out_dtype)
+    v_out = v.astype(data.out_dtype)
+    if data.mask is not None:
+        v_out[data.mask] = 1.0
+    edges, labels, n_regions = extract_regions(
+        u_out,
+        v_out,
+        data.mask,
+        threshold=params.edge_threshold,
+        weak_threshold=params.weak_edge_threshold,
+        min_feature_px=feature,
+    )
+    message = _message(params, noise_k=noise, step_k=step, converged=res.converged, alternations=total,
+                       levels=levels, n_regions=n_regions, n_edges=int(edges.sum()))
+    if not res.converged:
+        warnings.warn(
+            f"segment: {message}; raise max_num_iter or tol for a tighter solution",
+            ConvergenceWarning,
+            stacklevel=2,
+        )
+    return Segmentation(
+        u=u_out,
+        v=v_out,
+        edges=edges,
+        labels=labels,
+        n_regions=n_regions,
+        energy=tuple(float(e) for e in res.energies),
+        iterations=total,
+        converged=res.converged,
+        message=message,
+        params=params,
+    )
 
-    w = (~m).astype(np.float32) if has_mask else None
-    pyramid = [(g, w)]
+
+@dataclass(frozen=True)
+class _Data:
+    """The data term: temperatures relative to their mean, as float32, masked values filled."""
+
+    g: np.ndarray  # (M, N) float32, temperature − ref
+    mask: np.ndarray | None  # True on invalid pixels; None when no pixel is masked
+    ref: float  # mean of the valid temperatures
+    valid_values: np.ndarray  # the valid temperatures, as given
+    out_dtype: np.dtype  # float dtype of the returned fields
+
+
+def _offset_data(arr: np.ndarray, m: np.ndarray | None) -> _Data:
+    out_dtype = arr.dtype if arr.dtype.kind == "f" and arr.dtype.itemsize >= 4 else np.dtype(np.float64)
+    if arr.dtype.kind == "f" and arr.dtype.itemsize < 4:
+        out_dtype = np.dtype(np.float32)
+    if m is not None and bool(m.any()):
+        valid_vals = arr[~m]
+        ref = float(np.mean(valid_vals, dtype=np.float64))
+        # float32 relative to a representative value: 7 digits resolve mK on any scale
+        g = np.subtract(np.where(m, ref, arr), ref, dtype=np.float32)
+        return _Data(_fill_masked(g, m), m, ref, valid_vals, out_dtype)
+    valid_vals = arr.ravel()
+    ref = float(np.mean(valid_vals, dtype=np.float64))
+    return _Data(np.subtract(arr, ref, dtype=np.float32), None, ref, valid_vals, out_dtype)
+
+
+def _solve_pyramid(
+    data: _Data, params: SegmentParams, *, levels: int, tol: float
+) -> tuple[np.ndarray, np.ndarray, LevelResult, int]:
+    """Coarse-to-fine alternating minimisation: ``(u, v, result on the finest grid, alternations)``.
+
+    Each coarser grid halves the size (weights scaled by the grid spacing ``h``); the
+    coarsest starts at 2ε then ε, every finer grid at ε, warm-started from the grid below.
+    """
+    w = (~data.mask).astype(np.float32) if data.mask is not None else None
+    pyramid = [(data.g, w)]
     for _ in range(levels - 1):
         pyramid.append(restrict(*pyramid[-1]))
-
     total = 0
-    u = v = None
+    u = v = res = None
     with _single_threaded():
         for lev in range(levels - 1, -1, -1):
             gl, wl = pyramid[lev]
@@ -309,7 +311,7 @@ def segment(
                     epsilon=eps,
                     eta=params.eta,
                     max_alternations=params.max_num_iter if final else _COARSE_ALTERNATIONS,
-                    tol=tol_f,
+                    tol=tol,
                     cg_rtol=_CG_RTOL,
                     cg_max_iter=_CG_MAX_ITER,
                     record_energy=final,
@@ -317,50 +319,22 @@ def segment(
                 )
                 total += res.iterations
                 u, v = res.u, res.v
-    if not (np.isfinite(u).all() and np.isfinite(v).all()):
-        raise SolverError(
-            "segment: the Ambrosio–Tortorelli solver produced non-finite values; "
-            "check the input for extreme values or report the image"
-        )
-    converged = res.converged
-    u_out = np.add(u, ref, dtype=out_dtype)
-    v_out = v.astype(out_dtype)
-    if has_mask:
-        v_out[m] = 1.0
-    edges, labels, n_regions = extract_regions(
-        u_out,
-        v_out,
-        m if has_mask else None,
-        threshold=params.edge_threshold,
-        weak_threshold=params.weak_edge_threshold,
-        min_feature_px=feature,
-    )
+    return u, v, res, total
+
+
+def _message(
+    params: SegmentParams, *, noise_k: float, step_k: float, converged: bool, alternations: int, levels: int,
+    n_regions: int, n_edges: int,
+) -> str:
+    """One-line summary: stopping reason, grids, regions, jump pixels and the noise note."""
     notes = []
-    if params.jump_threshold_k > STEP_MARGIN * step * (1 + 1e-9):  # noise-limited
+    if params.jump_threshold_k > STEP_MARGIN * step_k * (1 + 1e-9):  # noise-limited
         notes.append(
-            f"noise {noise:.3g} K raises the smallest reliably cut step to about "
-            f"{params.jump_threshold_k / STEP_MARGIN:.3g} K (requested min_step_k {step:g} K)"
+            f"noise {noise_k:.3g} K raises the smallest reliably cut step to about "
+            f"{params.jump_threshold_k / STEP_MARGIN:.3g} K (requested min_step_k {step_k:g} K)"
         )
     stop = "converged" if converged else f"stopped at max_num_iter={params.max_num_iter}"
-    message = (
-        f"{stop}: {total} alternations on {levels} grid(s), {n_regions} region(s), "
-        f"{int(edges.sum())} jump pixel(s)" + ("; " + "; ".join(notes) if notes else "")
-    )
-    if not converged:
-        warnings.warn(
-            f"segment: {message}; raise max_num_iter or tol for a tighter solution",
-            ConvergenceWarning,
-            stacklevel=2,
-        )
-    return Segmentation(
-        u=u_out,
-        v=v_out,
-        edges=edges,
-        labels=labels,
-        n_regions=n_regions,
-        energy=tuple(float(e) for e in res.energies),
-        iterations=total,
-        converged=converged,
-        message=message,
-        params=params,
+    return (
+        f"{stop}: {alternations} alternations on {levels} grid(s), {n_regions} region(s), "
+        f"{n_edges} jump pixel(s)" + ("; " + "; ".join(notes) if notes else "")
     )

@@ -27,11 +27,12 @@ def _scene(rng=None, *, noise=0.0):
 
 def _analyse(t, seg, **sections):
     sections.setdefault("camera", {"pixel_m": 0.01})
-    return analyse(make_frame(t, make_meta(**sections)), seg)
+    return analyse(make_frame(t), seg, make_meta(**sections))
 
 
 def test_small_inside_outside_difference_warns():
-    # EN 13187 / ASTM C1060 practice: at least 10 K [V, secondary]
+    # inside-outside difference of at least 10 K: EN 13187:1998 and ASTM C1060 [V] (as quoted by
+    # secondary sources, not in the standards' own text)
     t, seg = _scene()
     res = _analyse(t, seg, air={"inside_c": 20.0, "outside_c": 14.0})
     assert any("below 10 K" in w and "EN 13187" in w for w in res.warnings)
@@ -40,7 +41,7 @@ def test_small_inside_outside_difference_warns():
 
 
 def test_wind_above_limit_warns_for_exterior_views():
-    # ASTM C1060: 15 mph = 6.7 m/s [V, secondary]
+    # ASTM C1060: wind at most 15 mph = 6.7 m/s [V] (as quoted by a secondary source)
     t, seg = _scene()
     t = 20.0 - t  # warm defects seen from outside
     seg = dataclasses.replace(seg, u=20.0 - seg.u)

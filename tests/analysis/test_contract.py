@@ -39,7 +39,7 @@ def test_anomalies_hold_plain_json_ready_values():
     d = np.zeros(t.shape, int)
     t[20:40, 30:50] -= 2.0
     d[20:40, 30:50] = 1
-    (a,) = analyse(make_frame(t, make_meta()), make_seg(d, u=t)).anomalies
+    (a,) = analyse(make_frame(t), make_seg(d, u=t), make_meta()).anomalies
     row = dataclasses.asdict(a)
     assert json.loads(json.dumps(row)) == row
     assert all(type(v) in (int, float, str, bool, type(None)) for v in row.values())
@@ -47,21 +47,21 @@ def test_anomalies_hold_plain_json_ready_values():
 
 def test_constant_image_has_no_anomalies():
     t = np.full((60, 80), 19.0)
-    res = analyse(make_frame(t, make_meta()), make_seg(np.zeros(t.shape, int), u=t))
+    res = analyse(make_frame(t), make_seg(np.zeros(t.shape, int), u=t), make_meta())
     assert res.anomalies == () and res.labels.dtype == np.int32 and not res.labels.any()
     assert np.allclose(res.reference_c, 19.0)
 
 
 def test_pure_noise_has_no_anomalies(rng):
     t = 19.0 + rng.normal(0, 0.05, (60, 80))
-    res = analyse(make_frame(t, make_meta()), make_seg(np.zeros(t.shape, int), u=np.full(t.shape, 19.0)))
+    res = analyse(make_frame(t), make_seg(np.zeros(t.shape, int), u=np.full(t.shape, 19.0)), make_meta())
     assert res.anomalies == ()
 
 
 def test_fully_masked_image_is_empty_not_an_error():
     t = np.full((30, 40), 19.0)
     seg = make_seg(np.zeros(t.shape, int), u=t)
-    res = analyse(make_frame(t, make_meta(), mask=np.ones(t.shape, bool)), seg)
+    res = analyse(make_frame(t, mask=np.ones(t.shape, bool)), seg, make_meta())
     assert res.anomalies == () and np.isnan(res.reference_c).all()
 
 
@@ -72,7 +72,7 @@ def test_minimum_spot_is_three_by_three_pixels(side, kept):
     d = np.zeros(t.shape, int)
     t[20:20 + side, 30:30 + side] -= 4.0
     d[20:20 + side, 30:30 + side] = 1
-    res = analyse(make_frame(t, make_meta()), make_seg(d, u=t))
+    res = analyse(make_frame(t), make_seg(d, u=t), make_meta())
     assert (len(res.anomalies) == 1) is kept
 
 
@@ -82,9 +82,9 @@ def test_contrast_threshold_default_and_setting():
     t[20:40, 30:50] -= 0.2  # below max(3·noise, ½·min_step) = 0.25 K
     d[20:40, 30:50] = 1
     seg = make_seg(d, u=t)
-    assert analyse(make_frame(t, make_meta()), seg).anomalies == ()
-    assert len(analyse(make_frame(t, make_meta(analysis={"min_contrast_k": 0.1})), seg).anomalies) == 1
-    assert analyse(make_frame(t, make_meta(analysis={"min_contrast_k": 0.3})), seg).anomalies == ()
+    assert analyse(make_frame(t), seg, make_meta()).anomalies == ()
+    assert len(analyse(make_frame(t), seg, make_meta(analysis={"min_contrast_k": 0.1})).anomalies) == 1
+    assert analyse(make_frame(t), seg, make_meta(analysis={"min_contrast_k": 0.3})).anomalies == ()
 
 
 def test_noise_estimate_fallback_when_segmentation_has_none(rng):
@@ -95,7 +95,7 @@ def test_noise_estimate_fallback_when_segmentation_has_none(rng):
     u = t.copy()
     t = t + rng.normal(0, 0.05, t.shape)
     seg = dataclasses.replace(make_seg(d, u=u), params=FakeParams(noise_k=None))
-    (a,) = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), seg).anomalies
+    (a,) = analyse(make_frame(t), seg, make_meta(camera={"pixel_m": 0.01})).anomalies
     assert a.delta_k == pytest.approx(-1.0, abs=0.05)
 
 
@@ -107,7 +107,7 @@ def test_masked_pixels_are_ignored():
     mask = np.zeros(t.shape, bool)
     mask[20:25, 30:50] = True
     t[mask] = -40.0  # a dead stripe inside the defect
-    res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01}), mask=mask), make_seg(d, u=t))
+    res = analyse(make_frame(t, mask=mask), make_seg(d, u=t), make_meta(camera={"pixel_m": 0.01}))
     (a,) = res.anomalies
     assert a.area_px == 300 and a.min_c == 15.0
     assert np.isnan(res.reference_c[mask]).all()
@@ -120,7 +120,7 @@ def test_ids_follow_raster_order_and_severity_is_a_permutation():
     for k, (r, c, dt) in enumerate([(50, 10, -1.0), (5, 80, -3.0), (5, 10, -2.0)], start=1):
         t[r:r + 20, c:c + 20] += dt
         d[r:r + 20, c:c + 20] = k
-    res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), make_seg(d, u=t))
+    res = analyse(make_frame(t), make_seg(d, u=t), make_meta(camera={"pixel_m": 0.01}))
     assert [(a.bbox_row0, a.bbox_col0) for a in res.anomalies] == [(5, 10), (5, 80), (50, 10)]
     assert [a.anomaly for a in res.anomalies] == [1, 2, 3]
     assert sorted(a.severity for a in res.anomalies) == [1, 2, 3]
@@ -131,7 +131,7 @@ def test_shape_mismatch_is_a_config_error():
     t = np.full((30, 40), 19.0)
     seg = make_seg(np.zeros((30, 41), int), u=np.full((30, 41), 19.0))
     with pytest.raises(ConfigError, match="shape"):
-        analyse(make_frame(t, make_meta()), seg)
+        analyse(make_frame(t), seg, make_meta())
 
 
 def test_no_python_warnings_are_emitted():
@@ -142,7 +142,7 @@ def test_no_python_warnings_are_emitted():
     meta = make_meta(camera={"hfov_deg": None, "distance_m": None}, air={"inside_c": 20.0, "outside_c": 18.0})
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
-        res = analyse(make_frame(t, meta), make_seg(d, u=t))
+        res = analyse(make_frame(t), make_seg(d, u=t), meta)
     assert caught == [] and len(res.warnings) >= 2
 
 
@@ -161,7 +161,7 @@ def test_random_scenes_keep_the_invariants(seed, n_boxes, view):
         h, w = g.integers(2, 20), g.integers(2, 20)
         t[r:r + h, c:c + w] += g.uniform(-3, 3)
         d[r:r + h, c:c + w] = k
-    res = analyse(make_frame(t, make_meta(surface={"view": view})), make_seg(d, u=t))
+    res = analyse(make_frame(t), make_seg(d, u=t), make_meta(surface={"view": view}))
     ids = [a.anomaly for a in res.anomalies]
     assert ids == list(range(1, len(ids) + 1))
     assert sorted(a.severity for a in res.anomalies) == ids

@@ -1,4 +1,4 @@
-"""End to end with the real Ambrosio–Tortorelli segmentation (skipped until it exists)."""
+"""End to end with the real Ambrosio–Tortorelli segmentation."""
 
 from __future__ import annotations
 
@@ -7,12 +7,12 @@ import pytest
 from tests.support.fakes import make_frame, make_meta
 
 from irseg.analysis import analyse
-
-segment_mod = pytest.importorskip("irseg.segmentation")
+from irseg.segmentation import segment
 
 
 def test_framed_wall_with_an_empty_bay(rng):
-    # 100 mm members at 400 mm centres [CP], 2 K/height stratification, one empty bay (ASTM C1060 signature)
+    # 100 mm members at 400 mm centres [CP], 1 K stratification over the height, one empty bay
+    # (ASTM C1060, scope: a cold rectangle between members [V])
     m, n = 120, 240
     rows = np.mgrid[0:m, 0:n][0]
     t = 18.5 + 1.0 * rows / m
@@ -20,8 +20,8 @@ def test_framed_wall_with_an_empty_bay(rng):
         t[:, c:c + 10] -= 0.8
     t[20:100, 110:140] -= 3.0
     t = t + rng.normal(0.0, 0.05, t.shape)
-    seg = segment_mod.segment(t)
-    res = analyse(make_frame(t, make_meta(camera={"pixel_m": 0.01})), seg)
+    seg = segment(t)
+    res = analyse(make_frame(t), seg, make_meta(camera={"pixel_m": 0.01}))
     causes = [a.cause for a in res.anomalies]
     assert causes.count("missing_insulation") == 1
     assert causes.count("thermal_bridge") >= 5

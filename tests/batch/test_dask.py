@@ -12,8 +12,6 @@ from irseg.batch import _dask
 from irseg.batch import run_survey
 from irseg.errors import ConfigError
 
-pytest.importorskip("distributed")
-
 
 @pytest.mark.slow
 def test_local_cluster_matches_process_runs(tmp_path):

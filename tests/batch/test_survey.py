@@ -145,7 +145,8 @@ def test_mixed_folder_fails_bad_files_alone(tmp_path):
         assert failures[name]["stage"] == stage, (name, failures[name])
         message = failures[name]["message"]
         assert message and "\n" not in message and "Traceback" not in message
-    assert "budget" in failures["too_big.npy"]["message"] or "pixels" in failures["too_big.npy"]["message"]
+    assert "pixel budget of 10000" in failures["too_big.npy"]["message"]
+    assert "max_pixels" in failures["too_big.npy"]["message"]
     assert "emissivity" in failures["bad_eps.npy"]["message"]
     assert "distance_m" in failures["bad_distance.npy"]["message"]
     assert "radiometric" in failures["photo.png"]["message"]
@@ -254,16 +255,16 @@ def test_unexpected_stage_error_fails_one_image(tmp_path, monkeypatch):
     paths = make_survey(survey, 3)
     real = irseg.analysis.analyse
 
-    def flaky(frame, seg):
+    def flaky(frame, seg, meta):
         if Path(frame.path).name == paths[1].name:
             raise ZeroDivisionError("division by zero")
-        return real(frame, seg)
+        return real(frame, seg, meta)
 
     monkeypatch.setattr(irseg.analysis, "analyse", flaky)
     result = run_survey([survey], tmp_path / "out", jobs=1)
     assert result.n_ok == 2
     (failure,) = result.failures
-    assert failure.file == paths[1].name and failure.stage == "analyse"
+    assert failure.image == paths[1].name and failure.stage == "analyse"
     assert "ZeroDivisionError" in failure.message and "verbose setting" in failure.message
     assert "Traceback" in failure.traceback
 
@@ -320,7 +321,7 @@ def test_out_must_not_be_the_survey_folder(tmp_path):
 
 
 def test_unreadable_input_fails_alone(tmp_path, monkeypatch):
-    import irseg.batch._survey
+    import irseg.batch._resume
 
     survey = tmp_path / "survey"
     paths = make_survey(survey, 2)
@@ -331,9 +332,9 @@ def test_unreadable_input_fails_alone(tmp_path, monkeypatch):
             raise InputError(f"{paths[0].name}: cannot read the file (Permission denied)")
         return real(path, settings)
 
-    monkeypatch.setattr(irseg.batch._survey, "fingerprint_input", denied)
+    monkeypatch.setattr(irseg.batch._resume, "fingerprint_input", denied)
     result = run_survey([survey], tmp_path / "out", jobs=1)
-    assert result.n_ok == 1 and [(f.file, f.stage) for f in result.failures] == [(paths[0].name, "read")]
+    assert result.n_ok == 1 and [(f.image, f.stage) for f in result.failures] == [(paths[0].name, "read")]
 
 
 def test_a_dying_worker_fails_only_its_image():
@@ -348,3 +349,14 @@ def test_a_dying_worker_fails_only_its_image():
     died = [x for x in seen if not isinstance(x, int)]
     assert survivors == [0, 2, 3]
     assert [(d.image, d.status, d.failure.stage) for d in died] == [("img1.npy", "failed", "worker")]
+
+
+def test_named_files_keep_unknown_suffixes_but_never_metadata(tmp_path):
+    survey = tmp_path / "survey"
+    (path,) = make_survey(survey, 1, tiff=False)
+    (survey / f"{path.stem}.toml").write_text("[surface]\nemissivity = 0.9\n", encoding="utf-8")
+    (survey / "notes.xyz").write_bytes(b"not a thermogram")
+    named = [path, survey / f"{path.stem}.toml", survey / "survey.toml", survey / "notes.xyz"]
+    result = run_survey(named, tmp_path / "out", jobs=1)
+    assert [o.image for o in result.outcomes] == [path.name, "notes.xyz"]  # the .toml files are metadata
+    assert result.n_ok == 1 and [(f.image, f.stage) for f in result.failures] == [("notes.xyz", "read")]

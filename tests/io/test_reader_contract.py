@@ -18,6 +18,7 @@ beside this file (test_readers.py, test_csv_reader.py).
 from __future__ import annotations
 
 import hashlib
+import os
 from collections.abc import Callable
 from pathlib import Path
 
@@ -43,17 +44,19 @@ def pytest_generate_tests(metafunc: pytest.Metafunc) -> None:
             metafunc.parametrize(name, dtypes, ids=[np.dtype(d).str for d in dtypes])
 
 
-def _sha(path: Path) -> str:
-    return hashlib.sha256(path.read_bytes()).hexdigest()
+def _state(path: Path) -> tuple[str, int, int]:
+    """The file's content hash, modification time and size."""
+    info = os.stat(path)
+    return hashlib.sha256(path.read_bytes()).hexdigest(), info.st_mtime_ns, info.st_size
 
 
 def _read_untouched(path: Path, **kw):
-    """read_thermogram, checking that the file's bytes did not change whatever the outcome."""
-    before = _sha(path)
+    """read_thermogram, checking that the file did not change (bytes, time, size) whatever the outcome."""
+    before = _state(path)
     try:
         return read_thermogram(path, **kw)
     finally:
-        assert _sha(path) == before, f"{path} was modified by reading it"
+        assert _state(path) == before, f"{path} was modified by reading it"
 
 
 class ReaderContract:

@@ -1,4 +1,4 @@
-"""Atomic writers, deterministic number formatting and safe output names (irseg.outputs)."""
+"""Atomic writers, deterministic number formatting and safe output names (irseg.io)."""
 
 from __future__ import annotations
 

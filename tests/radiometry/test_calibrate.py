@@ -1,4 +1,4 @@
-"""Radiometry checks against Planck's law (scipy quadrature, CODATA constants), worked values computed from it, and physics."""
+"""Radiometry checks against Planck's law (scipy), check values computed from it, and physics."""
 
 from __future__ import annotations
 
@@ -59,7 +59,7 @@ def test_band_radiance_outside_table_matches_quad():
 @pytest.mark.parametrize(
     ("t_c", "l_75", "l_8", "l_35"),
     [
-        # band radiance, W m-2 sr-1: [C] Planck's law integrated over each band (CODATA 2018 constants)
+        # band radiance, W m-2 sr-1: Planck's law integrated over each band, CODATA 2018 constants [C]
         (-20.0, 25.216, 23.825, 0.2545),
         (0.0, 37.533, 35.152, 0.6443),
         (10.0, 44.919, 41.891, 0.9787),
@@ -75,7 +75,7 @@ def test_band_radiance_reference_table(t_c, l_75, l_8, l_35):
 
 
 def test_band_fraction_of_sigma_t4():
-    # 7.5-14 um at 20 °C carries 0.399 of sigma T^4 / pi: [C] band integral of Planck's law over the total
+    # Planck band integral / Stefan-Boltzmann sigma T^4 / pi: 7.5-14 um at 20 °C carries 0.399 [C]
     t_k = 293.15
     frac = band_radiance(t_k) / band_radiance(t_k, method="broadband")
     assert frac == pytest.approx(0.399, abs=5e-4)
@@ -114,7 +114,8 @@ def test_bad_band_and_method():
 
 
 def test_worked_round_trip():
-    # eps 0.93, 15 °C, reflected 20 °C -> apparent 15.359 °C, 7.5-14 um: [C] Planck's law integrated over the band (CODATA 2018 constants, scipy.constants), tau = 1
+    # Planck's law over 7.5-14 um (CODATA 2018) in L = eps L_b(T_obj) + (1 - eps) L_b(T_refl) (opaque
+    # grey surface, Kirchhoff's law), tau 1: eps 0.93, 15 °C, reflected 20 °C -> apparent 15.359 °C [C]
     app = object_to_apparent(15.0, emissivity=0.93, reflected_c=20.0)
     assert app == pytest.approx(15.359, abs=1e-3)
     # ... and inverting returns 15.000 °C (error < 1 mK) [C]
@@ -124,8 +125,8 @@ def test_worked_round_trip():
 @pytest.mark.parametrize(
     ("t_obj", "t_refl", "eps", "t_app", "t_sigma"),
     [
-        # band apparent temperature and its sigma T^4 inversion, 7.5-14 um: [C] Planck's law integrated over the band (CODATA 2018 constants, scipy.constants), tau = 1;
-        # sigma T^4 inversion: the Stefan-Boltzmann law
+        # apparent T from Planck's law over 7.5-14 um (CODATA 2018), then inverted with the broadband
+        # form T^4 = (T_app^4 - (1 - eps) T_refl^4) / eps (Stefan-Boltzmann law) [C]
         (15.0, 20.0, 0.93, 15.359, 15.000),
         (2.0, -20.0, 0.90, 0.053, 2.027),
         (2.0, -40.0, 0.90, -1.289, 2.113),
@@ -143,13 +144,14 @@ def test_broadband_error_table(t_obj, t_refl, eps, t_app, t_sigma):
 
 
 def test_glass_and_aluminium_examples():
-    # glass (eps 0.84) and bare aluminium (eps 0.10) at 10 °C, reflected 20 °C, 7.5-14 um: [C] Planck's law integrated over the band (CODATA 2018 constants, scipy.constants), tau = 1
+    # measurement equation with Planck's law over 7.5-14 um (CODATA 2018), tau 1, reflected 20 °C [C]
     assert object_to_apparent(10.0, emissivity=0.84, reflected_c=20.0) == pytest.approx(11.67, abs=0.01)
     assert object_to_apparent(10.0, emissivity=0.10, reflected_c=20.0) == pytest.approx(19.05, abs=0.01)
 
 
 def test_emissivity_sensitivity():
-    # true 15 °C wall (eps 0.93, refl 20) processed with 0.90 -> 14.83, 0.95 -> 15.11: [C] Planck's law integrated over the band (CODATA 2018 constants, scipy.constants), tau = 1
+    # measurement equation, Planck 7.5-14 um [C]: true 15 °C wall (eps 0.93, refl 20) processed with
+    # 0.90 -> 14.83, 0.95 -> 15.11
     app = object_to_apparent(15.0, emissivity=0.93, reflected_c=20.0)
     assert apparent_to_object(app, emissivity=0.90, reflected_c=20.0) == pytest.approx(14.83, abs=0.01)
     assert apparent_to_object(app, emissivity=0.95, reflected_c=20.0) == pytest.approx(15.11, abs=0.01)
@@ -198,7 +200,8 @@ def _meta(**camera) -> SurveyMeta:
 def test_calibrate_celsius_float(rng):
     app = 15.359 + rng.normal(0, 0.01, (12, 14))
     f = calibrate(_frame(app.astype(np.float32)), _meta())
-    # 15.359 apparent -> 15.000 °C with eps 0.93, refl 20, 7.5-14 um: [C] Planck's law integrated over the band (CODATA 2018 constants, scipy.constants), tau = 1
+    # measurement equation, Planck 7.5-14 um (CODATA 2018): 15.359 apparent -> 15.000 °C with eps 0.93,
+    # refl 20 [C]
     assert np.median(f.temperature_c) == pytest.approx(15.0, abs=0.01)
     np.testing.assert_allclose(f.apparent_c, app, atol=1e-5)
     assert f.n_dead == 0 and f.n_nan == 0 and not f.mask.any()
@@ -265,7 +268,7 @@ def test_reflected_from_the_metadata_and_the_same_rule_for_hand_built_metadata(t
     app = np.full((6, 6), 15.0)
     # load_metadata resolves the reflected temperature (interior view: the inside air) and records it
     (tmp_path / "survey.toml").write_text("[surface]\nemissivity = 0.93\nview = 'interior'\n[air]\ninside_c = 21.0\n")
-    with pytest.warns(MetadataWarning, match="reflected temperature assumed 21 °C"):
+    with pytest.warns(MetadataWarning, match="reflected temperature taken as the inside air temperature, 21 °C"):
         loaded = load_metadata(tmp_path / "a.npy")
     f_loaded = calibrate(_frame(app), loaded)
     expected_in = apparent_to_object(15.0, emissivity=0.93, reflected_c=21.0)
@@ -293,7 +296,7 @@ def test_broadband_method_differs_outdoors():
     app = np.full((5, 5), 13.727)
     planck = calibrate(_frame(app), meta)
     broad = calibrate(_frame(app), meta, method="broadband")
-    # 20 °C true, sigma T^4 inversion gives 20.121 °C: [C] Planck's law integrated over the band (CODATA 2018 constants, scipy.constants), tau = 1 and the Stefan-Boltzmann law
+    # Planck 7.5-14 um versus the broadband sigma T^4 inversion [C]: 20 °C true, sigma T^4 gives 20.121 °C
     assert planck.temperature_c[0, 0] == pytest.approx(20.0, abs=2e-3)
     assert broad.temperature_c[0, 0] == pytest.approx(20.121, abs=2e-3)
     with pytest.raises(ConfigError):

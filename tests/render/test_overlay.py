@@ -7,6 +7,7 @@ the display range, and plain geometry for the scale bar.
 
 from __future__ import annotations
 
+from dataclasses import fields
 from types import SimpleNamespace
 
 import cv2
@@ -51,6 +52,12 @@ def make_anomaly(aid: int, cause: str, labels: np.ndarray) -> Anomaly:
     )
 
 
+def thermal_frame(path: str, t: np.ndarray, mask: np.ndarray, meta: SurveyMeta) -> ThermalFrame:
+    """A ThermalFrame; ``meta`` goes in only while the type still has that field (issue 10 drops it)."""
+    extra = {"meta": meta} if "meta" in {f.name for f in fields(ThermalFrame)} else {}
+    return ThermalFrame(path=path, temperature_c=t, mask=mask, apparent_c=t, **extra)
+
+
 def make_analysis(labels: np.ndarray, anomalies=(), pixel_m=None) -> Analysis:
     return Analysis(
         anomalies=tuple(anomalies), labels=labels, pixel_m=pixel_m,
@@ -82,17 +89,11 @@ def make_inputs(
         surface=Surface(view="interior"),
         air=Air(inside_c=None if air is None else air[0], outside_c=None if air is None else air[1]),
     )
-    frame = ThermalFrame(
-        path=path,
-        temperature_c=t.astype(np.float32),
-        mask=np.zeros(shape, bool) if mask is None else mask,
-        apparent_c=t.astype(np.float32),
-        meta=meta,
-    )
+    frame = thermal_frame(path, t.astype(np.float32), np.zeros(shape, bool) if mask is None else mask, meta)
     # render_overlay reads only the jump set of a Segmentation (the full one needs solver parameters)
     seg = SimpleNamespace(edges=np.zeros(shape, bool) if edges is None else edges)
     anomalies = tuple(make_anomaly(k, cause, labels) for k, (_, cause) in enumerate(rects, start=1))
-    return frame, seg, make_analysis(labels, anomalies, pixel_m)
+    return frame, seg, make_analysis(labels, anomalies, pixel_m), meta
 
 
 def display_pixel(lay, r: int, c: int) -> tuple[int, int]:
@@ -102,8 +103,8 @@ def display_pixel(lay, r: int, c: int) -> tuple[int, int]:
 
 @pytest.mark.parametrize("shape", [(48, 64), (120, 160), (480, 640), (6, 300), (300, 6)])
 def test_overlay_is_uint8_rgb_of_the_documented_shape(shape):
-    frame, seg, analysis = make_inputs(shape, rects=())
-    img = render_overlay(frame, seg, analysis)
+    frame, seg, analysis, meta = make_inputs(shape, rects=())
+    img = render_overlay(frame, seg, analysis, meta)
     lay = overlay_layout(shape)
     assert img.dtype == np.uint8
     assert img.shape == lay.shape
@@ -114,8 +115,8 @@ def test_overlay_is_uint8_rgb_of_the_documented_shape(shape):
 
 
 def test_outline_pixels_carry_the_cause_colour_and_interiors_do_not():
-    frame, seg, analysis = make_inputs()
-    img = render_overlay(frame, seg, analysis)
+    frame, seg, analysis, meta = make_inputs()
+    img = render_overlay(frame, seg, analysis, meta)
     lay = overlay_layout(frame.temperature_c.shape)
     s = lay.scale
     for (r0, c0, r1, c1), cause in (((8, 8, 24, 28), "missing_insulation"), ((26, 36, 42, 58), "thermal_bridge")):
@@ -140,9 +141,9 @@ def test_outline_pixels_carry_the_cause_colour_and_interiors_do_not():
 
 
 def test_thermogram_pixels_follow_the_reference_colour_map_over_the_percentile_range():
-    frame, seg, analysis = make_inputs(rects=())
+    frame, seg, analysis, meta = make_inputs(rects=())
     t = frame.temperature_c
-    img = render_overlay(frame, seg, analysis, cmap="magma")
+    img = render_overlay(frame, seg, analysis, meta, cmap="magma")
     lay = overlay_layout(t.shape)
     lo, hi = np.percentile(t.astype(np.float64), [1, 99])  # reference: numpy percentiles
     ref = reference_lut(cv2.COLORMAP_MAGMA)
@@ -154,8 +155,8 @@ def test_thermogram_pixels_follow_the_reference_colour_map_over_the_percentile_r
 
 
 def test_colour_bar_runs_monotonically_through_the_reference_lut():
-    frame, seg, analysis = make_inputs()
-    img = render_overlay(frame, seg, analysis)
+    frame, seg, analysis, meta = make_inputs()
+    img = render_overlay(frame, seg, analysis, meta)
     lay = overlay_layout(frame.temperature_c.shape)
     ref = reference_lut(cv2.COLORMAP_INFERNO).astype(int)
     column = img[lay.bar_row0 : lay.bar_row1, (lay.bar_col0 + lay.bar_col1) // 2].astype(int)
@@ -175,7 +176,7 @@ def test_colormap_lut_matches_opencv_and_published_inferno_ends():
     assert lut.shape == (256, 3) and lut.dtype == np.uint8
     assert np.array_equal(lut, reference_lut(cv2.COLORMAP_INFERNO))
     # inferno's published end colours (matplotlib's listed data, 0.0015/0.0005/0.0139 and
-    # 0.9884/0.9984/0.6449 times 255) [M: from memory]
+    # 0.9884/0.9984/0.6449 times 255), from memory [M]
     assert np.abs(lut[0].astype(int) - [0, 0, 4]).max() <= 1
     assert np.abs(lut[255].astype(int) - [252, 255, 164]).max() <= 1
     gray = colormap_lut("grey")
@@ -192,6 +193,19 @@ def test_same_inputs_give_byte_identical_overlays():
     assert a.tobytes() != c.tobytes()  # and the picture does depend on its inputs
 
 
+def test_title_line_comes_from_the_meta_argument():
+    frame, seg, analysis, meta = make_inputs()  # interior view, ΔT in–out 20 K
+    other = SurveyMeta(surface=Surface(view="exterior"), air=Air(inside_c=None, outside_c=None))
+    a = render_overlay(frame, seg, analysis, meta)
+    b = render_overlay(frame, seg, analysis, other)
+    lay = overlay_layout(frame.temperature_c.shape)
+    assert not np.array_equal(a[: lay.image_row0], b[: lay.image_row0])  # the title band differs
+    assert np.array_equal(a[lay.image_row0 :], b[lay.image_row0 :])  # and nothing else
+    # whatever metadata the frame may carry is not read: only the argument counts
+    frame_other = thermal_frame(frame.path, frame.temperature_c, frame.mask, other)
+    assert render_overlay(frame_other, seg, analysis, meta).tobytes() == a.tobytes()
+
+
 def longest_white_run(strip: np.ndarray) -> int:
     white = (strip == 255).all(axis=2)
     best = 0
@@ -206,8 +220,8 @@ def longest_white_run(strip: np.ndarray) -> int:
 
 @pytest.mark.parametrize("shape, pixel_m", [((48, 64), 0.004), ((120, 160), 0.0125), ((480, 640), 0.002)])
 def test_scale_bar_is_as_long_as_its_length_in_pixels(shape, pixel_m):
-    frame, seg, analysis = make_inputs(shape, rects=(), pixel_m=pixel_m)
-    img = render_overlay(frame, seg, analysis)
+    frame, seg, analysis, meta = make_inputs(shape, rects=(), pixel_m=pixel_m)
+    img = render_overlay(frame, seg, analysis, meta)
     lay = overlay_layout(shape)
     length_m = scale_bar_length_m(pixel_m, width_px=shape[1])
     # a 1-2-5 length not above a quarter of the imaged width
@@ -220,8 +234,8 @@ def test_scale_bar_is_as_long_as_its_length_in_pixels(shape, pixel_m):
 
 
 def test_no_scale_bar_without_geometry():
-    frame, seg, analysis = make_inputs(pixel_m=None)
-    img = render_overlay(frame, seg, analysis)
+    frame, seg, analysis, meta = make_inputs(pixel_m=None)
+    img = render_overlay(frame, seg, analysis, meta)
     lay = overlay_layout(frame.temperature_c.shape)
     assert longest_white_run(img[lay.legend_row0 :]) < 15
 
@@ -229,19 +243,19 @@ def test_no_scale_bar_without_geometry():
 def test_masked_pixels_are_drawn_as_no_data_and_do_not_move_the_range():
     mask = np.zeros((48, 64), bool)
     mask[2:6, 40:48] = True
-    frame, seg, analysis = make_inputs(mask=mask)
+    frame, seg, analysis, meta = make_inputs(mask=mask)
     hot = frame.temperature_c.copy()
     hot[mask] = 500.0  # a fill value far outside the scene
-    frame_hot = ThermalFrame(frame.path, hot, mask, hot, frame.meta)
+    frame_hot = thermal_frame(frame.path, hot, mask, meta)
     assert display_range(hot, mask=mask) == display_range(frame.temperature_c, mask=mask)
-    img = render_overlay(frame_hot, seg, analysis)
+    img = render_overlay(frame_hot, seg, analysis, meta)
     lay = overlay_layout(mask.shape)
     lut = {tuple(int(v) for v in row) for row in reference_lut(cv2.COLORMAP_INFERNO)}
     for r, c in [(2, 40), (3, 41), (5, 47)]:
         px = tuple(int(v) for v in img[display_pixel(lay, r, c)])
         assert px[0] == px[1] == px[2] and px not in lut  # neutral grey, not a temperature
     # the unmasked scene keeps the same colours as without the hot fill values
-    plain = render_overlay(frame, seg, analysis)
+    plain = render_overlay(frame, seg, analysis, meta)
     r0, c0 = display_pixel(lay, 30, 5)
     assert np.array_equal(img[r0, c0], plain[r0, c0])
 
@@ -251,8 +265,8 @@ def test_jump_set_is_drawn_as_a_thin_line_and_nothing_else_changes(shape):
     m, n = shape
     edges = np.zeros(shape, bool)
     edges[:, n // 2] = True
-    frame, seg, analysis = make_inputs(shape, rects=(), edges=edges)
-    img = render_overlay(frame, seg, analysis)
+    frame, seg, analysis, meta = make_inputs(shape, rects=(), edges=edges)
+    img = render_overlay(frame, seg, analysis, meta)
     plain = render_overlay(*make_inputs(shape, rects=()))
     lay = overlay_layout(shape)
     s = lay.scale
@@ -269,10 +283,10 @@ def test_jump_set_is_drawn_as_a_thin_line_and_nothing_else_changes(shape):
 
 
 def test_constant_image_without_anomalies_geometry_or_air_renders():
-    frame, seg, analysis = make_inputs(
+    frame, seg, analysis, meta = make_inputs(
         (30, 40), rects=(), pixel_m=None, air=None, temperature=np.full((30, 40), 12.5)
     )
-    img = render_overlay(frame, seg, analysis, cmap="gray")
+    img = render_overlay(frame, seg, analysis, meta, cmap="gray")
     lay = overlay_layout((30, 40))
     area = img[lay.image_row0 : lay.image_row0 + lay.image_rows, lay.image_col0 : lay.image_col0 + lay.image_cols]
     # constant value sits mid-range of its ±0.5 K display range: grey level 128 (of 0..255)
@@ -282,8 +296,8 @@ def test_constant_image_without_anomalies_geometry_or_air_renders():
 
 def test_fully_masked_frame_and_odd_names_render():
     mask = np.ones((20, 20), bool)
-    frame, seg, analysis = make_inputs((20, 20), rects=(), mask=mask, path="Dachgeschoß <Süd>/ΔT_°.tif")
-    img = render_overlay(frame, seg, analysis)
+    frame, seg, analysis, meta = make_inputs((20, 20), rects=(), mask=mask, path="Dachgeschoß <Süd>/ΔT_°.tif")
+    img = render_overlay(frame, seg, analysis, meta)
     assert img.shape == overlay_layout((20, 20)).shape
     assert display_range(frame.temperature_c, mask=mask) == (0.0, 1.0)
 
@@ -297,14 +311,14 @@ def test_display_range_is_the_1st_to_99th_percentile(rng):
 
 
 def test_mismatched_shapes_are_config_errors():
-    frame, seg, analysis = make_inputs()
+    frame, seg, analysis, meta = make_inputs()
     bad = make_analysis(np.zeros((10, 10), np.int32))
     with pytest.raises(ConfigError, match="labels"):
-        render_overlay(frame, seg, bad)
+        render_overlay(frame, seg, bad, meta)
 
 
 def test_label_image_is_uint16_copy_of_the_anomaly_labels():
-    _, _, analysis = make_inputs()
+    _, _, analysis, _ = make_inputs()
     out = label_image(analysis)
     assert out.dtype == np.uint16 and out.shape == analysis.labels.shape
     assert np.array_equal(out.astype(np.int64), analysis.labels.astype(np.int64))
@@ -337,9 +351,10 @@ def test_any_small_frame_renders_to_its_layout_deterministically(m, n, seed, spr
     mask = rng.random((m, n)) < masked
     labels = (rng.random((m, n)) < 0.3).astype(np.int32)
     anomalies = (make_anomaly(1, "moisture", labels),) if labels.any() else ()
-    frame = ThermalFrame("x.tif", t, mask, t, SurveyMeta())
+    meta = SurveyMeta()
+    frame = thermal_frame("x.tif", t, mask, meta)
     seg = SimpleNamespace(edges=rng.random((m, n)) < 0.2)
     analysis = make_analysis(labels, anomalies, pixel_m=0.01)
-    a = render_overlay(frame, seg, analysis)
+    a = render_overlay(frame, seg, analysis, meta)
     assert a.shape == overlay_layout((m, n)).shape and a.dtype == np.uint8
-    assert render_overlay(frame, seg, analysis).tobytes() == a.tobytes()
+    assert render_overlay(frame, seg, analysis, meta).tobytes() == a.tobytes()

@@ -10,9 +10,10 @@ from __future__ import annotations
 import base64
 import io
 import os
+import re
 import shutil
 import subprocess
-import time
+from dataclasses import fields
 from html.parser import HTMLParser
 from importlib import resources
 from types import SimpleNamespace
@@ -49,7 +50,9 @@ def overlay_png(seed: int, name: str) -> tuple[bytes, tuple[int, ...]]:
     labels[4:10, 5:12] = 1
     t[4:10, 5:12] -= 3.0
     meta = SurveyMeta(surface=Surface(view="interior"), air=Air(inside_c=21.0, outside_c=1.0))
-    frame = ThermalFrame(name, t, np.zeros(t.shape, bool), t, meta)
+    # ThermalFrame loses its meta field in issue 10 (the overlay takes the metadata as an argument)
+    extra = {"meta": meta} if "meta" in {f.name for f in fields(ThermalFrame)} else {}
+    frame = ThermalFrame(path=name, temperature_c=t, mask=np.zeros(t.shape, bool), apparent_c=t, **extra)
     anomaly = SimpleNamespace(
         anomaly=1, cause="missing_insulation", centroid_row=6.5, centroid_col=8.0,
         bbox_row0=4, bbox_col0=5, bbox_row1=10, bbox_col1=12,
@@ -57,6 +60,7 @@ def overlay_png(seed: int, name: str) -> tuple[bytes, tuple[int, ...]]:
     rgb = render_overlay(
         frame, SimpleNamespace(edges=np.zeros(t.shape, bool)),
         SimpleNamespace(labels=labels, anomalies=(anomaly,), pixel_m=0.02),
+        meta,
     )
     ok, buf = cv2.imencode(".png", np.ascontiguousarray(rgb[:, :, ::-1]))
     assert ok
@@ -236,14 +240,14 @@ def test_safety_and_estimate_cautions_are_present():
     summary, overlays = make_summary()
     text = " ".join("".join(parse(render_report(summary, overlays)).text).split())
     for phrase in (
-        "at least two",  # roofs at night: never alone (ASTM C1153 §1.1 warning, [V] in REFERENCE-VALUES 4.4)
+        "at least two",  # at least two people on a roof at night (ASTM C1153, section 1.1 safety warning) [V]
         "edge protection",  # working at height [CP]
         "electrical",  # energised equipment (ASTM E1862/E1933 warnings [V])
         "depressuris",  # combustion appliances during fan depressurisation [CP]
         "estimates",
         "low–high",
         "contact or invasive",
-        "R_si = 0.25",  # design f_Rsi convention (ISO 13788 worst case, REFERENCE-VALUES §3 [V])
+        "R_si = 0.25",  # design f_Rsi convention, ISO 13788 worst-case R_si [V] (as quoted by a secondary source)
         "local building codes",
         "licensed",
         "Batch note: two images were taken through glazing.",  # the summary's own cautions too
@@ -315,6 +319,30 @@ def test_bad_inputs_raise_config_errors():
         render_report({**summary, "anomalies": "none"}, overlays)
 
 
+def test_anomaly_rows_are_read_as_typed_records():
+    summary, overlays = make_summary()
+    summary["anomalies"][2]["area_m2"] = "0.40 m2"  # text where JSON has a number
+    with pytest.raises(ConfigError, match=r"anomalies'\]\[2\]: area_m2 = '0.40 m2' must be a JSON float"):
+        render_report(summary, overlays)
+    summary, overlays = make_summary()
+    summary["anomalies"][0]["mould_risk"] = 1  # an integer is not a JSON boolean
+    with pytest.raises(ConfigError, match="mould_risk"):
+        render_report(summary, overlays)
+    summary, overlays = make_summary()
+    del summary["anomalies"][1]["image"]
+    with pytest.raises(ConfigError, match="'image' is missing"):
+        render_report(summary, overlays)
+
+
+def test_page_names_settings_not_command_line_flags():
+    # irseg's rule for library text: name "the <name> setting", never a flag of the command line [CP]
+    summary, overlays = make_summary()
+    page = re.sub(r"<style>.*?</style>", "", render_report(summary, overlays), flags=re.S)  # CSS uses --names
+    text = " ".join("".join(parse(page).text).split())
+    assert "resume setting" in text  # the failures and warnings sections say how to finish
+    assert re.search(r"(?<![\w-])--[a-z]", text) is None
+
+
 def test_templates_ship_as_package_data():
     root = resources.files("irseg.report").joinpath("templates")
     assert root.joinpath("report.html").is_file()
@@ -370,7 +398,6 @@ def test_report_opens_in_a_headless_browser(tmp_path):
     assert html.count("</body>") == 1
     wrapper.write_text(html.replace("</body>", CHECK_SCRIPT + "</body>"), encoding="utf-8")
 
-    t0 = time.perf_counter()
     dom = run_chromium(exe, tmp_path / "profile1", "--virtual-time-budget=10000", "--dump-dom", wrapper.as_uri())
     assert dom.returncode == 0, dom.stderr[-2000:]
     check = parse(dom.stdout)
@@ -391,4 +418,3 @@ def test_report_opens_in_a_headless_browser(tmp_path):
     rgb = img[..., :3].reshape(-1, 3)
     assert rgb.std() > 20  # not a blank page
     assert len(np.unique(rgb[::7], axis=0)) > 200  # text plus the embedded thermograms
-    assert time.perf_counter() - t0 < 170

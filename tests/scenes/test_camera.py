@@ -25,7 +25,7 @@ from irseg.scenes import (
 
 @pytest.mark.parametrize(
     ("n", "fov", "d", "expected_mm"),
-    # REFERENCE-VALUES §5.1 check values [C]: p = 2 d tan(FOV/2)/N
+    # pinhole geometry, p = 2 d tan(FOV/2)/N [C]
     [(160, 25.0, 5.0, 13.86), (320, 25.0, 5.0, 6.93), (640, 25.0, 5.0, 3.46), (640, 45.0, 3.0, 3.88),
      (1280, 25.0, 10.0, 3.46)],
 )
@@ -46,12 +46,13 @@ _QUIET = dict(psf_sigma_px=0.0, netd_k=0.0, column_sigma_k=0.0, shading=0.0, n_c
 
 
 def test_band_radiance_worked_example_and_round_trip():
-    # REFERENCE-VALUES §7.7 [C]: eps 0.93, T_obj 15 °C, T_refl 20 °C, tau 1, 7.5-14 um -> apparent 15.359 °C
+    # Planck's law over 7.5-14 um (CODATA 2018 constants) in L = eps L_b(T_obj) + (1 - eps) L_b(T_refl)
+    # (opaque grey surface, Kirchhoff's law), tau 1 [C]: eps 0.93, T_obj 15 °C, T_refl 20 °C -> 15.359 °C
     shot = shoot(_uniform_scene(15.0, 20.0, 0.93), CameraModel(**_QUIET))
     assert np.abs(shot.apparent_c - 15.359).max() < 0.001
     back = apparent_to_object(shot.apparent_c, emissivity=0.93, reflected_c=20.0)
     assert np.abs(back - 15.0).max() < 0.001
-    # REFERENCE-VALUES §7 other worked example [C]: glass eps 0.84 at 10 °C, T_refl 20 °C reads 11.67 °C
+    # same equation [C]: glass eps 0.84 at 10 °C, T_refl 20 °C reads 11.67 °C
     shot = shoot(_uniform_scene(10.0, 20.0, 0.84), CameraModel(**_QUIET))
     assert np.abs(shot.apparent_c - 11.67).max() < 0.006
 
@@ -62,7 +63,7 @@ def test_noise_pattern_and_dead_pixels_statistics():
     shot = shoot(_uniform_scene(18.0, 18.0, 1.0, shape=(80, 100), cell=0.04), cam)
     a = np.where(shot.dead, np.nan, shot.apparent_c)
     # check values are the model's own inputs (NETD 0.08 K, column sigma 0.03 K, 5 dead pixels) recovered
-    # as sample statistics [physics]; the relative standard error of a sample std is 1/sqrt(2n) [C]:
+    # as sample statistics; the relative standard error of a sample std is 1/sqrt(2n) [C]:
     # rel 0.05 is ~8 of them over 15 000 pixels, rel 0.35 ~7 over 200 columns; dead jumps are >= 15 K.
     col = np.nanmean(a, axis=0)
     resid = a - col[None, :]
@@ -77,8 +78,8 @@ def test_noise_pattern_and_dead_pixels_statistics():
 def test_lens_shading_darkens_corners_towards_housing():
     cam = CameraModel(**dict(_QUIET, shading=0.03), housing_c=10.0)
     a = shoot(_uniform_scene(20.0, 20.0, 1.0), cam).apparent_c
-    # [physics] radiance mixing: the centre pixel sees almost no housing; at the corner 3 % of the
-    # 20 °C radiance is replaced by 10 °C housing radiance, about 0.3 K lower in 7.5-14 um [C]
+    # radiance mixing (Planck's law, 7.5-14 um): the centre pixel sees almost no housing; at the corner
+    # 3 % of the 20 °C radiance is replaced by 10 °C housing radiance, about 0.3 K lower [C]
     assert abs(a[24, 32] - 20.0) < 0.01
     assert a[0, 0] < a[24, 32] - 0.2
 
@@ -93,12 +94,13 @@ def test_truth_footprint_area_on_camera_grid():
     (t,) = truth_in_window(sc, x0_m=x0, x1_m=x1, y0_m=y0, y1_m=y1)
     assert t.area_m2 < sc.truth[0].area_m2  # the bay runs past the top and bottom of the view
     # pixel area matches the surface-grid area in the view to within a rim of half a cell
-    fp = shot.footprints[0]
+    fp = shot.defect_masks[0]
     rows, cols = np.nonzero(fp)
     perimeter_m = 2 * ((np.ptp(rows) + 1) + (np.ptp(cols) + 1)) * p
     assert abs(fp.sum() * p * p - t.area_m2) < perimeter_m * el.cell_m / 2
     # the defect is colder in the image than its surroundings: an empty bay at 20/0 °C reads several K
-    # colder inside (REFERENCE-VALUES §4.2 signature [V]; 1 K margin [CP])
+    # colder inside (ASTM C1060, scope: missing insulation reads as a cold area from inside [V];
+    # 1 K margin [CP])
     assert shot.apparent_c[fp].mean() < shot.apparent_c[~fp].mean() - 1.0
 
 

@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import json
+import subprocess
+import sys
 import warnings
 from pathlib import Path
 
@@ -75,6 +77,19 @@ def test_cli_choices_match_the_scene_package():
 
     assert _FORMATS == FORMATS
     assert _KINDS == tuple(PRESETS)
+
+
+def test_module_entry_point_reports_an_error_in_one_line(tmp_path):
+    # `python -m irseg.scenes OUT` goes through the irseg command line's error map: an output folder
+    # that cannot be made (its parent is a file) is one "Error: ..." line and exit status 1, no traceback
+    blocker = tmp_path / "a_file"
+    blocker.write_text("not a folder")
+    res = subprocess.run([sys.executable, "-m", "irseg.scenes", str(blocker / "out")], capture_output=True,
+                         text=True, timeout=120)
+    assert res.returncode == 1, res.stderr
+    lines = res.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("Error: ") and "a_file" in lines[0], res.stderr
+    assert not (blocker.parent / "out").exists()
 
 
 @pytest.mark.slow

@@ -229,9 +229,9 @@ def test_result_contract_and_determinism(rng: np.random.Generator) -> None:
 
 @pytest.mark.parametrize("dtype, out", [(np.float64, np.float64), (np.int16, np.float64), (np.uint16, np.float64)])
 def test_dtypes(dtype: type, out: type) -> None:
-    g = np.full((32, 32), 2000)
-    g[8:24, 8:24] = 2300  # e.g. centi-kelvin counts
-    seg = segment(g.astype(dtype), min_step_k=50.0)
+    g = np.full((32, 32), 293)
+    g[8:24, 8:24] = 296  # whole kelvin, as an integer export stores them; a 3 K step, 6 × min_step_k
+    seg = segment(g.astype(dtype), min_step_k=0.5)
     assert seg.u.dtype == out
     assert seg.n_regions == 2
 

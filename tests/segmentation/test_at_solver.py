@@ -2,7 +2,7 @@
 
 Sources of the check values are named beside each check:
 - Ambrosio & Tortorelli, Comm. Pure Appl. Math. 43:999-1036 (1990): the phase-field
-  edge term Gamma-converges to the length of the jump set [M: from memory].
+  edge term Gamma-converges to the length of the jump set, from memory [M].
 - skimage.segmentation.chan_vese (scikit-image), the reference two-phase segmenter.
 - Mumford & Shah, Comm. Pure Appl. Math. 42:577-685 (1989): piecewise-smooth model,
   a jump on a ramp is found where a piecewise-constant model fails [M].

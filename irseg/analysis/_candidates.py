@@ -1,0 +1,147 @@
+"""Candidate selection: regions whose contrast against their local sound ring is significant."""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import ndimage
+
+from ._geometry import MIN_SPOT_PX
+from ._reference import Plane, RingReference, rim_extent_px, ring_reference
+
+__all__ = [
+    "Candidate",
+    "significance_threshold_k",
+    "select_candidates",
+    "GAP_PX",
+    "RIM_PX",
+    "RIM_FRACTION",
+    "MAX_RIM_PX",
+    "RING_SIGMA_FACTOR",
+]
+
+GAP_PX = 2.0  # the ring starts at least beyond the jump band
+RIM_PX = 3.0  # the thermal region takes at least this much of the soft rim
+RIM_FRACTION = 0.3  # the soft rim is searched out to 0.3·√area ...
+MAX_RIM_PX = 30.0  # ... but not beyond 30 px
+RING_SIGMA_FACTOR = 2.0  # contrast must also exceed this many ring spreads
+
+
+@dataclass
+class Candidate:
+    """A region whose contrast against its local ring is significant.
+
+    Crop coordinates: the region's pixels ``rr, cc`` are relative to ``(r0, c0)``,
+    the top-left corner of ``crop`` in the image.
+    """
+
+    label: int
+    r0: int
+    c0: int
+    crop: tuple[slice, slice]
+    region: np.ndarray  # bool mask of the region in the crop
+    dist: np.ndarray  # distance of each crop pixel to the region, px
+    ref: RingReference
+    mean_c: float
+    reference_c: float
+    delta_k: float
+    gap_px: float  # where the ring starts: the soft rim has faded there
+    rr: np.ndarray  # region pixels in the crop
+    cc: np.ndarray
+    ref_in: np.ndarray  # the reference plane on them, °C
+
+    @property
+    def rim_reach_px(self) -> float:
+        """How far from the region its soft rim belongs to it, px."""
+        return max(RIM_PX, self.gap_px)
+
+
+def significance_threshold_k(*, noise_k: float, netd_k: float, min_step_k: float, min_contrast_k: float | None) -> float:
+    """Smallest |contrast| kept: ``min_contrast_k`` if set, else ``max(3·noise, ½·min_step_k)``."""
+    if min_contrast_k is not None:
+        return float(min_contrast_k)
+    return max(3.0 * max(noise_k, netd_k), 0.5 * min_step_k)
+
+
+def _ring_width(area_px: int) -> float:
+    return float(np.clip(round(0.5 * math.sqrt(area_px)), 3, 15))
+
+
+def select_candidates(
+    *, labels: np.ndarray, t: np.ndarray, u: np.ndarray, allowed: np.ndarray, sound: np.ndarray,
+    areas: np.ndarray, means_u: np.ndarray, slices: list, noise_k: float, threshold_k: float, trend: Plane,
+) -> list[Candidate]:
+    """Every region that is not sound, at least :data:`MIN_SPOT_PX` large and significant, by label.
+
+    Parameters
+    ----------
+    labels : (M, N) int ndarray
+        Region labels 1..n, 0 masked.
+    t, u : (M, N) ndarray
+        Measured and smooth temperature, °C.
+    allowed : (M, N) bool ndarray
+        Pixels that may serve as a sound reference.
+    sound : (n + 1,) bool ndarray
+        Sound regions (:func:`._reference.find_sound_regions`).
+    areas, means_u : (n + 1,) ndarray
+        Pixel count and mean of ``u`` per label.
+    slices : list
+        ``scipy.ndimage.find_objects(labels)``.
+    noise_k, threshold_k : float
+        Noise and significance threshold, K.
+    trend : Plane
+        The image's sound trend (the reference of last resort).
+    """
+    n = areas.size - 1
+    return [
+        c for lab in range(1, n + 1)
+        if slices[lab - 1] is not None and not sound[lab] and areas[lab] >= MIN_SPOT_PX
+        for c in [_local_contrast(lab, slices[lab - 1], labels=labels, t=t, u=u, allowed=allowed,
+                                  area_px=int(areas[lab]), mean_u=float(means_u[lab]), noise_k=noise_k,
+                                  threshold_k=threshold_k, trend=trend)]
+        if c is not None
+    ]
+
+
+def _local_contrast(
+    lab: int, sl: tuple[slice, slice], *, labels: np.ndarray, t: np.ndarray, u: np.ndarray, allowed: np.ndarray,
+    area_px: int, mean_u: float, noise_k: float, threshold_k: float, trend: Plane,
+) -> Candidate | None:
+    """Local ring reference of one candidate region; None when its contrast is not significant."""
+    shape = labels.shape
+    width = _ring_width(area_px)
+    max_gap = float(np.clip(RIM_FRACTION * math.sqrt(area_px), GAP_PX, MAX_RIM_PX))
+    gap = GAP_PX
+    for factor in (1.0, 4.0):  # a wider crop only when the first ring is too thin
+        pad = int(math.ceil(max_gap + factor * width)) + 1
+        r0, r1 = max(0, sl[0].start - pad), min(shape[0], sl[0].stop + pad)
+        c0, c1 = max(0, sl[1].start - pad), min(shape[1], sl[1].stop + pad)
+        crop = (slice(r0, r1), slice(c0, c1))
+        region = labels[crop] == lab
+        dist = ndimage.distance_transform_edt(~region)
+        extent = (sl[0].start - r0, sl[1].start - c0, sl[0].stop - 1 - r0, sl[1].stop - 1 - c0)
+        if factor == 1.0:
+            gap = rim_extent_px(
+                u_crop=u[crop], dist_crop=dist, allowed_crop=allowed[crop], region_mean_u=mean_u,
+                noise_k=noise_k, min_px=GAP_PX, max_px=max_gap, width_px=width,
+            )
+        ref = ring_reference(
+            u_crop=u[crop], t_crop=t[crop], dist_crop=dist, allowed_crop=allowed[crop],
+            row_offset=r0, col_offset=c0, gap_px=gap, width_px=width, trend=trend, extent=extent,
+            widen=factor > 1.0,
+        )
+        if ref.source == "ring":
+            break
+    rr, cc = np.nonzero(region)
+    ref_vals = ref.plane.evaluate(rr + float(r0), cc + float(c0))
+    t_reg = t[crop][region]
+    mean_c = float(t_reg.mean())
+    reference_c = float(ref_vals.mean())
+    delta = mean_c - reference_c
+    needed = max(threshold_k, RING_SIGMA_FACTOR * ref.sigma_k)
+    # the median contrast must agree: a sound region pulled by a neighbour's rim is not an anomaly
+    if abs(delta) < needed or abs(float(np.median(t_reg - ref_vals))) < needed:
+        return None
+    return Candidate(lab, r0, c0, crop, region, dist, ref, mean_c, reference_c, delta, gap, rr, cc, ref_vals)

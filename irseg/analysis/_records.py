@@ -1,0 +1,195 @@
+"""From measured candidates to :class:`Anomaly` records: units, cause, heat, bands, severity.
+
+A *unit* is what the thermographer calls one anomaly: a candidate with the fragments
+absorbed into it, or every piece of one framing member.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, replace
+
+import numpy as np
+
+from ..types import SurveyMeta
+from ._classify import classify_cause
+from ._confidence import BandInputs, confidence_bands
+from ._framing import LineInfo
+from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
+from ._thermal_region import Measured
+from ._types import Anomaly, severity_key, severity_score
+
+__all__ = ["ImageContext", "group_units", "anomaly_record", "rank_by_severity", "FRSI_PERCENTILE"]
+
+FRSI_PERCENTILE = 5.0
+
+
+@dataclass(frozen=True)
+class ImageContext:
+    """What every anomaly of one image is measured and judged with.
+
+    Attributes
+    ----------
+    temperature_c : (M, N) ndarray
+        Corrected temperatures, °C.
+    meta : SurveyMeta
+        The metadata in force (air temperatures, analysis settings, emissivity,
+        uncertainties, camera NETD).
+    threshold_k : float
+        Significance threshold, K.
+    pixel_m, pixel_area_m2 : float or None
+        One pixel's side on the surface (m) and its area with the tilt factor (m²).
+    h_convective_w_m2k, h_radiative_w_m2k : float
+        Parts of the surface coefficient.
+    sky_limit_c : float or None
+        Roofs: temperature of a surface with no conduction from below, °C.
+    delta_air_k : float or None
+        Inside minus outside air temperature when positive, K.
+    """
+
+    temperature_c: np.ndarray
+    meta: SurveyMeta
+    threshold_k: float
+    pixel_m: float | None
+    pixel_area_m2: float | None
+    h_convective_w_m2k: float
+    h_radiative_w_m2k: float
+    sky_limit_c: float | None
+    delta_air_k: float | None
+
+    @property
+    def h_w_m2k(self) -> float:
+        """The surface coefficient ``h_c + h_r``, W/m²K."""
+        return self.h_convective_w_m2k + self.h_radiative_w_m2k
+
+
+def group_units(
+    measured: list[Measured], *, host_of: dict[int, int], sets: dict[int, LineInfo], lines: dict[int, LineInfo]
+) -> list[list[Measured]]:
+    """Units in raster order of their top-left corner.
+
+    Pieces of one framing member (same ``(set, line)``) form one unit, a member
+    interrupted by other anomalies; fragments join their host's unit.
+    """
+    members: dict[tuple[int, int], list[Measured]] = {}
+    units: list[list[Measured]] = []
+    by_label: dict[int, list[Measured]] = {}
+    for m in measured:
+        if m.cand.label in host_of:
+            continue
+        info = sets.get(m.cand.label) or lines.get(m.cand.label)
+        if info is None:
+            units.append([m])
+            by_label[m.cand.label] = units[-1]
+        else:
+            members.setdefault(info[2], []).append(m)
+            by_label[m.cand.label] = members[info[2]]
+    for m in measured:
+        if m.cand.label in host_of:
+            by_label[host_of[m.cand.label]].append(m)
+    units.extend(members.values())
+    units.sort(key=lambda u: (min(m.bbox[0] for m in u), min(m.bbox[1] for m in u), min(m.cand.label for m in u)))
+    return units
+
+
+@dataclass(frozen=True)
+class _UnitPixels:
+    rows: np.ndarray  # image rows of the measured extent
+    cols: np.ndarray
+    values_c: np.ndarray  # temperatures there
+    reference_c: np.ndarray  # local sound reference there
+    loss_sum_kpx: float  # over the thermal region of the whole unit
+    n_rim: int  # soft-rim pixels of the unit, each counted once
+
+
+def _unit_pixels(unit: list[Measured], main: Measured, t: np.ndarray) -> _UnitPixels:
+    rows = np.concatenate([m.cand.rr[m.extent_mask] + m.cand.r0 for m in unit])
+    cols = np.concatenate([m.cand.cc[m.extent_mask] + m.cand.c0 for m in unit])
+    refs = np.concatenate([m.cand.ref_in[m.extent_mask] for m in unit])
+    # a soft-rim pixel shared by pieces of one anomaly counts once (the largest piece's value)
+    ordered = [main] + [m for m in unit if m is not main]
+    rim_idx = np.concatenate([m.rim_index for m in ordered])
+    rim_loss = np.concatenate([m.rim_loss_k for m in ordered])
+    _, first = np.unique(rim_idx, return_index=True)
+    loss_sum = float(sum(m.loss_sum_kpx for m in unit)) + float(rim_loss[first].sum())
+    return _UnitPixels(rows, cols, t[rows, cols], refs, loss_sum, int(first.size))
+
+
+def _cause(
+    unit: list[Measured], main: Measured, *, ctx: ImageContext, delta_k: float, mean_c: float,
+    sets: dict[int, LineInfo], lines: dict[int, LineInfo], host_of: dict[int, int],
+) -> tuple[str, str]:
+    """Cause of the unit's main piece, the reason telling how many pieces were joined."""
+    cause, reason = classify_cause(
+        main.shape, kind=main.kind, view=ctx.meta.surface.view, delta_k=delta_k, mean_c=mean_c,
+        threshold_k=ctx.threshold_k, pixel_m=ctx.pixel_m, regular_set=sets.get(main.cand.label),
+        delta_air_k=ctx.delta_air_k, sky_limit_c=ctx.sky_limit_c, line=lines.get(main.cand.label),
+    )
+    n_frag = sum(1 for m in unit if m.cand.label in host_of)
+    if len(unit) - n_frag > 1:
+        reason += f" ({len(unit) - n_frag} pieces of one member, interrupted by other anomalies or the segmentation)"
+    if n_frag:
+        reason += f" (with {n_frag} touching fragment(s) of similar temperature)"
+    if any(m.cand.ref.source == "trend" for m in unit):
+        reason += "; reference: the image's sound trend (no sound surface around it)"
+    return cause, reason
+
+
+def anomaly_record(
+    anomaly_id: int, unit: list[Measured], *, ctx: ImageContext, sets: dict[int, LineInfo],
+    lines: dict[int, LineInfo], host_of: dict[int, int], labels_out: np.ndarray,
+) -> Anomaly:
+    """The :class:`Anomaly` of one unit (``severity`` 0: ranked by :func:`rank_by_severity`).
+
+    Writes ``anomaly_id`` over the unit's measured extent into ``labels_out``.
+    """
+    meta = ctx.meta
+    cam, surf, air, an = meta.camera, meta.surface, meta.air, meta.analysis
+    main = max(unit, key=lambda m: (m.shape.area_px, -m.cand.label))
+    px = _unit_pixels(unit, main, ctx.temperature_c)
+    labels_out[px.rows, px.cols] = anomaly_id
+    vals = px.values_c
+    area_px = int(vals.size)
+    mean_c = float(vals.mean())
+    reference_c = float(px.reference_c.mean())
+    delta_k = mean_c - reference_c
+    cause, reason = _cause(unit, main, ctx=ctx, delta_k=delta_k, mean_c=mean_c, sets=sets, lines=lines,
+                           host_of=host_of)
+    px_area = ctx.pixel_area_m2
+    area_m2 = None if px_area is None else area_px * px_area
+    expected_kind = "cold" if surf.view == "interior" else "warm"
+    excess_w = None
+    if px_area is not None and main.kind == expected_kind:
+        excess_w = excess_heat_w(h_w_m2k=ctx.h_w_m2k, loss_sum_kpx=px.loss_sum_kpx, pixel_area_m2=px_area)
+    kwh = annual_energy_kwh(excess_w, inside_c=air.inside_c, outside_c=air.outside_c, degree_days=an.degree_days)
+    f_rsi = mould = None
+    if surf.view == "interior":
+        t_si = float(np.percentile(vals, FRSI_PERCENTILE))
+        f_rsi = temperature_factor(t_si, inside_c=air.inside_c, outside_c=air.outside_c)
+        mould = None if f_rsi is None else bool(f_rsi < an.frsi_limit)
+    bands = BandInputs(
+        area_px=area_px, perimeter_px=int(sum(m.shape.perimeter_px for m in unit)), loss_sum_kpx=px.loss_sum_kpx,
+        thermal_area_px=int(sum(m.region_area_px for m in unit)) + px.n_rim, pixel_area_m2=px_area,
+        h_convective_w_m2k=ctx.h_convective_w_m2k, h_radiative_w_m2k=ctx.h_radiative_w_m2k,
+        emissivity=surf.emissivity, emissivity_uncertainty_abs=surf.emissivity_uncertainty,
+        distance_uncertainty_rel=an.distance_uncertainty, h_uncertainty_rel=an.h_uncertainty, netd_k=cam.netd_k,
+        reference_sigma_k=max(m.cand.ref.sigma_k for m in unit),
+    )
+    a_lo, a_hi, w_lo, w_hi = confidence_bands(bands, seed=an.seed, anomaly_id=anomaly_id, area_m2=area_m2,
+                                              excess_w=excess_w)
+    return Anomaly(
+        anomaly=anomaly_id, kind=main.kind, cause=cause, reason=reason, area_px=area_px,
+        area_m2=area_m2, area_low_m2=a_lo, area_high_m2=a_hi, mean_c=mean_c, min_c=float(vals.min()),
+        max_c=float(vals.max()), reference_c=reference_c, delta_k=float(delta_k), excess_w=excess_w,
+        excess_low_w=w_lo, excess_high_w=w_hi, excess_kwh_year=kwh, f_rsi=f_rsi, mould_risk=mould,
+        centroid_row=float(px.rows.mean()), centroid_col=float(px.cols.mean()),
+        bbox_row0=int(px.rows.min()), bbox_col0=int(px.cols.min()),
+        bbox_row1=int(px.rows.max()) + 1, bbox_col1=int(px.cols.max()) + 1,
+        severity=0,
+        severity_score=severity_score(mould_risk=mould, excess_kwh_year=kwh, excess_w=excess_w, area_px=area_px),
+    )
+
+
+def rank_by_severity(drafts: list[Anomaly]) -> tuple[Anomaly, ...]:
+    """The anomalies in id order with ``severity`` 1..k by :func:`severity_key` (1 = repair first)."""
+    rank = {a.anomaly: k for k, a in enumerate(sorted(drafts, key=severity_key), start=1)}
+    return tuple(replace(a, severity=rank[a.anomaly]) for a in drafts)

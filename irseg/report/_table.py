@@ -1,0 +1,162 @@
+"""The survey's anomaly record and its column table (a leaf: standard library and irseg.errors only).
+
+One typed record, :class:`SurveyAnomaly`, carries an anomaly through the survey-level
+outputs: :mod:`irseg.batch` builds it from each image's ``result.json`` and ranks it across
+the survey, ``anomalies.csv`` and the ``anomalies`` list of ``summary.json`` are its
+:func:`anomaly_table`, and :func:`irseg.report.render_report` reads it back from the summary.
+It lives beside the report because the batch imports the report, never the other way
+round; it loads neither the analysis nor OpenCV.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass, fields
+from typing import Any
+
+from ..errors import ConfigError
+
+__all__ = ["ANOMALY_COLUMNS", "SurveyAnomaly", "anomaly_table"]
+
+#: Columns of OUT/anomalies.csv and of the rows of summary.json's ``anomalies``, in order
+#: (an interface: other tools read it).
+ANOMALY_COLUMNS = (
+    "image", "anomaly", "kind", "cause", "reason", "area_m2", "area_low_m2", "area_high_m2",
+    "mean_c", "min_c", "max_c", "reference_c", "delta_k", "excess_w", "excess_low_w", "excess_high_w",
+    "excess_kwh_year", "f_rsi", "mould_risk", "centroid_row", "centroid_col",
+    "bbox_row0", "bbox_col0", "bbox_row1", "bbox_col1", "severity",
+    # beyond the contract's list, appended so its order stays intact: the area in pixels is the one
+    # area that is known when the shot's geometry is not
+    "area_px",
+)
+
+
+@dataclass(frozen=True)
+class SurveyAnomaly:
+    """One anomaly of a survey: its image, every field of :class:`irseg.analysis.Anomaly`, its survey rank.
+
+    Field names are the column names of :data:`ANOMALY_COLUMNS`. The values are JSON data as
+    written to the survey's files (floats rounded by :func:`irseg.io.normalise_json`, NaN as
+    None), so every figure may be None; fields absent from a row read as None.
+
+    Attributes
+    ----------
+    image : str
+        The image's name in the survey's outputs.
+    anomaly, kind, cause, reason, area_px, area_m2 ... bbox_col1, severity_score
+        As :class:`irseg.analysis.Anomaly` (same names, same units).
+    image_severity : int or None
+        Rank within the image, 1 = repair first (``Anomaly.severity``; ``severity`` in result.json).
+    severity : int or None
+        Rank across the survey, 1 = repair first (the ``severity`` column); None until ranked.
+    """
+
+    image: str
+    anomaly: int
+    kind: str | None = None
+    cause: str | None = None
+    reason: str | None = None
+    area_px: int | None = None
+    area_m2: float | None = None
+    area_low_m2: float | None = None
+    area_high_m2: float | None = None
+    mean_c: float | None = None
+    min_c: float | None = None
+    max_c: float | None = None
+    reference_c: float | None = None
+    delta_k: float | None = None
+    excess_w: float | None = None
+    excess_low_w: float | None = None
+    excess_high_w: float | None = None
+    excess_kwh_year: float | None = None
+    f_rsi: float | None = None
+    mould_risk: bool | None = None
+    centroid_row: float | None = None
+    centroid_col: float | None = None
+    bbox_row0: int | None = None
+    bbox_col0: int | None = None
+    bbox_row1: int | None = None
+    bbox_col1: int | None = None
+    image_severity: int | None = None
+    severity_score: float | None = None
+    severity: int | None = None
+
+    @classmethod
+    def from_json(cls, data: Mapping[str, Any], *, where: str = "anomaly") -> SurveyAnomaly:
+        """The record of a JSON object keyed by field name (a summary row, :meth:`to_json`).
+
+        Parameters
+        ----------
+        data : mapping
+            ``image`` and ``anomaly`` are required; other missing keys read as None and
+            keys that are not fields are ignored.
+        where : str
+            Names the object in error messages (e.g. ``"summary.json: anomalies[3]"``).
+
+        Raises
+        ------
+        ConfigError
+            ``data`` is not a mapping, or a value has the wrong JSON type.
+        """
+        if not isinstance(data, Mapping):
+            raise ConfigError(f"{where}: must be a JSON object of anomaly fields, got {type(data).__name__}")
+        values = {name: _checked(data, name, kind, where) for name, kind in _KINDS.items()}
+        return cls(**values)
+
+    def to_json(self) -> dict[str, Any]:
+        """Every field by name (JSON data; :meth:`from_json` reads it back to an equal record)."""
+        return {name: getattr(self, name) for name in _KINDS}
+
+
+def anomaly_table(
+    records: Iterable[SurveyAnomaly], columns: Sequence[str] = ANOMALY_COLUMNS
+) -> dict[str, list[Any]]:
+    """The records as columns: ``{column: [value of each record]}``, ready for ``pandas.DataFrame``.
+
+    Like :func:`skimage.measure.regionprops_table`, one list per requested property, all of
+    the records' length, in the records' order.
+
+    Parameters
+    ----------
+    records : iterable of SurveyAnomaly
+    columns : sequence of str
+        Field names, in order (default: the columns of ``anomalies.csv``).
+
+    Returns
+    -------
+    dict of str to list
+
+    Raises
+    ------
+    ConfigError
+        A column that is not a field of :class:`SurveyAnomaly`.
+    """
+    unknown = [c for c in columns if c not in _KINDS]
+    if unknown:
+        raise ConfigError(
+            f"anomaly_table: no column {', '.join(map(repr, unknown))}; choose from {', '.join(_KINDS)}"
+        )
+    rows = list(records)
+    return {column: [getattr(r, column) for r in rows] for column in columns}
+
+
+# --------------------------------------------------------------------------- JSON types
+
+#: JSON type of each field, from the annotations: (allowed Python types, null allowed).
+_TYPES: dict[str, tuple[type, ...]] = {"str": (str,), "int": (int,), "float": (int, float), "bool": (bool,)}
+_KINDS: dict[str, tuple[str, bool]] = {
+    f.name: (str(f.type).split(" | ")[0], str(f.type).endswith("| None")) for f in fields(SurveyAnomaly)
+}
+
+
+def _checked(data: Mapping[str, Any], name: str, kind: tuple[str, bool], where: str) -> Any:
+    base, nullable = kind
+    if name not in data and not nullable:
+        raise ConfigError(f"{where}: the key {name!r} is missing; write the file again with irseg")
+    value = data.get(name)
+    if value is None and nullable:
+        return None
+    if isinstance(value, _TYPES[base]) and (base == "bool" or not isinstance(value, bool)):
+        return value
+    null = " or null" if nullable else ""
+    raise ConfigError(f"{where}: {name} = {value!r} must be a JSON {base}{null}; write the file again with irseg")

@@ -1,0 +1,127 @@
+"""Scene presets: the element, defects and conditions of each kind of scene ``make_preset`` simulates.
+
+Each builder returns ``(element, defects, conditions, view, night schedule or None)``; the
+keyword options are the ones ``make_preset`` accepts for that kind.
+"""
+
+from __future__ import annotations
+
+import inspect
+
+from irseg.errors import ConfigError
+from irseg.scenes._defects import (
+    Defect,
+    missing_bay,
+    missing_patch,
+    partial_void,
+    settled_insulation,
+    slab_edge,
+    wet_patch,
+)
+from irseg.scenes._defects import lintel as lintel_defect  # the presets' option is called "lintel"
+from irseg.scenes._elements import Block, flat_roof, masonry_wall, timber_ceiling, timber_frame_wall
+from irseg.scenes._materials import air_layer
+from irseg.scenes._physics import Conditions, NightSchedule
+from irseg.scenes._scene import Scene, simulate_scene
+
+__all__ = ["PRESETS", "make_preset"]
+
+
+def _timber_wall(*, spacing_m=0.6, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, defects=("bay:1",),
+                 lintel=None):
+    el = timber_frame_wall(stud_spacing_m=spacing_m, first_stud_m=0.3 if spacing_m == 0.6 else 0.2)
+    ds = []
+    for spec in defects:
+        kind, *args = spec.split(":")
+        if kind == "bay":
+            ds.append(missing_bay(el, int(args[0]), y0_m=float(args[1]) if len(args) > 1 else 0.0))
+        elif kind == "settled":
+            ds.append(settled_insulation(el, int(args[0]), void_m=float(args[1])))
+        elif kind == "void":
+            x0, x1, y0, y1, depth = (float(a) for a in args)
+            ds.append(partial_void(el, x0_m=x0, x1_m=x1, y0_m=y0, y1_m=y1, depth_m=depth))
+        else:
+            raise ConfigError(f"unknown timber-wall defect {spec!r}; use bay:N, settled:N:M or void:x0:x1:y0:y1:d")
+    if lintel is not None:
+        ds.append(lintel_defect(el, x0_m=lintel[0], x1_m=lintel[1], y0_m=lintel[2], height_m=lintel[3]))
+    cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, outside_exposure="ventilated",
+                      top_height_m=2.1)
+    return el, tuple(ds), cond, "interior", None
+
+
+def _ceiling(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, patch=(0.9, 1.5, 0.6, 1.2)):
+    el = timber_ceiling()
+    z0 = el.insulation[0]
+    mat = air_layer(el.thickness_m() - z0, "upward")
+    d = Defect("displaced_insulation", "missing_insulation",
+               (Block(mat, patch[0], patch[1], patch[2], patch[3], z0, el.thickness_m()),),
+               "insulation pushed aside over a patch (both layers)")
+    cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, outside_exposure="loft",
+                      top_height_m=2.4)
+    return el, (d,), cond, "interior", None
+
+
+def _masonry(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, slab_y=None, patch=None, lintel=None, void=None,
+             sky_view=(0.4, 0.5)):
+    el = masonry_wall()
+    ds = []
+    if slab_y is not None:
+        ds.append(slab_edge(el, y0_m=slab_y))
+    if patch is not None:
+        ds.append(missing_patch(el, x0_m=patch[0], x1_m=patch[1], y0_m=patch[2], y1_m=patch[3]))
+    if lintel is not None:
+        ds.append(lintel_defect(el, x0_m=lintel[0], x1_m=lintel[1], y0_m=lintel[2], height_m=lintel[3]))
+    if void is not None:
+        ds.append(partial_void(el, x0_m=void[0], x1_m=void[1], y0_m=void[2], y1_m=void[3], depth_m=void[4]))
+    cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, sky_view_top=sky_view[0],
+                      sky_view_bottom=sky_view[1], top_height_m=3.0)
+    return el, tuple(ds), cond, "exterior", None
+
+
+def _roof(*, inside_c=20.0, wind_m_s=1.0, insulation="eps", wet=((1.2, 2.4, 0.9, 1.9, 0.15),), dt_s=900.0,
+          end_h=22.0, air_mean_c=10.0):
+    el = flat_roof(insulation=insulation)
+    ds = tuple(wet_patch(el, x0_m=w[0], x1_m=w[1], y0_m=w[2], y1_m=w[3], water_fraction=w[4], name=f"wet_{i}")
+               for i, w in enumerate(wet))
+    cond = Conditions(inside_c=inside_c, wind_m_s=wind_m_s, sky_view_top=1.0, sky_view_bottom=1.0)
+    return el, ds, cond, "roof", NightSchedule(dt_s=dt_s, end_h=end_h, air_mean_c=air_mean_c)
+
+
+PRESETS = {"timber-wall": _timber_wall, "ceiling": _ceiling, "masonry-wall": _masonry, "flat-roof": _roof}
+
+
+def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
+    """Simulate one preset scene.
+
+    Parameters
+    ----------
+    kind : {"timber-wall", "ceiling", "masonry-wall", "flat-roof"}
+    name : str
+        Scene name carried into the truth.
+    **options
+        Preset options: ``inside_c``, ``outside_c``, ``wind_m_s`` for all; timber wall:
+        ``spacing_m``, ``defects`` (``"bay:N[:y0]"``, ``"settled:N:void_m"``,
+        ``"void:x0:x1:y0:y1:depth"``), ``lintel`` (x0, x1, y0, height); ceiling: ``patch``
+        (x0, x1, y0, y1); masonry wall: ``slab_y``, ``patch``, ``lintel``, ``void``
+        (x0, x1, y0, y1, depth), ``sky_view`` (top, bottom); flat roof: ``insulation``,
+        ``wet`` ((x0, x1, y0, y1, water fraction), ...), ``dt_s``, ``end_h``, ``air_mean_c``.
+
+    Returns
+    -------
+    Scene
+
+    Raises
+    ------
+    ConfigError
+        Unknown kind or defect specification.
+    """
+    try:
+        builder = PRESETS[kind]
+    except KeyError:
+        raise ConfigError(f"scene kind {kind!r} is unknown; use one of {sorted(PRESETS)}") from None
+    allowed = set(inspect.signature(builder).parameters)
+    unknown = sorted(set(options) - allowed)
+    if unknown:
+        raise ConfigError(f"scene kind {kind!r} has no option(s) {unknown}; valid: {sorted(allowed)}")
+    el, ds, cond, view, night = builder(**options)
+    return simulate_scene(el, ds, cond, view=view, name=name, night=night)
