@@ -1,20 +1,25 @@
-"""Survey metadata: layering, validation messages, JSON round trip."""
+"""Survey metadata: layering, validation messages, defaults resolved once, renamed keys, JSON round trip."""
 
 from __future__ import annotations
 
+import dataclasses
 import json
+import os
+import threading
 
 import pytest
 
-from irseg.errors import MetadataError
+from irseg._defaults import resolve_reflected_c
+from irseg.errors import MetadataError, MetadataWarning
 from irseg.metadata import (
     check_overrides,
     load_metadata,
+    merge_metadata,
     meta_from_dict,
     meta_to_dict,
     parse_metadata_text,
 )
-from irseg.types import SurveyMeta
+from irseg.types import Air, Assumption, Surface, SurveyMeta
 
 # the schema example of the survey-metadata issue (common practice values of an interior survey)
 EXAMPLE = """
@@ -102,7 +107,9 @@ def test_out_of_range_emissivity_message():
         ('[surface]\nheat_flow = "up"', "heat_flow"),
         ("[analysis]\ndegree_days = -1", "degree_days = -1 is outside [0"),
         ("[analysis]\nfrsi_limit = 1.0", "frsi_limit = 1.0 is outside (0, 1)"),
-        ("[analysis]\nh_uncertainty = -0.1", "h_uncertainty = -0.1 is outside [0"),
+        ("[analysis]\nh_uncertainty_rel = -0.1", "h_uncertainty_rel = -0.1 is outside [0"),
+        ("[analysis]\ndistance_uncertainty_rel = -1", "distance_uncertainty_rel = -1 is outside [0"),
+        ("[surface]\nemissivity_uncertainty_abs = 1", "emissivity_uncertainty_abs = 1 is outside [0, 1)"),
         ("[analysis]\nseed = 1.5", "seed = 1.5 is a float, not an integer"),
         ("[segment]\nnoise_k = 0", "noise_k = 0 is outside (0"),
         ("[segment]\nmin_step_k = -1", "min_step_k = -1 is outside (0"),
@@ -136,8 +143,12 @@ def _write(path, text):
     return path
 
 
+# a folder file giving the three [surface] keys whose absence is an assumption, for tests about other things
+FULL_SURFACE = "[surface]\nemissivity = 0.90\nreflected_c = 19.0\nview = 'interior'\n"
+
+
 def test_sidecar_overrides_folder_key_by_key(tmp_path):
-    _write(tmp_path / "survey.toml", "[surface]\nemissivity = 0.90\nview = 'exterior'\n[air]\noutside_c = 2.0\n")
+    _write(tmp_path / "survey.toml", "[surface]\nemissivity = 0.90\nview = 'exterior'\nreflected_c = -5.0\n[air]\noutside_c = 2.0\n")
     _write(tmp_path / "wall_03.toml", "[surface]\nemissivity = 0.95\n")
     meta = load_metadata(tmp_path / "wall_03.tiff")
     assert meta.surface.emissivity == 0.95  # sidecar wins
@@ -149,7 +160,7 @@ def test_sidecar_overrides_folder_key_by_key(tmp_path):
 
 
 def test_overrides_override_sidecar(tmp_path):
-    _write(tmp_path / "survey.toml", "[surface]\nemissivity = 0.90\n")
+    _write(tmp_path / "survey.toml", FULL_SURFACE)
     _write(tmp_path / "a.toml", "[surface]\nemissivity = 0.95\n[camera]\ndistance_m = 3.0\n")
     meta = load_metadata(tmp_path / "a.png", overrides={"surface": {"emissivity": 0.80}})
     assert meta.surface.emissivity == 0.80
@@ -164,10 +175,22 @@ def test_overrides_validated_with_source_name():
         check_overrides({"camera": {"distanc_m": 3}})
 
 
-def test_no_files_gives_defaults(tmp_path):
-    meta = load_metadata(tmp_path / "x.npy")
-    assert meta == SurveyMeta()
+def test_no_files_gives_defaults_and_records_what_was_assumed(tmp_path):
+    with pytest.warns(MetadataWarning) as record:
+        meta = load_metadata(tmp_path / "x.npy")
+    # the documented defaults (irseg.types): interior view, emissivity 0.93 [CP: painted and mineral
+    # building surfaces are 0.90-0.95, from memory], reflected 20 °C room temperature [CP]
+    assumed = {a.key: a.value for a in meta.assumed}
+    assert assumed == {"surface.view": "interior", "surface.emissivity": 0.93, "surface.reflected_c": 20.0}
+    assert meta == dataclasses.replace(
+        SurveyMeta(), surface=Surface(reflected_c=20.0), assumed=meta.assumed
+    )  # nothing else differs from the defaults
     assert meta.camera.hfov_deg is None  # missing geometry is not an error here
+    messages = [str(w.message) for w in record]
+    assert len(messages) == 3
+    assert any('view taken as "interior"' in m for m in messages)
+    assert any("emissivity taken as 0.93" in m for m in messages)
+    assert any("reflected temperature taken as 20 °C" in m for m in messages)
 
 
 def test_error_in_sidecar_names_the_sidecar(tmp_path):
@@ -190,3 +213,179 @@ def test_meta_to_dict_json_round_trip(tmp_path):
     text = json.dumps(d)  # JSON-ready
     assert json.loads(text)["camera"]["band_um"] == [7.5, 14.0]
     assert meta_from_dict(json.loads(text)) == meta
+
+
+def test_meta_round_trip_keeps_the_assumptions(tmp_path):
+    with pytest.warns(MetadataWarning):
+        meta = load_metadata(tmp_path / "img.tif", overrides={"air": {"inside_c": 21.5}})
+    record = json.loads(json.dumps(meta_to_dict(meta)))
+    (entry,) = [a for a in record["assumed"] if a["key"] == "surface.reflected_c"]
+    assert entry["value"] == 21.5 and "inside air temperature, 21.5 °C" in entry["reason"]
+    assert meta_from_dict(record) == meta  # every key is in the record: nothing assumed again, no warning
+
+
+def test_meta_from_dict_refuses_a_malformed_assumed_list():
+    with pytest.raises(MetadataError, match="assumed entry"):
+        meta_from_dict({"surface": {"emissivity": 0.9, "view": "interior", "reflected_c": 20.0},
+                        "assumed": [{"key": "surface.view"}]})
+
+
+# ----------------------------------------------------------------------------- defaults resolved once
+# The rule (docs/radiometry.md, irseg._defaults): [surface] reflected_c when given, else the air on the
+# camera's side (inside air for an interior view, outside air for exterior and roof views), else 20 °C.
+# Using the air temperature as a stand-in for the surroundings is common practice [CP] when the
+# reflected temperature was not measured (ASTM E1862 describes how to measure it, from memory).
+
+
+def _surface_toml(view: str | None) -> str:
+    return "[surface]\nemissivity = 0.92\n" + (f'view = "{view}"\n' if view else "")
+
+
+@pytest.mark.parametrize(
+    ("view", "expected", "side"),
+    [("interior", 19.5, "inside"), ("exterior", -2.5, "outside"), ("roof", -2.5, "outside")],
+)
+def test_reflected_assumed_from_the_air_on_the_camera_side(tmp_path, view, expected, side):
+    _write(tmp_path / "survey.toml", _surface_toml(view) + "[air]\ninside_c = 19.5\noutside_c = -2.5\n")
+    with pytest.warns(MetadataWarning) as record:
+        meta = load_metadata(tmp_path / "a.tif")
+    assert meta.surface.reflected_c == expected
+    (message,) = [str(w.message) for w in record]  # one warning, naming the value taken and the fix
+    assert message == (
+        f"no [surface] reflected_c: reflected temperature taken as the {side} air temperature, "
+        f"{expected:g} °C; measure it (reflector method) for an accurate estimate"
+    )
+    assert meta.assumed == (Assumption("surface.reflected_c", expected, message),)
+    # later stages see the resolved value and, through the record, that it was not given
+    assert resolve_reflected_c(meta) == (expected, message)
+
+
+def test_reflected_assumed_20_c_without_air_on_the_camera_side(tmp_path):
+    # only the outside air is known, but the camera is inside: the room-temperature default [CP]
+    _write(tmp_path / "survey.toml", _surface_toml("interior") + "[air]\noutside_c = -2.5\n")
+    with pytest.warns(MetadataWarning, match=r"no air temperature on the camera's side: reflected temperature taken as 20"):
+        meta = load_metadata(tmp_path / "a.tif")
+    assert meta.surface.reflected_c == 20.0
+    assert [a.key for a in meta.assumed] == ["surface.reflected_c"]
+
+
+def test_given_reflected_is_kept_and_nothing_is_assumed(tmp_path, recwarn):
+    _write(tmp_path / "survey.toml", _surface_toml("roof") + "reflected_c = -18.0\n[air]\noutside_c = 1.0\n")
+    meta = load_metadata(tmp_path / "a.tif")
+    assert meta.surface.reflected_c == -18.0 and meta.assumed == ()
+    assert not [w for w in recwarn if issubclass(w.category, MetadataWarning)]
+
+
+def test_reflected_none_in_overrides_means_not_given(tmp_path):
+    _write(tmp_path / "survey.toml", _surface_toml("interior") + "reflected_c = 18.0\n[air]\ninside_c = 21.0\n")
+    with pytest.warns(MetadataWarning, match="taken as the inside air temperature, 21 °C"):
+        meta = load_metadata(tmp_path / "a.tif", overrides={"surface": {"reflected_c": None}})
+    assert meta.surface.reflected_c == 21.0
+
+
+def test_view_and_emissivity_assumed_only_when_no_layer_gives_them():
+    with pytest.warns(MetadataWarning) as record:
+        meta = merge_metadata({"surface": {"reflected_c": 20.0}}, {"surface": {"emissivity": 0.95}})
+    assert meta.assumed == (Assumption("surface.view", "interior", "the default"),)
+    assert [str(w.message) for w in record] == [
+        'no [surface] view given: view taken as "interior" (the default); '
+        'set view = "exterior" or "roof" for shots taken from outside'
+    ]
+    with pytest.warns(MetadataWarning, match=r"emissivity taken as 0.93 \(the default"):
+        meta = merge_metadata({"surface": {"reflected_c": 20.0, "view": "exterior"}})
+    assert [a.key for a in meta.assumed] == ["surface.emissivity"]
+
+
+def test_resolve_reflected_c_on_hand_built_metadata():
+    # the same rule for a SurveyMeta built without load_metadata
+    assert resolve_reflected_c(SurveyMeta(surface=Surface(reflected_c=-30.0))) == (-30.0, None)
+    air = Air(inside_c=21.0, outside_c=-3.0)
+    for view, expected in (("interior", 21.0), ("exterior", -3.0), ("roof", -3.0)):
+        value, reason = resolve_reflected_c(SurveyMeta(surface=Surface(view=view), air=air))
+        assert value == expected and reason is not None and f"{expected:g} °C" in reason
+    value, reason = resolve_reflected_c(SurveyMeta(surface=Surface(view="roof"), air=Air(inside_c=21.0)))
+    assert value == 20.0 and "taken as 20 °C" in reason
+    # a resolved value recorded as assumed keeps its reason: "None" always means "given"
+    recorded = Assumption("surface.reflected_c", 21.0, "why")
+    assert resolve_reflected_c(SurveyMeta(surface=Surface(reflected_c=21.0), assumed=(recorded,))) == (21.0, "why")
+
+
+# ----------------------------------------------------------------------------- renamed keys
+
+
+@pytest.mark.parametrize(
+    ("section", "old", "new", "value"),
+    [
+        ("analysis", "distance_uncertainty", "distance_uncertainty_rel", 0.1),
+        ("analysis", "h_uncertainty", "h_uncertainty_rel", 0.3),
+        ("surface", "emissivity_uncertainty", "emissivity_uncertainty_abs", 0.04),
+    ],
+)
+def test_old_key_names_still_read_with_a_warning(section, old, new, value):
+    with pytest.warns(MetadataWarning, match=rf"^survey.toml: \[{section}\] {old} is renamed: use {new}"):
+        tree = parse_metadata_text(f"[{section}]\n{old} = {value}\n", source="survey.toml")
+    assert tree == {section: {new: value}}
+    with pytest.warns(MetadataWarning, match=f"renamed: use {new}"):
+        assert check_overrides({section: {old: value}}) == {section: {new: value}}
+    assert parse_metadata_text(f"[{section}]\n{new} = {value}\n", source="s.toml") == {section: {new: value}}
+
+
+def test_old_and_new_name_together_is_an_error():
+    with pytest.raises(MetadataError, match="gives both h_uncertainty .* keep only h_uncertainty_rel"):
+        parse_metadata_text("[analysis]\nh_uncertainty = 0.2\nh_uncertainty_rel = 0.3\n", source="s.toml")
+
+
+def test_old_name_in_the_wrong_section_points_to_its_section():
+    msg = _err("[surface]\nh_uncertainty = 0.2")
+    assert "belongs in [analysis]" in msg
+
+
+def test_renamed_fields_on_the_dataclasses(tmp_path):
+    _write(tmp_path / "survey.toml", FULL_SURFACE + "emissivity_uncertainty_abs = 0.03\n"
+           "[analysis]\ndistance_uncertainty_rel = 0.1\nh_uncertainty_rel = 0.25\n")
+    meta = load_metadata(tmp_path / "a.tif")
+    assert meta.surface.emissivity_uncertainty_abs == 0.03
+    assert (meta.analysis.distance_uncertainty_rel, meta.analysis.h_uncertainty_rel) == (0.1, 0.25)
+
+
+# ----------------------------------------------------------------------------- bounded metadata reads
+
+
+def test_fifo_sidecar_fails_that_image_without_blocking(tmp_path):
+    if not hasattr(os, "mkfifo"):
+        pytest.skip("named pipes need a POSIX system")
+    _write(tmp_path / "survey.toml", FULL_SURFACE)
+    os.mkfifo(tmp_path / "wall.toml")
+    outcome: list[BaseException | object] = []
+
+    def load() -> None:
+        try:
+            outcome.append(load_metadata(tmp_path / "wall.tif"))
+        except BaseException as exc:  # noqa: BLE001 - handed to the test thread
+            outcome.append(exc)
+
+    worker = threading.Thread(target=load, daemon=True)
+    worker.start()
+    worker.join(60.0)  # a hang guard, not a speed check: a blocking open of the pipe never returns
+    if worker.is_alive():  # release the blocked reader so the test ends, then fail
+        os.close(os.open(tmp_path / "wall.toml", os.O_WRONLY | os.O_NONBLOCK))
+        worker.join()
+        pytest.fail("load_metadata blocked on a named pipe")
+    (exc,) = outcome
+    assert isinstance(exc, MetadataError)
+    assert str(exc).startswith(f"{tmp_path / 'wall.toml'}: the metadata file is not a regular file")
+    # the other images of the folder are not affected
+    assert load_metadata(tmp_path / "other.tif").surface.emissivity == 0.90
+
+
+def test_oversized_survey_file_is_refused(tmp_path):
+    blob = FULL_SURFACE + ("# " + "x" * 98 + "\n") * 20_000  # 2 MB of comments: valid TOML, too large
+    _write(tmp_path / "survey.toml", blob)
+    with pytest.raises(MetadataError, match=r"survey.toml: the metadata file is \d+ bytes, more than the 1048576"):
+        load_metadata(tmp_path / "a.tif")
+
+
+def test_folder_named_like_a_sidecar_is_refused(tmp_path):
+    (tmp_path / "x.toml").mkdir()
+    with pytest.raises(MetadataError, match=r"x.toml: the metadata file is not a regular file \(a folder"):
+        load_metadata(tmp_path / "x.tif")

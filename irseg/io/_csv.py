@@ -143,7 +143,7 @@ def read_csv(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
     if size > max_pixels * _CSV_BYTES_PER_CELL + 1_000_000:
         raise InputError(
             f"{name}: {size} bytes is too large for a text matrix within the pixel budget of {max_pixels}; "
-            "raise max_pixels if the matrix is genuine"
+            "raise the max_pixels setting if the matrix is genuine"
         )
     text = _csv_decode(name, _io_open_bytes(path))
     # line numbers as an editor counts them (\n, \r\n or \r; not the other Unicode breaks)

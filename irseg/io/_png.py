@@ -18,6 +18,9 @@ __all__ = ["read_png", "PNG_MAGIC", "PNG_SUFFIXES"]
 PNG_MAGIC = b"\x89PNG\r\n\x1a\n"
 PNG_SUFFIXES = (".png",)
 
+# the end chunk: zero length, type IEND, then its 4-byte CRC (PNG specification, 11.2.5)
+_PNG_IEND = b"\x00\x00\x00\x00IEND"
+
 _PNG_COLOUR_TYPES = {0: "greyscale", 2: "RGB colour", 3: "palette colour", 4: "greyscale + alpha", 6: "RGBA colour"}
 _PNG_DEPTHS = {0: (1, 2, 4, 8, 16), 2: (8, 16), 3: (1, 2, 4, 8), 4: (8, 16), 6: (8, 16)}
 
@@ -79,6 +82,10 @@ def read_png(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
         )
     _io_check_budget(name, (height, width), max_pixels)
     blob = _io_open_bytes(path)
+    end = blob.rfind(_PNG_IEND)
+    if end < 0 or len(blob) < end + len(_PNG_IEND) + 4:
+        # a cut copy; bytes after the end chunk (some exporters append their own) are allowed
+        raise InputError(f"{name}: truncated PNG: the end chunk (IEND) is missing or cut; re-copy the file")
     try:
         with _io_quiet():
             data = iio.imread(io.BytesIO(blob), extension=".png", plugin="pillow")

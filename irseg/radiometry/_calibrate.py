@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from .._defaults import resolve_reflected_c
 from ..errors import CalibrationError, InputError
 from ..types import RawFrame, SurveyMeta, ThermalFrame
 from ._dead_pixels import _DEAD_FLOOR_K, fill_masked, mask_dead_pixels
@@ -72,12 +73,17 @@ def calibrate(raw: RawFrame, meta: SurveyMeta, *, method: str = "planck") -> The
     reflected temperature and transmittance corrected with band radiance; masked pixels
     filled with a local median.
 
+    The reflected temperature is ``meta.surface.reflected_c``, which
+    :func:`irseg.metadata.load_metadata` always resolves (and records when assumed); a
+    hand-built SurveyMeta without it gets the same rule,
+    :func:`irseg._defaults.resolve_reflected_c`.
+
     Parameters
     ----------
     raw : RawFrame
         Image as read.
     meta : SurveyMeta
-        Metadata in force.
+        Metadata in force. Not stored in the result: the frame is data only.
     method : {"planck", "broadband"}
         Band-limited Planck radiance over ``camera.band_um`` (default) or σT⁴.
 
@@ -124,15 +130,7 @@ def calibrate(raw: RawFrame, meta: SurveyMeta, *, method: str = "planck") -> The
     if below_zero.any():
         warnings.append(f"{int(below_zero.sum())} pixel(s) below absolute zero were masked as dead")
 
-    reflected = surf.reflected_c
-    if reflected is None:
-        reflected = _rad_side_air_c(meta)
-        if reflected is None:
-            reflected = 20.0
-            warnings.append(
-                "no [surface] reflected_c and no air temperature on the camera's side: reflected "
-                "temperature taken as 20 °C; measure it (reflector method) for an accurate estimate"
-            )
+    reflected, _ = resolve_reflected_c(meta)  # the value in force: load_metadata has resolved it already
     atmosphere = cam.atmosphere_c if cam.atmosphere_c is not None else _rad_side_air_c(meta)
     if cam.transmittance < 1.0 and atmosphere is None:
         atmosphere = 20.0
@@ -169,7 +167,6 @@ def calibrate(raw: RawFrame, meta: SurveyMeta, *, method: str = "planck") -> The
         temperature_c=temperature_c,
         mask=mask,
         apparent_c=apparent_c,
-        meta=meta,
         n_dead=n_dead,
         n_nan=n_nan,
         warnings=tuple(warnings),

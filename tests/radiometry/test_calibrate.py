@@ -11,7 +11,8 @@ from hypothesis import strategies as st
 from scipy import constants as sc
 from scipy import integrate, optimize
 
-from irseg.errors import CalibrationError, ConfigError, InputError
+from irseg.errors import CalibrationError, ConfigError, InputError, MetadataWarning
+from irseg.metadata import load_metadata
 from irseg.radiometry import (
     apparent_to_object,
     band_radiance,
@@ -263,18 +264,31 @@ def test_export_emissivity_needs_reflected():
         calibrate(_frame(np.full((5, 5), 15.0)), meta)
 
 
-def test_reflected_default_from_air_side():
+def test_reflected_from_the_metadata_and_the_same_rule_for_hand_built_metadata(tmp_path):
     app = np.full((6, 6), 15.0)
+    # load_metadata resolves the reflected temperature (interior view: the inside air) and records it
+    (tmp_path / "survey.toml").write_text("[surface]\nemissivity = 0.93\nview = 'interior'\n[air]\ninside_c = 21.0\n")
+    with pytest.warns(MetadataWarning, match="reflected temperature taken as the inside air temperature, 21 °C"):
+        loaded = load_metadata(tmp_path / "a.npy")
+    f_loaded = calibrate(_frame(app), loaded)
+    expected_in = apparent_to_object(15.0, emissivity=0.93, reflected_c=21.0)
+    assert f_loaded.temperature_c[0, 0] == pytest.approx(expected_in)
+    # a hand-built SurveyMeta without reflected_c gets the same rule (irseg._defaults.resolve_reflected_c)
     interior = SurveyMeta(surface=Surface(view="interior"), air=Air(inside_c=21.0, outside_c=-3.0))
     exterior = SurveyMeta(surface=Surface(view="exterior"), air=Air(inside_c=21.0, outside_c=-3.0))
     f_in = calibrate(_frame(app), interior)
     f_out = calibrate(_frame(app), exterior)
-    assert f_in.temperature_c[0, 0] == pytest.approx(apparent_to_object(15.0, emissivity=0.93, reflected_c=21.0))
+    assert f_in.temperature_c[0, 0] == pytest.approx(expected_in)
     assert f_out.temperature_c[0, 0] == pytest.approx(apparent_to_object(15.0, emissivity=0.93, reflected_c=-3.0))
-    assert not f_in.warnings and not f_out.warnings
     f_none = calibrate(_frame(app), SurveyMeta())
     assert f_none.temperature_c[0, 0] == pytest.approx(apparent_to_object(15.0, emissivity=0.93, reflected_c=20.0))
-    assert any("20 °C" in w for w in f_none.warnings)
+    # the assumption is announced once, by the metadata stage; calibrate adds no warning of its own
+    assert not f_loaded.warnings and not f_in.warnings and not f_out.warnings and not f_none.warnings
+
+
+def test_frame_is_data_only():
+    f = calibrate(_frame(np.full((4, 4), 15.0)), _meta())
+    assert not hasattr(f, "meta")  # settings travel explicitly as the SurveyMeta argument of each stage
 
 
 def test_broadband_method_differs_outdoors():

@@ -1,0 +1,181 @@
+"""The metadata schema: sections, keys, their checks, and the validation of a parsed tree.
+
+The sections mirror the dataclasses of :mod:`irseg.types` (``[camera]`` is
+:class:`~irseg.types.Camera`, ...). Keys renamed in a later version are still accepted
+under their old name, with a :class:`~irseg.errors.MetadataWarning` naming the new one.
+"""
+
+from __future__ import annotations
+
+import difflib
+import warnings
+from collections.abc import Mapping
+from typing import Any
+
+from ..errors import MetadataError, MetadataWarning
+from ..types import Air, AnalysisSettings, Camera, SegmentSettings, Surface
+from ._checks import (
+    _Check,
+    _md_band,
+    _md_choice,
+    _md_finite,
+    _md_kind,
+    _md_nonzero,
+    _md_range,
+    _md_seed,
+    _md_show,
+    _md_temperature,
+)
+
+__all__: list[str] = []
+
+_SECTIONS: dict[str, type] = {
+    "camera": Camera,
+    "surface": Surface,
+    "air": Air,
+    "analysis": AnalysisSettings,
+    "segment": SegmentSettings,
+}
+
+_POS = {"lo_open": True, "hi_open": False}
+_SCHEMA: dict[str, dict[str, _Check]] = {
+    "camera": {
+        "hfov_deg": _md_range(0, 180, lo_open=True, hi_open=True, optional=True,
+                              fix="give the lens's horizontal field of view in degrees, e.g. 45"),
+        "distance_m": _md_range(0, None, **_POS, optional=True, fix="give the camera-to-surface distance in metres (> 0)"),
+        "pixel_m": _md_range(0, None, **_POS, optional=True, fix="give one pixel's side on the surface in metres (> 0), e.g. 0.005"),
+        "tilt_deg": _md_range(0, 80, lo_open=False, hi_open=False,
+                              fix="give the angle between line of sight and surface normal, 0 to 80 degrees"),
+        "units": _md_choice(("celsius", "kelvin")),
+        "scale": _md_nonzero,
+        "offset": _md_finite,
+        "band_um": _md_band,
+        "netd_k": _md_range(0, None, **_POS, fix="give the camera's NETD in kelvin (> 0), e.g. 0.05"),
+        "export_emissivity": _md_range(0, 1, **_POS, fix="give the emissivity the export applied, in (0, 1] (1 = apparent)"),
+        "export_reflected_c": _md_temperature(),
+        "transmittance": _md_range(0, 1, **_POS, fix="give the path transmittance in (0, 1] (1 for short building distances)"),
+        "atmosphere_c": _md_temperature(),
+    },
+    "surface": {
+        "emissivity": _md_range(0, 1, **_POS, fix="use the material's long-wave emissivity"),
+        "reflected_c": _md_temperature(),
+        "view": _md_choice(("interior", "exterior", "roof")),
+        "heat_flow": _md_choice(("horizontal", "upward", "downward"), optional=True),
+        "emissivity_uncertainty_abs": _md_range(0, 1, lo_open=False, hi_open=True,
+                                                fix="give the absolute emissivity uncertainty, >= 0, e.g. 0.02"),
+    },
+    "air": {
+        "inside_c": _md_temperature(),
+        "outside_c": _md_temperature(),
+        "wind_m_s": _md_range(0, 100, lo_open=False, hi_open=False, optional=True,
+                              fix="give the wind speed at the surface in m/s, >= 0"),
+    },
+    "analysis": {
+        "degree_days": _md_range(0, 20000, lo_open=False, hi_open=False,
+                                 fix="give heating degree-days in K·d per year, >= 0 (3000 is a temperate climate)"),
+        "frsi_limit": _md_range(0, 1, lo_open=True, hi_open=True, fix="give the f_Rsi mould limit in (0, 1), e.g. 0.70"),
+        "distance_uncertainty_rel": _md_range(0, None, lo_open=False, hi_open=False,
+                                              fix="give the relative distance uncertainty, >= 0 (0.05 = 5 %)"),
+        "h_uncertainty_rel": _md_range(0, None, lo_open=False, hi_open=False,
+                                       fix="give the relative heat-transfer uncertainty, >= 0 (0.20 = 20 %)"),
+        "max_wind_m_s": _md_range(0, None, lo_open=False, hi_open=False, fix="give a wind limit in m/s, >= 0"),
+        "min_delta_t_k": _md_range(0, None, lo_open=False, hi_open=False,
+                                   fix="give the smallest inside-outside difference in K, >= 0"),
+        "min_contrast_k": _md_range(0, None, lo_open=False, hi_open=False, optional=True,
+                                    fix="give the smallest anomaly contrast in K, >= 0"),
+        "seed": _md_seed,
+    },
+    "segment": {
+        "noise_k": _md_range(0, None, **_POS, optional=True, fix="give the image noise in K (> 0), or leave it out to estimate it"),
+        "min_step_k": _md_range(0, None, **_POS, fix="give the smallest temperature step that makes an edge, in K (> 0)"),
+        "min_feature_px": _md_range(1, None, lo_open=False, hi_open=False,
+                                    fix="give the smallest feature size in pixels, >= 1"),
+    },
+}
+
+#: Old key names still accepted (with a warning): {section: {old name: new name}}.
+_RENAMED: dict[str, dict[str, str]] = {
+    "surface": {"emissivity_uncertainty": "emissivity_uncertainty_abs"},
+    "analysis": {"distance_uncertainty": "distance_uncertainty_rel", "h_uncertainty": "h_uncertainty_rel"},
+}
+
+
+def _md_home_of(key: str) -> str | None:
+    """The section that defines ``key`` (under its current or its old name), if any."""
+    for sec, keys in _SCHEMA.items():
+        if key in keys or key in _RENAMED.get(sec, {}):
+            return sec
+    return None
+
+
+def _md_unknown_key(src: str, sec: str, key: str) -> MetadataError:
+    home = _md_home_of(key)
+    if home is not None and home != sec:
+        return MetadataError(f"{src}: [{sec}] has no key {key!r}; it belongs in [{home}]: move it there")
+    near = difflib.get_close_matches(key, list(_SCHEMA[sec]), n=1, cutoff=0.6)
+    hint = f"did you mean {near[0]!r}? " if near else ""
+    valid = ", ".join(_SCHEMA[sec])
+    return MetadataError(f"{src}: [{sec}] has no key {key!r}; {hint}valid keys: {valid}")
+
+
+def _md_unknown_section(src: str, sec: str) -> MetadataError:
+    home = _md_home_of(sec)
+    if home is not None:
+        return MetadataError(f"{src}: unknown section [{sec}]; {sec!r} is a key of [{home}]: write it there")
+    near = difflib.get_close_matches(sec, list(_SCHEMA), n=1, cutoff=0.5)
+    hint = f"did you mean [{near[0]}]? " if near else ""
+    return MetadataError(f"{src}: unknown section [{sec}]; {hint}valid sections: {', '.join(_SCHEMA)}")
+
+
+def _md_not_a_section(source: str, sec: str, table: Any) -> MetadataError:
+    """The error for a top-level name that is not one of the sections."""
+    if not isinstance(table, Mapping):
+        home = _md_home_of(sec)
+        if home is not None:
+            return MetadataError(f"{source}: key {sec!r} is outside any section; put it under [{home}]")
+        return MetadataError(
+            f"{source}: {sec} = {_md_show(table)} is outside any section and is not a metadata key; "
+            f"keys live in the sections {', '.join(f'[{s}]' for s in _SCHEMA)}"
+        )
+    return _md_unknown_section(source, sec)
+
+
+def _md_current_name(source: str, sec: str, key: str, table: Mapping[str, Any]) -> str:
+    """``key`` under its current name; an old name warns (or fails when both names are given)."""
+    new = _RENAMED.get(sec, {}).get(key)
+    if new is None:
+        return key
+    if new in table:
+        raise MetadataError(
+            f"{source}: [{sec}] gives both {key} (the old name) and {new}; keep only {new}"
+        )
+    warnings.warn(
+        f"{source}: [{sec}] {key} is renamed: use {new} (the old name is still read)",
+        MetadataWarning,
+        stacklevel=5,
+    )
+    return new
+
+
+def _md_validate(tree: Mapping[str, Any], *, source: str) -> dict[str, dict[str, Any]]:
+    """Check a {section: {key: value}} mapping; return it converted (floats, tuples, lower-case names)."""
+    out: dict[str, dict[str, Any]] = {}
+    if not isinstance(tree, Mapping):
+        raise MetadataError(f"{source}: metadata must be a table of sections, got a {_md_kind(tree)}")
+    for sec, table in tree.items():
+        if not isinstance(sec, str):
+            raise MetadataError(f"{source}: section names must be strings, got {sec!r}")
+        if sec not in _SCHEMA:
+            raise _md_not_a_section(source, sec, table)
+        if not isinstance(table, Mapping):
+            raise MetadataError(
+                f"{source}: {sec} = {_md_show(table)} should be a section [{sec}] holding keys, not a value"
+            )
+        checked: dict[str, Any] = {}
+        for key, value in table.items():
+            name = _md_current_name(source, sec, key, table) if isinstance(key, str) else key
+            if not isinstance(name, str) or name not in _SCHEMA[sec]:
+                raise _md_unknown_key(source, sec, str(key))
+            checked[name] = _SCHEMA[sec][name](source, sec, name, value)
+        out[sec] = checked
+    return out
