@@ -64,12 +64,13 @@ from dataclasses import dataclass
 import cv2
 import numpy as np
 
-__all__ = ["SoundSurface", "fit_sound_surface", "TUKEY_C", "MAD_TO_SIGMA"]
+from .._shared import MAD_TO_SIGMA
+
+__all__ = ["SoundSurface", "fit_sound_surface", "TUKEY_C"]
 
 #: Tukey biweight tuning constant (95 % Gaussian efficiency).
 TUKEY_C = 4.685
 #: 1/Φ⁻¹(3/4): the MAD of a Gaussian sample times this estimates its standard deviation.
-MAD_TO_SIGMA = 1.4826
 _BLOCKS_LONG_SIDE = 80  # coarse grid: about this many blocks on the long side
 _MIN_FILL = 0.25  # a block needs this fraction of valid pixels
 _SUPPORT_EPS = 0.05  # shrink the local correction where the weighted support is below ~5 % of full
@@ -310,7 +311,6 @@ def fit_sound_surface(
     local = np.zeros_like(y)
     glob = np.zeros_like(y)
     scale = floor
-    full = None
     # graduated: from the robust start, the local part at 4, 2 and 1 sound lengths, so a large anomaly
     # is excluded by the stiff fits before a flexible one could follow it
     lengths = [f * lb for f in _LENGTH_STEPS for _ in range(_PER_STEP)]
