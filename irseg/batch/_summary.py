@@ -15,6 +15,7 @@ from .._version import __version__
 from ..io import normalise_json
 from ..report import ANOMALY_COLUMNS, SurveyAnomaly, anomaly_table
 from ..vocabulary import CAUSES, CAUTIONS
+from ._inputs import SkippedFile
 from ._records import ImageOutcome, ImageRecord
 
 __all__ = ["FAILURE_COLUMNS", "build_summary", "survey_anomalies", "table_rows"]
@@ -82,7 +83,11 @@ def _image_row(outcome: ImageOutcome) -> dict[str, Any]:
     }
 
 
-def build_summary(outcomes: Sequence[ImageOutcome], anomalies: Sequence[SurveyAnomaly]) -> dict[str, Any]:
+def build_summary(
+    outcomes: Sequence[ImageOutcome],
+    anomalies: Sequence[SurveyAnomaly],
+    skipped: Sequence[SkippedFile] = (),
+) -> dict[str, Any]:
     """The content of summary.json.
 
     Parameters
@@ -91,6 +96,8 @@ def build_summary(outcomes: Sequence[ImageOutcome], anomalies: Sequence[SurveyAn
         In input order; ``record`` set for ok images, ``failure`` for failed ones.
     anomalies : sequence of SurveyAnomaly
         :func:`survey_anomalies` of the ok images' records.
+    skipped : sequence of SkippedFile
+        Files and folders the input scan left out (``skipped``: ``{"file", "reason"}``).
 
     Returns
     -------
@@ -120,6 +127,7 @@ def build_summary(outcomes: Sequence[ImageOutcome], anomalies: Sequence[SurveyAn
         "totals": _totals(anomalies),
         "anomalies": sorted(table_rows(anomalies), key=lambda row: row["severity"]),
         "failures": failures,
+        "skipped": [{"file": s.file, "reason": s.reason} for s in skipped],
         "warnings": warnings,
         "cautions": list(CAUTIONS),
     }

@@ -163,6 +163,7 @@ def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> di
         "anomalies": anomalies,
         "anchors": anchors,
         "failures": [dict(f) for f in _list(summary, "failures")],
+        "skipped": [dict(f) for f in _list(summary, "skipped")],
         "warnings": [dict(w) for w in _list(summary, "warnings")],
         "cautions": list(CAUTIONS) + list(dict.fromkeys(extra)),
     }
@@ -199,8 +200,9 @@ def render_report(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> 
         The survey summary in the ``summary.json`` schema: ``irseg_version``, ``images``
         (``image``, ``status``, ``view``, ``delta_t_k``, ``n_anomalies``, ``warnings``,
         ``overlay``, ``result``), ``totals_by_cause``, ``totals``, ``anomalies`` (rows as in
-        ``anomalies.csv``, read with :meth:`SurveyAnomaly.from_json`), ``failures``, ``warnings``
-        and ``cautions``. Numbers may be null; they print as "—".
+        ``anomalies.csv``, read with :meth:`SurveyAnomaly.from_json`), ``failures``, ``skipped``
+        (``file``, ``reason``: what the input scan left out; may be absent), ``warnings`` and
+        ``cautions``. Numbers may be null; they print as "—".
     overlays : mapping of str to bytes
         PNG bytes of each image's overlay, keyed by the image name (``images[i]["image"]``).
         Images without an entry are shown without a picture.

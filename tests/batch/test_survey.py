@@ -236,7 +236,11 @@ def test_odd_names_never_escape_out(tmp_path):
             assert entry.parent == out and not entry.name.startswith(".")
             stems.add(entry.name)
     assert len(stems) == len(names)
-    assert {r["image"] for r in _rows(out)} == set(names)  # names kept verbatim in the data
+    # names kept verbatim in the data, except that a CSV text cell starting like a formula
+    # ("-rf.npy") gets a leading quote (OWASP "CSV Injection"; see tests/batch/test_hostile_folders.py)
+    assert {r["image"] for r in _rows(out)} == {("'" + n if n.startswith("-") else n) for n in names}
+    summary = json.loads((out / "summary.json").read_text(encoding="utf-8"))
+    assert {i["image"] for i in summary["images"]} == set(names)
 
 
 def test_fail_fast_stops_and_names_the_file(tmp_path):
