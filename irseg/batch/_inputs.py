@@ -15,9 +15,7 @@ from dataclasses import dataclass
 from pathlib import Path, PurePosixPath
 
 from ..errors import ConfigError, InputError
-from ..io import is_candidate, metadata_candidates, read_json_file, safe_component
-from ..io._outfolder import MANIFEST_NAME
-from ..io._writers import escape_text
+from ..io import MANIFEST_NAME, escape_text, is_candidate, metadata_candidates, read_json_file, safe_component
 
 __all__ = [
     "InputImage", "SkippedFile", "SurveyInputs", "collect_inputs", "scan_inputs", "relativise", "RESERVED_NAMES",

@@ -16,10 +16,9 @@ from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
+from ..io import OutputManifest, escape_line, escape_text
 from .. import io as irio
 from ..errors import OutputError
-from ..io._outfolder import OutputManifest
-from ..io._writers import escape_line, escape_text
 from ._records import ImageFailure, ImageOutcome
 from ._worker import run_task, run_task_single_threaded
 

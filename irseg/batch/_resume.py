@@ -16,11 +16,10 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
 
+from ..io import OutputManifest, escape_text
 from .. import io as irio
 from .._version import __version__
 from ..errors import ConfigError, InputError
-from ..io._outfolder import OutputManifest
-from ..io._writers import escape_text
 from ._inputs import InputImage, relativise
 from ._loop import image_files, image_folder_problem
 from ._records import ImageFailure, ImageOutcome, ImageRecord, SurveySettings

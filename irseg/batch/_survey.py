@@ -33,11 +33,10 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+from ..io import OutputManifest, escape_line, lock_folder
 from .._shared import DEFAULT_MAX_PIXELS
 from .._version import __version__
 from ..errors import IrsegError
-from ..io._outfolder import OutputManifest, lock_folder
-from ..io._writers import escape_line
 from ..report import SurveyAnomaly
 from ._inputs import SkippedFile, SurveyInputs, scan_inputs
 from ._loop import Collector, FailFast, execute, image_files, stamp

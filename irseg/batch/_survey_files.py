@@ -14,10 +14,9 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
+from ..io import OutputManifest, escape_text, replace_files
 from .. import io as irio
 from ..errors import InputError, OutputError
-from ..io._outfolder import OutputManifest, replace_files
-from ..io._writers import escape_text
 from ..report import ANOMALY_COLUMNS, SurveyAnomaly
 from ._inputs import RESERVED_NAMES, SkippedFile
 from ._records import ImageFailure, ImageOutcome
