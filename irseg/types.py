@@ -32,6 +32,9 @@ __all__ = [
     "AnalysisSettings",
     "SegmentSettings",
     "Assumption",
+    "SurveyDetails",
+    "ImageDetails",
+    "Zone",
     "SurveyMeta",
     "RawFrame",
     "ThermalFrame",
@@ -208,6 +211,78 @@ class Assumption:
 
 
 @dataclass(frozen=True)
+class SurveyDetails:
+    """``[survey]`` (``survey.toml`` only): the job, as free text shown on the report's first page.
+
+    Every attribute is optional free text (None when not given): ``site``, ``client``,
+    ``reference``, ``date``, ``inspector``, ``camera``, ``weather``, ``purpose``, ``notes``.
+    """
+
+    site: str | None = None
+    client: str | None = None
+    reference: str | None = None
+    date: str | None = None
+    inspector: str | None = None
+    camera: str | None = None
+    weather: str | None = None
+    purpose: str | None = None
+    notes: str | None = None
+
+
+@dataclass(frozen=True)
+class ImageDetails:
+    """``[image]`` (a sidecar ``<stem>.toml`` only): what one image shows, as free text.
+
+    Attributes
+    ----------
+    title, element, time, notes : str or None
+        Shown on the image's section of the report; ``title`` and ``element`` are also
+        columns of ``anomalies.csv``.
+    photo : str or None
+        A visible-light photo of the same view (JPEG or PNG), relative to the image's folder;
+        when not given, ``<stem>_photo.jpg`` / ``.jpeg`` / ``.png`` beside the image is used.
+    """
+
+    title: str | None = None
+    element: str | None = None
+    time: str | None = None
+    photo: str | None = None
+    notes: str | None = None
+
+
+@dataclass(frozen=True)
+class Zone:
+    """One ``[[zone]]`` table: an area of the image the thermographer marks.
+
+    Attributes
+    ----------
+    label : str
+        Free text, shown on the overlay and in the report.
+    kind : {"exclude", "material"}
+        ``exclude``: the pixels are neither anomaly nor sound reference and carry no edge.
+        ``material``: the zone's emissivity (and reflected temperature) replace ``[surface]``'s there.
+    box : (int, int, int, int) or None
+        ``(row0, col0, row1, col1)`` in pixels, row1/col1 exclusive (like the CSV's bbox columns).
+    polygon : tuple of (float, float) or None
+        ``(row, col)`` vertices, instead of ``box``.
+    emissivity : float or None
+        ``material`` zones: long-wave emissivity in (0, 1] (None: ``[surface] emissivity``).
+    reflected_c : float or None
+        ``material`` zones: reflected temperature, °C (None: ``[surface] reflected_c``).
+    source : str
+        The metadata file that gave the zone (named in messages; not compared).
+    """
+
+    label: str
+    kind: str
+    box: tuple[int, int, int, int] | None = None
+    polygon: tuple[tuple[float, float], ...] | None = None
+    emissivity: float | None = None
+    reflected_c: float | None = None
+    source: str = field(default="", compare=False)
+
+
+@dataclass(frozen=True)
 class SurveyMeta:
     """All metadata in force for one image, after folder defaults, sidecar and overrides.
 
@@ -220,6 +295,13 @@ class SurveyMeta:
     assumed : tuple of Assumption
         The values no metadata layer gave and the metadata stage assumed, in this order:
         view, emissivity, reflected temperature; empty when all were given.
+    survey : SurveyDetails
+        ``[survey]`` of the folder's ``survey.toml`` (free text; empty when not given).
+    image : ImageDetails
+        ``[image]`` of the image's sidecar (free text; empty when not given).
+    zones : tuple of Zone
+        ``[[zone]]`` tables: the folder's first, then the sidecar's (a sidecar's zones add to
+        the folder's).
     """
 
     camera: Camera = field(default_factory=Camera)
@@ -229,6 +311,9 @@ class SurveyMeta:
     segment: SegmentSettings = field(default_factory=SegmentSettings)
     sources: tuple[str, ...] = ()
     assumed: tuple[Assumption, ...] = ()
+    survey: SurveyDetails = field(default_factory=SurveyDetails)
+    image: ImageDetails = field(default_factory=ImageDetails)
+    zones: tuple[Zone, ...] = ()
 
 
 # --------------------------------------------------------------------------- frames

@@ -2,8 +2,9 @@
 
 A folder scan reads every entry once and says why it leaves a file out: each skipped file
 or folder becomes a :class:`SkippedFile` (written to run.log, summary.json and the report).
-Only hidden names (starting with ``.``), ``.toml`` metadata files and the run's own output
-folder are left out without a word.
+Only hidden names (starting with ``.``), ``.toml`` metadata files, the photos of the images
+(``<stem>_photo.jpg``/``.jpeg``/``.png`` or an ``[image] photo``, shown in the report) and the
+run's own output folder are left out without a word.
 """
 
 from __future__ import annotations
@@ -14,6 +15,7 @@ from collections.abc import Iterable
 from dataclasses import dataclass
 from pathlib import Path, PurePosixPath
 
+from ..controls import photo_files
 from ..errors import ConfigError, InputError
 from ..io import MANIFEST_NAME, escape_text, is_candidate, metadata_candidates, read_json_file, safe_component
 
@@ -226,7 +228,8 @@ def scan_inputs(
     accepts, sorted by relative path. Every other entry is listed in ``skipped`` with
     its reason (not a thermogram, not a regular file, a broken link, a folder that
     cannot be read, a link to a folder, a folder holding irseg outputs), except hidden
-    names, ``.toml`` metadata files and the output folder ``exclude``. Files given
+    names, ``.toml`` metadata files, the images' photos (:func:`irseg.controls.photo_files`)
+    and the output folder ``exclude``. Files given
     explicitly are kept in the order given, even when no reader claims them (so the
     failure is reported), except metadata files (listed as skipped). Repeats are dropped.
 
@@ -285,6 +288,10 @@ def scan_inputs(
             raise InputError(f"{entry}: is a link to nothing (broken link); check the path")
         else:
             raise InputError(f"{entry}: no such file or folder; check the path")
+    photos = photo_files(files)  # pictures of an image (shown in the report): neither inputs nor skipped
+    if photos:
+        files = [f for f in files if os.path.normpath(os.path.abspath(f)) not in photos]
+        skipped = [s for s in skipped if os.path.normpath(os.path.abspath(s[0])) not in photos]
     unique: list[Path] = []
     seen: set[str] = set()
     for file in files:

@@ -37,8 +37,9 @@ from ..io import OutputManifest, escape_line, lock_folder
 from .._shared import DEFAULT_MAX_PIXELS
 from .._version import __version__
 from ..errors import IrsegError
+from ..controls import REVIEW_FILE, ReviewEntry, find_photo, load_review, photo_candidates
 from ..report import SurveyAnomaly
-from ._inputs import SkippedFile, SurveyInputs, scan_inputs
+from ._inputs import SkippedFile, SurveyInputs, relativise, scan_inputs
 from ._loop import Collector, FailFast, execute, image_files, stamp
 from ._records import ImageFailure, ImageOutcome, SurveySettings
 from ._resume import plan_survey
@@ -103,6 +104,7 @@ def run_survey(
     format: str | None = None,
     max_pixels: int = DEFAULT_MAX_PIXELS,
     cmap: str = "inferno",
+    review: str | os.PathLike[str] | None = None,
 ) -> SurveyResult:
     """Process a survey: every image in ``inputs`` into ``out_dir``.
 
@@ -137,6 +139,11 @@ def run_survey(
         Pixel budget per image, checked before decoding.
     cmap : str
         Colour map of the overlays.
+    review : path-like, optional
+        The thermographer's review file (``[[review]]`` tables, :func:`irseg.controls.load_review`);
+        default: ``review.toml`` in the survey's root folder, when there is one. It is applied to
+        the survey files only: it is not part of any image's fingerprint, so a resumed run applies
+        it without computing an image again. An entry that matches nothing is a warning.
 
     Returns
     -------
@@ -161,12 +168,14 @@ def run_survey(
     out_path = Path(out_dir)
     settings = survey_settings(jobs=jobs, overrides=overrides, format=format, max_pixels=max_pixels, cmap=cmap)
     found = scan_inputs(inputs, exclude=out_path)
+    entries, review_file = _review_of(review, found.root)  # a bad review file fails before any image
     check_out_dir(out_path)
     check_survey_names(out_path, OutputManifest(out_path))  # before the lock file is made; again under it
     with lock_folder(out_path):
         return _run_locked(
             found, out_path, settings, started,
             jobs=jobs, resume=resume, scheduler=scheduler, fail_fast=fail_fast, on_progress=on_progress,
+            review=entries, review_file=review_file,
         )
 
 
@@ -181,6 +190,8 @@ def _run_locked(
     scheduler: str | None,
     fail_fast: bool,
     on_progress: Callable[[int, int, ImageOutcome], None] | None,
+    review: tuple[ReviewEntry, ...] = (),
+    review_file: str | None = None,
 ) -> SurveyResult:
     """The run, with the output folder locked: plan, compute, write, rebuild the survey files."""
     items = found.images
@@ -217,7 +228,8 @@ def _run_locked(
     log.append(
         f"{stamp()} done: {n_ok} ok, {n_failed} failed, {n_skipped} resumed, {len(found.skipped)} files skipped"
     )
-    files = write_survey_files(out_path, ordered, skipped=found.skipped, log=log, manifest=manifest)
+    files = write_survey_files(out_path, ordered, skipped=found.skipped, log=log, manifest=manifest,
+                               review=review, review_file=review_file, photos=_photos_of(found, ordered))
     timings = dict(collector.stage_totals, wall=time.perf_counter() - started)
     totals = files.summary["totals"]
     return SurveyResult(
@@ -236,3 +248,36 @@ def _run_locked(
         timings=timings,
         skipped=found.skipped,
     )
+
+
+def _review_of(review: str | os.PathLike[str] | None, root: str) -> tuple[tuple[ReviewEntry, ...], str | None]:
+    """The review entries and the review file's name: the file given, else ``review.toml`` at the root."""
+    if review is not None:
+        return load_review(review), Path(review).name
+    path = Path(root) / REVIEW_FILE if root else None
+    if path is None or not os.path.lexists(path):
+        return (), None
+    return load_review(path), REVIEW_FILE
+
+
+def _photos_of(found: SurveyInputs, ordered: tuple[ImageOutcome, ...]) -> dict[str, tuple[Path, str]]:
+    """Image name -> (photo path, its name relative to the survey root) for each analysed image with a photo.
+
+    The photo is ``[image] photo`` (kept even when missing, so the report's warnings say so), else
+    ``<stem>_photo.jpg`` / ``.jpeg`` / ``.png`` beside the image.
+    """
+    by_index = {o.index: o for o in ordered}
+    out: dict[str, tuple[Path, str]] = {}
+    for item in found.images:
+        outcome = by_index.get(item.index)
+        if outcome is None or outcome.status != "ok" or outcome.record is None:
+            continue
+        details = outcome.record.metadata.get("image")
+        key = details.get("photo") if isinstance(details, dict) else None
+        key = key if isinstance(key, str) and key else None
+        path = find_photo(item.path, key) or (photo_candidates(item.path, key)[0] if key else None)
+        if path is not None:
+            base = item.base or found.root
+            name = relativise(os.path.normpath(os.path.abspath(path)), base)
+            out[item.image] = (path, Path(path).name if os.path.isabs(name) else name.replace(os.sep, "/"))
+    return out

@@ -9,18 +9,20 @@ manifest then records each file's sha256, so a set that was not written together
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from ..io import OutputManifest, escape_text, replace_files
+from ..io import OutputManifest, escape_line, escape_text, replace_files
 from .. import io as irio
+from ..controls import ReviewEntry
 from ..errors import InputError, OutputError
 from ..report import ANOMALY_COLUMNS, SurveyAnomaly
 from ._inputs import RESERVED_NAMES, SkippedFile
-from ._records import ImageFailure, ImageOutcome
-from ._summary import FAILURE_COLUMNS, build_summary, survey_anomalies, table_rows
+from ._loop import stamp
+from ._records import ImageFailure, ImageOutcome, ImageRecord
+from ._summary import FAILURE_COLUMNS, build_summary, rank_survey, survey_records, table_rows
 
 __all__ = ["SurveyFiles", "write_survey_files", "check_survey_names"]
 
@@ -70,6 +72,9 @@ def write_survey_files(
     skipped: Sequence[SkippedFile] = (),
     log: Sequence[str] | None = None,
     manifest: OutputManifest | None = None,
+    review: Sequence[ReviewEntry] = (),
+    review_file: str | None = None,
+    photos: Mapping[str, tuple[Path, str]] | None = None,
 ) -> SurveyFiles:
     """Replace the survey-level files, as one set, from the outcomes in input order.
 
@@ -84,6 +89,13 @@ def write_survey_files(
     manifest : OutputManifest, optional
         The output folder's manifest (read from ``out_dir`` when not given); updated with the
         names written and their sha256.
+    review : sequence of ReviewEntry
+        The thermographer's review (:func:`irseg.controls.load_review`), applied to the records:
+        pixels are looked up in each image's ``labels.png``; no image is computed again.
+    review_file : str, optional
+        The review file's name (recorded in summary.json).
+    photos : mapping, optional
+        Image name -> (photo path, name relative to the survey root): shown beside the overlay.
 
     Raises
     ------
@@ -94,18 +106,21 @@ def write_survey_files(
     manifest = manifest if manifest is not None else OutputManifest(out_dir)
     check_survey_names(out_dir, manifest)
     records = [o.record for o in ordered if o.status == "ok" and o.record is not None]
-    anomalies = survey_anomalies(records)
-    summary = build_summary(ordered, anomalies, skipped)
+    anomalies, review_info, notes = _reviewed(out_dir, records, review, review_file)
+    thumbs, photo_names, photo_notes = _photos(photos or {})
+    notes += photo_notes
+    summary = build_summary(ordered, anomalies, skipped, review=review_info, photos=photo_names, notes=notes)
     failures = tuple(o.failure for o in ordered if o.failure is not None)
     contents: dict[str, bytes | None] = {
         "anomalies.csv": irio.csv_bytes(table_rows(anomalies), ANOMALY_COLUMNS),
         "failures.csv": irio.csv_bytes(
             [{"file": f.image, "stage": f.stage, "message": f.message} for f in failures], FAILURE_COLUMNS
         ) if failures else None,
-        "report.html": escape_text(_render_report(out_dir, summary, ordered)).encode("utf-8"),
+        "report.html": escape_text(_render_report(out_dir, summary, ordered, thumbs)).encode("utf-8"),
         "summary.json": irio.dumps_json(summary),
     }
     if log is not None:
+        log = [*log, *_log_lines(summary["review"], notes)]
         contents["run.log"] = escape_text("\n".join(log) + "\n").encode("utf-8")
     if not manifest.owns("failures.csv"):
         contents = {k: v for k, v in contents.items() if v is not None or k != "failures.csv"}
@@ -117,7 +132,8 @@ def write_survey_files(
     return SurveyFiles(summary=summary, anomalies=anomalies, failures=failures, report_path=out_dir / "report.html")
 
 
-def _render_report(out_dir: Path, summary: dict[str, Any], ordered: Sequence[ImageOutcome]) -> str:
+def _render_report(out_dir: Path, summary: dict[str, Any], ordered: Sequence[ImageOutcome],
+                   photos: Mapping[str, bytes]) -> str:
     from ..report import render_report
 
     overlays: dict[str, bytes] = {}
@@ -128,4 +144,75 @@ def _render_report(out_dir: Path, summary: dict[str, Any], ordered: Sequence[Ima
                 overlays[outcome.image] = irio.read_small_bytes(path, max_bytes=1 << 30, what="overlay")
             except InputError as exc:
                 raise OutputError(f"cannot read back the overlay: {exc}") from None
-    return render_report(summary, overlays)
+    return render_report(summary, overlays, photos=photos)
+
+
+# --------------------------------------------------------------------------- review and photos
+
+
+def _log_lines(review: Mapping[str, Any], notes: Sequence[tuple[str, str]]) -> list[str]:
+    """run.log lines of the review and of the survey files' warnings."""
+    lines = []
+    if review.get("file"):
+        lines.append(f"{stamp()} review {escape_line(str(review['file']))}: {review['entries']} entries, "
+                     f"{review['applied']} anomalies reviewed, {review['rejected']} rejected")
+    lines += [f"{stamp()} warning: {escape_line(image)}: {escape_line(text)}" for image, text in notes]
+    return lines
+
+
+def _label_lookup(out_dir: Path, records: Sequence[ImageRecord]):
+    """``label_at(image, row, col)`` reading each image's labels.png once (16-bit, pixel = anomaly id)."""
+    import cv2
+    import numpy as np
+
+    stems = {r.image: r.stem for r in records}
+    cache: dict[str, Any] = {}
+
+    def label_at(image: str, row: int, col: int) -> int:
+        if image not in cache:
+            try:
+                blob = irio.read_small_bytes(out_dir / stems[image] / "labels.png", max_bytes=1 << 30,
+                                             what="label image")
+                cache[image] = cv2.imdecode(np.frombuffer(blob, np.uint8), cv2.IMREAD_UNCHANGED)
+            except InputError:
+                cache[image] = None
+        labels = cache[image]
+        if labels is None or labels.ndim != 2:
+            raise LookupError("the image's labels.png cannot be read; run again without the resume setting")
+        if not (0 <= row < labels.shape[0] and 0 <= col < labels.shape[1]):
+            raise LookupError(f"the pixel is outside the image of {labels.shape[0]} rows x {labels.shape[1]} "
+                              "columns; give [row, col] inside it")
+        return int(labels[row, col])
+
+    return label_at
+
+
+def _reviewed(out_dir: Path, records: Sequence[ImageRecord], review: Sequence[ReviewEntry],
+              review_file: str | None) -> tuple[tuple[SurveyAnomaly, ...], dict[str, Any], list[tuple[str, str]]]:
+    """The survey's anomalies with the review applied and ranked; the summary's review record; warnings."""
+    from ..controls import apply_review
+
+    flat = survey_records(records)
+    info: dict[str, Any] = {"file": review_file, "entries": len(review), "applied": 0, "warnings": []}
+    if not review:
+        return rank_survey(flat), info, []
+    result = apply_review(flat, review, label_at=_label_lookup(out_dir, records))
+    info.update(applied=result.applied, warnings=list(result.warnings))
+    return rank_survey(result.anomalies), info, [(entry.image, text) for entry, text in result.unmatched]
+
+
+def _photos(photos: Mapping[str, tuple[Path, str]]) -> tuple[dict[str, bytes], dict[str, str], list[tuple[str, str]]]:
+    """Scaled JPEG bytes and relative names of the photos that can be shown; a warning for each other."""
+    from ..controls import photo_thumbnail
+
+    thumbs: dict[str, bytes] = {}
+    names: dict[str, str] = {}
+    notes: list[tuple[str, str]] = []
+    for image, (path, name) in photos.items():
+        try:
+            thumbs[image] = photo_thumbnail(path)
+            names[image] = name
+        except InputError as exc:
+            text = str(exc).replace(str(path), name)
+            notes.append((image, f"photo not shown: {text}"))
+    return thumbs, names, notes

@@ -8,8 +8,10 @@ import tomllib
 from collections.abc import Mapping
 from typing import Any
 
+from ..controls._details import details_from
+from ..controls._zones import zone_to_dict
 from ..errors import InputError, MetadataError
-from ..io import read_metadata_texts
+from ..io import SURVEY_FILE, read_metadata_texts
 from ..types import Assumption, SurveyMeta
 from ._assume import _md_assume
 from ._checks import _md_kind
@@ -98,12 +100,18 @@ def merge_metadata(*layers: Mapping[str, Mapping[str, Any]], sources: tuple[str,
     MetadataWarning
         One per assumed value, naming it and how to give it.
     """
-    merged: dict[str, dict[str, Any]] = {sec: {} for sec in _SECTIONS}
+    merged: dict[str, dict[str, Any]] = {sec: {} for sec in (*_SECTIONS, "survey", "image")}
+    zones: list[Any] = []
     for layer in layers:
         for sec, table in layer.items():
-            merged[sec].update(table)
+            if sec == "zone":
+                zones.extend(table)  # a sidecar's zones add to the folder's
+            else:
+                merged[sec].update(table)
     parts = {sec: cls(**merged[sec]) for sec, cls in _SECTIONS.items()}
-    return _md_assume(SurveyMeta(**parts, sources=tuple(sources)), merged["surface"])
+    details = {sec: details_from(sec, merged[sec]) for sec in ("survey", "image")}
+    meta = SurveyMeta(**parts, **details, zones=tuple(zones), sources=tuple(sources))
+    return _md_assume(meta, merged["surface"])
 
 
 def load_metadata(
@@ -146,7 +154,7 @@ def load_metadata(
     layers: list[dict[str, dict[str, Any]]] = []
     sources: list[str] = []
     for name, text in texts:
-        layers.append(parse_metadata_text(text, source=name))
+        layers.append(_md_placed(parse_metadata_text(text, source=name), source=name))
         sources.append(name)
     if overrides:
         layers.append(check_overrides(overrides))
@@ -154,10 +162,28 @@ def load_metadata(
     return merge_metadata(*layers, sources=tuple(sources))
 
 
+def _md_placed(layer: dict[str, Any], *, source: str) -> dict[str, Any]:
+    """``layer`` when its free-text sections sit in the right file: [survey] in survey.toml, [image] in a sidecar."""
+    folder_file = os.path.basename(source) == SURVEY_FILE
+    if folder_file and "image" in layer:
+        raise MetadataError(
+            f"{source}: [image] describes one image; move it to that image's sidecar <stem>.toml "
+            "([survey] holds what the whole folder shares)"
+        )
+    if not folder_file and "survey" in layer:
+        raise MetadataError(
+            f"{source}: [survey] describes the whole job; move it to {SURVEY_FILE} in the survey's folder "
+            "([image] holds what this image shows)"
+        )
+    return layer
+
+
 def meta_to_dict(meta: SurveyMeta) -> dict[str, Any]:
     """A JSON-ready dict of the metadata: sections as dicts (tuples as lists), ``sources``, ``assumed``.
 
-    ``assumed`` is a list of ``{"key": ..., "value": ..., "reason": ...}``.
+    ``assumed`` is a list of ``{"key": ..., "value": ..., "reason": ...}``; the free-text
+    sections ``survey`` and ``image`` hold the keys given, ``zone`` the zones as
+    ``[[zone]]`` tables.
     """
     out: dict[str, Any] = {}
     for sec in _SECTIONS:
@@ -165,6 +191,10 @@ def meta_to_dict(meta: SurveyMeta) -> dict[str, Any]:
         out[sec] = {
             f.name: (list(v) if isinstance(v := getattr(obj, f.name), tuple) else v) for f in dataclasses.fields(obj)
         }
+    for sec in ("survey", "image"):
+        obj = getattr(meta, sec)
+        out[sec] = {f.name: getattr(obj, f.name) for f in dataclasses.fields(obj) if getattr(obj, f.name) is not None}
+    out["zone"] = [zone_to_dict(z) for z in meta.zones]
     out["sources"] = list(meta.sources)
     out["assumed"] = [{"key": a.key, "value": a.value, "reason": a.reason} for a in meta.assumed]
     return out

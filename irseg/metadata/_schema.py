@@ -12,6 +12,8 @@ import warnings
 from collections.abc import Mapping
 from typing import Any
 
+from ..controls._details import check_details
+from ..controls._zones import check_zone_tables
 from ..errors import MetadataError, MetadataWarning
 from ..types import Air, AnalysisSettings, Camera, SegmentSettings, Surface
 from ._checks import (
@@ -93,6 +95,16 @@ _SCHEMA: dict[str, dict[str, _Check]] = {
     },
 }
 
+#: Sections that are not settings (checked by irseg.controls): free-text details and zones.
+#: ``[survey]`` belongs in survey.toml, ``[image]`` in a sidecar, ``[[zone]]`` in either.
+_EXTRA_SECTIONS = ("survey", "image", "zone")
+
+
+def _md_extra(source: str, sec: str, table: Any) -> Any:
+    """A checked ``[survey]``/``[image]`` table (dict of text) or ``[[zone]]`` list (tuple of Zone)."""
+    return check_zone_tables(source, table) if sec == "zone" else check_details(source, sec, table)
+
+
 #: Old key names still accepted (with a warning): {section: {old name: new name}}.
 _RENAMED: dict[str, dict[str, str]] = {
     "surface": {"emissivity_uncertainty": "emissivity_uncertainty_abs"},
@@ -122,7 +134,7 @@ def _md_unknown_section(src: str, sec: str) -> MetadataError:
     home = _md_home_of(sec)
     if home is not None:
         return MetadataError(f"{src}: unknown section [{sec}]; {sec!r} is a key of [{home}]: write it there")
-    near = difflib.get_close_matches(sec, list(_SCHEMA), n=1, cutoff=0.5)
+    near = difflib.get_close_matches(sec, [*_SCHEMA, *_EXTRA_SECTIONS], n=1, cutoff=0.5)
     hint = f"did you mean [{near[0]}]? " if near else ""
     return MetadataError(f"{src}: unknown section [{sec}]; {hint}valid sections: {', '.join(_SCHEMA)}")
 
@@ -165,6 +177,9 @@ def _md_validate(tree: Mapping[str, Any], *, source: str) -> dict[str, dict[str,
     for sec, table in tree.items():
         if not isinstance(sec, str):
             raise MetadataError(f"{source}: section names must be strings, got {sec!r}")
+        if sec in _EXTRA_SECTIONS:
+            out[sec] = _md_extra(source, sec, table)
+            continue
         if sec not in _SCHEMA:
             raise _md_not_a_section(source, sec, table)
         if not isinstance(table, Mapping):

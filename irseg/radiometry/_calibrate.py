@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from .._defaults import resolve_reflected_c
-from ..errors import CalibrationError, InputError
+from ..errors import CalibrationError, ConfigError, InputError
 from ..types import RawFrame, SurveyMeta, ThermalFrame
 from ._dead_pixels import _DEAD_FLOOR_K, fill_masked, mask_dead_pixels
 from ._planck import _K0, _rad_check_method
@@ -58,12 +58,41 @@ def _rad_to_celsius(raw: RawFrame, meta: SurveyMeta, warnings: list[str]) -> np.
     return values - _K0 if cam.units == "kelvin" else values
 
 
+def _rad_maps(raw: RawFrame, emissivity: float, reflected_c: float, emissivity_map, reflected_map,
+              warnings: list[str]):
+    """The emissivity and reflected temperature to correct with: the scalars, or the per-pixel maps."""
+    shape = np.shape(raw.data)
+    out = []
+    for name, value, given in (("emissivity_map", emissivity, emissivity_map),
+                               ("reflected_map", reflected_c, reflected_map)):
+        if given is None:
+            out.append(value)
+            continue
+        arr = np.asarray(given, dtype=np.float64)
+        if arr.shape != shape:
+            raise ConfigError(f"{raw.path}: {name} has shape {arr.shape}, the image {shape}; give one value per pixel")
+        out.append(arr)
+    if emissivity_map is not None and float(np.min(out[0])) < 0.5:
+        warnings.append(
+            f"emissivity down to {float(np.min(out[0])):g} in a material zone is low: the reading there is "
+            "dominated by reflections and the temperatures are qualitative only"
+        )
+    return out[0], out[1]
+
+
 def _rad_side_air_c(meta: SurveyMeta) -> float | None:
     """Air temperature on the camera's side (inside for interior views, outside otherwise)."""
     return meta.air.inside_c if meta.surface.view == "interior" else meta.air.outside_c
 
 
-def calibrate(raw: RawFrame, meta: SurveyMeta, *, method: str = "planck") -> ThermalFrame:
+def calibrate(
+    raw: RawFrame,
+    meta: SurveyMeta,
+    *,
+    method: str = "planck",
+    emissivity_map: np.ndarray | None = None,
+    reflected_map: np.ndarray | None = None,
+) -> ThermalFrame:
     """Turn stored values into surface temperature (°C) with a validity mask.
 
     Steps: integer images ``value = raw * scale + offset``; ``units`` kelvin → °C and a
@@ -86,6 +115,10 @@ def calibrate(raw: RawFrame, meta: SurveyMeta, *, method: str = "planck") -> The
         Metadata in force. Not stored in the result: the frame is data only.
     method : {"planck", "broadband"}
         Band-limited Planck radiance over ``camera.band_um`` (default) or σT⁴.
+    emissivity_map, reflected_map : (M, N) ndarray, optional
+        Per-pixel emissivity in (0, 1] and reflected temperature (°C) replacing
+        ``[surface] emissivity`` / the reflected temperature in force, pixel by pixel
+        (material zones, :func:`irseg.controls.material_maps`).
 
     Returns
     -------
@@ -101,7 +134,8 @@ def calibrate(raw: RawFrame, meta: SurveyMeta, *, method: str = "planck") -> The
         Values implausible for the units/scale given (with a hint); an export emissivity
         without the reflected temperature it used.
     ConfigError
-        Unknown ``method``.
+        Unknown ``method``; a map whose shape is not the image's, an emissivity map value
+        outside (0, 1].
     """
     method = _rad_check_method(method)
     warnings: list[str] = []
@@ -141,10 +175,11 @@ def calibrate(raw: RawFrame, meta: SurveyMeta, *, method: str = "planck") -> The
             "the temperatures are qualitative only"
         )
 
+    emissivity, reflected_in = _rad_maps(raw, surf.emissivity, reflected, emissivity_map, reflected_map, warnings)
     mask = invalid | dead
     work = np.where(mask, np.nan, apparent)
     obj = apparent_to_object(
-        work, emissivity=surf.emissivity, reflected_c=reflected, transmittance=cam.transmittance,
+        work, emissivity=emissivity, reflected_c=reflected_in, transmittance=cam.transmittance,
         atmosphere_c=atmosphere, band_um=band, method=method,
     )
     obj = np.asarray(obj, dtype=np.float64)

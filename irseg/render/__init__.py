@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from ._colours import COLORMAPS, colormap_lut, display_range
 from ._layout import OverlayLayout, overlay_layout, scale_bar_length_m
-from ._overlay import label_image, render_overlay
+from ._overlay import draw_zones, label_image, render_overlay
 
 __all__ = [
     "COLORMAPS",
@@ -22,4 +22,5 @@ __all__ = [
     "scale_bar_length_m",
     "render_overlay",
     "label_image",
+    "draw_zones",
 ]

@@ -52,8 +52,10 @@ def test_clean_run_meets_the_output_contract(tmp_path):
     assert not (out / "failures.csv").exists()
 
     header = (out / "anomalies.csv").read_bytes().split(b"\r\n")[0].decode()
-    # the contract's columns in its order, then the extra area_px (known even without geometry)
-    assert header.split(",") == CONTRACT_COLUMNS + ["area_px"] == list(ANOMALY_COLUMNS)
+    # uid first (issue 13: the anomaly's survey-wide name), the contract's columns in its order, then the
+    # extra area_px (known even without geometry), then the review and the image's details (issue 13)
+    assert header.split(",") == ["uid", *CONTRACT_COLUMNS, "area_px", "review", "note", "title",
+                                 "element"] == list(ANOMALY_COLUMNS)
     rows = _rows(out)
     assert [r["image"] for r in rows] == [p.name for p in paths]  # input order, one patch each
 
