@@ -12,14 +12,19 @@ assumed value is recorded in ``SurveyMeta.assumed`` and announced with a
 :class:`~irseg.errors.MetadataWarning`. Missing geometry is not an error here; the
 analysis warns about what it cannot compute.
 
-Modules: ``_checks`` (value checks), ``_schema`` (sections, keys, renamed keys,
-validation), ``_assume`` (defaults resolved and recorded), ``_load`` (parse, merge,
-load, JSON round trip).
+Every number has an accepted range, what a building survey can have, with its reason
+(:data:`BOUNDS`, listed in ``docs/guide.md``). Across the images of one folder,
+:func:`survey_condition_warnings` reports air temperatures that contradict each other.
+
+Modules: ``_bounds`` (ranges and their reasons), ``_checks`` (value checks), ``_schema``
+(sections, keys, renamed keys, validation), ``_assume`` (defaults resolved and recorded),
+``_load`` (parse, merge, load, JSON round trip), ``_survey`` (checks across images).
 """
 
 from __future__ import annotations
 
 from ..io import SURVEY_FILE
+from ._bounds import BOUNDS, Bound
 from ._load import (
     check_overrides,
     load_metadata,
@@ -28,6 +33,7 @@ from ._load import (
     meta_to_dict,
     parse_metadata_text,
 )
+from ._survey import survey_condition_warnings
 
 __all__ = [
     "load_metadata",
@@ -37,4 +43,7 @@ __all__ = [
     "meta_to_dict",
     "meta_from_dict",
     "SURVEY_FILE",
+    "survey_condition_warnings",
+    "BOUNDS",
+    "Bound",
 ]
