@@ -5,19 +5,23 @@ from __future__ import annotations
 import dataclasses
 import json
 import os
+import re
 import threading
+from pathlib import Path
 
 import pytest
 
 from irseg._defaults import resolve_reflected_c
 from irseg.errors import MetadataError, MetadataWarning
 from irseg.metadata import (
+    BOUNDS,
     check_overrides,
     load_metadata,
     merge_metadata,
     meta_from_dict,
     meta_to_dict,
     parse_metadata_text,
+    survey_condition_warnings,
 )
 from irseg.types import Air, Assumption, Surface, SurveyMeta
 
@@ -95,21 +99,21 @@ def test_out_of_range_emissivity_message():
     ("text", "needle"),
     [
         ("[surface]\nemissivity = 0.0", "emissivity = 0.0 is outside (0, 1]"),
-        ("[camera]\ndistance_m = -2.0", "distance_m = -2.0 is outside (0, inf]"),
-        ("[camera]\nhfov_deg = 180", "hfov_deg = 180 is outside (0, 180)"),
+        ("[camera]\ndistance_m = -2.0", "distance_m = -2.0 is outside (0, 150] m"),
+        ("[camera]\nhfov_deg = 180", "hfov_deg = 180 is outside [1, 120] °"),
         ("[camera]\ntilt_deg = 85", "tilt_deg = 85 is outside [0, 80]"),
         ("[camera]\npixel_m = 0", "pixel_m = 0 is outside"),
-        ("[camera]\ntransmittance = 1.2", "transmittance = 1.2 is outside (0, 1]"),
+        ("[camera]\ntransmittance = 1.2", "transmittance = 1.2 is outside [0.5, 1]"),
         ("[camera]\nnetd_k = 0", "netd_k = 0 is outside"),
         ("[camera]\nscale = 0", "scale = 0 is zero"),
         ('[camera]\nunits = "fahrenheit"', "not a valid choice"),
         ('[surface]\nview = "inside"', 'use one of "interior", "exterior", "roof"'),
         ('[surface]\nheat_flow = "up"', "heat_flow"),
         ("[analysis]\ndegree_days = -1", "degree_days = -1 is outside [0"),
-        ("[analysis]\nfrsi_limit = 1.0", "frsi_limit = 1.0 is outside (0, 1)"),
+        ("[analysis]\nfrsi_limit = 1.0", "frsi_limit = 1.0 is outside [0.4, 0.95]"),
         ("[analysis]\nh_uncertainty_rel = -0.1", "h_uncertainty_rel = -0.1 is outside [0"),
         ("[analysis]\ndistance_uncertainty_rel = -1", "distance_uncertainty_rel = -1 is outside [0"),
-        ("[surface]\nemissivity_uncertainty_abs = 1", "emissivity_uncertainty_abs = 1 is outside [0, 1)"),
+        ("[surface]\nemissivity_uncertainty_abs = 1", "emissivity_uncertainty_abs = 1 is outside [0, 0.2]"),
         ("[analysis]\nseed = 1.5", "seed = 1.5 is a float, not an integer"),
         ("[segment]\nnoise_k = 0", "noise_k = 0 is outside (0"),
         ("[segment]\nmin_step_k = -1", "min_step_k = -1 is outside (0"),
@@ -389,3 +393,153 @@ def test_folder_named_like_a_sidecar_is_refused(tmp_path):
     (tmp_path / "x.toml").mkdir()
     with pytest.raises(MetadataError, match=r"x.toml: the metadata file is not a regular file \(a folder"):
         load_metadata(tmp_path / "x.tif")
+
+
+# ----------------------------------------------------------------------------- bounds (issue 15)
+# Every number has the range a building survey can have (irseg.metadata.BOUNDS, listed in the guide).
+
+
+@pytest.mark.parametrize(
+    ("text", "needle"),
+    [
+        # the values of issue 15: each gave an absurd result (4.5e12 W, 982 MB of memory) without a word
+        ("[camera]\ndistance_m = 1e6", "distance_m = 1000000.0 is outside (0, 150] m"),
+        ("[camera]\nhfov_deg = 179.999", "hfov_deg = 179.999 is outside [1, 120] °"),
+        ("[segment]\nmin_feature_px = 30000", "min_feature_px = 30000 is outside [1, 100] px"),
+        ("[segment]\nmin_feature_px = 1e9", "min_feature_px = 1000000000.0 is outside [1, 100] px"),
+        ("[air]\nwind_m_s = 100", "wind_m_s = 100 is outside [0, 40] m/s"),
+        ("[air]\noutside_c = -80", "outside_c = -80 is outside [-60, 60] °C"),
+        ("[surface]\nreflected_c = 150", "reflected_c = 150 is outside [-100, 100] °C"),
+        ("[camera]\npixel_m = 3", "pixel_m = 3 is outside (0, 1] m"),
+        ("[camera]\nnetd_k = 5", "netd_k = 5 is outside (0, 2] K"),
+        ("[camera]\nscale = 1e9", "scale = 1000000000.0 is outside [-1000, 1000] per count"),
+        ("[camera]\noffset = 1e5", "offset = 100000.0 is outside [-1000, 1000]"),
+        ("[analysis]\ndegree_days = 20000", "degree_days = 20000 is outside [0, 15000] K·d"),
+        ("[analysis]\nmin_delta_t_k = 80", "min_delta_t_k = 80 is outside [0, 50] K"),
+        ("[segment]\nmin_step_k = 60", "min_step_k = 60 is outside (0, 50] K"),
+        ("[segment]\nnoise_k = 10", "noise_k = 10 is outside (0, 5] K"),
+        ("[camera]\nband_um = [0.4, 0.7]", "is outside the thermal infrared, 2-20 µm"),
+        ("[camera]\nband_um = [8.0, 1000.0]", "is outside the thermal infrared, 2-20 µm"),
+    ],
+)
+def test_implausible_values_are_refused_naming_file_key_and_fix(text, needle):
+    msg = _err(text)
+    assert msg.startswith("survey.toml: [") and needle in msg
+    assert msg.count(";") >= 1 and msg.split(";", 1)[1].strip()  # a fix follows the reason
+
+
+@pytest.mark.parametrize(
+    ("section", "key", "value"),
+    [
+        ("camera", "distance_m", 120.0),  # drone ceiling, EU Regulation 2019/947 open category (from memory)
+        ("camera", "hfov_deg", 6.0),  # a telephoto thermal lens (common practice)
+        ("camera", "hfov_deg", 90.0),  # a wide-angle thermal lens (common practice)
+        ("camera", "netd_k", 0.1),  # a recommended minimum NETD for building surveys (common practice)
+        ("camera", "transmittance", 0.95),  # long-wave path of some tens of metres (common practice)
+        ("camera", "offset", -273.15),  # kelvin counts to °C (SI Brochure, 9th edition)
+        ("surface", "reflected_c", -50.0),  # a clear night sky at mid latitudes (common practice)
+        ("air", "outside_c", -60.0),  # a Siberian winter night (WMO extremes, from memory)
+        ("air", "outside_c", 55.0),  # a desert summer (WMO extremes, from memory)
+        ("air", "wind_m_s", 32.7),  # the lower edge of Beaufort force 12 (WMO, from memory)
+        ("analysis", "degree_days", 5665.0),  # Finland's 1979-2021 average, Eurostat
+        ("analysis", "frsi_limit", 0.70),  # DIN 4108-2
+        ("analysis", "frsi_limit", 0.75),  # UK practice
+        ("analysis", "min_delta_t_k", 10.0),  # EN 13187 / ASTM C1060
+        ("analysis", "max_wind_m_s", 6.7),  # ASTM C1060
+    ],
+)
+def test_values_real_surveys_have_are_accepted(section, key, value):
+    assert check_overrides({section: {key: value}}) == {section: {key: value}}
+
+
+def test_every_bound_is_enforced_at_its_ends():
+    # the schema applies each range of BOUNDS as written: open ends refused, closed ends accepted
+    assert set(BOUNDS) == {"camera", "surface", "air", "analysis", "segment"}
+    for section, keys in BOUNDS.items():
+        for key, bound in keys.items():
+            for end, is_open, step in ((bound.lo, bound.lo_open, -1.0), (bound.hi, bound.hi_open, 1.0)):
+                if end is None:
+                    continue
+                outside = end + step * max(1e-6, abs(end) * 1e-6)
+                with pytest.raises(MetadataError, match=re.escape(f"is outside {bound.text()}")):
+                    check_overrides({section: {key: outside}})
+                if end == 0.0 and key == "scale":
+                    continue  # zero scale has its own message (test_value_errors)
+                if is_open:
+                    with pytest.raises(MetadataError, match=re.escape(f"[{section}] {key} = ")):
+                        check_overrides({section: {key: end}})
+                else:
+                    assert check_overrides({section: {key: end}}) == {section: {key: end}}
+
+
+def test_every_bound_has_a_reason_and_is_listed_in_the_guide():
+    # "every tunable has a documented range" (issue 15): docs/guide.md lists each range as BOUNDS has it
+    guide = (Path(__file__).resolve().parents[1] / "docs" / "guide.md").read_text(encoding="utf-8")
+    rows = {}
+    for line in guide.splitlines():
+        cells = [c.strip() for c in line.replace("\\|", "/").strip().strip("|").split("|")]
+        if len(cells) >= 5 and cells[0].startswith("`") and cells[0].endswith("`"):
+            rows[cells[0].strip("`")] = cells
+    for section, keys in BOUNDS.items():
+        for key, bound in keys.items():
+            assert len(bound.reason) > 20, (section, key)
+            assert key in rows, f"[{section}] {key} is not in a key table of docs/guide.md"
+            assert rows[key][3] == bound.text(), (key, rows[key][3], bound.text())
+            assert f"`{key}`: " in guide, f"the guide gives no reason for the range of {key}"
+
+
+def test_a_400_digit_integer_is_a_metadata_error():
+    # issue 15 item 17: it gave "unexpected OverflowError"; Python floats end near 1.8e308 (IEEE 754 double)
+    msg = _err("[camera]\ndistance_m = " + "9" * 400)
+    assert msg.startswith("survey.toml: [camera] distance_m = <an integer of 400 digits> is too large")
+    assert "write a plain number" in msg
+    with pytest.raises(MetadataError, match=r"^command line: \[analysis\] degree_days = <an integer of 401"):
+        check_overrides({"analysis": {"degree_days": 10**400}})
+    # beyond 4300 digits Python refuses to convert the text at all (sys.get_int_max_str_digits)
+    msg = _err("[camera]\ndistance_m = " + "9" * 5000)
+    assert msg.startswith("survey.toml: a TOML value cannot be read") and "plain numbers" in msg
+
+
+def test_a_deeply_nested_value_is_a_metadata_error():
+    nested: list = [7.5, 14.0]
+    for _ in range(5000):
+        nested = [nested]
+    with pytest.raises(MetadataError, match=r"band_um = <a deeply nested list> is not a list of two numbers"):
+        check_overrides({"camera": {"band_um": nested}})
+
+
+# ----------------------------------------------------------------------------- conditions across a survey
+
+
+def _air_meta(inside=None, outside=None) -> SurveyMeta:
+    return SurveyMeta(air=Air(inside_c=inside, outside_c=outside))
+
+
+def test_sample_survey_outside_air_contradiction_is_reported():
+    # the bundled sample survey (issue 15's example): walls at 1.0 °C outside, roof sidecars at 8.71 °C;
+    # the outside air of one night session moves by a degree or two (common practice), not 7.7 K
+    samples = Path(__file__).resolve().parents[1] / "sample_images"
+    metas = {p.name: load_metadata(p) for p in sorted(samples.glob("lf0*")) if p.suffix != ".toml"}
+    assert len(metas) == 8
+    (msg,) = survey_condition_warnings(metas)
+    assert msg.startswith("[air] outside_c differs by 7.7 K between the images (1 °C in lf01_lounge_north_wall.tiff")
+    assert "8.71 °C in lf07_extension_roof_west.tiff, lf08_extension_roof_east.png" in msg
+    assert "more than the 3 K" in msg and "check outside_c in survey.toml and the sidecars" in msg
+
+
+def test_survey_condition_warnings_limits_and_folders():
+    ok = {"a/1.tif": _air_meta(20.0, 1.0), "a/2.tif": _air_meta(22.0, 3.5), "a/3.tif": _air_meta()}
+    assert survey_condition_warnings(ok) == []  # 2.5 K outside, 2 K inside: within one session
+    # different folders are different sessions: no comparison across them
+    assert survey_condition_warnings({"n/1.tif": _air_meta(20.0, 1.0), "s/1.tif": _air_meta(20.0, 9.0)}) == []
+    bad = {"a/1.tif": _air_meta(15.0, 1.0), "a/2.tif": _air_meta(21.0, 4.5), "b/1.tif": _air_meta(20.0, 1.0)}
+    out = survey_condition_warnings(bad)
+    assert len(out) == 2
+    assert out[0].startswith("[air] outside_c differs by 3.5 K between the images of a "
+                             "(1 °C in 1.tif; 4.5 °C in 2.tif)")
+    assert out[1].startswith("[air] inside_c differs by 6.0 K between the images of a "
+                             "(15 °C in 1.tif; 21 °C in 2.tif)")
+    assert "more than the 5 K" in out[1]
+    many = {f"c/{k}.tif": _air_meta(None, 1.0) for k in range(6)} | {"c/z.tif": _air_meta(None, 8.0)}
+    (msg,) = survey_condition_warnings(many)
+    assert "1 °C in 0.tif, 1.tif, 2.tif and 3 more; 8 °C in z.tif" in msg

@@ -109,6 +109,7 @@ def write_survey_files(
     anomalies, review_info, notes = _reviewed(out_dir, records, review, review_file)
     thumbs, photo_names, photo_notes = _photos(photos or {})
     notes += photo_notes
+    notes += _condition_notes(records)
     summary = build_summary(ordered, anomalies, skipped, review=review_info, photos=photo_names, notes=notes)
     failures = tuple(o.failure for o in ordered if o.failure is not None)
     contents: dict[str, bytes | None] = {
@@ -148,6 +149,20 @@ def _render_report(out_dir: Path, summary: dict[str, Any], ordered: Sequence[Ima
 
 
 # --------------------------------------------------------------------------- review and photos
+
+
+def _condition_notes(records: Sequence[Any]) -> list[tuple[str, str]]:
+    """Survey-level warnings on air temperatures that contradict each other between images."""
+    from ..errors import MetadataError
+    from ..metadata import meta_from_dict, survey_condition_warnings
+
+    metas = {}
+    for record in records:
+        try:
+            metas[record.source or record.image] = meta_from_dict(record.metadata, source=record.image)
+        except MetadataError:  # a record from an older version: its conditions are not compared
+            continue
+    return [("survey", text) for text in survey_condition_warnings(metas)]
 
 
 def _log_lines(review: Mapping[str, Any], notes: Sequence[tuple[str, str]]) -> list[str]:

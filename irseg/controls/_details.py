@@ -9,106 +9,33 @@ beside the image; it is shown beside the overlay in the report, scaled, never re
 
 from __future__ import annotations
 
-import dataclasses
-import datetime
-import difflib
 import os
 import tomllib
 from collections.abc import Iterable, Mapping
 from pathlib import Path
-from typing import Any
 
-from ..errors import InputError, MetadataError
-from ..types import ImageDetails, SurveyDetails
+from ..errors import InputError
+from ..metadata import DETAIL_SECTIONS, check_details, details_from
 
 __all__ = [
     "DETAIL_SECTIONS",
-    "PHOTO_SUFFIXES",
     "check_details",
     "details_from",
+    "PHOTO_SUFFIXES",
     "photo_candidates",
     "find_photo",
     "photo_files",
     "photo_thumbnail",
 ]
 
-#: The free-text sections, their record type and the file they belong in.
-DETAIL_SECTIONS: dict[str, type] = {"survey": SurveyDetails, "image": ImageDetails}
-
 #: Suffixes of a photo found by name (``<stem>_photo<suffix>``), in the order tried.
 PHOTO_SUFFIXES = (".jpg", ".jpeg", ".png", ".JPG", ".JPEG", ".PNG")
-
-#: Longest free-text value accepted, in characters (a paragraph; the report shows it whole).
-MAX_DETAIL_CHARS = 2000
 
 #: Largest photo read for the report (64 MiB: a camera JPEG is a few MB).
 MAX_PHOTO_BYTES = 64 << 20
 
 #: The long side of a photo as embedded in the report, pixels.
 PHOTO_SIDE_PX = 640
-
-
-def _keys(section: str) -> tuple[str, ...]:
-    return tuple(f.name for f in dataclasses.fields(DETAIL_SECTIONS[section]))
-
-
-def check_details(source: str, section: str, table: Any) -> dict[str, str]:
-    """Check one ``[survey]`` or ``[image]`` table; return its values as stripped text.
-
-    Parameters
-    ----------
-    source : str
-        The file (named in messages).
-    section : {"survey", "image"}
-    table : Any
-        The parsed TOML table.
-
-    Returns
-    -------
-    dict of str to str
-        The keys given; TOML dates and times as ISO text (``2026-01-14``, ``2026-01-14T21:40:00``).
-
-    Raises
-    ------
-    MetadataError
-        Not a table, an unknown key (with the nearest valid one), a value that is not text,
-        a date or a time, or a value longer than 2000 characters; the message names the file,
-        the key and the fix.
-    """
-    if not isinstance(table, Mapping):
-        raise MetadataError(f"{source}: {section} = ... should be a section [{section}] holding keys, not a value")
-    valid = _keys(section)
-    out: dict[str, str] = {}
-    for key, value in table.items():
-        if key not in valid:
-            near = difflib.get_close_matches(str(key), valid, n=1, cutoff=0.6)
-            hint = f"did you mean {near[0]!r}? " if near else ""
-            raise MetadataError(f"{source}: [{section}] has no key {key!r}; {hint}valid keys: {', '.join(valid)}")
-        out[key] = _text(source, section, key, value)
-    return out
-
-
-def _text(source: str, section: str, key: str, value: Any) -> str:
-    if isinstance(value, (datetime.date, datetime.time)):  # datetime.datetime is a date
-        return value.isoformat()
-    if not isinstance(value, str):
-        raise MetadataError(
-            f"{source}: [{section}] {key} = {value!r:.60} is not text; write it in quotes, e.g. {key} = \"...\""
-        )
-    text = value.strip()
-    if len(text) > MAX_DETAIL_CHARS:
-        raise MetadataError(
-            f"{source}: [{section}] {key} is {len(text)} characters long; keep it under {MAX_DETAIL_CHARS} "
-            "(details are a line or a paragraph)"
-        )
-    if key == "photo" and (not text or "\0" in text):
-        raise MetadataError(f'{source}: [image] photo = "{text}" is not a file name; name the photo, e.g. "IMG_0412.jpg"')
-    return text
-
-
-def details_from(section: str, values: Mapping[str, str]) -> SurveyDetails | ImageDetails:
-    """The record of a checked table (:func:`check_details`); keys absent read as None."""
-    return DETAIL_SECTIONS[section](**dict(values))
 
 
 # --------------------------------------------------------------------------- photos

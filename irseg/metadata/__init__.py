@@ -12,14 +12,19 @@ assumed value is recorded in ``SurveyMeta.assumed`` and announced with a
 :class:`~irseg.errors.MetadataWarning`. Missing geometry is not an error here; the
 analysis warns about what it cannot compute.
 
-Modules: ``_checks`` (value checks), ``_schema`` (sections, keys, renamed keys,
-validation), ``_assume`` (defaults resolved and recorded), ``_load`` (parse, merge,
-load, JSON round trip).
+Every number has an accepted range, what a building survey can have, with its reason
+(:data:`BOUNDS`, listed in ``docs/guide.md``). Across the images of one folder,
+:func:`survey_condition_warnings` reports air temperatures that contradict each other.
+
+Modules: ``_bounds`` (ranges and their reasons), ``_checks`` (value checks), ``_schema``
+(sections, keys, renamed keys, validation), ``_assume`` (defaults resolved and recorded),
+``_load`` (parse, merge, load, JSON round trip), ``_survey`` (checks across images).
 """
 
 from __future__ import annotations
 
 from ..io import SURVEY_FILE
+from ._bounds import BAND_LIMITS_UM, BOUNDS, MIN_AIR_DIFFERENCE_K, SURFACE_C, SURFACE_REASON, Bound
 from ._load import (
     check_overrides,
     load_metadata,
@@ -28,6 +33,9 @@ from ._load import (
     meta_to_dict,
     parse_metadata_text,
 )
+from ._details import DETAIL_SECTIONS, check_details, details_from
+from ._survey import survey_condition_warnings
+from ._zones import ZONE_KEYS, ZONE_KINDS, check_zone_tables, zone_to_dict
 
 __all__ = [
     "load_metadata",
@@ -37,4 +45,18 @@ __all__ = [
     "meta_to_dict",
     "meta_from_dict",
     "SURVEY_FILE",
+    "survey_condition_warnings",
+    "BOUNDS",
+    "Bound",
+    "BAND_LIMITS_UM",
+    "SURFACE_C",
+    "SURFACE_REASON",
+    "MIN_AIR_DIFFERENCE_K",
+    "DETAIL_SECTIONS",
+    "check_details",
+    "details_from",
+    "ZONE_KEYS",
+    "ZONE_KINDS",
+    "check_zone_tables",
+    "zone_to_dict",
 ]

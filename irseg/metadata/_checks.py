@@ -2,6 +2,7 @@
 
 Each check takes ``(source, section, key, value)`` and returns the converted value, or
 raises :class:`~irseg.errors.MetadataError` naming the file, the key, the value and the fix.
+Numeric ranges come from :mod:`._bounds` (one table, with the reason for each range).
 """
 
 from __future__ import annotations
@@ -12,10 +13,14 @@ from collections.abc import Callable
 from typing import Any
 
 from ..errors import MetadataError
+from ._bounds import BAND_LIMITS_UM, Bound
 
 __all__: list[str] = []
 
 _Check = Callable[[str, str, str, Any], Any]
+
+#: Integers at least this large are shown by their number of digits, not their digits.
+_HUGE_INT = 10**30
 
 
 def _md_fail(src: str, sec: str, key: str, value: Any, why: str, fix: str) -> MetadataError:
@@ -23,18 +28,35 @@ def _md_fail(src: str, sec: str, key: str, value: Any, why: str, fix: str) -> Me
 
 
 def _md_show(value: Any) -> str:
+    """A short rendering of a value for messages (never fails, never long)."""
     if isinstance(value, str):
-        return f'"{value}"'
+        text = f'"{value}"'
+        return text if len(text) <= 60 else text[:56] + '..."'
     if isinstance(value, bool):
         return "true" if value else "false"
-    text = repr(value)
+    if isinstance(value, int) and abs(value) >= _HUGE_INT:
+        # its digits say nothing more, and Python refuses to print more than 4300 of them
+        try:
+            digits = len(str(abs(value)))
+        except ValueError:  # over 4300 digits (sys.get_int_max_str_digits): estimate from the bits
+            digits = int((abs(value).bit_length() - 1) * math.log10(2)) + 1
+        return f"{'-' if value < 0 else ''}<an integer of {digits} digits>"
+    try:
+        text = repr(value)
+    except (RecursionError, ValueError):
+        return f"<a deeply nested {_md_kind(value)}>"
     return text if len(text) <= 60 else text[:57] + "..."
 
 
 def _md_number(src: str, sec: str, key: str, value: Any) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)):
         raise _md_fail(src, sec, key, value, f"is a {_md_kind(value)}, not a number", "write a plain number")
-    out = float(value)
+    try:
+        out = float(value)
+    except OverflowError:  # an integer beyond the float range (about 1.8e308)
+        raise _md_fail(
+            src, sec, key, value, "is too large to be a number", "write a plain number within the key's range"
+        ) from None
     if not math.isfinite(out):
         raise _md_fail(src, sec, key, value, "is not finite", "write a finite number")
     return out
@@ -56,40 +78,33 @@ def _md_kind(value: Any) -> str:
     return type(value).__name__
 
 
-def _md_range(
-    lo: float | None, hi: float | None, *, lo_open: bool, hi_open: bool, fix: str, optional: bool = False
-) -> _Check:
-    """A float check for an interval; ``None`` bounds are unbounded."""
+def _md_range(bound: Bound, *, fix: str, optional: bool = False) -> _Check:
+    """A float check for the interval of ``bound`` (see :mod:`._bounds`)."""
 
     def check(src: str, sec: str, key: str, value: Any) -> float | None:
         if value is None and optional:
             return None
         x = _md_number(src, sec, key, value)
-        bad_lo = lo is not None and (x <= lo if lo_open else x < lo)
-        bad_hi = hi is not None and (x >= hi if hi_open else x > hi)
-        if bad_lo or bad_hi:
-            left = "(" if lo_open else "["
-            right = ")" if hi_open else "]"
-            lo_s = "-inf" if lo is None else f"{lo:g}"
-            hi_s = "inf" if hi is None else f"{hi:g}"
-            raise _md_fail(src, sec, key, value, f"is outside {left}{lo_s}, {hi_s}{right}", fix)
+        if not bound.contains(x):
+            raise _md_fail(src, sec, key, value, f"is outside {bound.text()}", fix)
         return x
 
     return check
 
 
-def _md_temperature(*, optional: bool = True) -> _Check:
+def _md_temperature(bound: Bound, *, optional: bool = True) -> _Check:
+    """A °C check for the interval of ``bound`` that tells when a value looks like kelvin."""
+
     def check(src: str, sec: str, key: str, value: Any) -> float | None:
         if value is None and optional:
             return None
         x = _md_number(src, sec, key, value)
-        if not -100.0 <= x <= 200.0:
-            hint = (
-                f"temperatures are in °C; {x:g} looks like kelvin, use {x - 273.15:.2f}"
-                if 173.15 <= x <= 473.15
-                else "temperatures are in °C, between -100 and 200"
-            )
-            raise _md_fail(src, sec, key, value, "is outside [-100, 200] °C", hint)
+        if not bound.contains(x):
+            if bound.contains(x - 273.15):
+                hint = f"temperatures are in °C; {x:g} looks like kelvin, use {x - 273.15:.2f}"
+            else:
+                hint = f"give it in °C: {bound.reason}"
+            raise _md_fail(src, sec, key, value, f"is outside {bound.text()}", hint)
         return x
 
     return check
@@ -118,12 +133,18 @@ def _md_quote(options: tuple[str, ...]) -> str:
 
 
 def _md_band(src: str, sec: str, key: str, value: Any) -> tuple[float, float]:
-    fix = "write two increasing wavelengths in micrometres, e.g. band_um = [7.5, 14.0]"
+    lo_um, hi_um = BAND_LIMITS_UM
+    fix = (
+        f"write the camera's two band edges in micrometres, increasing, within {lo_um:g}-{hi_um:g} µm "
+        "(thermal cameras work at 3-5 or 7.5-14 µm), e.g. band_um = [7.5, 14.0]"
+    )
     if not isinstance(value, (list, tuple)) or len(value) != 2:
         raise _md_fail(src, sec, key, value, "is not a list of two numbers", fix)
     lo, hi = (_md_number(src, sec, key, v) for v in value)
-    if not (0.0 < lo < hi) or hi > 1000.0:
+    if not 0.0 < lo < hi:
         raise _md_fail(src, sec, key, value, "is not an increasing pair of positive wavelengths", fix)
+    if lo < lo_um or hi > hi_um:
+        raise _md_fail(src, sec, key, value, f"is outside the thermal infrared, {lo_um:g}-{hi_um:g} µm", fix)
     return (lo, hi)
 
 
@@ -135,12 +156,20 @@ def _md_seed(src: str, sec: str, key: str, value: Any) -> int:
     return int(value)
 
 
-def _md_nonzero(src: str, sec: str, key: str, value: Any) -> float:
-    x = _md_number(src, sec, key, value)
-    if x == 0.0:
-        raise _md_fail(src, sec, key, value, "is zero", "integer images need value = raw * scale + offset, scale != 0")
-    return x
+def _md_scale(bound: Bound) -> _Check:
+    """The ``scale`` check: a number within ``bound`` and not zero."""
 
+    def check(src: str, sec: str, key: str, value: Any) -> float:
+        x = _md_number(src, sec, key, value)
+        if x == 0.0:
+            raise _md_fail(
+                src, sec, key, value, "is zero", "integer images need value = raw * scale + offset, scale != 0"
+            )
+        if not bound.contains(x):
+            raise _md_fail(
+                src, sec, key, value, f"is outside {bound.text()}",
+                "give the export's temperature step per count (e.g. 0.01 for hundredths of a kelvin)",
+            )
+        return x
 
-def _md_finite(src: str, sec: str, key: str, value: Any) -> float:
-    return _md_number(src, sec, key, value)
+    return check

@@ -8,8 +8,8 @@ import tomllib
 from collections.abc import Mapping
 from typing import Any
 
-from ..controls._details import details_from
-from ..controls._zones import zone_to_dict
+from ._details import details_from
+from ._zones import zone_to_dict
 from ..errors import InputError, MetadataError
 from ..io import SURVEY_FILE, read_metadata_texts
 from ..types import Assumption, SurveyMeta
@@ -63,6 +63,9 @@ def parse_metadata_text(text: str, *, source: str) -> dict[str, dict[str, Any]]:
         raise MetadataError(f"{source}: TOML syntax error: {exc}; fix that line (see https://toml.io)") from None
     except RecursionError:
         raise MetadataError(f"{source}: TOML nesting too deep; metadata needs only [section] key = value") from None
+    except ValueError as exc:  # e.g. an integer of more than 4300 digits, which Python refuses to convert
+        detail = str(exc).split(";")[0][:160]
+        raise MetadataError(f"{source}: a TOML value cannot be read ({detail}); write plain numbers") from None
     return _md_validate(tree, source=source)
 
 

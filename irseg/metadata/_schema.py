@@ -3,6 +3,8 @@
 The sections mirror the dataclasses of :mod:`irseg.types` (``[camera]`` is
 :class:`~irseg.types.Camera`, ...). Keys renamed in a later version are still accepted
 under their old name, with a :class:`~irseg.errors.MetadataWarning` naming the new one.
+Every number is checked against its range in :data:`._bounds.BOUNDS`, where each range
+has its reason (and ``docs/guide.md`` lists them).
 """
 
 from __future__ import annotations
@@ -12,18 +14,18 @@ import warnings
 from collections.abc import Mapping
 from typing import Any
 
-from ..controls._details import check_details
-from ..controls._zones import check_zone_tables
+from ._details import check_details
+from ._zones import check_zone_tables
 from ..errors import MetadataError, MetadataWarning
 from ..types import Air, AnalysisSettings, Camera, SegmentSettings, Surface
+from ._bounds import BOUNDS
 from ._checks import (
     _Check,
     _md_band,
     _md_choice,
-    _md_finite,
     _md_kind,
-    _md_nonzero,
     _md_range,
+    _md_scale,
     _md_seed,
     _md_show,
     _md_temperature,
@@ -39,59 +41,70 @@ _SECTIONS: dict[str, type] = {
     "segment": SegmentSettings,
 }
 
-_POS = {"lo_open": True, "hi_open": False}
+
+def _rng(sec: str, key: str, fix: str, *, optional: bool = False) -> _Check:
+    return _md_range(BOUNDS[sec][key], fix=fix, optional=optional)
+
+
+def _temp(sec: str, key: str) -> _Check:
+    return _md_temperature(BOUNDS[sec][key])
+
+
 _SCHEMA: dict[str, dict[str, _Check]] = {
     "camera": {
-        "hfov_deg": _md_range(0, 180, lo_open=True, hi_open=True, optional=True,
-                              fix="give the lens's horizontal field of view in degrees, e.g. 45"),
-        "distance_m": _md_range(0, None, **_POS, optional=True, fix="give the camera-to-surface distance in metres (> 0)"),
-        "pixel_m": _md_range(0, None, **_POS, optional=True, fix="give one pixel's side on the surface in metres (> 0), e.g. 0.005"),
-        "tilt_deg": _md_range(0, 80, lo_open=False, hi_open=False,
-                              fix="give the angle between line of sight and surface normal, 0 to 80 degrees"),
+        "hfov_deg": _rng("camera", "hfov_deg", "give the lens's horizontal field of view in degrees, e.g. 45",
+                         optional=True),
+        "distance_m": _rng("camera", "distance_m", "give the camera-to-surface distance in metres", optional=True),
+        "pixel_m": _rng("camera", "pixel_m", "give one pixel's side on the surface in metres, e.g. 0.005",
+                        optional=True),
+        "tilt_deg": _rng("camera", "tilt_deg",
+                         "give the angle between line of sight and surface normal, 0 to 80 degrees"),
         "units": _md_choice(("celsius", "kelvin")),
-        "scale": _md_nonzero,
-        "offset": _md_finite,
+        "scale": _md_scale(BOUNDS["camera"]["scale"]),
+        "offset": _rng("camera", "offset", "give the export's offset (value = raw * scale + offset, in units)"),
         "band_um": _md_band,
-        "netd_k": _md_range(0, None, **_POS, fix="give the camera's NETD in kelvin (> 0), e.g. 0.05"),
-        "export_emissivity": _md_range(0, 1, **_POS, fix="give the emissivity the export applied, in (0, 1] (1 = apparent)"),
-        "export_reflected_c": _md_temperature(),
-        "transmittance": _md_range(0, 1, **_POS, fix="give the path transmittance in (0, 1] (1 for short building distances)"),
-        "atmosphere_c": _md_temperature(),
+        "netd_k": _rng("camera", "netd_k", "give the camera's NETD in kelvin, e.g. 0.05"),
+        "export_emissivity": _rng("camera", "export_emissivity",
+                                  "give the emissivity the export applied, in (0, 1] (1 = apparent)"),
+        "export_reflected_c": _temp("camera", "export_reflected_c"),
+        "transmittance": _rng("camera", "transmittance",
+                              "give the path transmittance (1 for building distances)"),
+        "atmosphere_c": _temp("camera", "atmosphere_c"),
     },
     "surface": {
-        "emissivity": _md_range(0, 1, **_POS, fix="use the material's long-wave emissivity"),
-        "reflected_c": _md_temperature(),
+        "emissivity": _rng("surface", "emissivity", "use the material's long-wave emissivity"),
+        "reflected_c": _temp("surface", "reflected_c"),
         "view": _md_choice(("interior", "exterior", "roof")),
         "heat_flow": _md_choice(("horizontal", "upward", "downward"), optional=True),
-        "emissivity_uncertainty_abs": _md_range(0, 1, lo_open=False, hi_open=True,
-                                                fix="give the absolute emissivity uncertainty, >= 0, e.g. 0.02"),
+        "emissivity_uncertainty_abs": _rng("surface", "emissivity_uncertainty_abs",
+                                           "give the absolute emissivity uncertainty, e.g. 0.02"),
     },
     "air": {
-        "inside_c": _md_temperature(),
-        "outside_c": _md_temperature(),
-        "wind_m_s": _md_range(0, 100, lo_open=False, hi_open=False, optional=True,
-                              fix="give the wind speed at the surface in m/s, >= 0"),
+        "inside_c": _temp("air", "inside_c"),
+        "outside_c": _temp("air", "outside_c"),
+        "wind_m_s": _rng("air", "wind_m_s", "give the wind speed at the surface in m/s", optional=True),
     },
     "analysis": {
-        "degree_days": _md_range(0, 20000, lo_open=False, hi_open=False,
-                                 fix="give heating degree-days in K·d per year, >= 0 (3000 is a temperate climate)"),
-        "frsi_limit": _md_range(0, 1, lo_open=True, hi_open=True, fix="give the f_Rsi mould limit in (0, 1), e.g. 0.70"),
-        "distance_uncertainty_rel": _md_range(0, None, lo_open=False, hi_open=False,
-                                              fix="give the relative distance uncertainty, >= 0 (0.05 = 5 %)"),
-        "h_uncertainty_rel": _md_range(0, None, lo_open=False, hi_open=False,
-                                       fix="give the relative heat-transfer uncertainty, >= 0 (0.20 = 20 %)"),
-        "max_wind_m_s": _md_range(0, None, lo_open=False, hi_open=False, fix="give a wind limit in m/s, >= 0"),
-        "min_delta_t_k": _md_range(0, None, lo_open=False, hi_open=False,
-                                   fix="give the smallest inside-outside difference in K, >= 0"),
-        "min_contrast_k": _md_range(0, None, lo_open=False, hi_open=False, optional=True,
-                                    fix="give the smallest anomaly contrast in K, >= 0"),
+        "degree_days": _rng("analysis", "degree_days",
+                            "give heating degree-days in K·d per year (3000 is a temperate climate)"),
+        "frsi_limit": _rng("analysis", "frsi_limit", "give the f_Rsi mould limit, e.g. 0.70"),
+        "distance_uncertainty_rel": _rng("analysis", "distance_uncertainty_rel",
+                                         "give the relative distance uncertainty (0.05 = 5 %)"),
+        "h_uncertainty_rel": _rng("analysis", "h_uncertainty_rel",
+                                  "give the relative heat-transfer uncertainty (0.20 = 20 %)"),
+        "max_wind_m_s": _rng("analysis", "max_wind_m_s", "give a wind limit in m/s (6.7 in ASTM C1060)"),
+        "min_delta_t_k": _rng("analysis", "min_delta_t_k",
+                              "give the smallest inside-outside difference in K (10 in EN 13187)"),
+        "min_contrast_k": _rng("analysis", "min_contrast_k", "give the smallest anomaly contrast in K",
+                               optional=True),
         "seed": _md_seed,
     },
     "segment": {
-        "noise_k": _md_range(0, None, **_POS, optional=True, fix="give the image noise in K (> 0), or leave it out to estimate it"),
-        "min_step_k": _md_range(0, None, **_POS, fix="give the smallest temperature step that makes an edge, in K (> 0)"),
-        "min_feature_px": _md_range(1, None, lo_open=False, hi_open=False,
-                                    fix="give the smallest feature size in pixels, >= 1"),
+        "noise_k": _rng("segment", "noise_k", "give the image noise in K, or leave it out to estimate it",
+                        optional=True),
+        "min_step_k": _rng("segment", "min_step_k",
+                           "give the smallest temperature step that makes an edge, in K"),
+        "min_feature_px": _rng("segment", "min_feature_px", "give the smallest feature size in pixels"),
     },
 }
 

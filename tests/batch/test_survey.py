@@ -366,3 +366,18 @@ def test_named_files_keep_unknown_suffixes_but_never_metadata(tmp_path):
     result = run_survey(named, tmp_path / "out", jobs=1)
     assert [o.image for o in result.outcomes] == [path.name, "notes.xyz"]  # the .toml files are metadata
     assert result.n_ok == 1 and [(f.image, f.stage) for f in result.failures] == [("notes.xyz", "read")]
+
+
+def test_contradicting_outside_air_between_images_is_a_survey_warning(tmp_path):
+    # Issue 15 item 9: one session's outside air cannot differ by 7 K between two walls of the same
+    # folder (a survey session lasts hours; air changes by a degree or two: common practice).
+    paths = make_survey(tmp_path / "s", 2, tiff=False)
+    paths[1].with_suffix(".toml").write_text("[air]\noutside_c = 8.0\n", encoding="utf-8")
+    result = run_survey([tmp_path / "s"], tmp_path / "out", jobs=1)
+    texts = [w["message"] for w in result.summary["warnings"] if w["image"] == "survey"]
+    assert len(texts) == 1 and "outside_c" in texts[0] and "8 °C" in texts[0]
+    assert "outside_c differs" in (tmp_path / "out" / "run.log").read_text(encoding="utf-8")
+    # the same survey with agreeing sidecars gives no such warning
+    paths[1].with_suffix(".toml").write_text("[air]\noutside_c = 0.5\n", encoding="utf-8")
+    again = run_survey([tmp_path / "s"], tmp_path / "out2", jobs=1)
+    assert not [w for w in again.summary["warnings"] if w["image"] == "survey"]

@@ -125,8 +125,9 @@ class ReaderContract:
         dtype = (self.float_dtypes or self.int_dtypes)[0]
         data = self.sample(dtype, rng, BUDGET_SHAPE)
         path = self.write(tmp_path, "budget", data)
-        with pytest.raises(InputError, match="50 x 40 = 2000 pixels exceeds the pixel budget of 1999"):
+        with pytest.raises(InputError, match="50 x 40 = 2000 pixels exceeds the pixel budget of 1999") as info:
             _read_untouched(path, max_pixels=1999)
+        assert "raise the max_pixels setting" in str(info.value)  # names the setting that fixes it
         assert read_thermogram(path, max_pixels=2000).data.shape == BUDGET_SHAPE
         # with the pixel data spoiled, the budget still speaks first: it is read from the header
         self.spoil_pixels(path)
@@ -194,20 +195,19 @@ class TestPngReader(ReaderContract):
     reader, suffix = "png", ".png"
     float_dtypes = ()  # PNG stores integers only; a float export is encoded as raw * scale + offset
     test_float_round_trip = None  # so no float round trip is collected for PNG
-    int_dtypes = (np.uint16, np.uint8)
+    # 16-bit greyscale only: 8-bit and lower grey PNGs are pictures (refused, see bad_files and test_readers.py)
+    int_dtypes = (np.uint16,)
 
     def write(self, folder, stem, data):
-        if data.dtype == np.uint16:
-            return _scene_writer("png16")(folder, stem, data)
-        path = folder / f"{stem}.png"
-        iio.imwrite(path, data)  # reference writer: imageio (pillow)
-        return path
+        return _scene_writer("png16")(folder, stem, data)
 
     def bad_files(self, folder, rng):
         paths = {}
         for what, channels in (("grey + alpha", 2), ("RGB", 3), ("RGBA", 4)):
             paths[what] = folder / f"{channels}ch.png"
             iio.imwrite(paths[what], rng.integers(0, 255, (8, 8, channels), dtype=np.uint8))
+        paths["8-bit grey"] = folder / "grey8.png"
+        iio.imwrite(paths["8-bit grey"], rng.integers(0, 255, (8, 8), dtype=np.uint8))  # reference writer: pillow
         return paths
 
 
