@@ -24,7 +24,7 @@ from ._common import _io_check_budget, _io_display, _io_file_size, _io_open_byte
 
 __all__ = ["read_csv", "CSV_SUFFIXES"]
 
-CSV_SUFFIXES = (".csv", ".txt", ".tsv", ".asc")
+CSV_SUFFIXES = (".csv", ".txt", ".tsv", ".asc", ".dat")
 
 # (delimiter, decimal mark); None = runs of whitespace. Order breaks ties.
 _CSV_CANDIDATES: tuple[tuple[str | None, str], ...] = (

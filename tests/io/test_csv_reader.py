@@ -161,3 +161,22 @@ def test_damaged_utf16_text_names_the_byte(tmp_path):
     path.write_bytes(b"\xff\xfe" + "1;2\n".encode("utf-16-le") + b"\x00\xd8")  # a lone high surrogate
     with pytest.raises(InputError, match="UTF-16 byte-order mark but byte 10 is not UTF-16"):
         read_thermogram(path)
+
+
+def test_every_suffix_the_guide_lists_for_text_matrices_is_read(tmp_path):
+    # docs/guide.md §2 lists .csv .txt .tsv .asc .dat for delimited text; a .dat matrix was once
+    # skipped in silence (issue 15 item 10)
+    import re
+    from pathlib import Path
+
+    from irseg.io import is_candidate
+
+    guide = (Path(__file__).resolve().parents[2] / "docs" / "guide.md").read_text(encoding="utf-8")
+    row = next(line for line in guide.splitlines() if line.startswith("| delimited text"))
+    suffixes = re.findall(r"`(\.\w+)`", row)
+    assert ".dat" in suffixes
+    for suffix in suffixes:
+        path = tmp_path / f"wall{suffix}"
+        path.write_text("20.5 20.6\n20.7 20.8\n", encoding="utf-8")
+        assert is_candidate(path)
+        assert read_thermogram(path).data.shape == (2, 2)
