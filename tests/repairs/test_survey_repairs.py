@@ -86,3 +86,43 @@ def test_a_survey_without_costs_gives_quantities_only(tmp_path):
     assert all(float(r["quantity"]) > 0 and float(r["saving_kwh_year"]) > 0 for r in rows)
     summary = json.loads((out / "summary.json").read_text(encoding="utf-8"))
     assert summary["repairs"]["priced"] is False and summary["repairs"]["totals"]["cost"] is None
+
+
+def test_confirm_rows_keep_only_the_plans_moisture_items():
+    from irseg.report import SurveyAnomaly
+    from irseg.repairs import repair_plan
+    from irseg.repairs._survey import confirm_rows
+
+    roof = [SurveyAnomaly(image="r.tif", anomaly=k, uid=f"r#{k}", cause="moisture", severity=k, area_m2=1.0,
+                          review="rejected" if k == 2 else None) for k in (1, 2)]
+    recorded = [{"anomaly": k, "point": 3 * (k - 1) + j, "kind": kind, "row": 5, "col": 6, "x_m": 0.123456,
+                 "y_m": None} for k in (1, 2) for j, kind in enumerate(("wet", "edge", "dry"), start=1)]
+    rows = confirm_rows([("r", recorded)], repair_plan(roof))
+    assert [(r["uid"], r["point"], r["kind"]) for r in rows] == [("r#1", 1, "wet"), ("r#1", 2, "edge"), ("r#1", 3, "dry")]
+    assert tuple(rows[0]) == CONFIRM_COLUMNS and rows[0]["x_m"] == 0.123 and rows[0]["y_m"] is None
+
+
+def test_the_sample_roofs_get_wet_edge_and_dry_points_on_their_label_images(tmp_path):
+    import shutil
+
+    import cv2
+
+    root = Path(__file__).resolve().parents[2] / "sample_images"
+    survey = tmp_path / "sample"
+    shutil.copytree(root, survey)
+    out = tmp_path / "out"
+    run_survey([survey], out, jobs=1)
+    _, points = _csv(out / "confirm_points.csv")
+    _, anomalies = _csv(out / "anomalies.csv")
+    wet_roofs = [a["uid"] for a in anomalies if a["cause"] == "moisture"]
+    assert wet_roofs and sorted({p["uid"] for p in points}) == sorted(wet_roofs)
+    for uid in wet_roofs:
+        stem, anomaly = uid.split("#")
+        labels = cv2.imread(str(out / stem / "labels.png"), cv2.IMREAD_UNCHANGED)
+        mine = [p for p in points if p["uid"] == uid]
+        assert [p["kind"] for p in mine] == ["wet", "edge", "dry"]
+        (r0, c0), (r1, c1), (r2, c2) = ((int(p["row"]), int(p["col"])) for p in mine)
+        assert labels[r0, c0] == int(anomaly) and labels[r1, c1] == int(anomaly) and labels[r2, c2] == 0
+        assert (labels[r1 - 1:r1 + 2, c1 - 1:c1 + 2] != int(anomaly)).any()  # the edge touches the outside
+        pixel_m = json.loads((out / stem / "result.json").read_text())["analysis"]["pixel_m"]
+        assert float(mine[0]["x_m"]) == pytest.approx((c0 + 0.5) * pixel_m, abs=1e-3)
