@@ -118,7 +118,11 @@ def survey_costs(sections: Sequence[tuple[str, Any]]) -> tuple[Costs | None, lis
     for image, values in sections:
         if not isinstance(values, Mapping) or not values:
             continue
-        costs = costs_from(check_costs(f"{image}: [costs]", values))
+        try:
+            costs = costs_from(check_costs(f"{image}: [costs]", values))
+        except MetadataError as exc:  # a result.json edited by hand: the plan goes on without it
+            notes.append((image, f"its recorded prices are not used: {exc}"))
+            continue
         if chosen is None:
             chosen, first = costs, image
         elif costs != chosen:

@@ -67,3 +67,15 @@ def test_bad_costs_fail_naming_the_key(line, key):
 def test_an_unknown_key_suggests_the_nearest():
     with pytest.raises(MetadataError, match="did you mean 'thermal_bridge_per_m'"):
         parse_metadata_text("[costs]\nthermal_bridge_per_m2 = 40.0\n", source="survey.toml")
+
+
+def test_the_survey_uses_the_first_prices_and_warns_about_others():
+    from irseg.repairs import survey_costs
+
+    first = {"currency": "EUR", "moisture_per_m2": 120.0}
+    chosen, notes = survey_costs([("a.tif", {}), ("b.tif", first), ("c.tif", {"moisture_per_m2": 99.0}),
+                                  ("d.tif", first), ("e.tif", {"moisture_per_m2": -1.0})])
+    assert chosen.moisture_per_m2 == 120.0 and chosen.currency == "EUR"
+    assert [image for image, _ in notes] == ["c.tif", "e.tif"]
+    assert "b.tif" in notes[0][1] and "moisture_per_m2" in notes[1][1]
+    assert survey_costs([("a.tif", None), ("b.tif", {})]) == (None, [])
