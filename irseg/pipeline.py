@@ -66,6 +66,8 @@ class ImageResult:
     zones : irseg.controls.ZoneLayer or None
         The image's ``[[zone]]`` masks (None without zones); ``frame.mask`` already holds
         the exclude zones.
+    confirm_points : tuple of irseg.repairs.ConfirmPoint
+        Where to confirm each moisture anomaly of a roof view (wet, edge, dry); empty otherwise.
     """
 
     path: str
@@ -76,6 +78,7 @@ class ImageResult:
     timings: dict[str, float] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
     zones: Any = None
+    confirm_points: tuple[Any, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -178,6 +181,7 @@ def process_image(
     from .io import read_thermogram
     from .metadata import load_metadata
     from .radiometry import calibrate
+    from .repairs import confirm_points
     from .segmentation import segment
 
     timings: dict[str, float] = {}
@@ -213,6 +217,9 @@ def process_image(
         ),
     )
     analysis = _run_stage("analyse", timings, caught, lambda: mark_zones(analyse(frame, seg, meta), zones, meta))
+    points = _run_stage("analyse", timings, caught, lambda: confirm_points(
+        frame.temperature_c, frame.mask, analysis.labels, analysis.anomalies, pixel_m=analysis.pixel_m,
+        view=meta.surface.view))
     return ImageResult(
         path=image,
         meta=meta,
@@ -222,6 +229,7 @@ def process_image(
         timings=timings,
         warnings=tuple(caught),
         zones=zones,
+        confirm_points=points,
     )
 
 
@@ -264,7 +272,7 @@ def render_result(result: ImageResult, *, cmap: str = "inferno") -> RenderedImag
         Rendering errors; tagged with stage ``"render"``.
     """
     from .io import encode_png
-    from .render import label_image, render_overlay
+    from .render import draw_confirm_marks, label_image, overlay_layout, render_overlay
 
     caught: list[str] = []
     timings: dict[str, float] = {}
@@ -275,6 +283,9 @@ def render_result(result: ImageResult, *, cmap: str = "inferno") -> RenderedImag
     def _draw() -> tuple[bytes, bytes]:
         overlay = render_overlay(frame, result.segmentation, result.analysis, result.meta, cmap=cmap,
                                  zones=None if zones is None else zones.zones)
+        points = getattr(result, "confirm_points", ())
+        if points:  # roof moisture: numbered marks where to confirm (irseg.repairs.confirm_points)
+            draw_confirm_marks(overlay, points, overlay_layout(frame.temperature_c.shape))
         labels = label_image(result.analysis)
         return encode_png(overlay), encode_png(labels)
 

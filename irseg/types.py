@@ -34,6 +34,7 @@ __all__ = [
     "Assumption",
     "SurveyDetails",
     "ImageDetails",
+    "Costs",
     "Zone",
     "SurveyMeta",
     "RawFrame",
@@ -251,6 +252,38 @@ class ImageDetails:
 
 
 @dataclass(frozen=True)
+class Costs:
+    """``[costs]`` (``survey.toml`` only): the user's own prices for the repair plan (irseg ships none).
+
+    Every price is None when not given; a survey without prices gets quantities only
+    (:mod:`irseg.repairs`).
+
+    Attributes
+    ----------
+    currency : str or None
+        Free text, shown as given (``"EUR"``).
+    energy_price_per_kwh : float or None
+        Price of one kWh of heating energy, in ``currency``.
+    missing_insulation_per_m2, moisture_per_m2 : float or None
+        Unit costs of a repair per m² (quantity with the working margin).
+    thermal_bridge_per_m : float or None
+        Unit cost of a thermal-bridge repair per metre of its length.
+    air_leakage_per_item : float or None
+        Unit cost of sealing one leak.
+    uncertainty : float
+        Relative band on the unit costs (0.25: costs from 0.75 to 1.25 times the estimate).
+    """
+
+    currency: str | None = None
+    energy_price_per_kwh: float | None = None
+    missing_insulation_per_m2: float | None = None
+    moisture_per_m2: float | None = None
+    thermal_bridge_per_m: float | None = None
+    air_leakage_per_item: float | None = None
+    uncertainty: float = 0.25
+
+
+@dataclass(frozen=True)
 class Zone:
     """One ``[[zone]]`` table: an area of the image the thermographer marks.
 
@@ -302,6 +335,8 @@ class SurveyMeta:
     zones : tuple of Zone
         ``[[zone]]`` tables: the folder's first, then the sidecar's (a sidecar's zones add to
         the folder's).
+    costs : Costs
+        ``[costs]`` of the folder's ``survey.toml`` (no prices when not given).
     """
 
     camera: Camera = field(default_factory=Camera)
@@ -314,6 +349,7 @@ class SurveyMeta:
     survey: SurveyDetails = field(default_factory=SurveyDetails)
     image: ImageDetails = field(default_factory=ImageDetails)
     zones: tuple[Zone, ...] = ()
+    costs: Costs = field(default_factory=Costs)
 
 
 # --------------------------------------------------------------------------- frames

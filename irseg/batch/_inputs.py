@@ -24,7 +24,8 @@ __all__ = [
 ]
 
 #: Names under OUT that belong to the survey-level files.
-RESERVED_NAMES = ("anomalies.csv", "summary.json", "report.html", "failures.csv", "run.log")
+RESERVED_NAMES = ("anomalies.csv", "summary.json", "report.html", "failures.csv", "run.log", "repairs.csv",
+                  "confirm_points.csv")
 
 #: Files whose presence (with irseg's content) marks a folder of irseg outputs.
 _OUTPUT_MARKERS = ("result.json", "summary.json")

@@ -1,7 +1,7 @@
 """The survey-level files, rebuilt from the per-image records after every run (used by irseg.batch).
 
-``anomalies.csv``, ``failures.csv`` (only when an image failed), ``report.html``,
-``summary.json`` and ``run.log`` are one set: all are built in memory, written to temporary
+``anomalies.csv``, ``repairs.csv``, ``confirm_points.csv`` (:mod:`irseg.repairs`), ``failures.csv``
+(only when an image failed), ``report.html``, ``summary.json`` and ``run.log`` are one set: all are built in memory, written to temporary
 files, and only then renamed into place together (:func:`irseg.io.replace_files`), so a full
 disk leaves the previous set whole instead of a new table beside an old report. The
 manifest then records each file's sha256, so a set that was not written together can be told.
@@ -19,6 +19,7 @@ from .. import io as irio
 from ..controls import ReviewEntry
 from ..errors import InputError, OutputError
 from ..report import ANOMALY_COLUMNS, SurveyAnomaly
+from ..repairs import CONFIRM_COLUMNS, REPAIR_COLUMNS, survey_repairs
 from ._inputs import RESERVED_NAMES, SkippedFile
 from ._loop import stamp
 from ._records import ImageFailure, ImageOutcome, ImageRecord
@@ -108,12 +109,17 @@ def write_survey_files(
     records = [o.record for o in ordered if o.status == "ok" and o.record is not None]
     anomalies, review_info, notes = _reviewed(out_dir, records, review, review_file)
     thumbs, photo_names, photo_notes = _photos(photos or {})
-    notes += photo_notes
+    repairs = survey_repairs(anomalies, [(r.image, r.metadata.get("costs")) for r in records],
+                             [(r.stem, r.analysis.get("confirm_points") or ()) for r in records])
+    notes += photo_notes + repairs.notes
     notes += _condition_notes(records)
     summary = build_summary(ordered, anomalies, skipped, review=review_info, photos=photo_names, notes=notes)
+    summary = {**summary, "repairs": irio.normalise_json(repairs.summary)}  # the repair plan (irseg.repairs)
     failures = tuple(o.failure for o in ordered if o.failure is not None)
     contents: dict[str, bytes | None] = {
         "anomalies.csv": irio.csv_bytes(table_rows(anomalies), ANOMALY_COLUMNS),
+        "repairs.csv": irio.csv_bytes(repairs.rows, REPAIR_COLUMNS),
+        "confirm_points.csv": irio.csv_bytes(repairs.points, CONFIRM_COLUMNS),
         "failures.csv": irio.csv_bytes(
             [{"file": f.image, "stage": f.stage, "message": f.message} for f in failures], FAILURE_COLUMNS
         ) if failures else None,

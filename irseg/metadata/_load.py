@@ -12,6 +12,7 @@ from ._details import details_from
 from ._zones import zone_to_dict
 from ..errors import InputError, MetadataError
 from ..io import SURVEY_FILE, read_metadata_texts
+from ..repairs._costs import costs_from, costs_to_dict
 from ..types import Assumption, SurveyMeta
 from ._assume import _md_assume
 from ._checks import _md_kind
@@ -103,7 +104,7 @@ def merge_metadata(*layers: Mapping[str, Mapping[str, Any]], sources: tuple[str,
     MetadataWarning
         One per assumed value, naming it and how to give it.
     """
-    merged: dict[str, dict[str, Any]] = {sec: {} for sec in (*_SECTIONS, "survey", "image")}
+    merged: dict[str, dict[str, Any]] = {sec: {} for sec in (*_SECTIONS, "survey", "image", "costs")}
     zones: list[Any] = []
     for layer in layers:
         for sec, table in layer.items():
@@ -113,7 +114,8 @@ def merge_metadata(*layers: Mapping[str, Mapping[str, Any]], sources: tuple[str,
                 merged[sec].update(table)
     parts = {sec: cls(**merged[sec]) for sec, cls in _SECTIONS.items()}
     details = {sec: details_from(sec, merged[sec]) for sec in ("survey", "image")}
-    meta = SurveyMeta(**parts, **details, zones=tuple(zones), sources=tuple(sources))
+    meta = SurveyMeta(**parts, **details, zones=tuple(zones), sources=tuple(sources),
+                      costs=costs_from(merged["costs"]))
     return _md_assume(meta, merged["surface"])
 
 
@@ -173,6 +175,10 @@ def _md_placed(layer: dict[str, Any], *, source: str) -> dict[str, Any]:
             f"{source}: [image] describes one image; move it to that image's sidecar <stem>.toml "
             "([survey] holds what the whole folder shares)"
         )
+    if not folder_file and "costs" in layer:
+        raise MetadataError(
+            f"{source}: [costs] holds the survey's prices; move it to {SURVEY_FILE} in the survey's folder"
+        )
     if not folder_file and "survey" in layer:
         raise MetadataError(
             f"{source}: [survey] describes the whole job; move it to {SURVEY_FILE} in the survey's folder "
@@ -186,7 +192,7 @@ def meta_to_dict(meta: SurveyMeta) -> dict[str, Any]:
 
     ``assumed`` is a list of ``{"key": ..., "value": ..., "reason": ...}``; the free-text
     sections ``survey`` and ``image`` hold the keys given, ``zone`` the zones as
-    ``[[zone]]`` tables.
+    ``[[zone]]`` tables, ``costs`` the prices given (``{}`` without any).
     """
     out: dict[str, Any] = {}
     for sec in _SECTIONS:
@@ -198,6 +204,7 @@ def meta_to_dict(meta: SurveyMeta) -> dict[str, Any]:
         obj = getattr(meta, sec)
         out[sec] = {f.name: getattr(obj, f.name) for f in dataclasses.fields(obj) if getattr(obj, f.name) is not None}
     out["zone"] = [zone_to_dict(z) for z in meta.zones]
+    out["costs"] = costs_to_dict(meta.costs)
     out["sources"] = list(meta.sources)
     out["assumed"] = [{"key": a.key, "value": a.value, "reason": a.reason} for a in meta.assumed]
     return out

@@ -17,6 +17,7 @@ from typing import Any
 from ._details import check_details
 from ._zones import check_zone_tables
 from ..errors import MetadataError, MetadataWarning
+from ..repairs._costs import check_costs
 from ..types import Air, AnalysisSettings, Camera, SegmentSettings, Surface
 from ._bounds import BOUNDS
 from ._checks import (
@@ -108,13 +109,16 @@ _SCHEMA: dict[str, dict[str, _Check]] = {
     },
 }
 
-#: Sections that are not settings (checked by irseg.controls): free-text details and zones.
-#: ``[survey]`` belongs in survey.toml, ``[image]`` in a sidecar, ``[[zone]]`` in either.
-_EXTRA_SECTIONS = ("survey", "image", "zone")
+#: Sections that are not settings (checked by irseg.controls and irseg.repairs): free-text details,
+#: zones and prices. ``[survey]`` and ``[costs]`` belong in survey.toml, ``[image]`` in a sidecar,
+#: ``[[zone]]`` in either.
+_EXTRA_SECTIONS = ("survey", "image", "zone", "costs")
 
 
 def _md_extra(source: str, sec: str, table: Any) -> Any:
-    """A checked ``[survey]``/``[image]`` table (dict of text) or ``[[zone]]`` list (tuple of Zone)."""
+    """A checked ``[survey]``/``[image]``/``[costs]`` table (dict) or ``[[zone]]`` list (tuple of Zone)."""
+    if sec == "costs":
+        return check_costs(source, table)
     return check_zone_tables(source, table) if sec == "zone" else check_details(source, sec, table)
 
 

@@ -9,6 +9,7 @@ the job of :mod:`irseg.io`; nothing here touches the filesystem.
 
 from __future__ import annotations
 
+from ._confirm_marks import draw_confirm_marks
 from ._colours import COLORMAPS, colormap_lut, display_range
 from ._layout import OverlayLayout, overlay_layout, scale_bar_length_m
 from ._overlay import draw_zones, label_image, render_overlay
@@ -23,4 +24,5 @@ __all__ = [
     "render_overlay",
     "label_image",
     "draw_zones",
+    "draw_confirm_marks",
 ]

@@ -211,7 +211,22 @@ def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes],
         "skipped": [dict(f) for f in _list(summary, "skipped")],
         "warnings": [dict(w) for w in _list(summary, "warnings")],
         "cautions": list(CAUTIONS) + list(dict.fromkeys(extra)),
+        "repairs": _repairs(summary.get("repairs")),
     }
+
+
+def _repairs(data: Any) -> dict[str, Any] | None:
+    """summary["repairs"] (irseg.repairs) with its lists and totals present; None without a plan."""
+    if not isinstance(data, Mapping):
+        return None
+    out = dict(data)
+    for key in ("by_element", "items", "confirm_points"):
+        out[key] = [dict(row) for row in (out.get(key) or []) if isinstance(row, Mapping)]
+    out["rows"] = out.pop("items")  # not "items": jinja2 would find the dict's method
+    out["totals"] = dict(out["totals"]) if isinstance(out.get("totals"), Mapping) else {}
+    for key in ("priced", "currency", "uncertainty", "working_margin_rel"):
+        out.setdefault(key, None)
+    return out
 
 
 def _environment() -> Any:
@@ -251,7 +266,8 @@ def render_report(
         (``file``, ``reason``: what the input scan left out; may be absent), ``warnings`` and
         ``cautions``. Numbers may be null; they print as "—". Optional: ``survey`` (the job's
         ``[survey]`` details, shown first), ``details`` of each image (its ``[image]`` section),
-        ``review`` (``file``, ``entries``, ``applied``); anomaly rows whose ``review`` is
+        ``review`` (``file``, ``entries``, ``applied``), ``repairs`` (the repair plan of
+        :mod:`irseg.repairs`: shown as the "Repair plan" section); anomaly rows whose ``review`` is
         ``"rejected"`` are listed apart, with their note, and counted nowhere else.
     overlays : mapping of str to bytes
         PNG bytes of each image's overlay, keyed by the image name (``images[i]["image"]``).

@@ -374,7 +374,7 @@ def test_every_skipped_file_is_named_with_its_reason(tmp_path):
     survey = tmp_path / "survey"
     make_survey(survey, 1, tiff=False)
     (survey / "photo.jpg").write_bytes(b"\xff\xd8\xff\xe0" + bytes(100))
-    np.savetxt(survey / "matrix.dat", wall_image(2), delimiter=",")
+    (survey / "matrix.mat").write_bytes(b"MATLAB 5.0 MAT-file" + bytes(100))  # a closed format
     (survey / "notes").write_text("wind picked up at 22:10\n", encoding="utf-8")
     np.save(survey / ".hidden.npy", wall_image(3))  # hidden: silent
     (survey / "orphan.toml").write_text("[surface]\nemissivity = 0.9\n", encoding="utf-8")  # metadata: silent
@@ -387,7 +387,7 @@ def test_every_skipped_file_is_named_with_its_reason(tmp_path):
     expected = {
         "gone.npy": "broken link",
         "linked/": "link to a folder (not followed; name the folder itself to include it)",
-        "matrix.dat": "not a thermogram (no reader for .dat files)",
+        "matrix.mat": "not a thermogram (no reader for .mat files)",
         "notes": "not a thermogram (no suffix)",
         "photo.jpg": "not a thermogram (no reader for .jpg files)",
     }

@@ -116,7 +116,7 @@ def test_job_counts_give_identical_bytes(tmp_path):
     run_survey([survey], tmp_path / "j1", jobs=1)
     run_survey([survey], tmp_path / "j2", jobs=2)
     one, two = data_files(tmp_path / "j1"), data_files(tmp_path / "j2")
-    assert one.keys() == two.keys() and len(one) == 2 + 4
+    assert one.keys() == two.keys() and len(one) == 2 + 2 + 4  # + repairs.csv, confirm_points.csv (issue 17)
     assert one == two
     for stem in ("wall_00", "wall_03"):
         for png in ("labels.png", "overlay.png"):
