@@ -242,7 +242,8 @@ def _flat_warning(frame: ThermalFrame, meta: SurveyMeta) -> str | None:
     )
 
 
-def render_result(result: ImageResult, *, cmap: str = "inferno") -> RenderedImage:
+def render_result(result: ImageResult, *, cmap: str = "inferno", show_jumps: bool = False,
+                  range_c: tuple[float, float] | None = None) -> RenderedImage:
     """Draw the overlay and the label image of one result and encode both as PNG.
 
     Parameters
@@ -252,6 +253,9 @@ def render_result(result: ImageResult, *, cmap: str = "inferno") -> RenderedImag
         ``result.timings``).
     cmap : str
         Open colour-map name for the thermogram (``inferno``, ``magma``, ``gray`` ...).
+    show_jumps, range_c
+        As :func:`irseg.render.render_overlay`: draw the jump set; a fixed colour range in °C
+        (None: the image's own 1st-99th percentile).
 
     Returns
     -------
@@ -274,7 +278,8 @@ def render_result(result: ImageResult, *, cmap: str = "inferno") -> RenderedImag
 
     def _draw() -> tuple[bytes, bytes]:
         overlay = render_overlay(frame, result.segmentation, result.analysis, result.meta, cmap=cmap,
-                                 zones=None if zones is None else zones.zones)
+                                 zones=None if zones is None else zones.zones, show_jumps=show_jumps,
+                                 range_c=range_c)
         labels = label_image(result.analysis)
         return encode_png(overlay), encode_png(labels)
 

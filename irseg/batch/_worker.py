@@ -75,7 +75,9 @@ def run_task(task: dict[str, Any]) -> ImageOutcome:
         )
         timings = dict(result.timings)
         stage = "render"
-        rendered = render_result(result, cmap=settings.cmap)
+        fixed = settings.range_c if isinstance(settings.range_c, tuple) else None
+        rendered = render_result(result, cmap=settings.cmap, show_jumps=settings.show_jumps,
+                                 range_c=task.get("range_c") or fixed)
         timings["render"] = rendered.seconds
         stage = "write"
         record = _make_record(result, task, rendered.warnings)

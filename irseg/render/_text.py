@@ -1,8 +1,9 @@
 """Text drawing for the overlay: OpenCV's Hershey font plus the few symbols it lacks.
 
 OpenCV's built-in fonts cover printable ASCII only. The overlay needs ``°`` (°C), ``Δ`` (ΔT)
-and the en dash; these are drawn as small primitives of the same height. Any other non-ASCII
-character (for instance in a file name) is drawn as ``?``.
+and the en dash; these are drawn as small primitives of the same height. The Hershey font's
+zero carries a slash ("50 cm" would read as a diameter), so ``0`` is drawn as a plain oval of
+the digit's width. Any other non-ASCII character (for instance in a file name) is drawn as ``?``.
 """
 
 from __future__ import annotations
@@ -13,7 +14,7 @@ import numpy as np
 __all__ = ["draw_text", "text_width"]
 
 _FONT = cv2.FONT_HERSHEY_SIMPLEX
-_SPECIAL = {"°", "Δ", "–", "—"}
+_SPECIAL = {"°", "Δ", "–", "—", "0"}
 
 
 def _segments(text: str) -> list[str]:
@@ -43,6 +44,8 @@ def _symbol_width(ch: str, scale: float, thickness: int) -> int:
         return max(4, int(round(0.55 * h))) + 1
     if ch == "Δ":
         return cv2.getTextSize("A", _FONT, scale, thickness)[0][0]
+    if ch == "0":
+        return cv2.getTextSize("0", _FONT, scale, thickness)[0][0]
     return cv2.getTextSize("-", _FONT, scale, thickness)[0][0] + max(1, int(round(0.3 * h)))
 
 
@@ -71,6 +74,12 @@ def draw_text(
             w = _symbol_width(seg, scale, thickness)
             pts = np.array([[x + 1, y], [x + w - 2, y], [x + (w - 1) // 2, y - h]], dtype=np.int32)
             cv2.polylines(img, [pts], True, colour, max(1, thickness), lineType=cv2.LINE_AA)
+        elif seg == "0":
+            w = _symbol_width(seg, scale, thickness)
+            digit_h = cv2.getTextSize("0", _FONT, scale, thickness)[0][1]
+            half_w, half_h = max(1, int(round(0.3 * w))), max(2, digit_h // 2)
+            cv2.ellipse(img, (x + w // 2, y - half_h), (half_w, half_h), 0, 0, 360, colour, max(1, thickness),
+                        lineType=cv2.LINE_AA)
         elif seg in ("–", "—"):
             w = _symbol_width(seg, scale, thickness)
             ym = y - h // 2 + 1
