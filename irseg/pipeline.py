@@ -92,12 +92,18 @@ class RenderedImage:
         Messages of the irseg warnings raised while drawing.
     seconds : float
         Time spent drawing and encoding (the ``render`` stage).
+    own_range_c : (float, float) or None
+        The image's own colour range, °C (what ``range_c=None`` draws with).
+    range_c : (float, float) or None
+        The colour range the overlay was drawn with, °C.
     """
 
     overlay_png: bytes = field(repr=False)
     labels_png: bytes = field(repr=False)
     warnings: tuple[str, ...]
     seconds: float
+    own_range_c: tuple[float, float] | None = None
+    range_c: tuple[float, float] | None = None
 
 
 def failure_stage(exc: BaseException) -> str | None:
@@ -268,7 +274,7 @@ def render_result(result: ImageResult, *, cmap: str = "inferno", show_jumps: boo
         Rendering errors; tagged with stage ``"render"``.
     """
     from .io import encode_png
-    from .render import label_image, render_overlay
+    from .render import label_image, overlay_range_c, render_overlay
 
     caught: list[str] = []
     timings: dict[str, float] = {}
@@ -284,4 +290,6 @@ def render_result(result: ImageResult, *, cmap: str = "inferno", show_jumps: boo
         return encode_png(overlay), encode_png(labels)
 
     overlay_png, labels_png = _run_stage("render", timings, caught, _draw)
-    return RenderedImage(overlay_png, labels_png, tuple(caught), timings["render"])
+    own = overlay_range_c(frame, None if zones is None else zones.zones)
+    used = own if range_c is None else (float(range_c[0]), float(range_c[1]))
+    return RenderedImage(overlay_png, labels_png, tuple(caught), timings["render"], own, used)

@@ -237,6 +237,8 @@ def _run_locked(
     finally:
         manifest.remove_temp_files()
 
+    if settings.range_c == "survey":
+        _redraw_with_survey_range(found, out_path, settings, collector, manifest, jobs=jobs, scheduler=scheduler)
     ordered = tuple(collector.outcomes[i] for i in sorted(collector.outcomes))
     n_ok = sum(o.status == "ok" for o in ordered)
     n_failed = sum(o.failure is not None for o in ordered)
@@ -265,6 +267,37 @@ def _run_locked(
         timings=timings,
         skipped=found.skipped,
     )
+
+
+def survey_range_c(records: Iterable[Any]) -> tuple[float, float] | None:
+    """The survey's common colour range: the union of the images' own ranges (None without any)."""
+    ranges = [r.analysis.get("display_range_c") for r in records]
+    ranges = [r for r in ranges if isinstance(r, list) and len(r) == 2]
+    if not ranges:
+        return None
+    return (min(float(r[0]) for r in ranges), max(float(r[1]) for r in ranges))
+
+
+def _redraw_with_survey_range(found: SurveyInputs, out_path: Path, settings: SurveySettings, collector: Collector,
+                              manifest: OutputManifest, *, jobs: int | None, scheduler: str | None) -> None:
+    """Second pass of ``range_c = "survey"``: redraw every overlay not drawn with the survey's range.
+
+    The range needs every image's own range, so it is known only after the first pass; a resumed
+    run redraws only the images whose recorded ``overlay_range_c`` differs (an image added since).
+    """
+    ok = {i: o.record for i, o in collector.outcomes.items() if o.status == "ok" and o.record is not None}
+    common = survey_range_c(ok.values())
+    if common is None:
+        return
+    stale = {i for i, r in ok.items() if r.analysis.get("overlay_range_c") != [common[0], common[1]]}
+    if not stale:
+        return
+    items = [item for item in found.images if item.index in stale]
+    plan = plan_survey(items, found.root, settings, out_path, resume=False, manifest=manifest)
+    for task in plan.tasks:
+        task["range_c"] = common
+    collector.total += len(plan.tasks)
+    execute(plan.tasks, jobs=jobs, scheduler=scheduler, accept=collector.accept)
 
 
 def _review_of(review: str | os.PathLike[str] | None, root: str) -> tuple[tuple[ReviewEntry, ...], str | None]:

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 from ._colours import COLORMAPS, colormap_lut, display_range
 from ._layout import OverlayLayout, overlay_layout, scale_bar_length_m
-from ._overlay import draw_zones, label_image, render_overlay
+from ._overlay import draw_zones, label_image, overlay_range_c, render_overlay
 
 __all__ = [
     "COLORMAPS",
@@ -23,4 +23,5 @@ __all__ = [
     "render_overlay",
     "label_image",
     "draw_zones",
+    "overlay_range_c",
 ]

@@ -30,7 +30,15 @@ from ._layout import BACKGROUND as _BACKGROUND
 from ._layout import ID_SCALE as _ID_SCALE
 from ._layout import OverlayLayout, overlay_layout, scale_bar_length_m
 
-__all__ = ["render_overlay", "label_image", "draw_zones"]
+__all__ = ["render_overlay", "label_image", "draw_zones", "overlay_range_c"]
+
+
+def overlay_range_c(frame: Any, zones: Any = None) -> tuple[float, float]:
+    """The colour range :func:`render_overlay` gives an image of its own: :func:`display_range`
+    of the valid pixels outside exclude zones, °C."""
+    temp = np.asarray(frame.temperature_c)
+    mask = _as_bool(getattr(frame, "mask", None), temp.shape, "frame.mask")
+    return display_range(temp, mask=_range_mask(mask, zones, temp.shape))
 
 
 def label_image(analysis: Any) -> np.ndarray:

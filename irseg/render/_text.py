@@ -8,6 +8,8 @@ the digit's width. Any other non-ASCII character (for instance in a file name) i
 
 from __future__ import annotations
 
+import functools
+
 import cv2
 import numpy as np
 
@@ -45,8 +47,26 @@ def _symbol_width(ch: str, scale: float, thickness: int) -> int:
     if ch == "Δ":
         return cv2.getTextSize("A", _FONT, scale, thickness)[0][0]
     if ch == "0":
-        return cv2.getTextSize("0", _FONT, scale, thickness)[0][0]
+        return _advance("0", scale, thickness)
     return cv2.getTextSize("-", _FONT, scale, thickness)[0][0] + max(1, int(round(0.3 * h)))
+
+
+def _advance(run: str, scale: float, thickness: int) -> int:
+    """How far a run of the font moves the pen (its box width less the stroke that overhangs the end)."""
+    return cv2.getTextSize(run, _FONT, scale, thickness)[0][0] - thickness
+
+
+@functools.lru_cache(maxsize=32)
+def _zero_box(scale: float, thickness: int) -> tuple[int, int, int, int]:
+    """Ink box (col0, row0, col1, row1) of the font's zero drawn at baseline (0, 0), end exclusive."""
+    w, h = cv2.getTextSize("0", _FONT, scale, thickness)[0]
+    pad = 4 + thickness
+    scratch = np.zeros((h + 2 * pad, w + 2 * pad), np.uint8)
+    cv2.putText(scratch, "0", (pad, h + pad), _FONT, scale, 255, thickness, lineType=cv2.LINE_8)
+    rows, cols = np.nonzero(scratch)
+    if rows.size == 0:
+        return 0, -h, w, 0
+    return int(cols.min()) - pad, int(rows.min()) - h - pad, int(cols.max()) + 1 - pad, int(rows.max()) + 1 - h - pad
 
 
 def text_width(text: str, scale: float, thickness: int) -> int:
@@ -56,8 +76,8 @@ def text_width(text: str, scale: float, thickness: int) -> int:
         if seg in _SPECIAL:
             total += _symbol_width(seg, scale, thickness)
         else:
-            total += cv2.getTextSize(seg, _FONT, scale, thickness)[0][0]
-    return total
+            total += _advance(seg, scale, thickness)
+    return total + thickness
 
 
 def draw_text(
@@ -75,16 +95,16 @@ def draw_text(
             pts = np.array([[x + 1, y], [x + w - 2, y], [x + (w - 1) // 2, y - h]], dtype=np.int32)
             cv2.polylines(img, [pts], True, colour, max(1, thickness), lineType=cv2.LINE_AA)
         elif seg == "0":
-            w = _symbol_width(seg, scale, thickness)
-            digit_h = cv2.getTextSize("0", _FONT, scale, thickness)[0][1]
-            half_w, half_h = max(1, int(round(0.3 * w))), max(2, digit_h // 2)
-            cv2.ellipse(img, (x + w // 2, y - half_h), (half_w, half_h), 0, 0, 360, colour, max(1, thickness),
-                        lineType=cv2.LINE_AA)
+            c0, r0, c1, r1 = _zero_box(scale, thickness)  # the font's own zero's ink, relative to (x, y)
+            t = max(1, thickness)
+            centre = ((2 * x + c0 + c1) * 8, (2 * y + r0 + r1) * 8)  # 4 fractional bits: half pixels
+            axes = (max(1, (c1 - c0 - t)) * 8, max(2, (r1 - r0 - t)) * 8)
+            cv2.ellipse(img, centre, axes, 0, 0, 360, colour, t, lineType=cv2.LINE_AA, shift=4)
         elif seg in ("–", "—"):
             w = _symbol_width(seg, scale, thickness)
             ym = y - h // 2 + 1
             cv2.line(img, (x + 1, ym), (x + w - 2, ym), colour, max(1, thickness), lineType=cv2.LINE_AA)
         else:
             cv2.putText(img, seg, (x, y), _FONT, scale, colour, thickness, lineType=cv2.LINE_AA)
-        x += _symbol_width(seg, scale, thickness) if seg in _SPECIAL else cv2.getTextSize(seg, _FONT, scale, thickness)[0][0]
+        x += _symbol_width(seg, scale, thickness) if seg in _SPECIAL else _advance(seg, scale, thickness)
     return x

@@ -79,6 +79,7 @@ def summary_figures(defects: Sequence[SurveyAnomaly]) -> dict[str, Any]:
         "kwh_high": _sum([b[1] for b in bands]),
         "n_unmeasured": sum(1 for a in defects if _number(a.excess_w) is None),
         "n_mould": sum(1 for a in defects if a.mould_risk is True),
+        "n_frsi": sum(1 for a in defects if a.mould_risk is not None),
         "n_area_ranked": sum(1 for a in defects if rank_basis(a) == "area"),
     }
 
