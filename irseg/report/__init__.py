@@ -24,11 +24,11 @@ from typing import Any
 from ..errors import ConfigError
 from ..vocabulary import CAUSE_COLOURS, CAUSE_LABELS, CAUSES, CAUTIONS
 from ._first_page import RANKING_RULE, summary_figures, top_actions
-from ._ranking import MAX_BAND_RATIO, is_expected, rank_anomalies, rank_basis
-from ._table import ANOMALY_COLUMNS, CSV_DIALECTS, SurveyAnomaly, anomaly_table, csv_rows
+from ._ranking import MAX_BAND_RATIO, is_expected, rank_anomalies, rank_basis, rank_key
+from ._table import ANOMALY_COLUMNS, CSV_DECIMALS, CSV_DIALECTS, SurveyAnomaly, anomaly_table, csv_rows
 
-__all__ = ["render_report", "EMBED_LIMIT", "SurveyAnomaly", "anomaly_table", "ANOMALY_COLUMNS", "CSV_DIALECTS", "csv_rows",
-           "rank_anomalies", "rank_basis", "is_expected", "MAX_BAND_RATIO"]
+__all__ = ["render_report", "EMBED_LIMIT", "SurveyAnomaly", "anomaly_table", "ANOMALY_COLUMNS", "CSV_DIALECTS", "CSV_DECIMALS", "csv_rows",
+           "rank_anomalies", "rank_key", "rank_basis", "is_expected", "MAX_BAND_RATIO"]
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 DASH = "—"
@@ -152,7 +152,7 @@ def _breakable(value: Any) -> Any:
     from markupsafe import Markup, escape
 
     text = str(escape(_text(value)))
-    for ch in "_-./":
+    for ch in "_-/":
         text = text.replace(ch, ch + "<wbr>")
     return Markup(text)
 
