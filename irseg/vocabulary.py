@@ -43,7 +43,7 @@ CAUSE_COLOURS = MappingProxyType(
         "missing_insulation": (255, 230, 0),  # yellow
         "thermal_bridge": (0, 225, 255),  # cyan
         "air_leakage": (255, 60, 255),  # magenta
-        "moisture": (255, 110, 40),  # orange
+        "moisture": (140, 170, 255),  # periwinkle blue (no colour map passes near it)
         "unclassified": (255, 255, 255),  # white
     }
 )

@@ -232,7 +232,7 @@ def _as_bool(arr: Any, shape: tuple[int, ...], name: str) -> np.ndarray | None:
 def _draw_outlines(canvas: np.ndarray, labels: np.ndarray, anomalies: tuple, lay: OverlayLayout) -> None:
     s = lay.scale
     m, n = labels.shape
-    thickness = 2
+    thickness = 3
     for a in anomalies:
         aid = int(a.anomaly)
         r0, c0, r1, c1 = _bbox(a, m, n)
