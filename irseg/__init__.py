@@ -54,6 +54,8 @@ _LAZY = {
     "Analysis": "irseg.analysis",
     "Anomaly": "irseg.analysis",
     "process_image": "irseg.pipeline",
+    "process_array": "irseg.pipeline",
+    "render_result": "irseg.pipeline",
     "run_survey": "irseg.batch",
     "SurveyAnomaly": "irseg.batch",
     "ImageRecord": "irseg.batch",

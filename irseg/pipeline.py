@@ -80,6 +80,13 @@ class ImageResult:
     zones: Any = None
     confirm_points: tuple[Any, ...] = ()
 
+    def to_records(self) -> list[dict[str, Any]]:
+        """One dict per anomaly (``image`` then every :class:`~irseg.analysis.Anomaly` field, full
+        precision), in id order: ``pandas.DataFrame(result.to_records())`` is the image's table."""
+        from dataclasses import asdict
+
+        return [{"image": self.path, **asdict(a)} for a in self.analysis.anomalies]
+
 
 @dataclass(frozen=True)
 class RenderedImage:
@@ -95,12 +102,18 @@ class RenderedImage:
         Messages of the irseg warnings raised while drawing.
     seconds : float
         Time spent drawing and encoding (the ``render`` stage).
+    own_range_c : (float, float) or None
+        The image's own colour range, °C (what ``range_c=None`` draws with).
+    range_c : (float, float) or None
+        The colour range the overlay was drawn with, °C.
     """
 
     overlay_png: bytes = field(repr=False)
     labels_png: bytes = field(repr=False)
     warnings: tuple[str, ...]
     seconds: float
+    own_range_c: tuple[float, float] | None = None
+    range_c: tuple[float, float] | None = None
 
 
 def failure_stage(exc: BaseException) -> str | None:
@@ -174,15 +187,8 @@ def process_image(
         SolverError ...). Every exception carries its stage, see
         :func:`failure_stage`.
     """
-    import numpy as np
-
-    from .analysis import analyse
-    from .controls import mark_zones, material_maps, zone_layer
     from .io import read_thermogram
     from .metadata import load_metadata
-    from .radiometry import calibrate
-    from .repairs import confirm_points
-    from .segmentation import segment
 
     timings: dict[str, float] = {}
     caught: list[str] = []
@@ -194,6 +200,20 @@ def process_image(
     meta: SurveyMeta = _run_stage(
         "metadata", timings, caught, lambda: load_metadata(image, overrides=overrides)
     )
+    return _from_metadata(image, raw, meta, timings, caught)
+
+
+def _from_metadata(image: str, raw: RawFrame, meta: SurveyMeta, timings: dict[str, float],
+                   caught: list[str]) -> ImageResult:
+    """The stages after read and metadata: zones, calibrate, segment, analyse (shared by both entries)."""
+    import numpy as np
+
+    from .analysis import analyse
+    from .controls import mark_zones, material_maps, zone_layer
+    from .radiometry import calibrate
+    from .repairs import confirm_points
+    from .segmentation import segment
+
     zones = _run_stage("metadata", timings, caught, lambda: zone_layer(meta.zones, np.shape(raw.data), image=image))
     frame: ThermalFrame = _run_stage(
         "calibrate", timings, caught, lambda: calibrate(raw, meta, **material_maps(zones, meta))
@@ -233,6 +253,75 @@ def process_image(
     )
 
 
+def process_array(
+    temperature_c: Any,
+    meta: Mapping[str, Any] | str | SurveyMeta | None = None,
+    *,
+    name: str = "array",
+) -> ImageResult:
+    """Correct, segment and analyse a thermogram already in memory (the same result as :func:`process_image`).
+
+    Parameters
+    ----------
+    temperature_c : (M, N) array_like of float
+        Temperatures in °C as the camera exported them (apparent temperatures, or already
+        corrected with ``[camera] export_emissivity``); NaN marks invalid pixels.
+    meta : mapping, str or SurveyMeta, optional
+        The metadata as a dict of sections (``{"surface": {"emissivity": 0.93}, "air": {...}}``),
+        as the text of a TOML file, or a :class:`~irseg.types.SurveyMeta`; validated like a
+        sidecar file. ``[camera] units``, ``scale`` and ``offset`` are set to °C, 1 and 0.
+    name : str
+        The image's name in messages, the overlay's title and ``ImageResult.path``.
+
+    Returns
+    -------
+    ImageResult
+        As :func:`process_image`; draw it with :func:`render_result`.
+
+    Raises
+    ------
+    IrsegError
+        ``InputError`` for an array that is not 2-D numbers, ``MetadataError`` for bad metadata,
+        and any later stage's error (tagged with its stage, :func:`failure_stage`).
+
+    Examples
+    --------
+    >>> import numpy as np, irseg
+    >>> wall = np.full((120, 160), 19.0); wall[40:80, 50:100] = 15.5
+    >>> result = irseg.process_array(wall, {"surface": {"view": "interior"},
+    ...                                     "air": {"inside_c": 20.0, "outside_c": 0.0}})
+    >>> rows = result.to_records()          # one dict per anomaly: pandas.DataFrame(rows)
+    """
+    import dataclasses
+
+    import numpy as np
+
+    from .errors import InputError
+    from .metadata import check_overrides, merge_metadata, parse_metadata_text
+
+    timings: dict[str, float] = {}
+    caught: list[str] = []
+    data = np.asarray(temperature_c)
+    if data.ndim != 2 or data.dtype.kind not in "fiu" or 0 in data.shape:
+        raise InputError(f"{name}: temperature_c must be a non-empty 2-D (M, N) array of numbers in °C, "
+                         f"got shape {data.shape} and dtype {data.dtype}")
+    raw = RawFrame(path=name, data=data.astype(np.float64, copy=False), format="array")
+    celsius = {"camera": {"units": "celsius", "scale": 1.0, "offset": 0.0}}
+
+    def _meta() -> SurveyMeta:
+        if isinstance(meta, SurveyMeta):
+            return dataclasses.replace(meta, camera=dataclasses.replace(meta.camera, **celsius["camera"]))
+        if isinstance(meta, str):
+            layer = parse_metadata_text(meta, source=f"{name} metadata")
+        else:
+            layer = check_overrides(meta or {}, source=f"{name} metadata")
+        return merge_metadata(layer, check_overrides(celsius, source=f"{name} metadata"),
+                              sources=(f"{name} metadata",))
+
+    result_meta = _run_stage("metadata", timings, caught, _meta)
+    return _from_metadata(name, raw, result_meta, timings, caught)
+
+
 def _flat_warning(frame: ThermalFrame, meta: SurveyMeta) -> str | None:
     """A warning when the valid pixels span less than the camera's NETD (nothing to segment)."""
     import numpy as np
@@ -250,7 +339,8 @@ def _flat_warning(frame: ThermalFrame, meta: SurveyMeta) -> str | None:
     )
 
 
-def render_result(result: ImageResult, *, cmap: str = "inferno") -> RenderedImage:
+def render_result(result: ImageResult, *, cmap: str = "inferno", show_jumps: bool = False,
+                  range_c: tuple[float, float] | None = None) -> RenderedImage:
     """Draw the overlay and the label image of one result and encode both as PNG.
 
     Parameters
@@ -260,6 +350,9 @@ def render_result(result: ImageResult, *, cmap: str = "inferno") -> RenderedImag
         ``result.timings``).
     cmap : str
         Open colour-map name for the thermogram (``inferno``, ``magma``, ``gray`` ...).
+    show_jumps, range_c
+        As :func:`irseg.render.render_overlay`: draw the jump set; a fixed colour range in °C
+        (None: the image's own 1st-99th percentile).
 
     Returns
     -------
@@ -272,7 +365,7 @@ def render_result(result: ImageResult, *, cmap: str = "inferno") -> RenderedImag
         Rendering errors; tagged with stage ``"render"``.
     """
     from .io import encode_png
-    from .render import draw_confirm_marks, label_image, overlay_layout, render_overlay
+    from .render import draw_confirm_marks, label_image, overlay_layout, overlay_range_c, render_overlay
 
     caught: list[str] = []
     timings: dict[str, float] = {}
@@ -282,7 +375,8 @@ def render_result(result: ImageResult, *, cmap: str = "inferno") -> RenderedImag
 
     def _draw() -> tuple[bytes, bytes]:
         overlay = render_overlay(frame, result.segmentation, result.analysis, result.meta, cmap=cmap,
-                                 zones=None if zones is None else zones.zones)
+                                 zones=None if zones is None else zones.zones, show_jumps=show_jumps,
+                                 range_c=range_c)
         points = getattr(result, "confirm_points", ())
         if points:  # roof moisture: numbered marks where to confirm (irseg.repairs.confirm_points)
             draw_confirm_marks(overlay, points, overlay_layout(frame.temperature_c.shape))
@@ -290,4 +384,6 @@ def render_result(result: ImageResult, *, cmap: str = "inferno") -> RenderedImag
         return encode_png(overlay), encode_png(labels)
 
     overlay_png, labels_png = _run_stage("render", timings, caught, _draw)
-    return RenderedImage(overlay_png, labels_png, tuple(caught), timings["render"])
+    own = overlay_range_c(frame, None if zones is None else zones.zones)
+    used = own if range_c is None else (float(range_c[0]), float(range_c[1]))
+    return RenderedImage(overlay_png, labels_png, tuple(caught), timings["render"], own, used)

@@ -34,14 +34,16 @@ CAUSE_LABELS = MappingProxyType(
     }
 )
 
-#: Outline colour (R, G, B) of each cause. Saturated hues that none of the open colour maps
-#: (inferno, magma, gray ...) produce, so outlines stay visible on any thermogram.
+#: Outline colour (R, G, B) of each cause. Light, saturated hues, each at least 25 CIEDE2000 units
+#: from every other (moisture orange and missing-insulation yellow far apart; no green, which
+#: vanishes in turbo's middle). The overlay draws every outline over a black casing, so an
+#: outline stays readable where the colour map passes through the same hue.
 CAUSE_COLOURS = MappingProxyType(
     {
-        "missing_insulation": (0, 229, 255),  # cyan
-        "thermal_bridge": (60, 255, 40),  # green
+        "missing_insulation": (255, 230, 0),  # yellow
+        "thermal_bridge": (0, 225, 255),  # cyan
         "air_leakage": (255, 60, 255),  # magenta
-        "moisture": (40, 110, 255),  # blue
+        "moisture": (140, 170, 255),  # periwinkle blue (no colour map passes near it)
         "unclassified": (255, 255, 255),  # white
     }
 )

@@ -33,21 +33,32 @@ class SurveySettings:
         Pixel budget per image.
     cmap : str
         Colour map of the overlays.
+    show_jumps : bool
+        Draw the jump set on the overlays.
+    range_c : "auto", "survey" or (lo_c, hi_c)
+        Colour range of the overlays (``"survey"``: redrawn with the survey's range after the run).
     """
 
     overrides: dict[str, dict[str, Any]] = field(default_factory=dict)
     format: str | None = None
     max_pixels: int = DEFAULT_MAX_PIXELS
     cmap: str = "inferno"
+    show_jumps: bool = False
+    range_c: str | tuple[float, float] = "auto"
 
     def to_dict(self) -> dict[str, Any]:
-        """JSON-ready copy (sorted when serialised)."""
-        return {
+        """JSON-ready copy (sorted when serialised); the overlay keys only when not the default."""
+        out: dict[str, Any] = {
             "overrides": {s: dict(v) for s, v in self.overrides.items()},
             "format": self.format,
             "max_pixels": int(self.max_pixels),
             "cmap": self.cmap,
         }
+        if self.show_jumps:
+            out["show_jumps"] = True
+        if self.range_c != "auto":
+            out["range_c"] = self.range_c if isinstance(self.range_c, str) else [float(v) for v in self.range_c]
+        return out
 
 
 @dataclass(frozen=True)
@@ -224,7 +235,7 @@ class ImageRecord:
 # ``severity`` is the rank within the image (SurveyAnomaly.image_severity).
 # The survey-level fields (uid, the review, the image's details) are set when the survey files are
 # built (irseg.batch._summary), never stored per image: a review changes no image's record.
-_SURVEY_ONLY = ("image", "severity", "image_severity", "uid", "review", "note", "title", "element")
+_SURVEY_ONLY = ("image", "severity", "image_severity", "rank", "uid", "review", "note", "title", "element")
 
 
 def _anomaly_from_result(image: str, row: Any, where: str) -> SurveyAnomaly:

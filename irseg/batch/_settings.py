@@ -6,6 +6,7 @@ the output folder is touched.
 
 from __future__ import annotations
 
+import math
 import os
 from collections.abc import Mapping
 from pathlib import Path
@@ -24,6 +25,8 @@ def survey_settings(
     format: str | None,
     max_pixels: int,
     cmap: str,
+    show_jumps: bool = False,
+    range_c: Any = "auto",
 ) -> SurveySettings:
     """The settings that change results, validated (``jobs`` is checked too, but not part of them).
 
@@ -42,6 +45,8 @@ def survey_settings(
         format=format,
         max_pixels=int(max_pixels),
         cmap=cmap,
+        show_jumps=bool(show_jumps),
+        range_c=_range_setting(range_c),
     )
     if settings.overrides:  # checked once, so a bad one fails the run instead of every image
         from ..metadata import check_overrides
@@ -61,6 +66,21 @@ def survey_settings(
     if settings.max_pixels < 1:
         raise ConfigError(f"max_pixels = {settings.max_pixels} must be at least 1 (the max_pixels setting)")
     return settings
+
+
+def _range_setting(value: Any) -> str | tuple[float, float]:
+    """``"auto"``, ``"survey"`` or a ``(lo_c, hi_c)`` pair with ``lo_c < hi_c`` (text ``"LO,HI"`` accepted)."""
+    if isinstance(value, str) and value.strip().lower() in ("auto", "survey"):
+        return value.strip().lower()
+    try:
+        parts = value.split(",") if isinstance(value, str) else list(value)
+        lo, hi = (float(v) for v in parts)
+    except (TypeError, ValueError):
+        raise ConfigError(f"range_c = {value!r}: give auto, survey or two temperatures LO,HI in °C "
+                          "(the range_c setting)") from None
+    if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
+        raise ConfigError(f"range_c = {value!r}: LO must be below HI and both finite (the range_c setting)")
+    return (lo, hi)
 
 
 def check_out_dir(out_dir: Path) -> None:

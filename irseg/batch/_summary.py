@@ -13,7 +13,7 @@ from typing import Any
 
 from .._version import __version__
 from ..io import normalise_json
-from ..report import ANOMALY_COLUMNS, SurveyAnomaly, anomaly_table
+from ..report import ANOMALY_COLUMNS, SurveyAnomaly, anomaly_table, rank_anomalies
 from ..vocabulary import CAUSES, CAUTIONS
 from ._inputs import SkippedFile
 from ._records import ImageOutcome, ImageRecord
@@ -25,7 +25,7 @@ FAILURE_COLUMNS = ("file", "stage", "message")
 
 
 def survey_anomalies(records: Sequence[ImageRecord]) -> tuple[SurveyAnomaly, ...]:
-    """Every anomaly of the survey, ranked with :func:`irseg.analysis.severity_key` (1 = repair first).
+    """Every anomaly of the survey, ranked by the rule of :mod:`irseg.report._ranking` (1 = act first).
 
     Parameters
     ----------
@@ -35,7 +35,7 @@ def survey_anomalies(records: Sequence[ImageRecord]) -> tuple[SurveyAnomaly, ...
     Returns
     -------
     tuple of SurveyAnomaly
-        By image order then anomaly id, ``severity`` set to the survey rank. Ties keep input order.
+        By image order then anomaly id, ``rank`` set to the survey rank. Ties keep input order.
         (:func:`survey_records` then :func:`rank_survey`.)
     """
     return rank_survey(survey_records(records))
@@ -63,16 +63,12 @@ def _detail(details: dict[str, Any], key: str) -> str | None:
 
 
 def rank_survey(anomalies: Sequence[SurveyAnomaly]) -> tuple[SurveyAnomaly, ...]:
-    """The anomalies in the order given, ``severity`` = survey rank by :func:`irseg.analysis.severity_key`.
+    """The anomalies in the order given, ``rank`` = survey rank by :func:`irseg.report.rank_anomalies`.
 
-    An anomaly the review rejected has no rank (None). Ties keep the order given.
+    An anomaly the review rejected, or one expected in the construction, has no rank (None).
+    Ties keep the order given.
     """
-    from ..analysis import severity_key  # reads the figures by name: a SurveyAnomaly has them all
-
-    ranked = [i for i, a in enumerate(anomalies) if a.review != "rejected"]
-    order = sorted(ranked, key=lambda i: (severity_key(anomalies[i]), i))
-    rank = {i: k for k, i in enumerate(order, start=1)}
-    return tuple(replace(a, severity=rank.get(i)) for i, a in enumerate(anomalies))
+    return rank_anomalies(anomalies)
 
 
 def table_rows(anomalies: Iterable[SurveyAnomaly], columns: Sequence[str] = ANOMALY_COLUMNS) -> list[dict[str, Any]]:
@@ -81,8 +77,8 @@ def table_rows(anomalies: Iterable[SurveyAnomaly], columns: Sequence[str] = ANOM
     return [dict(zip(table, values)) for values in zip(*table.values())]
 
 
-def _rank_key(severity: int | None) -> tuple[bool, int]:
-    return (severity is None, severity or 0)
+def _rank_key(rank: int | None) -> tuple[bool, int]:
+    return (rank is None, rank or 0)
 
 
 def _total(values: Iterable[float | None]) -> float | None:
@@ -196,7 +192,7 @@ def build_summary(
         "n_failed": len(outcomes) - n_ok,
         "totals_by_cause": by_cause,
         "totals": _totals(counted),
-        "anomalies": sorted(table_rows(anomalies), key=lambda row: _rank_key(row["severity"])),
+        "anomalies": sorted(table_rows(anomalies), key=lambda row: _rank_key(row["rank"])),
         "failures": failures,
         "skipped": [{"file": s.file, "reason": s.reason} for s in skipped],
         "warnings": warnings,

@@ -38,7 +38,7 @@ from .._shared import DEFAULT_MAX_PIXELS
 from .._version import __version__
 from ..errors import IrsegError
 from ..controls import REVIEW_FILE, ReviewEntry, find_photo, load_review, photo_candidates
-from ..report import SurveyAnomaly
+from ..report import SurveyAnomaly, csv_rows
 from ._inputs import SkippedFile, SurveyInputs, relativise, scan_inputs
 from ._loop import Collector, FailFast, execute, image_files, stamp
 from ._records import ImageFailure, ImageOutcome, SurveySettings
@@ -105,6 +105,9 @@ def run_survey(
     max_pixels: int = DEFAULT_MAX_PIXELS,
     cmap: str = "inferno",
     review: str | os.PathLike[str] | None = None,
+    csv_dialect: str = "rfc4180",
+    show_jumps: bool = False,
+    range_c: str | tuple[float, float] = "auto",
 ) -> SurveyResult:
     """Process a survey: every image in ``inputs`` into ``out_dir``.
 
@@ -144,6 +147,16 @@ def run_survey(
         default: ``review.toml`` in the survey's root folder, when there is one. It is applied to
         the survey files only: it is not part of any image's fingerprint, so a resumed run applies
         it without computing an image again. An entry that matches nothing is a warning.
+    csv_dialect : {"rfc4180", "excel-eu"}
+        anomalies.csv with ``,`` and decimal points (RFC 4180, default), or ``;`` and decimal
+        commas for spreadsheets set to such a locale. Not part of any fingerprint.
+    show_jumps : bool
+        Draw the segmentation's jump set (temperature edges) on the overlays.
+    range_c : "auto", "survey" or (lo_c, hi_c)
+        Colour range of the overlays: each image's own 1st-99th percentile (``"auto"``), one range
+        for the whole survey (``"survey"``: the union of the images' own ranges, so every overlay
+        is drawn again once all are known; a resumed run redraws only overlays drawn with another
+        range), or a fixed range in °C.
 
     Returns
     -------
@@ -166,7 +179,9 @@ def run_survey(
     """
     started = time.perf_counter()
     out_path = Path(out_dir)
-    settings = survey_settings(jobs=jobs, overrides=overrides, format=format, max_pixels=max_pixels, cmap=cmap)
+    settings = survey_settings(jobs=jobs, overrides=overrides, format=format, max_pixels=max_pixels, cmap=cmap,
+                               show_jumps=show_jumps, range_c=range_c)
+    csv_rows([], csv_dialect)  # an unknown dialect fails before any image is read
     found = scan_inputs(inputs, exclude=out_path)
     entries, review_file = _review_of(review, found.root)  # a bad review file fails before any image
     check_out_dir(out_path)
@@ -175,7 +190,7 @@ def run_survey(
         return _run_locked(
             found, out_path, settings, started,
             jobs=jobs, resume=resume, scheduler=scheduler, fail_fast=fail_fast, on_progress=on_progress,
-            review=entries, review_file=review_file,
+            review=entries, review_file=review_file, csv_dialect=csv_dialect,
         )
 
 
@@ -192,6 +207,7 @@ def _run_locked(
     on_progress: Callable[[int, int, ImageOutcome], None] | None,
     review: tuple[ReviewEntry, ...] = (),
     review_file: str | None = None,
+    csv_dialect: str = "rfc4180",
 ) -> SurveyResult:
     """The run, with the output folder locked: plan, compute, write, rebuild the survey files."""
     items = found.images
@@ -221,6 +237,8 @@ def _run_locked(
     finally:
         manifest.remove_temp_files()
 
+    if settings.range_c == "survey":
+        _redraw_with_survey_range(found, out_path, settings, collector, manifest, jobs=jobs, scheduler=scheduler)
     ordered = tuple(collector.outcomes[i] for i in sorted(collector.outcomes))
     n_ok = sum(o.status == "ok" for o in ordered)
     n_failed = sum(o.failure is not None for o in ordered)
@@ -229,7 +247,8 @@ def _run_locked(
         f"{stamp()} done: {n_ok} ok, {n_failed} failed, {n_skipped} resumed, {len(found.skipped)} files skipped"
     )
     files = write_survey_files(out_path, ordered, skipped=found.skipped, log=log, manifest=manifest,
-                               review=review, review_file=review_file, photos=_photos_of(found, ordered))
+                               review=review, review_file=review_file, photos=_photos_of(found, ordered),
+                               csv_dialect=csv_dialect)
     timings = dict(collector.stage_totals, wall=time.perf_counter() - started)
     totals = files.summary["totals"]
     return SurveyResult(
@@ -248,6 +267,37 @@ def _run_locked(
         timings=timings,
         skipped=found.skipped,
     )
+
+
+def survey_range_c(records: Iterable[Any]) -> tuple[float, float] | None:
+    """The survey's common colour range: the union of the images' own ranges (None without any)."""
+    ranges = [r.analysis.get("display_range_c") for r in records]
+    ranges = [r for r in ranges if isinstance(r, list) and len(r) == 2]
+    if not ranges:
+        return None
+    return (min(float(r[0]) for r in ranges), max(float(r[1]) for r in ranges))
+
+
+def _redraw_with_survey_range(found: SurveyInputs, out_path: Path, settings: SurveySettings, collector: Collector,
+                              manifest: OutputManifest, *, jobs: int | None, scheduler: str | None) -> None:
+    """Second pass of ``range_c = "survey"``: redraw every overlay not drawn with the survey's range.
+
+    The range needs every image's own range, so it is known only after the first pass; a resumed
+    run redraws only the images whose recorded ``overlay_range_c`` differs (an image added since).
+    """
+    ok = {i: o.record for i, o in collector.outcomes.items() if o.status == "ok" and o.record is not None}
+    common = survey_range_c(ok.values())
+    if common is None:
+        return
+    stale = {i for i, r in ok.items() if r.analysis.get("overlay_range_c") != [common[0], common[1]]}
+    if not stale:
+        return
+    items = [item for item in found.images if item.index in stale]
+    plan = plan_survey(items, found.root, settings, out_path, resume=False, manifest=manifest)
+    for task in plan.tasks:
+        task["range_c"] = common
+    collector.total += len(plan.tasks)
+    execute(plan.tasks, jobs=jobs, scheduler=scheduler, accept=collector.accept)
 
 
 def _review_of(review: str | os.PathLike[str] | None, root: str) -> tuple[tuple[ReviewEntry, ...], str | None]:

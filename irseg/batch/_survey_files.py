@@ -18,12 +18,12 @@ from ..io import OutputManifest, escape_line, escape_text, replace_files
 from .. import io as irio
 from ..controls import ReviewEntry
 from ..errors import InputError, OutputError
-from ..report import ANOMALY_COLUMNS, SurveyAnomaly
+from ..report import ANOMALY_COLUMNS, CSV_DIALECTS, SurveyAnomaly, csv_rows
 from ..repairs import CONFIRM_COLUMNS, REPAIR_COLUMNS, survey_repairs
 from ._inputs import RESERVED_NAMES, SkippedFile
 from ._loop import stamp
 from ._records import ImageFailure, ImageOutcome, ImageRecord
-from ._summary import FAILURE_COLUMNS, build_summary, rank_survey, survey_records, table_rows
+from ._summary import FAILURE_COLUMNS, build_summary, rank_survey, survey_records
 
 __all__ = ["SurveyFiles", "write_survey_files", "check_survey_names"]
 
@@ -76,6 +76,7 @@ def write_survey_files(
     review: Sequence[ReviewEntry] = (),
     review_file: str | None = None,
     photos: Mapping[str, tuple[Path, str]] | None = None,
+    csv_dialect: str = "rfc4180",
 ) -> SurveyFiles:
     """Replace the survey-level files, as one set, from the outcomes in input order.
 
@@ -97,6 +98,8 @@ def write_survey_files(
         The review file's name (recorded in summary.json).
     photos : mapping, optional
         Image name -> (photo path, name relative to the survey root): shown beside the overlay.
+    csv_dialect : {"rfc4180", "excel-eu"}
+        Separator and decimal mark of anomalies.csv (:data:`irseg.report.CSV_DIALECTS`).
 
     Raises
     ------
@@ -117,7 +120,7 @@ def write_survey_files(
     summary = {**summary, "repairs": irio.normalise_json(repairs.summary)}  # the repair plan (irseg.repairs)
     failures = tuple(o.failure for o in ordered if o.failure is not None)
     contents: dict[str, bytes | None] = {
-        "anomalies.csv": irio.csv_bytes(table_rows(anomalies), ANOMALY_COLUMNS),
+        "anomalies.csv": _anomalies_csv(anomalies, csv_dialect),
         "repairs.csv": irio.csv_bytes(repairs.rows, REPAIR_COLUMNS),
         "confirm_points.csv": irio.csv_bytes(repairs.points, CONFIRM_COLUMNS),
         "failures.csv": irio.csv_bytes(
@@ -137,6 +140,12 @@ def write_survey_files(
     manifest.prune()
     manifest.save()
     return SurveyFiles(summary=summary, anomalies=anomalies, failures=failures, report_path=out_dir / "report.html")
+
+
+def _anomalies_csv(anomalies: Sequence[SurveyAnomaly], dialect: str) -> bytes:
+    """anomalies.csv: rows in image order then id, rounded to what each value means."""
+    delimiter, decimal = CSV_DIALECTS[dialect]
+    return irio.csv_bytes(csv_rows(anomalies, dialect), ANOMALY_COLUMNS, delimiter=delimiter, decimal=decimal)
 
 
 def _render_report(out_dir: Path, summary: dict[str, Any], ordered: Sequence[ImageOutcome],

@@ -75,10 +75,12 @@ def run_task(task: dict[str, Any]) -> ImageOutcome:
         )
         timings = dict(result.timings)
         stage = "render"
-        rendered = render_result(result, cmap=settings.cmap)
+        fixed = settings.range_c if isinstance(settings.range_c, tuple) else None
+        rendered = render_result(result, cmap=settings.cmap, show_jumps=settings.show_jumps,
+                                 range_c=task.get("range_c") or fixed)
         timings["render"] = rendered.seconds
         stage = "write"
-        record = _make_record(result, task, rendered.warnings)
+        record = _make_record(result, task, rendered.warnings, rendered)
     except Exception as exc:  # one bad input must never stop the survey
         stage = failure_stage(exc) or stage
         if isinstance(exc, IrsegError):
@@ -109,7 +111,7 @@ def _dedupe(messages: Iterable[str], root: str) -> list[str]:
     return seen
 
 
-def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[str]) -> ImageRecord:
+def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[str], rendered: Any = None) -> ImageRecord:
     """The content of result.json for one processed image (built from normalised JSON data)."""
     from dataclasses import asdict, is_dataclass
 
@@ -165,6 +167,9 @@ def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[st
             "n_anomalies": len(anomalies),
             # roof moisture: where to confirm (irseg.repairs.confirm_points); read by the survey files
             "confirm_points": [asdict(p) for p in getattr(result, "confirm_points", ())],
+            # the overlay's colour ranges: the image's own, and the one drawn (a survey's common range)
+            "display_range_c": None if rendered is None else list(rendered.own_range_c),
+            "overlay_range_c": None if rendered is None else list(rendered.range_c),
         },
         "warnings": warnings,
         "assumed": assumed,

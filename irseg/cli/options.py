@@ -34,6 +34,7 @@ __all__ = [
     "writer_option",
     "max_pixels_option",
     "cmap_option",
+    "overlay_options",
     "verbose_option",
     "quiet_option",
     "inside_c_option",
@@ -59,6 +60,9 @@ SETTING_FLAGS: dict[str, str] = {
     "fail_fast": "--fail-fast",
     "verbose": "-v/--verbose",
     "review": "--review",
+    "show_jumps": "--show-jumps",
+    "range_c": "--range-c",
+    "csv_dialect": "--csv-dialect",
 }
 
 # The metadata options: flag, [section] key, type, help. The one table behind both the click
@@ -157,6 +161,19 @@ def cmap_option() -> Callable[[Any], Any]:
     """``--cmap NAME``: colour map of the overlays (the open libraries' names)."""
     return click.option("--cmap", default="inferno", show_default=True,
                         help="Colour map of the overlays (inferno, magma, plasma, viridis, cividis, turbo, gray).")
+
+
+def overlay_options(func: Callable[..., Any]) -> Callable[..., Any]:
+    """``--show-jumps``, ``--range-c auto|survey|LO,HI`` and ``--csv-dialect rfc4180|excel-eu``."""
+    func = click.option("--csv-dialect", type=click.Choice(["rfc4180", "excel-eu"]), default="rfc4180",
+                        show_default=True,
+                        help="anomalies.csv format: rfc4180 (',' and decimal points) or excel-eu "
+                        "(';' and decimal commas, for spreadsheets set to such a locale).")(func)
+    func = click.option("--range-c", metavar="auto|survey|LO,HI", default="auto", show_default=True,
+                        help="Colour range of the overlays: each image's own (auto), one range for the whole "
+                        "survey (survey), or fixed, in °C (e.g. 5,22).")(func)
+    return click.option("--show-jumps", is_flag=True,
+                        help="Draw the temperature edges the segmentation found on the overlays.")(func)
 
 
 def verbose_option() -> Callable[[Any], Any]:

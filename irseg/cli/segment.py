@@ -50,6 +50,7 @@ def _readers() -> list[str]:
 @opt.reader_option(_readers())
 @opt.max_pixels_option()
 @opt.cmap_option()
+@opt.overlay_options
 @click.option("--fail-fast", is_flag=True, help="Stop at the first failed image (exit 1).")
 @opt.review_option()
 @opt.metadata_options
@@ -60,7 +61,8 @@ def _readers() -> list[str]:
 @click.pass_context
 def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, jobs: int | None, resume: bool,
                 scheduler: str | None, reader: str | None, max_pixels: int, cmap: str, fail_fast: bool,
-                review: Path | None, sets: tuple[str, ...], quiet: bool, verbose: bool, **options: Any) -> None:
+                review: Path | None, sets: tuple[str, ...], quiet: bool, verbose: bool, show_jumps: bool,
+                range_c: str, csv_dialect: str, **options: Any) -> None:
     """Segment thermograms and write the defect list, images and report to OUT.
 
     INPUT are image files (TIFF, 16-bit PNG, CSV/TXT, NPY) and/or folders, searched
@@ -106,6 +108,7 @@ def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, job
             [str(p) for p in inputs], out_dir, jobs=jobs, resume=resume, scheduler=scheduler,
             overrides=overrides or None, fail_fast=fail_fast, on_progress=progress,
             format=reader, max_pixels=max_pixels, cmap=cmap, review=review,
+            show_jumps=show_jumps, range_c=range_c, csv_dialect=csv_dialect,
         )
     finally:
         if bar is not None:

@@ -203,14 +203,15 @@ _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 _PLAIN_NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?\Z")
 
 
-def _neutralise(text: str) -> str:
+def _neutralise(text: str, decimal: str = ".") -> str:
     """A text cell that would start a formula gets a leading ``'``; a plain number is left alone."""
-    if text.startswith(_FORMULA_START) and not _PLAIN_NUMBER.match(text):
+    number = text.replace(decimal, ".", 1) if decimal != "." else text
+    if text.startswith(_FORMULA_START) and not _PLAIN_NUMBER.match(number):
         return "'" + text
     return text
 
 
-def _csv_cell(value: Any) -> str:
+def _csv_cell(value: Any, decimal: str = ".") -> str:
     if value is None:
         return ""
     if isinstance(value, (bool, np.bool_)):
@@ -218,11 +219,12 @@ def _csv_cell(value: Any) -> str:
     if isinstance(value, (int, np.integer)):
         return str(int(value))
     if isinstance(value, (float, np.floating)):
-        return format_float(float(value))
-    return _neutralise(escape_text(str(value)))
+        return format_float(float(value)).replace(".", decimal)
+    return _neutralise(escape_text(str(value)), decimal)
 
 
-def csv_bytes(rows: Iterable[Mapping[str, Any]], columns: Sequence[str]) -> bytes:
+def csv_bytes(rows: Iterable[Mapping[str, Any]], columns: Sequence[str], *, delimiter: str = ",",
+              decimal: str = ".") -> bytes:
     """An RFC 4180 CSV document (CRLF line ends, header row, minimal quoting), UTF-8.
 
     Parameters
@@ -235,16 +237,20 @@ def csv_bytes(rows: Iterable[Mapping[str, Any]], columns: Sequence[str]) -> byte
         that is a plain number such as ``-0.62``, are written as they are.
     columns : sequence of str
         Column names, in order (the header).
+    delimiter, decimal : str
+        Cell separator and decimal mark: ``","`` and ``"."`` (RFC 4180, the default), or ``";"``
+        and ``","`` for spreadsheets set to a decimal-comma locale. Text that is a plain number
+        with the given decimal mark is not neutralised.
 
     Returns
     -------
     bytes
     """
     buffer = io.StringIO(newline="")
-    writer = csv.writer(buffer, lineterminator="\r\n", quoting=csv.QUOTE_MINIMAL)
+    writer = csv.writer(buffer, lineterminator="\r\n", quoting=csv.QUOTE_MINIMAL, delimiter=delimiter)
     writer.writerow(list(columns))
     for row in rows:
-        writer.writerow([_csv_cell(row.get(c)) for c in columns])
+        writer.writerow([_csv_cell(row.get(c), decimal) for c in columns])
     return buffer.getvalue().encode("utf-8")
 
 

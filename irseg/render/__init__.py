@@ -12,7 +12,7 @@ from __future__ import annotations
 from ._confirm_marks import draw_confirm_marks
 from ._colours import COLORMAPS, colormap_lut, display_range
 from ._layout import OverlayLayout, overlay_layout, scale_bar_length_m
-from ._overlay import draw_zones, label_image, render_overlay
+from ._overlay import draw_zones, label_image, overlay_range_c, render_overlay
 
 __all__ = [
     "COLORMAPS",
@@ -25,4 +25,5 @@ __all__ = [
     "label_image",
     "draw_zones",
     "draw_confirm_marks",
+    "overlay_range_c",
 ]

@@ -67,20 +67,42 @@ def _fit(text: str, width: int, scale: float) -> str:
     return text + "..."
 
 
+def _header_parts(meta: Any) -> list[str]:
+    """View, ΔT in–out, emissivity, reflected temperature, distance and time, each when known."""
+    surface, air = getattr(meta, "surface", None), getattr(meta, "air", None)
+    camera, image = getattr(meta, "camera", None), getattr(meta, "image", None)
+    parts = [f"{getattr(surface, 'view', None) or 'unknown'} view"]
+    t_in, t_out = getattr(air, "inside_c", None), getattr(air, "outside_c", None)
+    parts.append(f"ΔT in–out {float(t_in) - float(t_out):.1f} K" if t_in is not None and t_out is not None
+                 else "ΔT in–out unknown")
+    emissivity = getattr(surface, "emissivity", None)
+    if emissivity is not None:
+        parts.append(f"emissivity {float(emissivity):.2f}")
+    reflected = getattr(surface, "reflected_c", None)
+    if reflected is not None:
+        parts.append(f"refl. {float(reflected):.1f} °C")
+    distance = getattr(camera, "distance_m", None)
+    if distance is not None:
+        parts.append(f"{float(distance):.1f} m away")
+    when = getattr(image, "time", None)
+    if isinstance(when, str) and when.strip():
+        parts.append(when.strip())
+    return parts
+
+
 def draw_title(canvas: np.ndarray, frame: Any, meta: Any, n_anomalies: int, lay: Any) -> None:
-    """The file name, then view, ΔT in–out (from ``meta``) and the anomaly count."""
+    """The title ([image] title, else the file name) with the anomaly count, then the shot's header.
+
+    The header line gives view, ΔT in–out, emissivity, reflected temperature, distance and time,
+    each when known (from ``meta``).
+    """
     width = lay.shape[1] - 2 * LEFT
     name = os.path.basename(str(getattr(frame, "path", "") or "")) or "(unnamed image)"
-    draw_text(canvas, _fit(name, width, TITLE_SCALE), (LEFT, 19), TITLE_SCALE, FOREGROUND, 1)
-    view = getattr(getattr(meta, "surface", None), "view", None) or "unknown"
-    air = getattr(meta, "air", None)
-    t_in, t_out = getattr(air, "inside_c", None), getattr(air, "outside_c", None)
-    if t_in is not None and t_out is not None:
-        dt = f"ΔT in–out {float(t_in) - float(t_out):.1f} K"
-    else:
-        dt = "ΔT in–out unknown"
+    title = getattr(getattr(meta, "image", None), "title", None)
+    name = f"{title.strip()} ({name})" if isinstance(title, str) and title.strip() else name
     count = f"{n_anomalies} anomal{'y' if n_anomalies == 1 else 'ies'}"
-    line = f"{view} view  |  {dt}  |  {count}  |  all figures are estimates"
+    draw_text(canvas, _fit(f"{name}  |  {count}", width, TITLE_SCALE), (LEFT, 19), TITLE_SCALE, FOREGROUND, 1)
+    line = "  |  ".join(_header_parts(meta))
     draw_text(canvas, _fit(line, width, FONT_SCALE), (LEFT, 38), FONT_SCALE, MUTED, 1)
 
 
@@ -102,6 +124,7 @@ def draw_bottom(
     causes: tuple[str, ...],
     colours: Mapping[str, tuple[int, int, int]],
     labels: Mapping[str, str],
+    show_jumps: bool = False,
 ) -> None:
     y0 = lay.legend_row0
     x = LEFT
@@ -119,7 +142,7 @@ def draw_bottom(
         draw_text(canvas, msg, (x, base), FONT_SCALE, MUTED, 1)
         x += text_width(msg, FONT_SCALE, 1) + 18
     # neutral items on the first row
-    items: list[tuple[str, Any]] = [("jump set", "edge")]
+    items: list[tuple[str, Any]] = [("temperature edges", "edge")] if show_jumps else []
     if has_mask:
         items.append(("no data", "mask"))
     for label, kind in items:

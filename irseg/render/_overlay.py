@@ -30,7 +30,15 @@ from ._layout import BACKGROUND as _BACKGROUND
 from ._layout import ID_SCALE as _ID_SCALE
 from ._layout import OverlayLayout, overlay_layout, scale_bar_length_m
 
-__all__ = ["render_overlay", "label_image", "draw_zones"]
+__all__ = ["render_overlay", "label_image", "draw_zones", "overlay_range_c"]
+
+
+def overlay_range_c(frame: Any, zones: Any = None) -> tuple[float, float]:
+    """The colour range :func:`render_overlay` gives an image of its own: :func:`display_range`
+    of the valid pixels outside exclude zones, °C."""
+    temp = np.asarray(frame.temperature_c)
+    mask = _as_bool(getattr(frame, "mask", None), temp.shape, "frame.mask")
+    return display_range(temp, mask=_range_mask(mask, zones, temp.shape))
 
 
 def label_image(analysis: Any) -> np.ndarray:
@@ -71,7 +79,8 @@ def label_image(analysis: Any) -> np.ndarray:
 
 
 def render_overlay(
-    frame: Any, seg: Any, analysis: Any, meta: Any, *, cmap: str = "inferno", zones: Any = None
+    frame: Any, seg: Any, analysis: Any, meta: Any, *, cmap: str = "inferno", zones: Any = None,
+    show_jumps: bool = False, range_c: tuple[float, float] | None = None,
 ) -> np.ndarray:
     """Draw the annotated overlay of one analysed thermogram.
 
@@ -94,6 +103,12 @@ def render_overlay(
         The image's zones (:class:`irseg.controls.ZoneMask`: ``mask``, ``label``, ``kind``,
         ``zone.emissivity``), drawn hatched with their label over the thermogram
         (:func:`draw_zones`); the pixels of exclude zones do not count for the colour range.
+    show_jumps : bool, optional
+        Draw the segmentation's jump set (the temperature edges it found). Off by default: on
+        real frames it marks every stud and much sensor speckle.
+    range_c : (lo_c, hi_c), optional
+        A fixed colour range in °C (a survey's common range); default: the image's own
+        :func:`display_range`.
 
     Returns
     -------
@@ -138,7 +153,12 @@ def render_overlay(
     lay = overlay_layout(shape)
     s = lay.scale
 
-    lo, hi = display_range(temp, mask=_range_mask(mask, zones, shape))
+    if range_c is not None:
+        lo, hi = float(range_c[0]), float(range_c[1])
+        if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
+            raise ConfigError(f"render_overlay: range_c = {range_c!r} must be two finite °C values, low first")
+    else:
+        lo, hi = display_range(temp, mask=_range_mask(mask, zones, shape))
     canvas = np.empty(lay.shape, dtype=np.uint8)
     canvas[...] = _BACKGROUND
 
@@ -152,7 +172,7 @@ def render_overlay(
         rgb[mask & checker] = _NO_DATA[0]
         rgb[mask & ~checker] = _NO_DATA[1]
     jumps = None
-    if edges is not None and edges.any():
+    if show_jumps and edges is not None and edges.any():
         jumps = edges & ~mask if mask is not None else edges
     if s == 1:
         if jumps is not None:
@@ -185,6 +205,7 @@ def render_overlay(
         causes=CAUSES,
         colours=CAUSE_COLOURS,
         labels=CAUSE_LABELS,
+        show_jumps=show_jumps,
     )
     return canvas
 
@@ -211,7 +232,7 @@ def _as_bool(arr: Any, shape: tuple[int, ...], name: str) -> np.ndarray | None:
 def _draw_outlines(canvas: np.ndarray, labels: np.ndarray, anomalies: tuple, lay: OverlayLayout) -> None:
     s = lay.scale
     m, n = labels.shape
-    thickness = 2
+    thickness = 3
     for a in anomalies:
         aid = int(a.anomaly)
         r0, c0, r1, c1 = _bbox(a, m, n)
@@ -225,6 +246,7 @@ def _draw_outlines(canvas: np.ndarray, labels: np.ndarray, anomalies: tuple, lay
             crop, cv2.RETR_EXTERNAL, cv2.CHAIN_APPROX_NONE, offset=(lay.image_col0 + c0 * s, lay.image_row0 + r0 * s)
         )
         colour = CAUSE_COLOURS.get(str(a.cause), CAUSE_COLOURS["unclassified"])
+        cv2.drawContours(canvas, contours, -1, (0, 0, 0), thickness + 2, lineType=cv2.LINE_8)  # casing
         cv2.drawContours(canvas, contours, -1, colour, thickness, lineType=cv2.LINE_8)
 
 

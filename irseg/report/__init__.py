@@ -23,9 +23,12 @@ from typing import Any
 
 from ..errors import ConfigError
 from ..vocabulary import CAUSE_COLOURS, CAUSE_LABELS, CAUSES, CAUTIONS
-from ._table import ANOMALY_COLUMNS, SurveyAnomaly, anomaly_table
+from ._first_page import RANKING_RULE, summary_figures, top_actions
+from ._ranking import MAX_BAND_RATIO, is_expected, rank_anomalies, rank_basis, rank_key
+from ._table import ANOMALY_COLUMNS, CSV_DECIMALS, CSV_DIALECTS, SurveyAnomaly, anomaly_table, csv_rows
 
-__all__ = ["render_report", "SurveyAnomaly", "anomaly_table", "ANOMALY_COLUMNS"]
+__all__ = ["render_report", "EMBED_LIMIT", "SurveyAnomaly", "anomaly_table", "ANOMALY_COLUMNS", "CSV_DIALECTS", "CSV_DECIMALS", "csv_rows",
+           "rank_anomalies", "rank_key", "rank_basis", "is_expected", "MAX_BAND_RATIO"]
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 DASH = "—"
@@ -133,9 +136,25 @@ def _data_uri(image: str, png: Any) -> str:
     return "data:image/png;base64," + base64.b64encode(data).decode("ascii")
 
 
-def _severity_key(record: SurveyAnomaly) -> tuple:
+def _rank_order(record: SurveyAnomaly) -> tuple:
     """Survey rank (unranked last), then image and id."""
-    return (math.inf if record.severity is None else record.severity, record.image, record.anomaly)
+    return (math.inf if record.rank is None else record.rank, record.image, record.anomaly)
+
+
+#: Beyond this many images the report links each overlay file (``<stem>/overlay.png``, relative
+#: to the report) instead of embedding it: at about 180 KB an overlay, 2 000 embedded images
+#: would make a page of some 360 MB (benchmarks/bench_report.py measures both ways).
+EMBED_LIMIT = 200
+
+
+def _breakable(value: Any) -> Any:
+    """Text with break opportunities after ``_``, ``-``, ``.`` and ``/`` (file names wrap at word parts)."""
+    from markupsafe import Markup, escape
+
+    text = str(escape(_text(value)))
+    for ch in "_-/":
+        text = text.replace(ch, ch + "<wbr>")
+    return Markup(text)
 
 
 def _list(summary: Mapping[str, Any], key: str) -> Sequence[Any]:
@@ -162,10 +181,13 @@ def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes],
     every = sorted(
         (SurveyAnomaly.from_json(a, where=f"report: summary['anomalies'][{k}]")
          for k, a in enumerate(_list(summary, "anomalies"))),
-        key=_severity_key,
+        key=_rank_order,
     )
     anomalies = [a for a in every if a.review != "rejected"]
     rejected = [a for a in every if a.review == "rejected"]
+    expected = [a for a in anomalies if is_expected(a)]
+    defects = [a for a in anomalies if not is_expected(a)]
+    link = len(images) > EMBED_LIMIT
     anchors: dict[str, str] = {}
     for n, img in enumerate(images, start=1):
         for key in ("image", "status", "view", "delta_t_k", "n_anomalies"):
@@ -176,7 +198,11 @@ def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes],
         img["warnings"] = [str(w) for w in (img.get("warnings") or [])]
         img["anomalies"] = sorted((a for a in anomalies if a.image == name), key=lambda a: a.anomaly)
         png = overlays.get(name)
-        img["overlay_uri"] = _data_uri(name, png) if png is not None else None
+        if link and isinstance(img.get("overlay"), str):
+            img["overlay_uri"] = img["overlay"]
+        else:
+            img["overlay_uri"] = _data_uri(name, png) if png is not None else None
+        img["causes"] = [c for c in CAUSES if any(a.cause == c for a in img["anomalies"])]
         photo = photos.get(name)
         img["photo_uri"] = _photo_uri(name, photo) if photo is not None else None
         details = img.get("details") if isinstance(img.get("details"), Mapping) else {}
@@ -190,10 +216,19 @@ def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes],
     extra = [str(c) for c in _list(summary, "cautions") if str(c) not in CAUTIONS]
     totals = summary.get("totals") or {}
     review = summary.get("review") if isinstance(summary.get("review"), Mapping) else {}
+    titles = {str(i.get("image")): i["title"] for i in images if i.get("title")}
     return {
         "version": _text(summary.get("irseg_version")),
         "job": _pairs(summary.get("survey"), SURVEY_FIELDS),
         "rejected": rejected,
+        "expected": expected,
+        "defects": defects,
+        "figures": summary_figures(defects),
+        "actions": top_actions(defects, titles),
+        "ranking_rule": RANKING_RULE,
+        "titles": titles,
+        "linked": link,
+        "embed_limit": EMBED_LIMIT,
         "review": {"file": review.get("file"), "entries": review.get("entries") or 0,
                    "applied": review.get("applied") or 0},
         "images": images,
@@ -247,7 +282,7 @@ def _environment() -> Any:
         keep_trailing_newline=True,
     )
     env.filters.update(num=_num, band=_band, yesno=_yesno, text=_text, cause_label=_cause_label,
-                       cause_colour=_cause_colour)
+                       cause_colour=_cause_colour, breakable=_breakable, basis=rank_basis)
     return env
 
 
@@ -290,9 +325,12 @@ def render_report(
 
     Notes
     -----
-    The anomaly table is sorted by the survey-wide ``severity`` rank (1 = repair first), which
-    the batch assigns with :func:`irseg.analysis.severity_key`; rows without a rank come last.
-    The page always carries :data:`CAUTIONS`; cautions in the summary are added after them.
+    The anomaly table is sorted by the survey-wide ``rank`` (1 = act first), which the batch
+    assigns with :func:`rank_anomalies`; framing members expected in the construction and
+    rejected anomalies are listed apart. The page always carries :data:`CAUTIONS`; cautions in the
+    summary are added after them. Beyond :data:`EMBED_LIMIT` images the overlays are linked by
+    their relative path (``images[i]["overlay"]``) instead of embedded, so the page stays small;
+    the report must then stay in the output folder beside the images' folders.
     """
     if not isinstance(summary, Mapping):
         raise ConfigError(f"report: summary must be a mapping (the content of summary.json), got {type(summary).__name__}")

@@ -10,13 +10,14 @@ round; it loads neither the analysis nor OpenCV.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import dataclass, fields
 from typing import Any
 
 from ..errors import ConfigError
 
-__all__ = ["ANOMALY_COLUMNS", "SurveyAnomaly", "anomaly_table"]
+__all__ = ["ANOMALY_COLUMNS", "CSV_DECIMALS", "CSV_DIALECTS", "SurveyAnomaly", "anomaly_table", "csv_rows"]
 
 #: Columns of OUT/anomalies.csv and of the rows of summary.json's ``anomalies``, in order
 #: (an interface: other tools read it).
@@ -26,7 +27,8 @@ ANOMALY_COLUMNS = (
     "image", "anomaly", "kind", "cause", "reason", "area_m2", "area_low_m2", "area_high_m2",
     "mean_c", "min_c", "max_c", "reference_c", "delta_k", "excess_w", "excess_low_w", "excess_high_w",
     "excess_kwh_year", "f_rsi", "mould_risk", "centroid_row", "centroid_col",
-    "bbox_row0", "bbox_col0", "bbox_row1", "bbox_col1", "severity",
+    # ``rank`` (1 = act first; irseg.report._ranking) took the place of the former ``severity``
+    "bbox_row0", "bbox_col0", "bbox_row1", "bbox_col1", "rank",
     # beyond the contract's list, appended so its order stays intact: the area in pixels is the one
     # area that is known when the shot's geometry is not
     "area_px",
@@ -51,9 +53,10 @@ class SurveyAnomaly:
         As :class:`irseg.analysis.Anomaly` (same names, same units).
     image_severity : int or None
         Rank within the image, 1 = repair first (``Anomaly.severity``; ``severity`` in result.json).
-    severity : int or None
-        Rank across the survey, 1 = repair first (the ``severity`` column); None until ranked,
-        and for an anomaly the review rejected.
+    rank : int or None
+        Rank across the survey, 1 = act first (the ``rank`` column, by the rule of
+        :mod:`irseg.report._ranking`); None until ranked, for an anomaly the review rejected and
+        for one expected in the construction (a framing member).
     uid : str or None
         ``<stem>#<id>``: the image's output folder name (its file stem, unique in the survey) and
         the anomaly's id.
@@ -94,7 +97,7 @@ class SurveyAnomaly:
     bbox_col1: int | None = None
     image_severity: int | None = None
     severity_score: float | None = None
-    severity: int | None = None
+    rank: int | None = None
     uid: str | None = None
     review: str | None = None
     note: str | None = None
@@ -158,6 +161,65 @@ def anomaly_table(
         )
     rows = list(records)
     return {column: [getattr(r, column) for r in rows] for column in columns}
+
+
+# --------------------------------------------------------------------------- anomalies.csv
+
+#: Decimals written to anomalies.csv per column: what each value means, no more (summary.json keeps
+#: full precision): area 0.001 m², heat flow 0.1 W, energy 1 kWh, temperatures and ΔT 0.01 K,
+#: f_Rsi 0.01, centroid 0.1 px.
+CSV_DECIMALS = {
+    **dict.fromkeys(("area_m2", "area_low_m2", "area_high_m2"), 3),
+    **dict.fromkeys(("excess_w", "excess_low_w", "excess_high_w"), 1),
+    "excess_kwh_year": 0,
+    **dict.fromkeys(("mean_c", "min_c", "max_c", "reference_c", "delta_k"), 2),
+    "f_rsi": 2,
+    **dict.fromkeys(("centroid_row", "centroid_col"), 1),
+}
+
+#: CSV dialects of anomalies.csv: name -> (cell separator, decimal mark). ``rfc4180`` is the default;
+#: ``excel-eu`` suits spreadsheets set to a decimal-comma locale.
+CSV_DIALECTS = {"rfc4180": (",", "."), "excel-eu": (";", ",")}
+
+
+def _csv_value(column: str, value: Any, decimal: str) -> Any:
+    if value is None:
+        return None
+    if column == "mould_risk":
+        return "yes" if value else "no"
+    digits = CSV_DECIMALS.get(column)
+    if digits is None or isinstance(value, bool) or not isinstance(value, (int, float)):
+        return value
+    if not math.isfinite(float(value)):
+        return None
+    text = f"{float(value):.{digits}f}"
+    if float(text) == 0:
+        text = text.lstrip("-")  # never "-0.00"
+    return text.replace(".", decimal)
+
+
+def csv_rows(records: Iterable[SurveyAnomaly], dialect: str = "rfc4180",
+             columns: Sequence[str] = ANOMALY_COLUMNS) -> list[dict[str, Any]]:
+    """The rows of anomalies.csv: values rounded by :data:`CSV_DECIMALS`, ``mould_risk`` yes/no/empty.
+
+    Parameters
+    ----------
+    records : iterable of SurveyAnomaly
+    dialect : {"rfc4180", "excel-eu"}
+        The decimal mark of the rounded numbers (see :data:`CSV_DIALECTS`).
+    columns : sequence of str
+
+    Raises
+    ------
+    ConfigError
+        An unknown dialect.
+    """
+    if dialect not in CSV_DIALECTS:
+        raise ConfigError(f"anomalies.csv: no CSV dialect {dialect!r}; the csv_dialect setting takes "
+                          f"{' or '.join(CSV_DIALECTS)}")
+    decimal = CSV_DIALECTS[dialect][1]
+    table = anomaly_table(records, columns)
+    return [{c: _csv_value(c, v, decimal) for c, v in zip(table, values)} for values in zip(*table.values())]
 
 
 # --------------------------------------------------------------------------- JSON types

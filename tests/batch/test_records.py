@@ -20,15 +20,17 @@ from tests.support.survey import data_files, make_survey
 from irseg.analysis import Anomaly
 from irseg.batch import ANOMALY_COLUMNS, ImageRecord, SurveyAnomaly, anomaly_table, run_survey
 from irseg.errors import ConfigError
+from irseg.report import CSV_DECIMALS, csv_rows
 
 
 def test_survey_anomaly_has_the_image_every_anomaly_field_and_the_survey_rank():
     analysis_fields = [f.name for f in fields(Anomaly)]
     survey_fields = [f.name for f in fields(SurveyAnomaly)]
-    # Anomaly.severity (rank within the image) is SurveyAnomaly.image_severity; severity is the survey rank
-    # plus the survey-level fields (issue 13): the survey-wide name, the review and the image's details
+    # Anomaly.severity (rank within the image) is SurveyAnomaly.image_severity; rank is the survey rank
+    # (issue 14: it replaced the survey-level severity) plus the survey-level fields (issue 13): the
+    # survey-wide name, the review and the image's details
     survey_level = ["uid", "review", "note", "title", "element"]
-    expected = ["image", *(("image_severity" if n == "severity" else n) for n in analysis_fields), "severity",
+    expected = ["image", *(("image_severity" if n == "severity" else n) for n in analysis_fields), "rank",
                 *survey_level]
     assert sorted(survey_fields) == sorted(expected)
     assert set(ANOMALY_COLUMNS) <= set(survey_fields)
@@ -59,7 +61,7 @@ def test_anomaly_table_has_the_layout_of_regionprops_table():
 
 
 def test_json_round_trip_and_type_checks():
-    record = SurveyAnomaly(image="a.tif", anomaly=3, kind="cold", area_m2=0.25, mould_risk=False, severity=7)
+    record = SurveyAnomaly(image="a.tif", anomaly=3, kind="cold", area_m2=0.25, mould_risk=False, rank=7)
     assert SurveyAnomaly.from_json(json.loads(json.dumps(record.to_json()))) == record
     with pytest.raises(ConfigError, match="anomaly = True must be a JSON int"):
         SurveyAnomaly.from_json({"image": "a.tif", "anomaly": True})  # bool is not an integer in JSON
@@ -85,8 +87,14 @@ def test_survey_table_is_the_csv_and_result_json_is_the_image_record(tmp_path):
         rows = list(csv.DictReader(handle))
     table = anomaly_table(result.anomalies)
     assert len(rows) == len(result.anomalies) == result.n_anomalies == 3
-    for column, values in table.items():
-        assert [r[column] for r in rows] == [_csv_text(v) for v in values], column
+    planner = csv_rows(result.anomalies)  # rounded to what each value means (issue 14)
+    for column in table:
+        assert [r[column] for r in rows] == [_csv_text(p[column]) for p in planner], column
+        rounded = CSV_DECIMALS.get(column)
+        for r, value in zip(rows, table[column]):
+            if rounded is not None and value is not None:
+                # the CSV holds the full-precision value (summary.json) to the column's decimals
+                assert float(r[column]) == pytest.approx(value, abs=0.5 * 10.0**-rounded + 1e-12), column
 
     for path, outcome in zip(paths, result.outcomes):
         stored = json.loads((out / path.stem / "result.json").read_text(encoding="utf-8"))

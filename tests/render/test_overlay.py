@@ -266,8 +266,8 @@ def test_jump_set_is_drawn_as_a_thin_line_and_nothing_else_changes(shape):
     edges = np.zeros(shape, bool)
     edges[:, n // 2] = True
     frame, seg, analysis, meta = make_inputs(shape, rects=(), edges=edges)
-    img = render_overlay(frame, seg, analysis, meta)
-    plain = render_overlay(*make_inputs(shape, rects=()))
+    img = render_overlay(frame, seg, analysis, meta, show_jumps=True)
+    plain = render_overlay(*make_inputs(shape, rects=()), show_jumps=True)
     lay = overlay_layout(shape)
     s = lay.scale
     r = m // 2
@@ -280,6 +280,9 @@ def test_jump_set_is_drawn_as_a_thin_line_and_nothing_else_changes(shape):
     # whatever lies off the jump set is untouched
     image_area = np.s_[lay.image_row0 : lay.image_row0 + lay.image_rows, lay.image_col0 : left]
     assert np.array_equal(img[image_area], plain[image_area])
+    # without the request the jump set is not drawn at all (issue 14: only on request)
+    hidden = render_overlay(frame, seg, analysis, meta)
+    assert np.array_equal(hidden[image_area], plain[image_area]) and np.array_equal(hidden[centre], plain[centre])
 
 
 def test_constant_image_without_anomalies_geometry_or_air_renders():

@@ -28,9 +28,9 @@ class WithLength(SurveyAnomaly):
     length_m: float | None = None
 
 
-def _a(uid: str, cause: str, severity: int, **kw) -> SurveyAnomaly:
+def _a(uid: str, cause: str, rank: int | None, **kw) -> SurveyAnomaly:
     image, anomaly = uid.split("#")
-    values = dict(image=f"{image}.tif", anomaly=int(anomaly), uid=uid, cause=cause, severity=severity,
+    values = dict(image=f"{image}.tif", anomaly=int(anomaly), uid=uid, cause=cause, rank=rank,
                   reason="compact cold area", kind="cold")
     values.update(kw)
     return SurveyAnomaly(**values)
@@ -91,7 +91,7 @@ def test_worked_example_of_the_issue_formulas():
 
 
 def test_a_thermal_bridge_with_a_length_is_priced_per_metre():
-    record = WithLength(image="w.tif", anomaly=1, uid="w#1", cause="thermal_bridge", severity=1, area_m2=0.2,
+    record = WithLength(image="w.tif", anomaly=1, uid="w#1", cause="thermal_bridge", rank=1, area_m2=0.2,
                         excess_w=3.0, excess_low_w=2.0, excess_high_w=4.0, excess_kwh_year=12.0, length_m=3.0)
     (item,) = repair_plan([record], COSTS).items
     # [C] 3.0 m × 60 = 180 (135-225); 12 kWh × 0.12 = 1.44 a year; payback 180/1.44 = 125 years
@@ -107,11 +107,8 @@ def test_rejected_framing_and_unclassified_never_appear_and_ranks_follow_the_sur
 
 
 def test_a_record_with_a_rank_column_is_ranked_by_it():
-    @dataclass(frozen=True)
-    class Ranked(SurveyAnomaly):  # the `rank` column that replaces `severity` (issue 14)
-        rank: int | None = None
-
-    records = [Ranked(image="a.tif", anomaly=k, uid=f"a#{k}", cause="air_leakage", severity=k, rank=3 - k)
+    # the survey's `rank` column (issue 14), not the anomaly id, orders the plan
+    records = [SurveyAnomaly(image="a.tif", anomaly=k, uid=f"a#{k}", cause="air_leakage", rank=3 - k)
                for k in (1, 2)]
     assert [i.uid for i in repair_plan(records).items] == ["a#2", "a#1"]
 

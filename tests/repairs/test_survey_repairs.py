@@ -43,7 +43,8 @@ def _run(tmp_path: Path, extra: str) -> tuple[Path, list[dict[str, str]], list[d
     run_survey([survey], out, jobs=1)
     header, rows = _csv(out / "repairs.csv")
     assert tuple(header) == REPAIR_COLUMNS
-    _, anomalies = _csv(out / "anomalies.csv")
+    # full precision: anomalies.csv rounds for planners (issue 14), summary.json keeps every digit
+    anomalies = json.loads((out / "summary.json").read_text(encoding="utf-8"))["anomalies"]
     return out, rows, anomalies
 
 
@@ -93,7 +94,7 @@ def test_confirm_rows_keep_only_the_plans_moisture_items():
     from irseg.repairs import repair_plan
     from irseg.repairs._survey import confirm_rows
 
-    roof = [SurveyAnomaly(image="r.tif", anomaly=k, uid=f"r#{k}", cause="moisture", severity=k, area_m2=1.0,
+    roof = [SurveyAnomaly(image="r.tif", anomaly=k, uid=f"r#{k}", cause="moisture", rank=k, area_m2=1.0,
                           review="rejected" if k == 2 else None) for k in (1, 2)]
     recorded = [{"anomaly": k, "point": 3 * (k - 1) + j, "kind": kind, "row": 5, "col": 6, "x_m": 0.123456,
                  "y_m": None} for k in (1, 2) for j, kind in enumerate(("wet", "edge", "dry"), start=1)]

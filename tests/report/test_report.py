@@ -35,7 +35,7 @@ DASH = "—"
 COLUMNS = (
     "image anomaly kind cause reason area_m2 area_low_m2 area_high_m2 mean_c min_c max_c reference_c "
     "delta_k excess_w excess_low_w excess_high_w excess_kwh_year f_rsi mould_risk centroid_row "
-    "centroid_col bbox_row0 bbox_col0 bbox_row1 bbox_col1 severity"
+    "centroid_col bbox_row0 bbox_col0 bbox_row1 bbox_col1 rank"
 ).split()
 
 
@@ -67,14 +67,14 @@ def overlay_png(seed: int, name: str) -> tuple[bytes, tuple[int, ...]]:
     return buf.tobytes(), rgb.shape
 
 
-def anomaly_row(image: str, aid: int, severity: int | None, **values) -> dict:
+def anomaly_row(image: str, aid: int, rank: int | None, **values) -> dict:
     row = dict.fromkeys(COLUMNS)
     row.update(
         image=image, anomaly=aid, kind="cold", cause="missing_insulation", reason="cold bay between studs",
         area_m2=0.40, area_low_m2=0.36, area_high_m2=0.44, mean_c=15.2, min_c=14.0, max_c=16.1,
         reference_c=18.0, delta_k=-2.8, excess_w=12.5, excess_low_w=9.0, excess_high_w=16.0,
         excess_kwh_year=900.0, f_rsi=0.71, mould_risk=False, centroid_row=6.5, centroid_col=8.0,
-        bbox_row0=4, bbox_col0=5, bbox_row1=10, bbox_col1=12, severity=severity,
+        bbox_row0=4, bbox_col0=5, bbox_row1=10, bbox_col1=12, rank=rank,
     )
     row.update(values)
     return row
@@ -88,7 +88,7 @@ def make_summary() -> tuple[dict, dict]:
     overlays, shapes = {}, {}
     for k, name in enumerate(names):
         overlays[name], shapes[name] = overlay_png(k, name)
-    anomalies = [  # deliberately not in severity order
+    anomalies = [  # deliberately not in rank order
         anomaly_row("west_wall_0001.tif", 2, 4, cause="thermal_bridge", excess_kwh_year=120.0),
         anomaly_row("hall_ceiling_0003.tif", 1, 1, mould_risk=True, cause="moisture"),
         anomaly_row(HOSTILE, 1, 3, reason='<img src=x onerror="alert(1)">'),
@@ -185,7 +185,7 @@ def test_one_table_row_per_anomaly_sorted_by_severity():
     # rank, image, id, cause ... in the documented column order
     assert p.rows[0][1:4] == ["hall_ceiling_0003.tif", "1", "moisture"]
     assert p.rows[1][1:4] == ["west_wall_0001.tif", "1", "air leakage"]
-    assert p.rows[0][-1] == "yes"  # mould risk
+    assert p.rows[0][-2:] == ["yes", "mould risk"]  # mould risk, and the rule that ranked it
 
 
 def test_every_overlay_is_embedded_and_decodes_to_the_rendered_picture():
@@ -261,11 +261,11 @@ def test_null_numbers_render_as_a_dash():
     summary, overlays = make_summary()
     p = parse(render_report(summary, overlays))
     row = next(r for r in p.rows if r[1] == "west_wall_0001.tif" and r[2] == "1")
-    # rank, image, id, cause, kind, reason, area, ΔT, W, kWh/year, f_Rsi, mould risk
-    assert row[5] == DASH
-    assert row[6] == DASH  # no band shown when the value is null
-    assert row[7] == DASH and row[8] == DASH
-    assert row[9:] == [DASH, DASH, DASH]
+    # rank, image, id, cause, area, ΔT, W, kWh/year, f_Rsi, mould risk, ranked by (short cells: no reason)
+    assert row[4] == DASH  # no band shown when the value is null
+    assert row[5] == DASH and row[6] == DASH
+    assert row[7:10] == [DASH, DASH, DASH]
+    assert row[10] == "area"  # no energy figure: ranked by area
 
 
 def test_area_in_pixels_is_shown_when_the_geometry_is_unknown():
@@ -274,9 +274,9 @@ def test_area_in_pixels_is_shown_when_the_geometry_is_unknown():
     row_data["area_px"] = 37  # area_m2 is None for this row: the pixel count is the only area known
     p = parse(render_report(summary, overlays))
     row = next(r for r in p.rows if r[1] == "west_wall_0001.tif" and r[2] == "1")
-    assert row[6] == f"{DASH} 37 px"
+    assert row[4] == f"{DASH} 37 px"
     other = next(r for r in p.rows if r[1] == "west_wall_0001.tif" and r[2] == "2")
-    assert "px" not in other[6]  # with m² known, no pixel count
+    assert "px" not in other[4]  # with m² known, no pixel count
 
 
 def test_small_values_are_not_shown_as_zero():
@@ -284,8 +284,8 @@ def test_small_values_are_not_shown_as_zero():
     summary["anomalies"][0].update(area_m2=0.0034, area_low_m2=0.0029, area_high_m2=0.0041, excess_w=-0.00001)
     p = parse(render_report(summary, overlays))
     row = next(r for r in p.rows if r[1] == "west_wall_0001.tif" and r[2] == "2")
-    assert row[6] == "0.0034 0.0029–0.0041"  # two significant digits, not "0.00"
-    assert row[8].split()[0] == "-0.000010"
+    assert row[4] == "0.0034"  # two significant digits, not "0.00"
+    assert row[6] == "-0.000010"
 
 
 def test_totals_failures_and_warnings_are_listed():
