@@ -30,8 +30,8 @@ from scipy import ndimage
 from skimage.measure import regionprops_table
 
 from irseg.analysis import analyse
-from irseg.segment import Segmentation
-from irseg.segment._params import derive_params
+from irseg.segmentation import Segmentation
+from irseg.segmentation._params import derive_params
 from irseg.types import Air, Camera, SurveyMeta, Surface, ThermalFrame
 
 
@@ -67,8 +67,8 @@ def _scene(seed: int = 0):
                        params=params)
     meta = SurveyMeta(camera=Camera(hfov_deg=45.0, distance_m=3.0), surface=Surface(view="interior"),
                       air=Air(inside_c=20.0, outside_c=0.0))
-    frame = ThermalFrame(path="bench.npy", temperature_c=noisy, mask=np.zeros((m, n), bool), apparent_c=noisy, meta=meta)
-    return frame, seg
+    frame = ThermalFrame(path="bench.npy", temperature_c=noisy, mask=np.zeros((m, n), bool), apparent_c=noisy)
+    return frame, seg, meta
 
 
 def _median_ms(fn, repeats: int) -> float:
@@ -85,9 +85,9 @@ def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--repeats", type=int, default=20)
     args = ap.parse_args(argv)
-    frame, seg = _scene()
-    res = analyse(frame, seg)
-    t_an = _median_ms(lambda: analyse(frame, seg), args.repeats)
+    frame, seg, meta = _scene()
+    res = analyse(frame, seg, meta)
+    t_an = _median_ms(lambda: analyse(frame, seg, meta), args.repeats)
     t_rp = _median_ms(
         lambda: regionprops_table(seg.labels, frame.temperature_c,
                                   properties=("label", "area", "centroid", "bbox", "intensity_mean")),

@@ -39,7 +39,7 @@ from scipy import ndimage as ndi
 from skimage.restoration import denoise_tv_chambolle
 from skimage.segmentation import chan_vese
 
-from irseg.segment import segment
+from irseg.segmentation import segment
 
 MIN_STEP_K = 0.5
 

@@ -8,11 +8,14 @@ from __future__ import annotations
 
 from .types import SurveyMeta
 
-__all__ = ["DEFAULT_REFLECTED_C", "camera_side_air_c", "resolve_reflected_c"]
+__all__ = ["DEFAULT_REFLECTED_C", "REFLECTED_KEY", "camera_side_air_c", "resolve_reflected_c"]
 
 #: Reflected temperature assumed when neither ``[surface] reflected_c`` nor the air temperature on
 #: the camera's side is known, °C (a heated room; common practice).
 DEFAULT_REFLECTED_C = 20.0
+
+#: The ``SurveyMeta.assumed`` key of an assumed reflected temperature.
+REFLECTED_KEY = "surface.reflected_c"
 
 
 def camera_side_air_c(meta: SurveyMeta) -> float | None:
@@ -51,11 +54,15 @@ def resolve_reflected_c(meta: SurveyMeta) -> tuple[float, str | None]:
         °C.
     reason : str or None
         None when ``[surface] reflected_c`` was given; otherwise a sentence naming the
-        value taken and the setting that fixes it.
+        value taken and the setting that fixes it. A SurveyMeta from
+        :func:`irseg.metadata.load_metadata` already holds the resolved value and records
+        it in ``assumed`` (key :data:`REFLECTED_KEY`); the recorded reason is returned
+        then, so a None reason always means "given".
     """
     given = meta.surface.reflected_c
     if given is not None:
-        return float(given), None
+        recorded = next((a.reason for a in meta.assumed if a.key == REFLECTED_KEY), None)
+        return float(given), recorded
     side_air = camera_side_air_c(meta)
     if side_air is not None:
         side = "inside" if meta.surface.view == "interior" else "outside"

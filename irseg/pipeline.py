@@ -3,6 +3,8 @@
 ::
 
     read_thermogram -> load_metadata -> calibrate -> segment -> analyse    (process_image)
+    (zones: rasterised after the metadata, material zones into calibrate, exclude zones into
+     the frame's invalid mask, their effects on the anomalies after analyse: irseg.controls)
     render_overlay + label_image -> PNG bytes                              (render_result)
 
 Both functions are pure with respect to the output folder: they read the input
@@ -61,6 +63,11 @@ class ImageResult:
     warnings : tuple of str
         Messages of the irseg warnings (:class:`~irseg.errors.IrsegWarning`) raised by any
         stage, in order, without repeats. Other warnings pass through to the caller.
+    zones : irseg.controls.ZoneLayer or None
+        The image's ``[[zone]]`` masks (None without zones); ``frame.mask`` already holds
+        the exclude zones.
+    confirm_points : tuple of irseg.repairs.ConfirmPoint
+        Where to confirm each moisture anomaly of a roof view (wet, edge, dry); empty otherwise.
     """
 
     path: str
@@ -70,6 +77,8 @@ class ImageResult:
     analysis: Any
     timings: dict[str, float] = field(default_factory=dict)
     warnings: tuple[str, ...] = ()
+    zones: Any = None
+    confirm_points: tuple[Any, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -165,10 +174,14 @@ def process_image(
         SolverError ...). Every exception carries its stage, see
         :func:`failure_stage`.
     """
+    import numpy as np
+
     from .analysis import analyse
+    from .controls import mark_zones, material_maps, zone_layer
     from .io import read_thermogram
     from .metadata import load_metadata
     from .radiometry import calibrate
+    from .repairs import confirm_points
     from .segmentation import segment
 
     timings: dict[str, float] = {}
@@ -181,8 +194,13 @@ def process_image(
     meta: SurveyMeta = _run_stage(
         "metadata", timings, caught, lambda: load_metadata(image, overrides=overrides)
     )
-    frame: ThermalFrame = _run_stage("calibrate", timings, caught, lambda: calibrate(raw, meta))
+    zones = _run_stage("metadata", timings, caught, lambda: zone_layer(meta.zones, np.shape(raw.data), image=image))
+    frame: ThermalFrame = _run_stage(
+        "calibrate", timings, caught, lambda: calibrate(raw, meta, **material_maps(zones, meta))
+    )
     del raw  # the stored values are not needed after calibration (frees the input's memory early)
+    if zones is not None:  # exclude zones: invalid pixels from here on (no anomaly, no reference, no edge)
+        zones, frame = _run_stage("calibrate", timings, caught, lambda: zones.exclude(frame))
     flat = _flat_warning(frame, meta)
     if flat is not None:
         caught.append(flat)
@@ -199,7 +217,10 @@ def process_image(
             min_feature_px=knobs.min_feature_px,
         ),
     )
-    analysis = _run_stage("analyse", timings, caught, lambda: analyse(frame, seg, meta))
+    analysis = _run_stage("analyse", timings, caught, lambda: mark_zones(analyse(frame, seg, meta), zones, meta))
+    points = _run_stage("analyse", timings, caught, lambda: confirm_points(
+        frame.temperature_c, frame.mask, analysis.labels, analysis.anomalies, pixel_m=analysis.pixel_m,
+        view=meta.surface.view))
     return ImageResult(
         path=image,
         meta=meta,
@@ -208,6 +229,8 @@ def process_image(
         analysis=analysis,
         timings=timings,
         warnings=tuple(caught),
+        zones=zones,
+        confirm_points=points,
     )
 
 
@@ -251,13 +274,20 @@ def render_result(result: ImageResult, *, cmap: str = "inferno") -> RenderedImag
         Rendering errors; tagged with stage ``"render"``.
     """
     from .io import encode_png
-    from .render import label_image, render_overlay
+    from .render import draw_confirm_marks, label_image, overlay_layout, render_overlay
 
     caught: list[str] = []
     timings: dict[str, float] = {}
 
+    zones = getattr(result, "zones", None)
+    frame = result.frame if zones is None else zones.display_frame(result.frame)
+
     def _draw() -> tuple[bytes, bytes]:
-        overlay = render_overlay(result.frame, result.segmentation, result.analysis, result.meta, cmap=cmap)
+        overlay = render_overlay(frame, result.segmentation, result.analysis, result.meta, cmap=cmap,
+                                 zones=None if zones is None else zones.zones)
+        points = getattr(result, "confirm_points", ())
+        if points:  # roof moisture: numbered marks where to confirm (irseg.repairs.confirm_points)
+            draw_confirm_marks(overlay, points, overlay_layout(frame.temperature_c.shape))
         labels = label_image(result.analysis)
         return encode_png(overlay), encode_png(labels)
 

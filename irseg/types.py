@@ -3,15 +3,19 @@
 Data flows one way::
 
     read_thermogram -> RawFrame
-    load_metadata   -> SurveyMeta
+    load_metadata   -> SurveyMeta (every default resolved once, assumptions recorded)
     calibrate(RawFrame, SurveyMeta) -> ThermalFrame
     segment(ThermalFrame.temperature_c, mask=ThermalFrame.mask) -> Segmentation
-    analyse(ThermalFrame, Segmentation) -> Analysis
-    render / write (irseg.render, irseg.outputs, irseg.report, irseg.batch)
+    analyse(ThermalFrame, Segmentation, SurveyMeta) -> Analysis
+    render / write (irseg.render, irseg.io, irseg.report, irseg.batch)
+
+A frame is data only (temperatures, mask, counts, warnings); the settings travel
+explicitly as the SurveyMeta argument of each stage.
 
 Arrays are ``(M, N)``: rows, columns. Every temperature array passed between
 stages is in degrees Celsius (float32 or float64). Fields documented here are an
-interface: later code may add fields, never rename or remove them.
+interface: later code may add fields; a rename or removal is announced in the
+changelog (old TOML key names keep working with a warning).
 """
 
 from __future__ import annotations
@@ -27,6 +31,11 @@ __all__ = [
     "Air",
     "AnalysisSettings",
     "SegmentSettings",
+    "Assumption",
+    "SurveyDetails",
+    "ImageDetails",
+    "Costs",
+    "Zone",
     "SurveyMeta",
     "RawFrame",
     "ThermalFrame",
@@ -48,7 +57,7 @@ class Camera:
     distance_m : float or None
         Camera to surface distance, metres.
     pixel_m : float or None
-        One pixel's footprint on the surface, metres (instead of hfov_deg + distance_m).
+        One pixel's side on the surface, metres (instead of hfov_deg + distance_m).
     tilt_deg : float
         Angle between line of sight and surface normal, degrees, in [0, 80].
     units : str
@@ -93,13 +102,16 @@ class Surface:
     emissivity : float
         Long-wave emissivity, (0, 1].
     reflected_c : float or None
-        Reflected apparent temperature, °C (None: the air temperature on the camera's side).
+        Reflected apparent temperature, °C. Never None in a SurveyMeta from
+        :func:`irseg.metadata.load_metadata`: when not given it is resolved there
+        (:func:`irseg._defaults.resolve_reflected_c`) and recorded in ``SurveyMeta.assumed``.
+        None only in hand-built objects, meaning "not known".
     view : str
         ``"interior"``, ``"exterior"`` or ``"roof"``.
     heat_flow : str or None
         ``"horizontal"`` (walls), ``"upward"`` (ceilings, roofs) or ``"downward"`` (floors);
         None: horizontal for interior/exterior, upward for roof.
-    emissivity_uncertainty : float
+    emissivity_uncertainty_abs : float
         ± absolute uncertainty of the emissivity, for confidence bands.
     """
 
@@ -107,7 +119,7 @@ class Surface:
     reflected_c: float | None = None
     view: str = "interior"
     heat_flow: str | None = None
-    emissivity_uncertainty: float = 0.02
+    emissivity_uncertainty_abs: float = 0.02
 
 
 @dataclass(frozen=True)
@@ -137,9 +149,9 @@ class AnalysisSettings:
         Heating degree-days, K·d per year (3000: common practice for a temperate climate).
     frsi_limit : float
         Mould-risk limit of the temperature factor (0.70 DIN 4108-2; 0.75 UK practice).
-    distance_uncertainty : float
+    distance_uncertainty_rel : float
         Relative uncertainty of the distance (0.05 = ±5 %).
-    h_uncertainty : float
+    h_uncertainty_rel : float
         Relative uncertainty of the surface heat-transfer coefficient (0.20 = ±20 %).
     max_wind_m_s : float
         Wind above this raises a conditions warning (ASTM C1060: 6.7 m/s).
@@ -153,8 +165,8 @@ class AnalysisSettings:
 
     degree_days: float = 3000.0
     frsi_limit: float = 0.70
-    distance_uncertainty: float = 0.05
-    h_uncertainty: float = 0.20
+    distance_uncertainty_rel: float = 0.05
+    h_uncertainty_rel: float = 0.20
     max_wind_m_s: float = 6.7
     min_delta_t_k: float = 10.0
     min_contrast_k: float | None = None
@@ -181,6 +193,129 @@ class SegmentSettings:
 
 
 @dataclass(frozen=True)
+class Assumption:
+    """A value the metadata stage assumed because no metadata file or override gave it.
+
+    Attributes
+    ----------
+    key : str
+        ``"section.key"``, e.g. ``"surface.reflected_c"``.
+    value : Any
+        The value assumed (and in force in the SurveyMeta).
+    reason : str
+        Where it came from, e.g. ``"the inside air"`` or ``"the default"``.
+    """
+
+    key: str
+    value: Any
+    reason: str
+
+
+@dataclass(frozen=True)
+class SurveyDetails:
+    """``[survey]`` (``survey.toml`` only): the job, as free text shown on the report's first page.
+
+    Every attribute is optional free text (None when not given): ``site``, ``client``,
+    ``reference``, ``date``, ``inspector``, ``camera``, ``weather``, ``purpose``, ``notes``.
+    """
+
+    site: str | None = None
+    client: str | None = None
+    reference: str | None = None
+    date: str | None = None
+    inspector: str | None = None
+    camera: str | None = None
+    weather: str | None = None
+    purpose: str | None = None
+    notes: str | None = None
+
+
+@dataclass(frozen=True)
+class ImageDetails:
+    """``[image]`` (a sidecar ``<stem>.toml`` only): what one image shows, as free text.
+
+    Attributes
+    ----------
+    title, element, time, notes : str or None
+        Shown on the image's section of the report; ``title`` and ``element`` are also
+        columns of ``anomalies.csv``.
+    photo : str or None
+        A visible-light photo of the same view (JPEG or PNG), relative to the image's folder;
+        when not given, ``<stem>_photo.jpg`` / ``.jpeg`` / ``.png`` beside the image is used.
+    """
+
+    title: str | None = None
+    element: str | None = None
+    time: str | None = None
+    photo: str | None = None
+    notes: str | None = None
+
+
+@dataclass(frozen=True)
+class Costs:
+    """``[costs]`` (``survey.toml`` only): the user's own prices for the repair plan (irseg ships none).
+
+    Every price is None when not given; a survey without prices gets quantities only
+    (:mod:`irseg.repairs`).
+
+    Attributes
+    ----------
+    currency : str or None
+        Free text, shown as given (``"EUR"``).
+    energy_price_per_kwh : float or None
+        Price of one kWh of heating energy, in ``currency``.
+    missing_insulation_per_m2, moisture_per_m2 : float or None
+        Unit costs of a repair per m² (quantity with the working margin).
+    thermal_bridge_per_m : float or None
+        Unit cost of a thermal-bridge repair per metre of its length.
+    air_leakage_per_item : float or None
+        Unit cost of sealing one leak.
+    uncertainty : float
+        Relative band on the unit costs (0.25: costs from 0.75 to 1.25 times the estimate).
+    """
+
+    currency: str | None = None
+    energy_price_per_kwh: float | None = None
+    missing_insulation_per_m2: float | None = None
+    moisture_per_m2: float | None = None
+    thermal_bridge_per_m: float | None = None
+    air_leakage_per_item: float | None = None
+    uncertainty: float = 0.25
+
+
+@dataclass(frozen=True)
+class Zone:
+    """One ``[[zone]]`` table: an area of the image the thermographer marks.
+
+    Attributes
+    ----------
+    label : str
+        Free text, shown on the overlay and in the report.
+    kind : {"exclude", "material"}
+        ``exclude``: the pixels are neither anomaly nor sound reference and carry no edge.
+        ``material``: the zone's emissivity (and reflected temperature) replace ``[surface]``'s there.
+    box : (int, int, int, int) or None
+        ``(row0, col0, row1, col1)`` in pixels, row1/col1 exclusive (like the CSV's bbox columns).
+    polygon : tuple of (float, float) or None
+        ``(row, col)`` vertices, instead of ``box``.
+    emissivity : float or None
+        ``material`` zones: long-wave emissivity in (0, 1] (None: ``[surface] emissivity``).
+    reflected_c : float or None
+        ``material`` zones: reflected temperature, °C (None: ``[surface] reflected_c``).
+    source : str
+        The metadata file that gave the zone (named in messages; not compared).
+    """
+
+    label: str
+    kind: str
+    box: tuple[int, int, int, int] | None = None
+    polygon: tuple[tuple[float, float], ...] | None = None
+    emissivity: float | None = None
+    reflected_c: float | None = None
+    source: str = field(default="", compare=False)
+
+
+@dataclass(frozen=True)
 class SurveyMeta:
     """All metadata in force for one image, after folder defaults, sidecar and overrides.
 
@@ -190,6 +325,18 @@ class SurveyMeta:
         One object per TOML section.
     sources : tuple of str
         The metadata files that were read, in the order applied (folder first).
+    assumed : tuple of Assumption
+        The values no metadata layer gave and the metadata stage assumed, in this order:
+        view, emissivity, reflected temperature; empty when all were given.
+    survey : SurveyDetails
+        ``[survey]`` of the folder's ``survey.toml`` (free text; empty when not given).
+    image : ImageDetails
+        ``[image]`` of the image's sidecar (free text; empty when not given).
+    zones : tuple of Zone
+        ``[[zone]]`` tables: the folder's first, then the sidecar's (a sidecar's zones add to
+        the folder's).
+    costs : Costs
+        ``[costs]`` of the folder's ``survey.toml`` (no prices when not given).
     """
 
     camera: Camera = field(default_factory=Camera)
@@ -198,6 +345,11 @@ class SurveyMeta:
     analysis: AnalysisSettings = field(default_factory=AnalysisSettings)
     segment: SegmentSettings = field(default_factory=SegmentSettings)
     sources: tuple[str, ...] = ()
+    assumed: tuple[Assumption, ...] = ()
+    survey: SurveyDetails = field(default_factory=SurveyDetails)
+    image: ImageDetails = field(default_factory=ImageDetails)
+    zones: tuple[Zone, ...] = ()
+    costs: Costs = field(default_factory=Costs)
 
 
 # --------------------------------------------------------------------------- frames
@@ -240,8 +392,6 @@ class ThermalFrame:
         True where the pixel is invalid (NaN, dead/hot pixel, saturated).
     apparent_c : (M, N) ndarray
         Apparent (blackbody-equivalent) temperature, °C, before correction.
-    meta : SurveyMeta
-        Metadata in force for this image.
     n_dead : int
         Isolated dead/hot pixels detected and masked.
     n_nan : int
@@ -254,7 +404,6 @@ class ThermalFrame:
     temperature_c: np.ndarray
     mask: np.ndarray
     apparent_c: np.ndarray
-    meta: SurveyMeta
     n_dead: int = 0
     n_nan: int = 0
     warnings: tuple[str, ...] = ()

@@ -8,7 +8,7 @@ from tests.support.survey import SHAPE, make_survey, wall_image
 
 from irseg.errors import InputError, MetadataError
 from irseg.vocabulary import STAGES
-from irseg.pipeline import ImageResult, RenderedImage, failure_stage, process_image, render_result
+from irseg.pipeline import RenderedImage, failure_stage, process_image, render_result
 
 
 def test_process_image_finds_the_drawn_patch(tmp_path):

@@ -7,14 +7,17 @@ References
 ----------
 EN 13187:1998 and ASTM C1060: inside-outside difference of at least 10 K.
 ASTM C1060: wind at most 15 mph (6.7 m/s).
+Below :data:`MIN_AIR_DIFFERENCE_K` (1 K) the difference is within two air thermometers'
+error (±0.5 K each, common practice): the per-kelvin figures are not computed at all.
 """
 
 from __future__ import annotations
 
 from .._defaults import DEFAULT_REFLECTED_C
+from ..metadata import MIN_AIR_DIFFERENCE_K
 from ..types import Air, AnalysisSettings
 
-__all__ = ["check_conditions"]
+__all__ = ["check_conditions", "MIN_AIR_DIFFERENCE_K"]
 
 
 def check_conditions(
@@ -53,6 +56,13 @@ def check_conditions(
             out.append(
                 f"inside {air.inside_c:g} °C is not warmer than outside {air.outside_c:g} °C: heating-season "
                 "estimates (kWh/year, f_Rsi) are not computed and the sign of the anomalies may be reversed"
+            )
+        elif dt < MIN_AIR_DIFFERENCE_K:
+            out.append(
+                f"inside-outside difference {dt:.3g} K is below {MIN_AIR_DIFFERENCE_K:g} K, within the error of "
+                "two air thermometers: annual energy (kWh/year), f_Rsi and mould risk are not computed, as "
+                "dividing by so small a difference gives any number; check [air] inside_c and outside_c, "
+                "and survey when the difference is at least 10 K (EN 13187)"
             )
         elif dt < an.min_delta_t_k:
             out.append(

@@ -10,6 +10,8 @@ from __future__ import annotations
 
 import math
 
+from ._conditions import MIN_AIR_DIFFERENCE_K
+
 __all__ = ["excess_heat_w", "annual_energy_kwh", "temperature_factor"]
 
 
@@ -47,12 +49,14 @@ def annual_energy_kwh(excess_w: float | None, *, inside_c: float | None, outside
     Returns
     -------
     float or None
-        None when a temperature is unknown or the inside is not warmer than the outside.
+        None when a temperature is unknown or the inside is not warmer than the outside by
+        at least ``MIN_AIR_DIFFERENCE_K`` (1 K; a smaller difference is within the
+        thermometers' error and dividing by it gives any number).
     """
     if excess_w is None or inside_c is None or outside_c is None:
         return None
     dt = float(inside_c) - float(outside_c)
-    if not (dt > 0.0) or not math.isfinite(dt):
+    if not (dt >= MIN_AIR_DIFFERENCE_K) or not math.isfinite(dt):
         return None
     return float(excess_w) / dt * float(degree_days) * 24.0 / 1000.0
 
@@ -62,11 +66,12 @@ def temperature_factor(t_si_c: float, *, inside_c: float | None, outside_c: floa
 
     This is the on-site ratio at survey conditions (real R_si ≈ 0.13 m²K/W); the
     design f_Rsi of ISO 13788 / DIN 4108-2 uses R_si = 0.25 and is lower for the
-    same wall.
+    same wall. None when an air temperature is unknown or the inside is not warmer than
+    the outside by at least ``MIN_AIR_DIFFERENCE_K`` (1 K).
     """
     if inside_c is None or outside_c is None:
         return None
     dt = float(inside_c) - float(outside_c)
-    if not (dt > 0.0):
+    if not (dt >= MIN_AIR_DIFFERENCE_K) or not math.isfinite(dt):
         return None
     return (float(t_si_c) - float(outside_c)) / dt

@@ -170,8 +170,8 @@ def anomaly_record(
         area_px=area_px, perimeter_px=int(sum(m.shape.perimeter_px for m in unit)), loss_sum_kpx=px.loss_sum_kpx,
         thermal_area_px=int(sum(m.region_area_px for m in unit)) + px.n_rim, pixel_area_m2=px_area,
         h_convective_w_m2k=ctx.h_convective_w_m2k, h_radiative_w_m2k=ctx.h_radiative_w_m2k,
-        emissivity=surf.emissivity, emissivity_uncertainty_abs=surf.emissivity_uncertainty,
-        distance_uncertainty_rel=an.distance_uncertainty, h_uncertainty_rel=an.h_uncertainty, netd_k=cam.netd_k,
+        emissivity=surf.emissivity, emissivity_uncertainty_abs=surf.emissivity_uncertainty_abs,
+        distance_uncertainty_rel=an.distance_uncertainty_rel, h_uncertainty_rel=an.h_uncertainty_rel, netd_k=cam.netd_k,
         reference_sigma_k=max(m.cand.ref.sigma_k for m in unit),
     )
     a_lo, a_hi, w_lo, w_hi = confidence_bands(bands, seed=an.seed, anomaly_id=anomaly_id, area_m2=area_m2,

@@ -9,11 +9,16 @@ per-image records::
     OUT/<stem>/overlay.png   annotated thermogram
     OUT/<stem>/result.json   written last: the image's completion marker (an ImageRecord)
     OUT/anomalies.csv  OUT/summary.json  OUT/report.html  OUT/failures.csv  OUT/run.log
+    OUT/.irseg-outputs       manifest: the files irseg wrote (only these are replaced or removed)
+    OUT/.irseg-lock          locked while a run writes to OUT
+
+Files a folder search leaves out are :class:`SkippedFile` records (``scan_inputs``), listed
+with the reason in run.log, summary.json (``skipped``) and the report.
 
 Every anomaly of the survey is a :class:`SurveyAnomaly`; :func:`anomaly_table` turns them
 into columns (``pandas.DataFrame(anomaly_table(result.anomalies))`` is anomalies.csv).
 
-Modules: ``_inputs`` (finding images, output names), ``_records`` (plain records shared by
+Modules: ``_inputs`` (finding images, skipped files, output names), ``_records`` (plain records shared by
 the back-ends), ``_settings`` (settings, checked up front), ``_resume`` (fingerprints,
 complete images), ``_worker`` (one image, in a worker), ``_pool`` / ``_dask`` (back-ends),
 ``_loop`` (accepting and writing each image), ``_summary`` (survey tables),
@@ -23,7 +28,7 @@ complete images), ``_worker`` (one image, in a worker), ``_pool`` / ``_dask`` (b
 from __future__ import annotations
 
 from ..report import ANOMALY_COLUMNS, SurveyAnomaly, anomaly_table
-from ._inputs import InputImage, collect_inputs
+from ._inputs import InputImage, SkippedFile, SurveyInputs, collect_inputs, scan_inputs
 from ._records import ImageFailure, ImageOutcome, ImageRecord, SurveySettings
 from ._resume import fingerprint_input
 from ._summary import FAILURE_COLUMNS
@@ -40,7 +45,10 @@ __all__ = [
     "ImageOutcome",
     "SurveyResult",
     "InputImage",
+    "SkippedFile",
+    "SurveyInputs",
     "collect_inputs",
+    "scan_inputs",
     "fingerprint_input",
     "run_survey",
 ]

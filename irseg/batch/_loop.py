@@ -8,6 +8,7 @@ progress and stops the run at the first failure when asked to.
 
 from __future__ import annotations
 
+import errno
 import os
 import time
 from collections.abc import Callable
@@ -15,11 +16,15 @@ from dataclasses import replace
 from pathlib import Path
 from typing import Any
 
+from ..io import OutputManifest, escape_line, escape_text
 from .. import io as irio
-from ._records import ImageOutcome
+from ..errors import OutputError
+from ._records import ImageFailure, ImageOutcome
 from ._worker import run_task, run_task_single_threaded
 
-__all__ = ["Collector", "FailFast", "execute", "stamp"]
+__all__ = [
+    "Collector", "FailFast", "execute", "stamp", "write_image", "image_files", "image_folder_problem", "IMAGE_FILES",
+]
 
 
 def stamp() -> str:
@@ -35,19 +40,105 @@ class FailFast(Exception):
         self.outcome = outcome
 
 
-def write_image(out_dir: Path, outcome: ImageOutcome) -> None:
-    """Write one image's outputs, result.json last (the completion marker); a failure removes stale ones."""
-    folder = irio.resolve_inside(out_dir, outcome.stem)
-    marker = folder / "result.json"
-    if outcome.status != "ok":
-        for name in ("result.json", "labels.png", "overlay.png"):
-            irio.remove_file(folder / name, hint="a stale output of an earlier run")
-        return
-    irio.remove_file(marker, hint="check the out_dir setting")
-    assert outcome.record is not None and outcome.labels_png is not None and outcome.overlay_png is not None
-    irio.write_bytes(folder / "labels.png", outcome.labels_png)
-    irio.write_bytes(folder / "overlay.png", outcome.overlay_png)
-    irio.write_json(marker, outcome.record.to_json())
+#: An image's files in its folder under OUT, result.json last (the completion marker).
+IMAGE_FILES = ("labels.png", "overlay.png", "result.json")
+
+#: errno values of a write that fails for one image folder only (the run goes on).
+_IMAGE_ONLY_ERRORS = (errno.EACCES, errno.EPERM, errno.ENOTDIR, errno.EISDIR, errno.ELOOP, errno.ENAMETOOLONG)
+
+
+def image_files(stem: str) -> list[str]:
+    """An image's output files relative to OUT (POSIX), as listed in the manifest."""
+    return [f"{stem}/{name}" for name in IMAGE_FILES]
+
+
+def image_folder_problem(out_dir: Path, stem: str, manifest: OutputManifest) -> str | None:
+    """Why an image's outputs cannot go to ``OUT/<stem>``, or None when they can.
+
+    The folder must be a real folder (or absent), never a link or a file, and none of
+    the image's files may exist unless irseg wrote it (the manifest lists it).
+    """
+    folder = out_dir / stem
+    if os.path.islink(folder):
+        return (
+            f"{stem}: this image's output folder {stem} is a link in the output folder; irseg writes only "
+            "into folders it makes, never through links; remove the link or choose another output folder "
+            "(the out_dir setting)"
+        )
+    if os.path.lexists(folder) and not os.path.isdir(folder):
+        return (
+            f"{stem}: a file named {stem} is in the output folder where this image's output folder goes; "
+            "move it away or choose another output folder (the out_dir setting)"
+        )
+    for rel in image_files(stem):
+        if manifest.in_the_way(rel):
+            return (
+                f"{rel}: irseg did not write this file and never replaces one it did not write; move it "
+                "away or choose another output folder (the out_dir setting)"
+            )
+    return None
+
+
+def _failed_at_write(outcome: ImageOutcome, message: str) -> ImageOutcome:
+    failure = ImageFailure(image=outcome.image, stage="write", message=message)
+    return replace(outcome, status="failed", record=None, failure=failure, overlay_png=None, labels_png=None)
+
+
+def _image_only(exc: OutputError) -> OSError | None:
+    """The OS error behind ``exc`` when it concerns this image's folder alone (not a full disk)."""
+    cause = exc.__cause__
+    if isinstance(cause, OSError) and cause.errno in _IMAGE_ONLY_ERRORS:
+        return cause
+    return None
+
+
+def write_image(out_dir: Path, outcome: ImageOutcome, manifest: OutputManifest | None = None) -> ImageOutcome:
+    """Write one image's outputs, result.json last (the completion marker); a failure removes stale ones.
+
+    Only files irseg wrote are replaced or removed (the ``manifest``; a new one is read from
+    ``out_dir`` when not given). An output folder that cannot be used (a link, a file, a
+    file irseg did not write in the way, no write permission) fails this image alone, at
+    ``write``.
+
+    Returns
+    -------
+    ImageOutcome
+        ``outcome``, or a failed one (stage ``write``) when its files could not be written.
+
+    Raises
+    ------
+    OutputError
+        A write failure that is not this folder's alone (a full disk, a read-only file system).
+    """
+    manifest = manifest if manifest is not None else OutputManifest(out_dir)
+    stem = outcome.stem
+    problem = image_folder_problem(out_dir, stem, manifest)
+    if problem is not None:
+        return outcome if outcome.status != "ok" else _failed_at_write(outcome, problem)
+    folder = irio.resolve_inside(out_dir, stem)
+    try:
+        if outcome.status != "ok":
+            for rel in image_files(stem):
+                manifest.remove(rel, hint="a stale output of an earlier run")
+            return outcome
+        manifest.claim(image_files(stem))
+        manifest.remove(f"{stem}/result.json", hint="check the out_dir setting")
+        assert outcome.record is not None and outcome.labels_png is not None and outcome.overlay_png is not None
+        irio.write_bytes(folder / "labels.png", outcome.labels_png)
+        irio.write_bytes(folder / "overlay.png", outcome.overlay_png)
+        irio.write_json(folder / "result.json", outcome.record.to_json())
+    except OutputError as exc:
+        cause = _image_only(exc)
+        if cause is None:
+            raise
+        if outcome.status != "ok":
+            return outcome  # its stale outputs stay; the image failed anyway
+        return _failed_at_write(
+            outcome,
+            f"{stem}: cannot write this image's outputs in its folder {stem} ({cause.strerror}); "
+            "make the folder writable, or remove it, and run again with the resume setting",
+        )
+    return outcome
 
 
 class Collector:
@@ -71,12 +162,14 @@ class Collector:
         log: list[str],
         on_progress: Callable[[int, int, ImageOutcome], None] | None,
         fail_fast: bool,
+        manifest: OutputManifest | None = None,
     ) -> None:
         self.out_dir = out_dir
         self.total = total
         self.log = log
         self.on_progress = on_progress
         self.fail_fast = fail_fast
+        self.manifest = manifest if manifest is not None else OutputManifest(out_dir)
         self.outcomes: dict[int, ImageOutcome] = {}
         self.stage_totals: dict[str, float] = {}
         self.done = 0
@@ -88,23 +181,33 @@ class Collector:
     def accept(self, outcome: ImageOutcome) -> None:
         """Write, time, log and report one computed outcome.
 
+        A failure's message is made UTF-8-safe (:func:`irseg.io.escape_text`); run.log lines
+        have control characters escaped (:func:`irseg.io.escape_line`), so a file name can
+        neither break a line nor forge one.
+
         Raises
         ------
         FailFast
             With the fail_fast setting, for a failed image (after its stale outputs are removed).
         OutputError
-            When the image's files cannot be written.
+            When the image's files cannot be written for a reason beyond its own folder.
         """
         t0 = time.perf_counter()
-        write_image(self.out_dir, outcome)
+        outcome = write_image(self.out_dir, outcome, self.manifest)
         timings = dict(outcome.timings)
         timings["write"] = time.perf_counter() - t0
         for stage, seconds in timings.items():
             self.stage_totals[stage] = self.stage_totals.get(stage, 0.0) + seconds
         failure = outcome.failure
-        line = f"{outcome.image}: ok" if failure is None else f"{outcome.image}: failed at {failure.stage}: {failure.message}"
+        if failure is not None:
+            failure = replace(failure, message=escape_text(failure.message))
+        name = escape_line(outcome.image)
+        if failure is None:
+            line = f"{name}: ok"
+        else:
+            line = f"{name}: failed at {failure.stage}: {escape_line(failure.message)}"
         self.log.append(f"{stamp()} {line}")
-        self._finish(replace(outcome, overlay_png=None, labels_png=None, timings=timings))
+        self._finish(replace(outcome, overlay_png=None, labels_png=None, timings=timings, failure=failure))
         if self.fail_fast and outcome.status != "ok":
             raise FailFast(outcome)
 

@@ -222,7 +222,9 @@ class ImageRecord:
 
 # result.json holds each anomaly as irseg.analysis.Anomaly's fields: no image, and
 # ``severity`` is the rank within the image (SurveyAnomaly.image_severity).
-_SURVEY_ONLY = ("image", "severity", "image_severity")
+# The survey-level fields (uid, the review, the image's details) are set when the survey files are
+# built (irseg.batch._summary), never stored per image: a review changes no image's record.
+_SURVEY_ONLY = ("image", "severity", "image_severity", "uid", "review", "note", "title", "element")
 
 
 def _anomaly_from_result(image: str, row: Any, where: str) -> SurveyAnomaly:

@@ -7,7 +7,7 @@ resumed run rebuilds exactly the files of an uninterrupted one.
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from dataclasses import replace
 from typing import Any
 
@@ -15,9 +15,10 @@ from .._version import __version__
 from ..io import normalise_json
 from ..report import ANOMALY_COLUMNS, SurveyAnomaly, anomaly_table
 from ..vocabulary import CAUSES, CAUTIONS
+from ._inputs import SkippedFile
 from ._records import ImageOutcome, ImageRecord
 
-__all__ = ["FAILURE_COLUMNS", "build_summary", "survey_anomalies", "table_rows"]
+__all__ = ["FAILURE_COLUMNS", "build_summary", "survey_anomalies", "survey_records", "rank_survey", "table_rows"]
 
 #: Columns of OUT/failures.csv (an interface: ``file`` is the image's name in the outputs).
 FAILURE_COLUMNS = ("file", "stage", "message")
@@ -35,19 +36,53 @@ def survey_anomalies(records: Sequence[ImageRecord]) -> tuple[SurveyAnomaly, ...
     -------
     tuple of SurveyAnomaly
         By image order then anomaly id, ``severity`` set to the survey rank. Ties keep input order.
+        (:func:`survey_records` then :func:`rank_survey`.)
+    """
+    return rank_survey(survey_records(records))
+
+
+def survey_records(records: Sequence[ImageRecord]) -> list[SurveyAnomaly]:
+    """Every anomaly of the survey with its survey-level fields: ``uid``, ``title``, ``element``.
+
+    ``uid`` is ``<stem>#<id>`` (the stem names the image's output folder, unique in the survey);
+    ``title`` and ``element`` come from the image's ``[image]`` section. Not ranked.
+    """
+    out = []
+    for record in records:
+        details = record.metadata.get("image")
+        details = details if isinstance(details, dict) else {}
+        title, element = (_detail(details, key) for key in ("title", "element"))
+        out.extend(replace(a, uid=f"{record.stem}#{a.anomaly}", title=title, element=element)
+                   for a in record.anomalies)
+    return out
+
+
+def _detail(details: dict[str, Any], key: str) -> str | None:
+    value = details.get(key)
+    return value if isinstance(value, str) and value else None
+
+
+def rank_survey(anomalies: Sequence[SurveyAnomaly]) -> tuple[SurveyAnomaly, ...]:
+    """The anomalies in the order given, ``severity`` = survey rank by :func:`irseg.analysis.severity_key`.
+
+    An anomaly the review rejected has no rank (None). Ties keep the order given.
     """
     from ..analysis import severity_key  # reads the figures by name: a SurveyAnomaly has them all
 
-    flat = [(position, anomaly) for position, record in enumerate(records) for anomaly in record.anomalies]
-    order = sorted(range(len(flat)), key=lambda i: (severity_key(flat[i][1]), flat[i][0], flat[i][1].anomaly))
+    ranked = [i for i, a in enumerate(anomalies) if a.review != "rejected"]
+    order = sorted(ranked, key=lambda i: (severity_key(anomalies[i]), i))
     rank = {i: k for k, i in enumerate(order, start=1)}
-    return tuple(replace(anomaly, severity=rank[i]) for i, (_, anomaly) in enumerate(flat))
+    return tuple(replace(a, severity=rank.get(i)) for i, a in enumerate(anomalies))
 
 
 def table_rows(anomalies: Iterable[SurveyAnomaly], columns: Sequence[str] = ANOMALY_COLUMNS) -> list[dict[str, Any]]:
     """:func:`irseg.report.anomaly_table` as one mapping per anomaly (CSV and JSON rows)."""
     table = anomaly_table(anomalies, columns)
     return [dict(zip(table, values)) for values in zip(*table.values())]
+
+
+def _rank_key(severity: int | None) -> tuple[bool, int]:
+    return (severity is None, severity or 0)
 
 
 def _total(values: Iterable[float | None]) -> float | None:
@@ -65,24 +100,46 @@ def _totals(anomalies: Sequence[SurveyAnomaly]) -> dict[str, Any]:
     }
 
 
-def _image_row(outcome: ImageOutcome) -> dict[str, Any]:
+def _image_row(outcome: ImageOutcome, rejected: Mapping[str, int], photos: Mapping[str, str]) -> dict[str, Any]:
     record = outcome.record if outcome.status == "ok" else None
     if record is None:
         return {"image": outcome.image, "status": "failed", "view": None, "delta_t_k": None,
                 "n_anomalies": 0, "warnings": [], "overlay": None, "result": None}
+    details = record.metadata.get("image")
+    n_rejected = rejected.get(record.image, 0)
     return {
         "image": record.image,
         "status": "ok",
         "view": record.view,
         "delta_t_k": record.delta_t_k,
-        "n_anomalies": len(record.anomalies),
+        "n_anomalies": len(record.anomalies) - n_rejected,
         "warnings": list(record.warnings),
         "overlay": record.outputs["overlay"],
         "result": record.outputs["result"],
+        "n_rejected": n_rejected,
+        "details": dict(details) if isinstance(details, dict) else {},
+        "photo": photos.get(record.image),
     }
 
 
-def build_summary(outcomes: Sequence[ImageOutcome], anomalies: Sequence[SurveyAnomaly]) -> dict[str, Any]:
+def _survey_details(outcomes: Sequence[ImageOutcome]) -> dict[str, Any]:
+    """``[survey]`` of the first analysed image that has one (the job's details)."""
+    for o in outcomes:
+        details = o.record.metadata.get("survey") if o.status == "ok" and o.record is not None else None
+        if isinstance(details, dict) and details:
+            return dict(details)
+    return {}
+
+
+def build_summary(
+    outcomes: Sequence[ImageOutcome],
+    anomalies: Sequence[SurveyAnomaly],
+    skipped: Sequence[SkippedFile] = (),
+    *,
+    review: Mapping[str, Any] | None = None,
+    photos: Mapping[str, str] | None = None,
+    notes: Sequence[tuple[str, str]] = (),
+) -> dict[str, Any]:
     """The content of summary.json.
 
     Parameters
@@ -91,12 +148,24 @@ def build_summary(outcomes: Sequence[ImageOutcome], anomalies: Sequence[SurveyAn
         In input order; ``record`` set for ok images, ``failure`` for failed ones.
     anomalies : sequence of SurveyAnomaly
         :func:`survey_anomalies` of the ok images' records.
+    skipped : sequence of SkippedFile
+        Files and folders the input scan left out (``skipped``: ``{"file", "reason"}``).
+    review : mapping, optional
+        ``{"file", "entries", "applied", "warnings"}`` of the review applied (``review`` in the
+        summary, with ``rejected`` added).
+    photos : mapping of str to str, optional
+        Image name -> its photo's file name, relative to the survey root (``images[i]["photo"]``).
+    notes : sequence of (str, str)
+        More ``(image, message)`` warnings of the survey files (unmatched review entries, photos
+        that cannot be shown), appended to ``warnings``.
 
     Returns
     -------
     dict
         Normalised JSON data (schema in the output contract); ``anomalies`` holds the rows
-        of anomalies.csv in survey-rank order.
+        of anomalies.csv in survey-rank order (rejected ones last, without a rank). Totals
+        count no rejected anomaly. ``survey`` holds the job's ``[survey]`` details, each image
+        row its ``[image]`` ``details``, ``photo`` and ``n_rejected``.
     """
     warnings = [
         {"image": o.record.image, "message": w}
@@ -106,21 +175,32 @@ def build_summary(outcomes: Sequence[ImageOutcome], anomalies: Sequence[SurveyAn
         {"file": o.failure.image, "stage": o.failure.stage, "message": o.failure.message}
         for o in outcomes if not (o.status == "ok" and o.record is not None) and o.failure is not None
     ]
+    warnings += [{"image": image, "message": text} for image, text in notes]
+    review = dict(review) if review else {"file": None, "entries": 0, "applied": 0, "warnings": []}
+    counted = [a for a in anomalies if a.review != "rejected"]
+    rejected: dict[str, int] = {}
+    for a in anomalies:
+        if a.review == "rejected":
+            rejected[a.image] = rejected.get(a.image, 0) + 1
+    review["rejected"] = sum(rejected.values())
     n_ok = sum(o.status == "ok" and o.record is not None for o in outcomes)
-    by_cause = {cause: _totals([a for a in anomalies if a.cause == cause]) for cause in CAUSES}
-    for cause in sorted({str(a.cause) for a in anomalies} - set(CAUSES)):
-        by_cause[cause] = _totals([a for a in anomalies if str(a.cause) == cause])
+    by_cause = {cause: _totals([a for a in counted if a.cause == cause]) for cause in CAUSES}
+    for cause in sorted({str(a.cause) for a in counted} - set(CAUSES)):
+        by_cause[cause] = _totals([a for a in counted if str(a.cause) == cause])
     summary = {
         "irseg_version": __version__,
-        "images": [_image_row(o) for o in outcomes],
+        "survey": _survey_details(outcomes),
+        "images": [_image_row(o, rejected, photos or {}) for o in outcomes],
         "n_images": len(outcomes),
         "n_ok": n_ok,
         "n_failed": len(outcomes) - n_ok,
         "totals_by_cause": by_cause,
-        "totals": _totals(anomalies),
-        "anomalies": sorted(table_rows(anomalies), key=lambda row: row["severity"]),
+        "totals": _totals(counted),
+        "anomalies": sorted(table_rows(anomalies), key=lambda row: _rank_key(row["severity"])),
         "failures": failures,
+        "skipped": [{"file": s.file, "reason": s.reason} for s in skipped],
         "warnings": warnings,
         "cautions": list(CAUTIONS),
+        "review": review,
     }
     return normalise_json(summary)

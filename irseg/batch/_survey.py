@@ -9,12 +9,19 @@ files from the per-image ``result.json`` files::
     OUT/<stem>/overlay.png   annotated thermogram
     OUT/<stem>/result.json   written last: the image's completion marker
     OUT/anomalies.csv  OUT/summary.json  OUT/report.html  OUT/failures.csv  OUT/run.log
+    OUT/.irseg-outputs       the manifest: every file irseg wrote here
+    OUT/.irseg-lock          locked while a run writes here
 
 Workers only compute (read the input, return small records and PNG bytes); all
 writing happens in the calling process, atomically (:mod:`irseg.io`). A bad input fails that
 image alone. An interrupt keeps every completed image; ``resume=True`` then
 skips images whose ``result.json`` fingerprint matches the input file, its
 metadata files, the settings and the irseg version.
+
+The output folder is never an input folder and never holds an input; one run at a time
+writes there (a lock); irseg replaces or removes only the files its manifest lists; the
+survey-level files are replaced as one set. Files a folder scan leaves out are listed
+with the reason in run.log, summary.json (``skipped``) and the report.
 """
 
 from __future__ import annotations
@@ -26,17 +33,18 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Any
 
-from .. import io as irio
+from ..io import OutputManifest, escape_line, lock_folder
 from .._shared import DEFAULT_MAX_PIXELS
 from .._version import __version__
 from ..errors import IrsegError
+from ..controls import REVIEW_FILE, ReviewEntry, find_photo, load_review, photo_candidates
 from ..report import SurveyAnomaly
-from ._inputs import collect_inputs
-from ._loop import Collector, FailFast, execute, stamp
-from ._records import ImageFailure, ImageOutcome
+from ._inputs import SkippedFile, SurveyInputs, relativise, scan_inputs
+from ._loop import Collector, FailFast, execute, image_files, stamp
+from ._records import ImageFailure, ImageOutcome, SurveySettings
 from ._resume import plan_survey
 from ._settings import check_out_dir, survey_settings
-from ._survey_files import write_survey_files
+from ._survey_files import check_survey_names, write_survey_files
 
 __all__ = ["SurveyResult", "run_survey"]
 
@@ -62,6 +70,9 @@ class SurveyResult:
         Survey totals (estimates), None when no anomaly has the quantity.
     timings : dict of str to float
         Seconds per stage summed over the images computed in this run, plus ``wall``.
+    skipped : tuple of SkippedFile
+        Files and folders the input scan left out, with the reason (also in run.log,
+        summary.json and the report).
     """
 
     out_dir: Path
@@ -77,6 +88,7 @@ class SurveyResult:
     excess_w: float | None
     excess_kwh_year: float | None
     timings: dict[str, float]
+    skipped: tuple[SkippedFile, ...] = ()
 
 
 def run_survey(
@@ -92,6 +104,7 @@ def run_survey(
     format: str | None = None,
     max_pixels: int = DEFAULT_MAX_PIXELS,
     cmap: str = "inferno",
+    review: str | os.PathLike[str] | None = None,
 ) -> SurveyResult:
     """Process a survey: every image in ``inputs`` into ``out_dir``.
 
@@ -99,10 +112,13 @@ def run_survey(
     ----------
     inputs : iterable of path-like
         Image files and/or folders. Folders are searched recursively for the files
-        :func:`irseg.io.is_candidate` accepts (the output folder is skipped); named
-        files are all processed except metadata files (see :func:`collect_inputs`).
+        :func:`irseg.io.is_candidate` accepts (the output folder and folders holding
+        irseg outputs are skipped); named files are all processed except metadata files
+        (see :func:`irseg.batch.scan_inputs`).
     out_dir : path-like
-        Output folder (created). Only files irseg names are written there.
+        Output folder (created). It must not be, contain or hold an input. Only files irseg
+        names are written there, and only files irseg wrote (its manifest lists them) are
+        ever replaced or removed.
     jobs : int, optional
         Worker processes (default: all cores; 1 runs in this process). With a
         ``scheduler``, the number of workers of a ``"local"`` cluster.
@@ -123,6 +139,11 @@ def run_survey(
         Pixel budget per image, checked before decoding.
     cmap : str
         Colour map of the overlays.
+    review : path-like, optional
+        The thermographer's review file (``[[review]]`` tables, :func:`irseg.controls.load_review`);
+        default: ``review.toml`` in the survey's root folder, when there is one. It is applied to
+        the survey files only: it is not part of any image's fingerprint, so a resumed run applies
+        it without computing an image again. An entry that matches nothing is a warning.
 
     Returns
     -------
@@ -133,9 +154,11 @@ def run_survey(
     InputError
         An input path does not exist, or no image was found.
     ConfigError
-        Invalid overrides, reader name, job count or scheduler.
+        Invalid overrides, reader name, job count or scheduler; an output folder that is,
+        contains or holds an input.
     OutputError
-        The output folder or a file in it cannot be written.
+        The output folder or a file in it cannot be written, another irseg run is writing
+        there, or a survey-level name (``run.log``...) holds a file irseg did not write.
     IrsegError
         With ``fail_fast``, the first image's error.
     KeyboardInterrupt
@@ -144,16 +167,48 @@ def run_survey(
     started = time.perf_counter()
     out_path = Path(out_dir)
     settings = survey_settings(jobs=jobs, overrides=overrides, format=format, max_pixels=max_pixels, cmap=cmap)
-    items, root = collect_inputs(inputs, exclude=out_path)
+    found = scan_inputs(inputs, exclude=out_path)
+    entries, review_file = _review_of(review, found.root)  # a bad review file fails before any image
     check_out_dir(out_path)
-    irio.remove_temp_files(out_path)
-    log = [f"{stamp()} irseg {__version__}: {len(items)} images into {out_path}"]
-    plan = plan_survey(items, root, settings, out_path, resume=resume)
-    collector = Collector(out_path, total=len(items), log=log, on_progress=on_progress, fail_fast=fail_fast)
+    check_survey_names(out_path, OutputManifest(out_path))  # before the lock file is made; again under it
+    with lock_folder(out_path):
+        return _run_locked(
+            found, out_path, settings, started,
+            jobs=jobs, resume=resume, scheduler=scheduler, fail_fast=fail_fast, on_progress=on_progress,
+            review=entries, review_file=review_file,
+        )
+
+
+def _run_locked(
+    found: SurveyInputs,
+    out_path: Path,
+    settings: SurveySettings,
+    started: float,
+    *,
+    jobs: int | None,
+    resume: bool,
+    scheduler: str | None,
+    fail_fast: bool,
+    on_progress: Callable[[int, int, ImageOutcome], None] | None,
+    review: tuple[ReviewEntry, ...] = (),
+    review_file: str | None = None,
+) -> SurveyResult:
+    """The run, with the output folder locked: plan, compute, write, rebuild the survey files."""
+    items = found.images
+    manifest = OutputManifest(out_path)
+    check_survey_names(out_path, manifest)
+    manifest.remove_temp_files()
+    log = [f"{stamp()} irseg {__version__}: {len(items)} images into {escape_line(str(out_path))}"]
+    log += [f"{stamp()} skipped {escape_line(s.file)}: {escape_line(s.reason)}" for s in found.skipped]
+    plan = plan_survey(items, found.root, settings, out_path, resume=resume, manifest=manifest)
+    manifest.claim(rel for task in plan.tasks for rel in image_files(task["stem"]))
+    collector = Collector(
+        out_path, total=len(items), log=log, on_progress=on_progress, fail_fast=fail_fast, manifest=manifest
+    )
     for outcome in plan.resumed:
         collector.keep(outcome)
     try:
-        for outcome in plan.unreadable:
+        for outcome in sorted([*plan.blocked, *plan.unreadable], key=lambda o: o.index):
             collector.accept(outcome)
         execute(plan.tasks, jobs=jobs, scheduler=scheduler, accept=collector.accept)
     except FailFast as stop:
@@ -164,15 +219,18 @@ def run_survey(
             "completed images are kept, the resume setting continues)"
         ) from None
     finally:
-        irio.remove_temp_files(out_path)
+        manifest.remove_temp_files()
 
     ordered = tuple(collector.outcomes[i] for i in sorted(collector.outcomes))
-    files = write_survey_files(out_path, ordered)
-    timings = dict(collector.stage_totals, wall=time.perf_counter() - started)
     n_ok = sum(o.status == "ok" for o in ordered)
+    n_failed = sum(o.failure is not None for o in ordered)
     n_skipped = sum(o.skipped for o in ordered)
-    log.append(f"{stamp()} done: {n_ok} ok, {len(files.failures)} failed, {n_skipped} resumed")
-    irio.write_text(out_path / "run.log", "\n".join(log) + "\n")
+    log.append(
+        f"{stamp()} done: {n_ok} ok, {n_failed} failed, {n_skipped} resumed, {len(found.skipped)} files skipped"
+    )
+    files = write_survey_files(out_path, ordered, skipped=found.skipped, log=log, manifest=manifest,
+                               review=review, review_file=review_file, photos=_photos_of(found, ordered))
+    timings = dict(collector.stage_totals, wall=time.perf_counter() - started)
     totals = files.summary["totals"]
     return SurveyResult(
         out_dir=out_path,
@@ -188,4 +246,38 @@ def run_survey(
         excess_w=totals["excess_w"],
         excess_kwh_year=totals["excess_kwh_year"],
         timings=timings,
+        skipped=found.skipped,
     )
+
+
+def _review_of(review: str | os.PathLike[str] | None, root: str) -> tuple[tuple[ReviewEntry, ...], str | None]:
+    """The review entries and the review file's name: the file given, else ``review.toml`` at the root."""
+    if review is not None:
+        return load_review(review), Path(review).name
+    path = Path(root) / REVIEW_FILE if root else None
+    if path is None or not os.path.lexists(path):
+        return (), None
+    return load_review(path), REVIEW_FILE
+
+
+def _photos_of(found: SurveyInputs, ordered: tuple[ImageOutcome, ...]) -> dict[str, tuple[Path, str]]:
+    """Image name -> (photo path, its name relative to the survey root) for each analysed image with a photo.
+
+    The photo is ``[image] photo`` (kept even when missing, so the report's warnings say so), else
+    ``<stem>_photo.jpg`` / ``.jpeg`` / ``.png`` beside the image.
+    """
+    by_index = {o.index: o for o in ordered}
+    out: dict[str, tuple[Path, str]] = {}
+    for item in found.images:
+        outcome = by_index.get(item.index)
+        if outcome is None or outcome.status != "ok" or outcome.record is None:
+            continue
+        details = outcome.record.metadata.get("image")
+        key = details.get("photo") if isinstance(details, dict) else None
+        key = key if isinstance(key, str) and key else None
+        path = find_photo(item.path, key) or (photo_candidates(item.path, key)[0] if key else None)
+        if path is not None:
+            base = item.base or found.root
+            name = relativise(os.path.normpath(os.path.abspath(path)), base)
+            out[item.image] = (path, Path(path).name if os.path.isabs(name) else name.replace(os.sep, "/"))
+    return out

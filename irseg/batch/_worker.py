@@ -197,6 +197,8 @@ def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[st
             "pixel_area_m2": analysis.pixel_area_m2,
             "h_w_m2k": analysis.h_w_m2k,
             "n_anomalies": len(anomalies),
+            # roof moisture: where to confirm (irseg.repairs.confirm_points); read by the survey files
+            "confirm_points": [asdict(p) for p in getattr(result, "confirm_points", ())],
         },
         "warnings": warnings,
         "assumed": assumed,

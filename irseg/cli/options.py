@@ -44,6 +44,7 @@ __all__ = [
     "netd_k_option",
     "size_px_option",
     "seed_option",
+    "review_option",
 ]
 
 #: Library setting name -> the command-line flag that sets it.
@@ -57,6 +58,7 @@ SETTING_FLAGS: dict[str, str] = {
     "cmap": "--cmap",
     "fail_fast": "--fail-fast",
     "verbose": "-v/--verbose",
+    "review": "--review",
 }
 
 # The metadata options: flag, [section] key, type, help. The one table behind both the click
@@ -253,3 +255,11 @@ def size_px_option(*, default: tuple[int, int]) -> Callable[[Any], Any]:
 def seed_option(*, help: str) -> Callable[[Any], Any]:
     """``--seed N``: a random seed (same seed, same output)."""
     return click.option("--seed", type=int, default=0, show_default=True, help=help)
+
+
+def review_option() -> Callable[[Any], Any]:
+    """``--review FILE``: the thermographer's review (``[[review]]`` tables) applied to the survey files."""
+    return click.option("--review", type=click.Path(exists=True, dir_okay=False, path_type=Path), default=None,
+                        metavar="FILE",
+                        help="Review file of [[review]] tables (reject, accept or relabel anomalies; default: "
+                        "review.toml in the survey folder). Applied without computing images again with --resume.")

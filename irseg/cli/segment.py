@@ -51,6 +51,7 @@ READERS = ("csv", "npy", "png", "tiff")
 @opt.max_pixels_option()
 @opt.cmap_option()
 @click.option("--fail-fast", is_flag=True, help="Stop at the first failed image (exit 1).")
+@opt.review_option()
 @opt.metadata_options
 @click.option("--set", "sets", metavar="SECTION.KEY=VALUE", multiple=True,
               help="Any metadata key, e.g. --set camera.tilt_deg=20 (repeatable; applied before the options above).")
@@ -59,7 +60,7 @@ READERS = ("csv", "npy", "png", "tiff")
 @click.pass_context
 def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, jobs: int | None, resume: bool,
                 scheduler: str | None, reader: str | None, max_pixels: int, cmap: str, fail_fast: bool,
-                sets: tuple[str, ...], quiet: bool, verbose: bool, **options: Any) -> None:
+                review: Path | None, sets: tuple[str, ...], quiet: bool, verbose: bool, **options: Any) -> None:
     """Segment thermograms and write the defect list, images and report to OUT.
 
     INPUT are image files (TIFF, 16-bit PNG, CSV/TXT, NPY) and/or folders, searched
@@ -105,7 +106,7 @@ def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, job
         result = run_survey(
             [str(p) for p in inputs], out_dir, jobs=jobs, resume=resume, scheduler=scheduler,
             overrides=overrides or None, fail_fast=fail_fast, on_progress=progress,
-            format=reader, max_pixels=max_pixels, cmap=cmap,
+            format=reader, max_pixels=max_pixels, cmap=cmap, review=review,
         )
     finally:
         if bar is not None:

@@ -24,6 +24,7 @@ from ._files import (
     read_small_text,
 )
 from ._registry import _reg_by_name, _reg_by_suffix, _reg_detect, _reg_names
+from ._outfolder import LOCK_NAME, MANIFEST_NAME, OutputManifest, lock_folder, replace_files
 from ._scene_writers import (
     csv_matrix_text,
     exact_json_text,
@@ -43,6 +44,9 @@ from ._scene_writers import (
     write_tiff_u16,
 )
 from ._writers import (
+    MAX_NAME_BYTES,
+    escape_line,
+    escape_text,
     SIGNIFICANT_DIGITS,
     TEMP_PREFIX,
     csv_bytes,
@@ -87,6 +91,14 @@ __all__ = [
     "remove_temp_files",
     "safe_component",
     "resolve_inside",
+    "MAX_NAME_BYTES",
+    "escape_line",
+    "escape_text",
+    "LOCK_NAME",
+    "MANIFEST_NAME",
+    "OutputManifest",
+    "lock_folder",
+    "replace_files",
     "quantise_u16",
     "tiff_bytes",
     "png16_bytes",

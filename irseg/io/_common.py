@@ -5,6 +5,7 @@ from __future__ import annotations
 import contextlib
 import logging
 import os
+import struct
 import warnings
 from collections.abc import Iterator
 from pathlib import Path
@@ -69,6 +70,13 @@ def _io_check_budget(name: str, shape: tuple[int, ...], max_pixels: int) -> None
         )
 
 
+def _io_article(word: str) -> str:
+    """``word`` with "a" or "an" before it, as it is read aloud (an RGB, an 8-bit, a palette)."""
+    letters = word[:1] in "FHLMNRSX" and word[1:2].isupper()  # an acronym spelt out: "ar-gee-bee"
+    spoken_vowel = word[:1].lower() in "aeio" or letters or word.startswith(("8", "11", "18"))
+    return f"{'an' if spoken_vowel else 'a'} {word}"
+
+
 def _io_squeeze_2d(name: str, shape: tuple[int, ...], *, fmt: str) -> tuple[int, int]:
     """Reduce a declared shape to (M, N), refusing colour and stacked images."""
     dims = tuple(int(s) for s in shape)
@@ -79,7 +87,7 @@ def _io_squeeze_2d(name: str, shape: tuple[int, ...], *, fmt: str) -> tuple[int,
     if len(dims) == 3 and dims[-1] in (2, 3, 4):
         what = "grey + alpha" if dims[-1] == 2 else f"{dims[-1]}-channel colour"
         raise UnsupportedFormatError(
-            f"{name}: a {what} picture, not a radiometric thermogram (a colour picture holds no "
+            f"{name}: {_io_article(what)} picture, not a radiometric thermogram (a colour picture holds no "
             "temperatures); export the temperature matrix as a single-channel image instead"
         )
     if len(dims) != 2:
@@ -113,7 +121,11 @@ def _io_quiet() -> Iterator[None]:
 
 def _io_corrupt(name: str, fmt: str, exc: BaseException) -> InputError:
     """An InputError for a file a library could not decode."""
-    detail = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
+    if isinstance(exc, (TypeError, IndexError, KeyError, AttributeError, struct.error)):
+        # the decoder tripped over a malformed structure; its own wording would name Python internals
+        detail = "its structure cannot be parsed"
+    else:
+        detail = str(exc).strip().splitlines()[0] if str(exc).strip() else type(exc).__name__
     if len(detail) > 160:
         detail = detail[:157] + "..."
     return InputError(f"{name}: corrupt or truncated {fmt} file ({detail}); re-export or re-copy it")

@@ -7,7 +7,8 @@ row of the same length. Cells are strict decimal numbers (``12.5``, ``-3``, ``1e
 ``nan``, ``inf``); thousands separators and empty cells are errors that name the line
 and the column. One ambiguity is resolved by rule: a file whose lines each hold a single
 ``a,b`` with no other separator reads as two comma-separated columns, not as one column
-with a decimal comma.
+with a decimal comma. Text is UTF-8 (or Latin-1), or UTF-16/UTF-32 with a byte-order
+mark (a spreadsheet's "Unicode text").
 """
 
 from __future__ import annotations
@@ -23,7 +24,7 @@ from ._common import _io_check_budget, _io_display, _io_file_size, _io_open_byte
 
 __all__ = ["read_csv", "CSV_SUFFIXES"]
 
-CSV_SUFFIXES = (".csv", ".txt", ".tsv", ".asc")
+CSV_SUFFIXES = (".csv", ".txt", ".tsv", ".asc", ".dat")
 
 # (delimiter, decimal mark); None = runs of whitespace. Order breaks ties.
 _CSV_CANDIDATES: tuple[tuple[str | None, str], ...] = (
@@ -99,15 +100,47 @@ def _csv_detect(lines: list[str], nonblank: list[int]) -> tuple[str | None, str]
     return choice
 
 
-def _csv_decode(name: str, blob: bytes) -> str:
+# byte-order marks of Unicode text, longest first (UTF-32 LE starts like UTF-16 LE)
+_CSV_BOMS = (
+    (b"\xff\xfe\x00\x00", "utf-32-le", "UTF-32"),
+    (b"\x00\x00\xfe\xff", "utf-32-be", "UTF-32"),
+    (b"\xef\xbb\xbf", "utf-8", "UTF-8"),
+    (b"\xff\xfe", "utf-16-le", "UTF-16"),
+    (b"\xfe\xff", "utf-16-be", "UTF-16"),
+)
+
+
+def _csv_decode(name: str, blob: bytes) -> tuple[str, str]:
+    """The text of a matrix file and the encoding it was read with.
+
+    Text with a byte-order mark is decoded as it says (a spreadsheet's "Unicode text" is
+    UTF-16 with a mark); otherwise UTF-8, else Latin-1. Binary data, and UTF-16 text without
+    a mark, are refused saying what they are.
+    """
+    for bom, codec, label in _CSV_BOMS:
+        if blob.startswith(bom):
+            try:
+                return blob[len(bom) :].decode(codec), label
+            except UnicodeDecodeError as exc:
+                raise InputError(
+                    f"{name}: starts with a {label} byte-order mark but byte {exc.start + len(bom)} is not {label} "
+                    "text; the file is damaged: save the matrix again as UTF-8 text"
+                ) from None
     if b"\x00" in blob:
+        head = blob[:4096]
+        even, odd = head[0::2].count(0), head[1::2].count(0)
+        if max(even, odd) > 0.4 * (len(head) // 2) and min(even, odd) < 0.05 * (len(head) // 2):
+            raise UnsupportedFormatError(
+                f"{name}: looks like UTF-16 text without a byte-order mark, which cannot be read safely; "
+                "save the matrix as UTF-8 text (or as Unicode text, which carries the mark)"
+            )
         raise UnsupportedFormatError(
             f"{name}: holds binary data, not a text matrix; is it an image with the wrong suffix?"
         )
     try:
-        return blob.decode("utf-8-sig")
+        return blob.decode("utf-8"), "UTF-8"
     except UnicodeDecodeError:
-        return blob.decode("latin-1")
+        return blob.decode("latin-1"), "Latin-1"
 
 
 def read_csv(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
@@ -134,7 +167,13 @@ def read_csv(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
         Empty file, no numeric rows, ragged rows (naming the line), non-numeric or empty
         cells (naming line and column), blank lines inside the matrix, over the budget.
     UnsupportedFormatError
-        Binary content.
+        Binary content, or UTF-16 text without a byte-order mark (said as such).
+
+    Notes
+    -----
+    Text with a byte-order mark is decoded as the mark says: UTF-8, UTF-16 (a
+    spreadsheet's "Unicode text" export) or UTF-32; text without one as UTF-8, else
+    Latin-1. ``metadata["encoding"]`` records which.
     """
     name = _io_display(path)
     size = _io_file_size(path)
@@ -143,9 +182,9 @@ def read_csv(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
     if size > max_pixels * _CSV_BYTES_PER_CELL + 1_000_000:
         raise InputError(
             f"{name}: {size} bytes is too large for a text matrix within the pixel budget of {max_pixels}; "
-            "raise max_pixels if the matrix is genuine"
+            "raise the max_pixels setting if the matrix is genuine"
         )
-    text = _csv_decode(name, _io_open_bytes(path))
+    text, encoding = _csv_decode(name, _io_open_bytes(path))
     # line numbers as an editor counts them (\n, \r\n or \r; not the other Unicode breaks)
     lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
     nonblank = [i for i, s in enumerate(lines) if s.strip()]
@@ -215,6 +254,7 @@ def read_csv(path: str | os.PathLike[str], *, max_pixels: int) -> RawFrame:
         "delimiter": _CSV_DELIM_NAMES[delim],
         "decimal": decimal,
         "header_lines": first,
+        "encoding": encoding,
         "header": [lines[i] for i in range(first) if lines[i].strip()][:20],
     }
     return RawFrame(path=name, data=np.ascontiguousarray(data), format="csv", metadata=meta)

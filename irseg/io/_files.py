@@ -38,21 +38,26 @@ def read_small_bytes(path: str | os.PathLike[str], *, max_bytes: int = MAX_TEXT_
     """
     name = os.fspath(path)
     try:
-        info = os.stat(name)
+        # O_NONBLOCK: opening a FIFO for reading must not wait for a writer; fstat then
+        # checks the very file opened (no gap between a check and the open).
+        fd = os.open(name, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0) | getattr(os, "O_CLOEXEC", 0)
+                     | getattr(os, "O_BINARY", 0))
     except OSError as exc:
         raise InputError(f"{name}: cannot read the {what} ({exc.strerror or exc}); check it exists") from None
+    info = os.fstat(fd)
     if not stat.S_ISREG(info.st_mode):
+        os.close(fd)
         raise InputError(f"{name}: the {what} is not a regular file (a folder, pipe or device); replace it by a file")
-    if info.st_size > max_bytes:
-        raise InputError(
-            f"{name}: the {what} is {info.st_size} bytes, more than the {max_bytes} accepted; "
-            "check that it is the right file"
-        )
-    try:
-        with open(name, "rb") as handle:
+    with os.fdopen(fd, "rb") as handle:
+        if info.st_size > max_bytes:
+            raise InputError(
+                f"{name}: the {what} is {info.st_size} bytes, more than the {max_bytes} accepted; "
+                "check that it is the right file"
+            )
+        try:
             blob = handle.read(max_bytes + 1)
-    except OSError as exc:
-        raise InputError(f"{name}: cannot read the {what} ({exc.strerror or exc}); check its permissions") from None
+        except OSError as exc:
+            raise InputError(f"{name}: cannot read the {what} ({exc.strerror or exc}); check its permissions") from None
     if len(blob) > max_bytes:
         raise InputError(f"{name}: the {what} grew beyond {max_bytes} bytes while being read; check the file")
     return blob

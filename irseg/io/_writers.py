@@ -10,12 +10,20 @@ interrupted run.
 Data files never carry timestamps or absolute paths, and numbers are written in
 one fixed format (:func:`format_float`), so the same inputs give byte-identical
 CSV and JSON files whatever the number of workers or the scheduler.
+
+Text is always valid UTF-8: a file name that is not (an undecodable byte kept by the
+operating system's ``surrogateescape`` decoding) is written escaped, ``\\xe9``
+(:func:`escape_text`). CSV text cells that a spreadsheet would run as a formula are
+neutralised (:func:`csv_bytes`).
+
+The output folder's lock, manifest and set replacement live in :mod:`irseg.io._outfolder`.
 """
 
 from __future__ import annotations
 
 import csv
 import errno
+import hashlib
 import io
 import json
 import math
@@ -37,6 +45,8 @@ __all__ = [
     "normalise_json",
     "dumps_json",
     "csv_bytes",
+    "escape_text",
+    "escape_line",
     "encode_png",
     "write_bytes",
     "write_text",
@@ -46,6 +56,7 @@ __all__ = [
     "remove_temp_files",
     "safe_component",
     "resolve_inside",
+    "MAX_NAME_BYTES",
 ]
 
 #: Prefix of temporary files; never used by a final output name.
@@ -54,11 +65,56 @@ TEMP_PREFIX = ".irseg-tmp-"
 #: Significant digits kept for every float written to CSV or JSON.
 SIGNIFICANT_DIGITS = 7
 
+#: Longest output name made by :func:`safe_component`, in bytes of the filesystem encoding
+#: (file systems cap one path component at 255 bytes; the margin leaves room for suffixes).
+MAX_NAME_BYTES = 120
+
 _WINDOWS_RESERVED = {
     "con", "prn", "aux", "nul",
     *(f"com{i}" for i in range(1, 10)),
     *(f"lpt{i}" for i in range(1, 10)),
 }
+
+
+# --------------------------------------------------------------------------- text
+
+_SURROGATES = re.compile("[\ud800-\udfff]")
+_CONTROLS = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029]")
+
+
+def _escape_surrogate(match: re.Match[str]) -> str:
+    code = ord(match.group())
+    if 0xDC80 <= code <= 0xDCFF:  # a byte that did not decode (os.fsdecode's surrogateescape)
+        return f"\\x{code - 0xDC00:02x}"
+    return f"\\u{code:04x}"
+
+
+def escape_text(text: str) -> str:
+    """``text`` made encodable as UTF-8: each undecodable byte of a file name becomes ``\\xNN``.
+
+    The operating system hands back a file name that is not valid UTF-8 (e.g. Latin-1
+    ``caf\\xe9.npy``) with each bad byte as a lone surrogate (``os.fsdecode``,
+    ``surrogateescape``); such text cannot be written to a UTF-8 file. Other text is
+    returned unchanged, so applying the function twice gives the same result.
+
+    Parameters
+    ----------
+    text : str
+
+    Returns
+    -------
+    str
+    """
+    return _SURROGATES.sub(_escape_surrogate, text) if _SURROGATES.search(text) else text
+
+
+def escape_line(text: str) -> str:
+    """``text`` for one line of a log: :func:`escape_text`, and control characters escaped.
+
+    A newline, carriage return or terminal escape sequence in a file name would otherwise
+    break the line or forge another one; they become ``\\n``, ``\\r``, ``\\x1b``...
+    """
+    return _CONTROLS.sub(lambda m: repr(m.group())[1:-1], escape_text(text))
 
 
 # --------------------------------------------------------------------------- numbers
@@ -96,7 +152,8 @@ def normalise_json(value: Any) -> Any:
 
     Floats are rounded to :data:`SIGNIFICANT_DIGITS` (NaN/inf become None), NumPy
     scalars and arrays become Python numbers and lists, tuples become lists,
-    mapping keys become strings. Applying it twice gives the same result, so
+    mapping keys become strings, text is made UTF-8-safe (:func:`escape_text`).
+    Applying it twice gives the same result, so
     data read back from a written JSON file normalises to itself.
 
     Parameters
@@ -114,8 +171,10 @@ def normalise_json(value: Any) -> Any:
     TypeError
         For a value of another type.
     """
-    if value is None or isinstance(value, (bool, str)):
+    if value is None or isinstance(value, bool):
         return value
+    if isinstance(value, str):
+        return escape_text(value)
     if isinstance(value, np.bool_):
         return bool(value)
     if isinstance(value, (int, np.integer)):
@@ -123,13 +182,13 @@ def normalise_json(value: Any) -> Any:
     if isinstance(value, (float, np.floating)):
         return _round_float(float(value))
     if isinstance(value, Mapping):
-        return {str(k): normalise_json(v) for k, v in value.items()}
+        return {escape_text(str(k)): normalise_json(v) for k, v in value.items()}
     if isinstance(value, np.ndarray):
         return [normalise_json(v) for v in value.tolist()]
     if isinstance(value, (list, tuple)):
         return [normalise_json(v) for v in value]
     if isinstance(value, os.PathLike):
-        return os.fspath(value)
+        return escape_text(os.fspath(value))
     raise TypeError(f"cannot write {type(value).__name__} to JSON")
 
 
@@ -137,6 +196,18 @@ def dumps_json(value: Any) -> bytes:
     """Serialise to deterministic UTF-8 JSON: normalised, sorted keys, 2-space indent, final newline."""
     text = json.dumps(normalise_json(value), sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False)
     return (text + "\n").encode("utf-8")
+
+
+#: First characters that make a spreadsheet read a cell as a formula (OWASP, "CSV Injection").
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+_PLAIN_NUMBER = re.compile(r"[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?\Z")
+
+
+def _neutralise(text: str) -> str:
+    """A text cell that would start a formula gets a leading ``'``; a plain number is left alone."""
+    if text.startswith(_FORMULA_START) and not _PLAIN_NUMBER.match(text):
+        return "'" + text
+    return text
 
 
 def _csv_cell(value: Any) -> str:
@@ -148,7 +219,7 @@ def _csv_cell(value: Any) -> str:
         return str(int(value))
     if isinstance(value, (float, np.floating)):
         return format_float(float(value))
-    return str(value)
+    return _neutralise(escape_text(str(value)))
 
 
 def csv_bytes(rows: Iterable[Mapping[str, Any]], columns: Sequence[str]) -> bytes:
@@ -158,7 +229,10 @@ def csv_bytes(rows: Iterable[Mapping[str, Any]], columns: Sequence[str]) -> byte
     ----------
     rows : iterable of mapping
         One mapping per row; missing keys and None give empty cells, booleans
-        ``true``/``false``, floats :func:`format_float`.
+        ``true``/``false``, floats :func:`format_float`. A text cell starting with
+        ``=``, ``+``, ``-``, ``@``, a tab or a carriage return, which a spreadsheet would
+        run as a formula, gets a leading ``'`` (OWASP "CSV Injection"); numbers, and text
+        that is a plain number such as ``-0.62``, are written as they are.
     columns : sequence of str
         Column names, in order (the header).
 
@@ -276,8 +350,8 @@ def _mkstemp(target: Path) -> tuple[int, str]:
 
 
 def write_text(path: str | os.PathLike[str], text: str) -> Path:
-    """Write UTF-8 text atomically (see :func:`write_bytes`)."""
-    return write_bytes(path, text.encode("utf-8"))
+    """Write UTF-8 text atomically (see :func:`write_bytes`; undecodable name bytes escaped, :func:`escape_text`)."""
+    return write_bytes(path, escape_text(text).encode("utf-8"))
 
 
 def write_json(path: str | os.PathLike[str], value: Any) -> Path:
@@ -339,10 +413,14 @@ def safe_component(name: str, *, reserved: Iterable[str] = ()) -> str:
     """Turn any text into one safe file-name component (never empty, ``.``/``..`` or hidden).
 
     Letters and digits of any script, ``-``, ``_`` and ``.`` are kept; every other
-    run of characters (separators, spaces, control and shell characters) becomes
-    a single ``_``. Names that are empty, start with a dot, are Windows device
-    names, exceed 120 characters or are in ``reserved`` (compared
-    case-insensitively) are altered so they stay a plain child of their folder.
+    run of characters (separators, spaces, control and shell characters, bytes that
+    are not valid in the filesystem encoding) becomes a single ``_``. Names that are
+    empty, start with a dot, are Windows device names or are in ``reserved``
+    (compared case-insensitively) are altered so they stay a plain child of their
+    folder. A name longer than :data:`MAX_NAME_BYTES` *bytes* in the filesystem
+    encoding (file systems count bytes, and a CJK character takes three in UTF-8) is
+    cut at a character boundary and ends with ``-`` and 8 hex digits of a hash of the
+    whole name, so long names that share their beginning stay distinct.
 
     Parameters
     ----------
@@ -365,10 +443,27 @@ def safe_component(name: str, *, reserved: Iterable[str] = ()) -> str:
         text = text[:-1] + "_"
     if text.split(".")[0].lower() in _WINDOWS_RESERVED:
         text = "_" + text
-    if len(text) > 120:
-        text = text[:120]
+    if _name_bytes(text) > MAX_NAME_BYTES:
+        digest = hashlib.sha256(name.encode("utf-8", "surrogatepass")).hexdigest()[:8]
+        text = _cut_to_bytes(text, MAX_NAME_BYTES - 9).rstrip(".") + "-" + digest
     if text.lower() in {r.lower() for r in reserved}:
         text = text + "_"
+    return text
+
+
+def _name_bytes(text: str) -> int:
+    """Length of a name in the filesystem encoding (UTF-8 where the encoding cannot say)."""
+    try:
+        return len(os.fsencode(text))
+    except UnicodeError:
+        return len(text.encode("utf-8", "surrogatepass"))
+
+
+def _cut_to_bytes(text: str, limit: int) -> str:
+    """The longest prefix of ``text`` (whole characters) of at most ``limit`` bytes."""
+    while _name_bytes(text) > limit:
+        over = _name_bytes(text) - limit
+        text = text[: len(text) - max(1, over // 4)]
     return text
 
 

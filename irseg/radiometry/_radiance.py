@@ -66,8 +66,16 @@ def band_temperature(radiance, *, band_um: tuple[float, float] = (7.5, 14.0), me
     return _rad_result(_rad_inverse_k(np.asarray(radiance, dtype=np.float64), band, _rad_check_method(method)))
 
 
-def _rad_check_params(emissivity: float, transmittance: float) -> None:
-    check_emissivity(emissivity, name="emissivity")
+def _rad_check_params(emissivity, transmittance: float) -> None:
+    if np.ndim(emissivity) == 0:
+        check_emissivity(emissivity, name="emissivity")
+    else:  # a per-pixel map (material zones): every value in (0, 1]
+        e = np.asarray(emissivity, dtype=np.float64)
+        bad = ~(np.isfinite(e) & (e > 0.0) & (e <= 1.0))
+        if bad.any():
+            raise ConfigError(
+                f"emissivity map holds {float(e[bad].flat[0])!r} outside (0, 1]; use the materials' long-wave emissivities"
+            )
     if not (0.0 < transmittance <= 1.0):
         raise ConfigError(
             f"transmittance = {transmittance!r} is outside (0, 1]; give the path transmittance "
@@ -110,10 +118,11 @@ def object_to_apparent(
     ----------
     object_c : float or ndarray
         True surface temperature, °C.
-    emissivity : float
-        Band emissivity of the surface, (0, 1].
-    reflected_c : float
-        Reflected apparent temperature, °C.
+    emissivity : float or ndarray
+        Band emissivity of the surface, (0, 1]; an array broadcast against ``object_c``
+        gives each pixel its own (material zones).
+    reflected_c : float or ndarray
+        Reflected apparent temperature, °C (an array: per pixel).
     transmittance : float, default 1
         Path transmittance, (0, 1].
     atmosphere_c : float, optional

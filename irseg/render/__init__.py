@@ -10,9 +10,10 @@ the job of :mod:`irseg.io`; nothing here touches the filesystem.
 
 from __future__ import annotations
 
+from ._confirm_marks import draw_confirm_marks
 from ._colours import COLORMAPS, colormap_lut, display_range
 from ._layout import MAX_DISPLAY_SIDE, OverlayLayout, overlay_layout, scale_bar_length_m
-from ._overlay import label_image, render_overlay
+from ._overlay import draw_zones, label_image, render_overlay
 
 __all__ = [
     "COLORMAPS",
@@ -24,4 +25,6 @@ __all__ = [
     "scale_bar_length_m",
     "render_overlay",
     "label_image",
+    "draw_zones",
+    "draw_confirm_marks",
 ]

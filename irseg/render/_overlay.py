@@ -30,7 +30,7 @@ from ._layout import BACKGROUND as _BACKGROUND
 from ._layout import ID_SCALE as _ID_SCALE
 from ._layout import OverlayLayout, overlay_layout, scale_bar_length_m
 
-__all__ = ["render_overlay", "label_image"]
+__all__ = ["render_overlay", "label_image", "draw_zones"]
 
 
 def label_image(analysis: Any) -> np.ndarray:
@@ -70,7 +70,9 @@ def label_image(analysis: Any) -> np.ndarray:
 # --------------------------------------------------------------------------- overlay
 
 
-def render_overlay(frame: Any, seg: Any, analysis: Any, meta: Any, *, cmap: str = "inferno") -> np.ndarray:
+def render_overlay(
+    frame: Any, seg: Any, analysis: Any, meta: Any, *, cmap: str = "inferno", zones: Any = None
+) -> np.ndarray:
     """Draw the annotated overlay of one analysed thermogram.
 
     Parameters
@@ -88,6 +90,10 @@ def render_overlay(frame: Any, seg: Any, analysis: Any, meta: Any, *, cmap: str 
         ``air.outside_c`` (ΔT in–out). None prints both as unknown.
     cmap : str, optional
         Open colour-map name, see :func:`colormap_lut`. Default ``"inferno"``.
+    zones : sequence, optional
+        The image's zones (:class:`irseg.controls.ZoneMask`: ``mask``, ``label``, ``kind``,
+        ``zone.emissivity``), drawn hatched with their label over the thermogram
+        (:func:`draw_zones`); the pixels of exclude zones do not count for the colour range.
 
     Returns
     -------
@@ -131,12 +137,15 @@ def render_overlay(frame: Any, seg: Any, analysis: Any, meta: Any, *, cmap: str 
         raise ConfigError(f"render_overlay: analysis.labels has shape {labels.shape}, image has {shape}")
     lay = overlay_layout(shape)
     s, k = lay.scale, lay.shrink
+    range_mask = _range_mask(mask, zones, shape)
     if k > 1:  # a large thermogram is drawn reduced: only display-sized arrays from here on
         temp = _block_reduce(temp, k, "mean")
+        range_mask = None if range_mask is None else _block_reduce(range_mask, k, "majority")
         mask = None if mask is None else _block_reduce(mask, k, "majority")
         edges = None if edges is None else _block_reduce(edges, k, "any")
 
-    lo, hi = display_range(temp, mask=mask)
+    lo, hi = display_range(temp, mask=range_mask)
+    del range_mask
     canvas = np.empty(lay.shape, dtype=np.uint8)
     canvas[...] = _BACKGROUND
 
@@ -166,6 +175,8 @@ def render_overlay(frame: Any, seg: Any, analysis: Any, meta: Any, *, cmap: str 
     view[...] = rgb
     del rgb
 
+    if zones:
+        draw_zones(canvas, zones, lay)
     anomalies = tuple(getattr(analysis, "anomalies", ()) or ())
     _draw_outlines(canvas, labels, anomalies, lay)
     _draw_ids(canvas, anomalies, lay)
@@ -296,3 +307,70 @@ def _block_reduce(a: np.ndarray, k: int, how: str) -> np.ndarray:
         else:
             out[i0:i1] = total > 0.5 * count
     return out
+
+
+# --------------------------------------------------------------------------- zones
+
+#: Hatch of a zone: (line spacing in display pixels, direction +1 "\\" or -1 "/", weight of the
+#: hatch colour). Exclude zones are hatched densely; material zones sparsely, so the
+#: temperatures measured there stay readable.
+_HATCH = {"exclude": (6, 1, 0.75), "material": (12, -1, 0.45)}
+_ZONE_COLOUR = (235, 235, 235)
+
+
+def _range_mask(mask: np.ndarray | None, zones: Any, shape: tuple[int, ...]) -> np.ndarray | None:
+    """The pixels left out of the colour range: the invalid ones and those of exclude zones."""
+    excluded = [np.asarray(z.mask, bool) for z in (zones or ()) if getattr(z, "kind", None) == "exclude"]
+    if not excluded:
+        return mask
+    out = np.zeros(shape, bool) if mask is None else mask.copy()
+    for zone in excluded:
+        if zone.shape == shape:
+            out |= zone
+    return out if not out.all() else mask
+
+
+def draw_zones(canvas: np.ndarray, zones: Any, lay: OverlayLayout) -> None:
+    """Draw zones on an overlay canvas: hatched, outlined, labelled (in place).
+
+    Parameters
+    ----------
+    canvas : (M', N', 3) uint8 ndarray
+        The overlay, laid out by ``lay``.
+    zones : sequence
+        Objects with ``mask`` ((M, N) bool), ``label`` (str), ``kind`` (``"exclude"`` or
+        ``"material"``) and, for material zones, ``zone.emissivity``.
+    lay : OverlayLayout
+        :func:`overlay_layout` of the image.
+    """
+    s = lay.scale
+    view = canvas[lay.image_row0: lay.image_row0 + lay.image_rows, lay.image_col0: lay.image_col0 + lay.image_cols]
+    rows, cols = np.indices(view.shape[:2])
+    for z in zones:
+        mask = np.asarray(z.mask, bool)
+        if not mask.any():
+            continue
+        if lay.shrink > 1:  # the zone on the reduced thermogram (every block it touches)
+            mask = _block_reduce(mask, lay.shrink, "any")
+        big = np.repeat(np.repeat(mask, s, axis=0), s, axis=1) if s > 1 else mask
+        spacing, direction, weight = _HATCH.get(str(z.kind), _HATCH["exclude"])
+        hatch = big & (((rows + direction * cols) % spacing) == 0)
+        px = view[hatch].astype(np.float32)
+        # towards black on light colours, towards white on dark ones (visible on any colour map)
+        luma = px @ np.array([0.299, 0.587, 0.114], dtype=np.float32)
+        target = np.where(luma[:, None] > 128.0, 0.0, 255.0).astype(np.float32)
+        view[hatch] = np.round((1.0 - weight) * px + weight * target).astype(np.uint8)
+        contours, _ = cv2.findContours(big.astype(np.uint8), cv2.RETR_EXTERNAL, cv2.CHAIN_APPROX_NONE)
+        cv2.drawContours(view, contours, -1, (0, 0, 0), 3, lineType=cv2.LINE_8)
+        cv2.drawContours(view, contours, -1, _ZONE_COLOUR, 1, lineType=cv2.LINE_8)
+        text = str(z.label)
+        emissivity = getattr(getattr(z, "zone", None), "emissivity", None)
+        if z.kind == "material" and emissivity is not None:
+            text += f" e={float(emissivity):.2f}"
+        r_idx, c_idx = np.nonzero(big)
+        x0, y0 = int(c_idx.min()) + 2, int(r_idx.min()) + 2
+        w = text_width(text, _ID_SCALE, 1)
+        x0 = max(0, min(x0, view.shape[1] - w - 4))
+        y0 = max(0, min(y0, view.shape[0] - 18))
+        cv2.rectangle(view, (x0, y0), (x0 + w + 4, y0 + 16), (0, 0, 0), -1)
+        draw_text(view, text, (x0 + 2, y0 + 13), _ID_SCALE, _ZONE_COLOUR, 1)

@@ -93,6 +93,36 @@ def _cause_colour(cause: Any) -> str:
 # --------------------------------------------------------------------------- view model
 
 
+JPEG_SIGNATURE = b"\xff\xd8\xff"
+
+#: The job's details in the order the report shows them: ([survey] key, label).
+SURVEY_FIELDS = (("site", "Site"), ("client", "Client"), ("reference", "Reference"), ("date", "Date"),
+                 ("inspector", "Inspector"), ("camera", "Camera"), ("weather", "Weather"),
+                 ("purpose", "Purpose"), ("notes", "Notes"))
+
+#: An image's details shown under its heading: ([image] key, label).
+IMAGE_FIELDS = (("element", "Element"), ("time", "Time"), ("notes", "Notes"))
+
+
+def _photo_uri(image: str, data: Any) -> str:
+    blob = bytes(data)
+    if blob.startswith(JPEG_SIGNATURE):
+        kind = "jpeg"
+    elif blob.startswith(PNG_SIGNATURE):
+        kind = "png"
+    else:
+        raise ConfigError(f"report: the photo given for image {image!r} is neither JPEG nor PNG data")
+    return f"data:image/{kind};base64," + base64.b64encode(blob).decode("ascii")
+
+
+def _pairs(details: Any, order: tuple[tuple[str, str], ...]) -> list[tuple[str, str]]:
+    """``(label, text)`` of the details given, in the report's order."""
+    if not isinstance(details, Mapping):
+        return []
+    return [(label, str(details[key])) for key, label in order
+            if isinstance(details.get(key), str) and details[key].strip()]
+
+
 def _data_uri(image: str, png: Any) -> str:
     data = bytes(png)
     if not data.startswith(PNG_SIGNATURE):
@@ -126,13 +156,16 @@ def _totals_rows(by_cause: Mapping[str, Any]) -> list[dict[str, Any]]:
     return rows
 
 
-def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> dict[str, Any]:
+def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes],
+                photos: Mapping[str, bytes]) -> dict[str, Any]:
     images = [dict(i) for i in _list(summary, "images")]
-    anomalies = sorted(
+    every = sorted(
         (SurveyAnomaly.from_json(a, where=f"report: summary['anomalies'][{k}]")
          for k, a in enumerate(_list(summary, "anomalies"))),
         key=_severity_key,
     )
+    anomalies = [a for a in every if a.review != "rejected"]
+    rejected = [a for a in every if a.review == "rejected"]
     anchors: dict[str, str] = {}
     for n, img in enumerate(images, start=1):
         for key in ("image", "status", "view", "delta_t_k", "n_anomalies"):
@@ -144,13 +177,25 @@ def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> di
         img["anomalies"] = sorted((a for a in anomalies if a.image == name), key=lambda a: a.anomaly)
         png = overlays.get(name)
         img["overlay_uri"] = _data_uri(name, png) if png is not None else None
+        photo = photos.get(name)
+        img["photo_uri"] = _photo_uri(name, photo) if photo is not None else None
+        details = img.get("details") if isinstance(img.get("details"), Mapping) else {}
+        img["title"] = details.get("title") if isinstance(details.get("title"), str) else None
+        img["details"] = _pairs(details, IMAGE_FIELDS)
+        img.setdefault("photo", None)
+        img.setdefault("n_rejected", 0)
     ok = [i for i in images if i.get("status") == "ok"]
     deltas = [float(i["delta_t_k"]) for i in ok if _is_number(i.get("delta_t_k"))]
     views = sorted({str(i["view"]) for i in ok if i.get("view")})
     extra = [str(c) for c in _list(summary, "cautions") if str(c) not in CAUTIONS]
     totals = summary.get("totals") or {}
+    review = summary.get("review") if isinstance(summary.get("review"), Mapping) else {}
     return {
         "version": _text(summary.get("irseg_version")),
+        "job": _pairs(summary.get("survey"), SURVEY_FIELDS),
+        "rejected": rejected,
+        "review": {"file": review.get("file"), "entries": review.get("entries") or 0,
+                   "applied": review.get("applied") or 0},
         "images": images,
         "n_ok": len(ok),
         "n_failed": sum(1 for i in images if i.get("status") == "failed"),
@@ -163,9 +208,25 @@ def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> di
         "anomalies": anomalies,
         "anchors": anchors,
         "failures": [dict(f) for f in _list(summary, "failures")],
+        "skipped": [dict(f) for f in _list(summary, "skipped")],
         "warnings": [dict(w) for w in _list(summary, "warnings")],
         "cautions": list(CAUTIONS) + list(dict.fromkeys(extra)),
+        "repairs": _repairs(summary.get("repairs")),
     }
+
+
+def _repairs(data: Any) -> dict[str, Any] | None:
+    """summary["repairs"] (irseg.repairs) with its lists and totals present; None without a plan."""
+    if not isinstance(data, Mapping):
+        return None
+    out = dict(data)
+    for key in ("by_element", "items", "confirm_points"):
+        out[key] = [dict(row) for row in (out.get(key) or []) if isinstance(row, Mapping)]
+    out["rows"] = out.pop("items")  # not "items": jinja2 would find the dict's method
+    out["totals"] = dict(out["totals"]) if isinstance(out.get("totals"), Mapping) else {}
+    for key in ("priced", "currency", "uncertainty", "working_margin_rel"):
+        out.setdefault(key, None)
+    return out
 
 
 def _environment() -> Any:
@@ -190,7 +251,9 @@ def _environment() -> Any:
     return env
 
 
-def render_report(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> str:
+def render_report(
+    summary: Mapping[str, Any], overlays: Mapping[str, bytes], *, photos: Mapping[str, bytes] | None = None
+) -> str:
     """Render the survey report as one self-contained HTML page.
 
     Parameters
@@ -199,11 +262,19 @@ def render_report(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> 
         The survey summary in the ``summary.json`` schema: ``irseg_version``, ``images``
         (``image``, ``status``, ``view``, ``delta_t_k``, ``n_anomalies``, ``warnings``,
         ``overlay``, ``result``), ``totals_by_cause``, ``totals``, ``anomalies`` (rows as in
-        ``anomalies.csv``, read with :meth:`SurveyAnomaly.from_json`), ``failures``, ``warnings``
-        and ``cautions``. Numbers may be null; they print as "—".
+        ``anomalies.csv``, read with :meth:`SurveyAnomaly.from_json`), ``failures``, ``skipped``
+        (``file``, ``reason``: what the input scan left out; may be absent), ``warnings`` and
+        ``cautions``. Numbers may be null; they print as "—". Optional: ``survey`` (the job's
+        ``[survey]`` details, shown first), ``details`` of each image (its ``[image]`` section),
+        ``review`` (``file``, ``entries``, ``applied``), ``repairs`` (the repair plan of
+        :mod:`irseg.repairs`: shown as the "Repair plan" section); anomaly rows whose ``review`` is
+        ``"rejected"`` are listed apart, with their note, and counted nowhere else.
     overlays : mapping of str to bytes
         PNG bytes of each image's overlay, keyed by the image name (``images[i]["image"]``).
         Images without an entry are shown without a picture.
+    photos : mapping of str to bytes, optional
+        JPEG or PNG bytes of each image's visible photo (scaled; :func:`irseg.controls.photo_thumbnail`),
+        shown beside its overlay.
 
     Returns
     -------
@@ -227,5 +298,7 @@ def render_report(summary: Mapping[str, Any], overlays: Mapping[str, bytes]) -> 
         raise ConfigError(f"report: summary must be a mapping (the content of summary.json), got {type(summary).__name__}")
     if not isinstance(overlays, Mapping):
         raise ConfigError(f"report: overlays must map image names to PNG bytes, got {type(overlays).__name__}")
-    model = _view_model(summary, overlays)
+    if photos is not None and not isinstance(photos, Mapping):
+        raise ConfigError(f"report: photos must map image names to JPEG or PNG bytes, got {type(photos).__name__}")
+    model = _view_model(summary, overlays, photos or {})
     return _environment().get_template("report.html").render(**model)

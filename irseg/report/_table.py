@@ -21,6 +21,8 @@ __all__ = ["ANOMALY_COLUMNS", "SurveyAnomaly", "anomaly_table"]
 #: Columns of OUT/anomalies.csv and of the rows of summary.json's ``anomalies``, in order
 #: (an interface: other tools read it).
 ANOMALY_COLUMNS = (
+    # the anomaly's name across the survey, first so that a row can be cited on its own
+    "uid",
     "image", "anomaly", "kind", "cause", "reason", "area_m2", "area_low_m2", "area_high_m2",
     "mean_c", "min_c", "max_c", "reference_c", "delta_k", "excess_w", "excess_low_w", "excess_high_w",
     "excess_kwh_year", "f_rsi", "mould_risk", "centroid_row", "centroid_col",
@@ -28,6 +30,8 @@ ANOMALY_COLUMNS = (
     # beyond the contract's list, appended so its order stays intact: the area in pixels is the one
     # area that is known when the shot's geometry is not
     "area_px",
+    # the thermographer's review and the image's details (irseg.controls), appended
+    "review", "note", "title", "element",
 )
 
 
@@ -48,7 +52,18 @@ class SurveyAnomaly:
     image_severity : int or None
         Rank within the image, 1 = repair first (``Anomaly.severity``; ``severity`` in result.json).
     severity : int or None
-        Rank across the survey, 1 = repair first (the ``severity`` column); None until ranked.
+        Rank across the survey, 1 = repair first (the ``severity`` column); None until ranked,
+        and for an anomaly the review rejected.
+    uid : str or None
+        ``<stem>#<id>``: the image's output folder name (its file stem, unique in the survey) and
+        the anomaly's id.
+    review : str or None
+        ``"accepted"``, ``"rejected"`` or ``"relabelled"`` by the thermographer's review; None
+        when not reviewed. A rejected anomaly counts in no total and has no rank.
+    note : str or None
+        The review's note.
+    title, element : str or None
+        ``[image] title`` and ``element`` of the image's sidecar.
     """
 
     image: str
@@ -80,6 +95,11 @@ class SurveyAnomaly:
     image_severity: int | None = None
     severity_score: float | None = None
     severity: int | None = None
+    uid: str | None = None
+    review: str | None = None
+    note: str | None = None
+    title: str | None = None
+    element: str | None = None
 
     @classmethod
     def from_json(cls, data: Mapping[str, Any], *, where: str = "anomaly") -> SurveyAnomaly:

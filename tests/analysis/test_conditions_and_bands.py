@@ -106,9 +106,9 @@ def test_bands_bracket_the_estimate_and_are_deterministic(rng):
 def test_bands_widen_with_the_input_uncertainties():
     t, seg = _scene()
     tight = _analyse(t, seg, camera={"pixel_m": 0.01, "netd_k": 0.0},
-                     surface={"emissivity_uncertainty": 0.0},
-                     analysis={"h_uncertainty": 0.0, "distance_uncertainty": 0.0})
-    loose = _analyse(t, seg, analysis={"h_uncertainty": 0.4, "distance_uncertainty": 0.10})
+                     surface={"emissivity_uncertainty_abs": 0.0},
+                     analysis={"h_uncertainty_rel": 0.0, "distance_uncertainty_rel": 0.0})
+    loose = _analyse(t, seg, analysis={"h_uncertainty_rel": 0.4, "distance_uncertainty_rel": 0.10})
     a, b = tight.anomalies[0], loose.anomalies[0]
     # noise-free scene, no uncertainty: the heat band collapses on the estimate
     assert a.excess_low_w == pytest.approx(a.excess_w, rel=1e-9)

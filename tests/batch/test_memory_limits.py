@@ -43,12 +43,14 @@ def test_a_feature_larger_than_the_image_is_refused_before_any_allocation():
 
 
 def test_a_survey_image_fails_at_segment_naming_the_key(tmp_path):
+    # within the metadata's fixed range (the [segment] min_feature_px bound of irseg.metadata)
+    # but wider than this 64 x 80 image: the segment stage refuses it for this image only
     make_survey(tmp_path / "s", 1, tiff=False)
     path = tmp_path / "s" / "wall_00.npy"
     with pytest.raises(ConfigError) as err:
-        process_image(path, overrides={"segment": {"min_feature_px": 30_000}})
+        process_image(path, overrides={"segment": {"min_feature_px": 90}})
     assert failure_stage(err.value) == "segment"
-    assert "[segment] min_feature_px" in str(err.value)
+    assert "[segment] min_feature_px" in str(err.value) and "1 to 64 px" in str(err.value)
 
 
 # ----------------------------------------------------------------------------- item 20: report images

@@ -26,7 +26,10 @@ def test_survey_anomaly_has_the_image_every_anomaly_field_and_the_survey_rank():
     analysis_fields = [f.name for f in fields(Anomaly)]
     survey_fields = [f.name for f in fields(SurveyAnomaly)]
     # Anomaly.severity (rank within the image) is SurveyAnomaly.image_severity; severity is the survey rank
-    expected = ["image", *(("image_severity" if n == "severity" else n) for n in analysis_fields), "severity"]
+    # plus the survey-level fields (issue 13): the survey-wide name, the review and the image's details
+    survey_level = ["uid", "review", "note", "title", "element"]
+    expected = ["image", *(("image_severity" if n == "severity" else n) for n in analysis_fields), "severity",
+                *survey_level]
     assert sorted(survey_fields) == sorted(expected)
     assert set(ANOMALY_COLUMNS) <= set(survey_fields)
 

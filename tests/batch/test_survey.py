@@ -52,8 +52,10 @@ def test_clean_run_meets_the_output_contract(tmp_path):
     assert not (out / "failures.csv").exists()
 
     header = (out / "anomalies.csv").read_bytes().split(b"\r\n")[0].decode()
-    # the contract's columns in its order, then the extra area_px (known even without geometry)
-    assert header.split(",") == CONTRACT_COLUMNS + ["area_px"] == list(ANOMALY_COLUMNS)
+    # uid first (issue 13: the anomaly's survey-wide name), the contract's columns in its order, then the
+    # extra area_px (known even without geometry), then the review and the image's details (issue 13)
+    assert header.split(",") == ["uid", *CONTRACT_COLUMNS, "area_px", "review", "note", "title",
+                                 "element"] == list(ANOMALY_COLUMNS)
     rows = _rows(out)
     assert [r["image"] for r in rows] == [p.name for p in paths]  # input order, one patch each
 
@@ -114,7 +116,7 @@ def test_job_counts_give_identical_bytes(tmp_path):
     run_survey([survey], tmp_path / "j1", jobs=1)
     run_survey([survey], tmp_path / "j2", jobs=2)
     one, two = data_files(tmp_path / "j1"), data_files(tmp_path / "j2")
-    assert one.keys() == two.keys() and len(one) == 2 + 4
+    assert one.keys() == two.keys() and len(one) == 2 + 2 + 4  # + repairs.csv, confirm_points.csv (issue 17)
     assert one == two
     for stem in ("wall_00", "wall_03"):
         for png in ("labels.png", "overlay.png"):
@@ -236,7 +238,11 @@ def test_odd_names_never_escape_out(tmp_path):
             assert entry.parent == out and not entry.name.startswith(".")
             stems.add(entry.name)
     assert len(stems) == len(names)
-    assert {r["image"] for r in _rows(out)} == set(names)  # names kept verbatim in the data
+    # names kept verbatim in the data, except that a CSV text cell starting like a formula
+    # ("-rf.npy") gets a leading quote (OWASP "CSV Injection"; see tests/batch/test_hostile_folders.py)
+    assert {r["image"] for r in _rows(out)} == {("'" + n if n.startswith("-") else n) for n in names}
+    summary = json.loads((out / "summary.json").read_text(encoding="utf-8"))
+    assert {i["image"] for i in summary["images"]} == set(names)
 
 
 def test_fail_fast_stops_and_names_the_file(tmp_path):
@@ -360,3 +366,18 @@ def test_named_files_keep_unknown_suffixes_but_never_metadata(tmp_path):
     result = run_survey(named, tmp_path / "out", jobs=1)
     assert [o.image for o in result.outcomes] == [path.name, "notes.xyz"]  # the .toml files are metadata
     assert result.n_ok == 1 and [(f.image, f.stage) for f in result.failures] == [("notes.xyz", "read")]
+
+
+def test_contradicting_outside_air_between_images_is_a_survey_warning(tmp_path):
+    # Issue 15 item 9: one session's outside air cannot differ by 7 K between two walls of the same
+    # folder (a survey session lasts hours; air changes by a degree or two: common practice).
+    paths = make_survey(tmp_path / "s", 2, tiff=False)
+    paths[1].with_suffix(".toml").write_text("[air]\noutside_c = 8.0\n", encoding="utf-8")
+    result = run_survey([tmp_path / "s"], tmp_path / "out", jobs=1)
+    texts = [w["message"] for w in result.summary["warnings"] if w["image"] == "survey"]
+    assert len(texts) == 1 and "outside_c" in texts[0] and "8 °C" in texts[0]
+    assert "outside_c differs" in (tmp_path / "out" / "run.log").read_text(encoding="utf-8")
+    # the same survey with agreeing sidecars gives no such warning
+    paths[1].with_suffix(".toml").write_text("[air]\noutside_c = 0.5\n", encoding="utf-8")
+    again = run_survey([tmp_path / "s"], tmp_path / "out2", jobs=1)
+    assert not [w for w in again.summary["warnings"] if w["image"] == "survey"]

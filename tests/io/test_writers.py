@@ -13,6 +13,8 @@ import numpy as np
 import pytest
 
 from irseg import io as outputs
+from irseg.io import _outfolder as outfolder
+from irseg.io import _writers as writers
 from irseg.batch import collect_inputs
 from irseg.errors import OutputError
 
@@ -165,3 +167,91 @@ def test_remove_file_is_quiet_for_missing_and_names_the_file_it_cannot_remove(tm
     folder.mkdir()
     with pytest.raises(OutputError, match=r"result\.json: cannot remove it .*check the folder"):
         outputs.remove_file(folder, hint="check the folder given with -o")
+
+
+def test_text_cells_that_start_a_formula_are_neutralised_but_numbers_are_not():
+    # OWASP "CSV Injection" (common practice): prefix a cell starting with = + - @ tab or CR with
+    # a single quote; a spreadsheet then shows the text instead of running it.
+    rows = [{
+        "a": "=HYPERLINK(\"http://example.invalid\",\"x\")", "b": "+1+2", "c": "@SUM(A1)", "d": "-2+3",
+        "e": "\tcmd", "f": "\rcmd", "g": -0.62, "h": "-0.62", "i": "+5", "j": "wall", "k": -3,
+    }]
+    blob = outputs.csv_bytes(rows, list("abcdefghijk"))
+    (row,) = list(csv.DictReader(io.StringIO(blob.decode("utf-8"), newline=""), fieldnames=list("abcdefghijk")))[1:]
+    assert row["a"] == "'=HYPERLINK(\"http://example.invalid\",\"x\")"
+    assert [row[k] for k in "bcdef"] == ["'+1+2", "'@SUM(A1)", "'-2+3", "'\tcmd", "'\rcmd"]
+    # numbers, and text that is a plain number, stay as they are (a spreadsheet reads them as numbers)
+    assert [row[k] for k in "ghijk"] == ["-0.62", "-0.62", "+5", "wall", "-3"]
+
+
+def test_undecodable_name_bytes_are_escaped_everywhere_text_is_written(tmp_path):
+    # PEP 383: os.fsdecode keeps the byte 0xE9 of a Latin-1 name as the lone surrogate U+DCE9,
+    # which UTF-8 (RFC 3629) cannot encode.
+    name = os.fsdecode(b"caf\xe9.npy")
+    assert name == "caf\udce9.npy"
+    assert writers.escape_text(name) == "caf\\xe9.npy" == writers.escape_text(writers.escape_text(name))
+    assert outputs.normalise_json({name: [name]}) == {"caf\\xe9.npy": ["caf\\xe9.npy"]}
+    assert outputs.csv_bytes([{"f": name}], ["f"]) == b"f\r\ncaf\\xe9.npy\r\n"
+    assert outputs.write_text(tmp_path / "t.txt", name).read_bytes() == b"caf\\xe9.npy"
+    assert writers.escape_line("a\nb\r\x1b[32mok\u2028") == "a\\nb\\r\\x1b[32mok\\u2028"
+
+
+def test_long_names_are_capped_in_bytes_and_stay_distinct():
+    # NAME_MAX is 255 bytes on Linux file systems; CJK characters take 3 bytes each in UTF-8.
+    a = outputs.safe_component("熱" * 200)
+    b = outputs.safe_component("熱" * 199 + "橋")
+    assert len(os.fsencode(a)) <= writers.MAX_NAME_BYTES and len(os.fsencode(b)) <= writers.MAX_NAME_BYTES
+    assert a != b and a.startswith("熱" * 30)
+    assert outputs.safe_component("short_name") == "short_name"  # short names are unchanged
+    assert outputs.safe_component("é" * 100).encode("utf-8").decode("utf-8")  # cut on a character boundary
+
+
+def test_replace_files_replaces_all_or_nothing(tmp_path, monkeypatch):
+    for name in ("a.csv", "b.json", "c.html"):
+        (tmp_path / name).write_bytes(b"old " + name.encode())
+    real = writers._mkstemp
+
+    def full_disk(target):
+        if target.name == "c.html":
+            raise OSError(28, "No space left on device")
+        return real(target)
+
+    monkeypatch.setattr(writers, "_mkstemp", full_disk)
+    with pytest.raises(OutputError, match="disk is full"):
+        outfolder.replace_files(tmp_path, {"a.csv": b"new", "b.json": b"new", "c.html": b"new"})
+    monkeypatch.undo()
+    assert {p.name: p.read_bytes() for p in tmp_path.iterdir()} == {
+        "a.csv": b"old a.csv", "b.json": b"old b.json", "c.html": b"old c.html"}
+    hashes = outfolder.replace_files(tmp_path, {"a.csv": b"new", "b.json": None, "c.html": b"x"})
+    assert sorted(p.name for p in tmp_path.iterdir()) == ["a.csv", "c.html"]
+    import hashlib
+
+    assert hashes == {"a.csv": "sha256:" + hashlib.sha256(b"new").hexdigest(),
+                      "c.html": "sha256:" + hashlib.sha256(b"x").hexdigest()}
+
+
+def test_the_manifest_owns_only_what_it_lists(tmp_path):
+    (tmp_path / "run.log").write_text("mine\n")
+    manifest = outfolder.OutputManifest(tmp_path)
+    assert manifest.in_the_way("run.log") and not manifest.in_the_way("anomalies.csv")
+    assert manifest.remove("run.log") is False and (tmp_path / "run.log").exists()
+    manifest.claim(["anomalies.csv", "wall/result.json"])
+    again = outfolder.OutputManifest(tmp_path)  # written atomically, read back
+    assert again.files == {"anomalies.csv", "wall/result.json"} and not again.damaged
+    again.prune()
+    assert again.files == set()  # neither file exists yet
+    (tmp_path / outfolder.MANIFEST_NAME).write_text('{"format": "irseg-outputs", "files": ["../../etc/passwd"]}')
+    assert outfolder.OutputManifest(tmp_path).files == set()  # never a path outside the folder
+    (tmp_path / outfolder.MANIFEST_NAME).write_text("[1, 2]")
+    assert outfolder.OutputManifest(tmp_path).damaged
+
+
+def test_lock_folder_is_exclusive_and_released(tmp_path):
+    # flock(2): a second open file description cannot take an exclusive lock that is held.
+    with outfolder.lock_folder(tmp_path) as lock:
+        assert lock.name == outfolder.LOCK_NAME
+        with pytest.raises(OutputError, match="another irseg run is writing to this output folder"):
+            with outfolder.lock_folder(tmp_path):
+                pass
+    with outfolder.lock_folder(tmp_path):  # released when the block ends
+        pass

@@ -11,7 +11,8 @@ from hypothesis import strategies as st
 from scipy import constants as sc
 from scipy import integrate, optimize
 
-from irseg.errors import CalibrationError, ConfigError, InputError
+from irseg.errors import CalibrationError, ConfigError, InputError, MetadataWarning
+from irseg.metadata import load_metadata
 from irseg.radiometry import (
     apparent_to_object,
     band_radiance,
@@ -263,18 +264,31 @@ def test_export_emissivity_needs_reflected():
         calibrate(_frame(np.full((5, 5), 15.0)), meta)
 
 
-def test_reflected_default_from_air_side():
+def test_reflected_from_the_metadata_and_the_same_rule_for_hand_built_metadata(tmp_path):
     app = np.full((6, 6), 15.0)
+    # load_metadata resolves the reflected temperature (interior view: the inside air) and records it
+    (tmp_path / "survey.toml").write_text("[surface]\nemissivity = 0.93\nview = 'interior'\n[air]\ninside_c = 21.0\n")
+    with pytest.warns(MetadataWarning, match="reflected temperature taken as the inside air temperature, 21 °C"):
+        loaded = load_metadata(tmp_path / "a.npy")
+    f_loaded = calibrate(_frame(app), loaded)
+    expected_in = apparent_to_object(15.0, emissivity=0.93, reflected_c=21.0)
+    assert f_loaded.temperature_c[0, 0] == pytest.approx(expected_in)
+    # a hand-built SurveyMeta without reflected_c gets the same rule (irseg._defaults.resolve_reflected_c)
     interior = SurveyMeta(surface=Surface(view="interior"), air=Air(inside_c=21.0, outside_c=-3.0))
     exterior = SurveyMeta(surface=Surface(view="exterior"), air=Air(inside_c=21.0, outside_c=-3.0))
     f_in = calibrate(_frame(app), interior)
     f_out = calibrate(_frame(app), exterior)
-    assert f_in.temperature_c[0, 0] == pytest.approx(apparent_to_object(15.0, emissivity=0.93, reflected_c=21.0))
+    assert f_in.temperature_c[0, 0] == pytest.approx(expected_in)
     assert f_out.temperature_c[0, 0] == pytest.approx(apparent_to_object(15.0, emissivity=0.93, reflected_c=-3.0))
-    assert not f_in.warnings and not f_out.warnings
     f_none = calibrate(_frame(app), SurveyMeta())
     assert f_none.temperature_c[0, 0] == pytest.approx(apparent_to_object(15.0, emissivity=0.93, reflected_c=20.0))
-    assert any("20 °C" in w for w in f_none.warnings)
+    # the assumption is announced once, by the metadata stage; calibrate adds no warning of its own
+    assert not f_loaded.warnings and not f_in.warnings and not f_out.warnings and not f_none.warnings
+
+
+def test_frame_is_data_only():
+    f = calibrate(_frame(np.full((4, 4), 15.0)), _meta())
+    assert not hasattr(f, "meta")  # settings travel explicitly as the SurveyMeta argument of each stage
 
 
 def test_broadband_method_differs_outdoors():
@@ -371,3 +385,95 @@ def test_fast_3x3_median_matches_scipy_reference(rng):
     image[10, 10] = 80.0  # a hot pixel must not move the medians around it beyond their neighbours'
     expected = ndimage.median_filter(image, size=3, mode="mirror")
     np.testing.assert_allclose(_rad_median3(image), expected, atol=1e-5)
+
+
+# ----------------------------------------------------------------------------- plausible values (issue 15)
+# A building survey sees temperatures between -100 °C (a clear night sky reads about -50 °C, colder in
+# polar climates) and +150 °C (hot pipes, flue outlets) (common practice; irseg.metadata._bounds.SURFACE_C). Up to 1 % of the pixels outside are
+# masked with a warning, more is refused naming the settings to check.
+
+
+def _wall(rng, shape=(30, 40), centre=18.0):
+    return centre + rng.normal(0.0, 0.05, shape)
+
+
+def test_a_225_c_wall_is_refused_naming_units_scale_and_offset(rng):
+    # issue 15's example: "walls" at 225 °C; float values, so the message names the units
+    with pytest.raises(CalibrationError) as info:
+        calibrate(_frame(_wall(rng, centre=225.0)), _meta())
+    msg = str(info.value)
+    assert msg.startswith("img.npy: 100 % of the valid pixels read outside the plausible -100…150 °C")
+    assert "median 225" in msg and '[camera] units = "celsius"' in msg and "cannot be surface temperatures" in msg
+    assert 'the values look like kelvin' in msg  # 225 K would be -48 °C, a plausible temperature
+    # integer counts: the message names scale and offset with their values (value = raw * scale + offset)
+    raw = np.full((20, 20), 5000, dtype=np.uint16)  # 5000 * 0.1 + 0 = 500 °C, neither °C nor K of a surface
+    with pytest.raises(CalibrationError, match=r"scale = 0\.1, offset = 0; these cannot be surface temperatures; "
+                                               r"check \[camera\] scale and offset"):
+        calibrate(_frame(raw), _meta(scale=0.1))
+
+
+def test_a_few_absurd_pixels_are_masked_as_implausible_not_blamed_on_the_surroundings(rng):
+    # issue 15 item 19: 1e30 °C pixels were reported as "colder than the reflected surroundings allow"
+    img = _wall(rng)
+    img[4, 5] = 1e30
+    img[20, 30] = -400.0  # below absolute zero (SI: 0 K = -273.15 °C)
+    img[10, 10:13] = 450.0  # a small flue outlet, hotter than any building surface
+    f = calibrate(_frame(img), _meta())
+    assert f.mask[4, 5] and f.mask[20, 30] and f.mask[10, 10:13].all()
+    assert f.n_dead == 5 and f.n_nan == 0
+    (warning,) = f.warnings
+    assert warning.startswith("5 pixel(s) read outside the plausible -100…150 °C (as far as 1e+30 °C)")
+    assert '[camera] units = "celsius"' in warning and "colder than" not in warning
+    assert np.all(np.abs(f.temperature_c - 18.0) < 1.0)  # filled from their neighbours
+
+
+def test_more_than_one_percent_implausible_pixels_refuse_the_image(rng):
+    img = _wall(rng, (20, 50))  # 1000 pixels: 10 may be masked, 11 may not
+    img[0, :10] = 300.0
+    assert calibrate(_frame(img), _meta()).mask[0, :10].all()
+    img[1, 0] = 300.0
+    with pytest.raises(CalibrationError, match=r"^img.npy: 1\.1 % of the valid pixels read outside"):
+        calibrate(_frame(img), _meta())
+
+
+def test_kelvin_hint_kept_for_whole_images(rng):
+    # 291 K stored with units celsius: the message says what to set (SI: T/K = t/°C + 273.15)
+    with pytest.raises(CalibrationError, match='the values look like kelvin: set \\[camera\\] units = "kelvin"'):
+        calibrate(_frame(_wall(rng, centre=291.0)), _meta())
+
+
+def test_corrected_temperatures_are_checked_too(rng):
+    # emissivity 0.05 with 20 °C surroundings: an apparent 35 °C reading is a surface of about 191 °C
+    # (measurement equation with Planck's law over 7.5-14 µm; reference: scipy quad + brentq); the
+    # message names the emissivity, not the units
+    band = (7.5, 14.0)
+    l_obj = (planck_quad(308.15, band) - 0.95 * planck_quad(293.15, band)) / 0.05
+    t_obj = optimize.brentq(lambda t: planck_quad(t, band) - l_obj, 300.0, 600.0) - 273.15
+    assert t_obj == pytest.approx(191.3, abs=0.1) and t_obj > 150.0
+    app = _wall(rng, centre=35.0)
+    meta = SurveyMeta(surface=Surface(emissivity=0.05, reflected_c=20.0))
+    with pytest.raises(CalibrationError) as info:
+        calibrate(_frame(app), meta)
+    msg = str(info.value)
+    assert "after the emissivity correction" in msg and "[surface] emissivity = 0.05, reflected_c = 20 °C" in msg
+
+
+def test_a_bad_band_is_named_not_blamed_on_emissivity(rng):
+    # issue 15 item 19: a band outside the thermal infrared made every pixel "unphysical", blamed on emissivity
+    for band in ((0.01, 0.02), (0.3, 0.5), (7.5, 1000.0), (14.0, 7.5)):
+        meta = SurveyMeta(camera=Camera(band_um=band), surface=Surface(emissivity=0.93, reflected_c=20.0))
+        with pytest.raises(CalibrationError) as info:
+            calibrate(_frame(_wall(rng)), meta)
+        msg = str(info.value)
+        assert "[camera] band_um" in msg and "2-20 µm" in msg and "emissivity" not in msg, band
+
+
+def test_surface_far_from_the_air_temperatures_warns(rng):
+    # envelope surfaces lie between the inside and outside air in the heating season (conduction, ISO 6946
+    # steady state); 60 °C with 20 °C inside and 0 °C outside is more than 20 K beyond both
+    meta = SurveyMeta(surface=Surface(emissivity=1.0, reflected_c=20.0), air=Air(inside_c=20.0, outside_c=0.0))
+    f = calibrate(_frame(_wall(rng, centre=60.0)), meta)
+    (warning,) = f.warnings
+    assert warning.startswith("the median surface temperature 60.0 °C lies more than 20 K outside the air")
+    assert "inside 20 °C, outside 0 °C, reflected 20 °C" in warning
+    assert not calibrate(_frame(_wall(rng, centre=15.0)), meta).warnings

@@ -1,0 +1,153 @@
+"""Multi-scale contrast of a residual field against its noise: Gaussian scales, noise at each scale.
+
+Helpers of :mod:`._significance`: the white-noise gain of a Gaussian smoothing kernel, the
+√2-spaced bank of scales sized from the defect areas of interest, the residual smoothed at each
+scale with its measured spread, and the smallest contrast a given area and NETD allow.
+"""
+
+from __future__ import annotations
+
+import math
+
+import cv2
+import numpy as np
+
+from .._shared import MAD_TO_SIGMA
+
+__all__ = ["gaussian_noise_factor", "scale_bank", "contrast_at_scales", "pixel_noise_k",
+           "min_detectable_contrast_k", "K_HI", "FULL_RES_MAX_S"]
+
+K_HI = 5.0  # seeds: |contrast at scale| > K_HI·σ at that scale
+FULL_RES_MAX_S = 3.0  # scales up to this many pixels are smoothed at full resolution
+
+def gaussian_noise_factor(s_px: float) -> float:
+    """√(Σh²) of irseg's discrete Gaussian of std ``s_px``: smoothed white noise σ_s = σ·factor.
+
+    Tends to the continuum value ``1/(2√π·s)`` for ``s`` above about one pixel.
+    """
+    k = _ksize(s_px)
+    g = cv2.getGaussianKernel(k, s_px, cv2.CV_64F).ravel()
+    return float(np.sum(g**2))  # (Σg²)² of the separable 2-D kernel, square-rooted
+
+
+def _dilate(a: np.ndarray, r: int) -> np.ndarray:
+    """Binary dilation by a (2r+1)² square (r steps of the 8-neighbourhood)."""
+    if r <= 0:
+        return a.copy()
+    k = np.ones((2 * r + 1, 2 * r + 1), np.uint8)
+    return cv2.dilate(a.astype(np.uint8), k, borderType=cv2.BORDER_CONSTANT, borderValue=0).astype(bool)
+
+
+def _fill_holes(a: np.ndarray) -> np.ndarray:
+    """Fill the holes of a binary mask (background not 4-connected to the border)."""
+    img = np.zeros((a.shape[0] + 2, a.shape[1] + 2), np.uint8)
+    img[1:-1, 1:-1] = a
+    cv2.floodFill(img, None, (0, 0), 2, flags=4)
+    return (img[1:-1, 1:-1] != 2)
+
+
+def _ksize(s: float) -> int:
+    return int(2 * math.ceil(3.0 * s) + 1)
+
+
+def _gblur(a: np.ndarray, s: float) -> np.ndarray:
+    k = _ksize(s)
+    return cv2.GaussianBlur(a, (k, k), sigmaX=s, sigmaY=s, borderType=cv2.BORDER_CONSTANT)
+
+
+def _edge_gain(v: np.ndarray, s: float) -> np.ndarray:
+    """Noise of the normalized convolution relative to the frame's inside: ``√(Σg²v)/(Σg v)`` over its value
+    for ``v = 1``. Near the frame edge and invalid pixels fewer samples enter the window, so the
+    smoothed noise is larger there (up to 2× in a corner); thresholds are raised by this factor.
+    """
+    k = _ksize(s)
+    g = cv2.getGaussianKernel(k, s, cv2.CV_32F)
+    num = cv2.sepFilter2D(v, -1, g * g, g * g, borderType=cv2.BORDER_CONSTANT)
+    den = cv2.sepFilter2D(v, -1, g, g, borderType=cv2.BORDER_CONSTANT)
+    inner = float(np.sum(g * g))  # √(Σg²)² of the separable kernel, for v = 1
+    return np.sqrt(np.maximum(num, 0)) / np.maximum(den, 1e-6) / inner
+
+
+def pixel_noise_k(residual: np.ndarray, valid: np.ndarray) -> float:
+    """Robust per-pixel noise σ from the 4-neighbour Laplacian ``x − mean(4 neighbours)``.
+
+    For white noise its standard deviation is σ·√(1 + 4/16) = 1.118·σ; the median absolute
+    value (×1.4826) makes the estimate robust to edges.
+    """
+    r = np.asarray(residual, float)
+    d = r[1:-1, 1:-1] - 0.25 * (r[:-2, 1:-1] + r[2:, 1:-1] + r[1:-1, :-2] + r[1:-1, 2:])
+    ok = valid[1:-1, 1:-1] & valid[:-2, 1:-1] & valid[2:, 1:-1] & valid[1:-1, :-2] & valid[1:-1, 2:]
+    v = np.abs(d[ok])
+    if v.size == 0:
+        return 0.0
+    return float(MAD_TO_SIGMA * np.median(v) / math.sqrt(1.25))
+
+
+def scale_bank(min_area_px: float, max_area_px: float, max_s_px: float) -> tuple[float, ...]:
+    """Gaussian stds (px) matched to disks from ``min_area_px`` to ``max_area_px``, spaced by √2.
+
+    The matched std of a disk of radius ρ is ρ/√(2u*) ≈ 0.63·ρ (see the module docstring).
+    """
+    lo = max(0.7, 0.63 * math.sqrt(min_area_px / math.pi))
+    hi = max(lo, min(0.63 * math.sqrt(max_area_px / math.pi), max_s_px))
+    n = int(math.floor(math.log(hi / lo) / math.log(math.sqrt(2.0)) + 1e-9)) + 1
+    return tuple(float(lo * math.sqrt(2.0) ** i) for i in range(n))
+
+
+def contrast_at_scales(
+    residual: np.ndarray, valid: np.ndarray, scales_px: tuple[float, ...], gains: list | None = None
+) -> list[np.ndarray]:
+    """``R_s`` for each scale (normalized convolution, so invalid pixels do not pull it to zero).
+
+    Scales above 3 px are computed on a block-reduced copy (factor ``⌊s/2⌋`` rounded down to a
+    power of two) and brought back bilinearly; the reduction adds ``f²/12`` px² of variance to
+    the window, which is taken off the reduced std.
+    """
+    m, n = residual.shape
+    r32 = np.where(valid, residual, 0.0).astype(np.float32)
+    v32 = valid.astype(np.float32)
+    out = []
+    pyramid: dict[int, tuple[np.ndarray, np.ndarray]] = {1: (r32 * v32, v32)}  # (Σ r·v, Σ v) per block, as means
+
+    def level(f: int) -> tuple[np.ndarray, np.ndarray]:
+        if f not in pyramid:
+            a, c = level(f // 2)
+            mb, nb = -(-a.shape[0] // 2), -(-a.shape[1] // 2)
+            aa = np.zeros((2 * mb, 2 * nb), np.float32)
+            cc = np.zeros((2 * mb, 2 * nb), np.float32)
+            aa[: a.shape[0], : a.shape[1]] = a
+            cc[: c.shape[0], : c.shape[1]] = c
+            pyramid[f] = (0.25 * aa.reshape(mb, 2, nb, 2).sum(axis=(1, 3)),
+                          0.25 * cc.reshape(mb, 2, nb, 2).sum(axis=(1, 3)))
+        return pyramid[f]
+
+    for s in scales_px:
+        if s <= FULL_RES_MAX_S:
+            num, den = _gblur(r32 * v32, s), _gblur(v32, s)
+            out.append(num / np.maximum(den, 1e-6))
+            if gains is not None:
+                gains.append(_edge_gain(v32, s))
+            continue
+        f = 1 << max(0, int(math.floor(math.log2(s / 2.0))))
+        rv, vv = level(f)
+        sc = math.sqrt(max(s * s - f * f / 12.0, 0.25)) / f
+        small = _gblur(rv, sc) / np.maximum(_gblur(vv, sc), 1e-6)
+        up = cv2.resize(small, (small.shape[1] * f, small.shape[0] * f), interpolation=cv2.INTER_LINEAR)
+        out.append(up[:m, :n])
+        if gains is not None:
+            gs = _edge_gain(vv, sc)
+            gains.append(cv2.resize(gs, (gs.shape[1] * f, gs.shape[0] * f), interpolation=cv2.INTER_LINEAR)[:m, :n])
+    return out
+
+
+def min_detectable_contrast_k(*, area_m2: float, netd_k: float, pixel_m: float, k_hi: float = K_HI) -> float:
+    """White-noise limit of the smallest contrast seeded: ``1.11·k_hi·NETD·p/√A`` (module docstring)."""
+    u = 1.2564  # root of 2u·e^(−u) = 1 − e^(−u)
+    gain = math.sqrt(2.0 * math.pi) * (1.0 - math.exp(-u)) / math.sqrt(u) / math.sqrt(math.pi)  # 0.902
+    return k_hi * netd_k * pixel_m / (gain * math.sqrt(area_m2))
+
+
+def _pct(v: np.ndarray, q: float) -> float:
+    """Percentile of at most ~50 000 values (a regular subsample of larger sets)."""
+    step = max(1, v.size // 50_000)
+    return float(np.percentile(v[::step], q))

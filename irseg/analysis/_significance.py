@@ -1,0 +1,407 @@
+"""Anomalies with or without a jump: significant contrast against the sound surface, at the defect's scale.
+
+An anomaly is a patch of the surface whose temperature departs from the sound
+surface (``irseg.analysis._sound_surface``) by more than the noise allows *at the
+size of the patch*. Nothing here needs an edge: a soft, graded or diffuse defect
+is found by its contrast and its area.
+
+Steps of :func:`detect_regions`
+-------------------------------
+1. **Sound surface** ``S`` (robust, local, follows smooth variation and lens
+   shading) and the residual ``R = T − S``.
+2. **Noise** ``σ``: the per-pixel noise (given, or a robust estimate from the
+   residual's second differences).
+3. **Contrast at scale** (a bank of matched filters): ``R_s = G_s * R`` for
+   Gaussian windows of standard deviation ``s`` from the smallest defect of
+   interest up to half the sound length, spaced by √2. For white noise of
+   standard deviation ``σ`` a linear filter with weights ``h`` leaves noise of
+   standard deviation ``σ·√(Σh²)``; for a 2-D Gaussian of std ``s`` pixels
+   (``∫g² = 1/(4πs²)``)::
+
+       σ_s = σ / (2·√π·s)  ≈ 0.282·σ/s
+
+   (the discrete sum is used, which differs from this for ``s`` below about one
+   pixel). Camera frames are not white (fixed column patterns, low-frequency
+   drift) and the sound surface is a model, so the σ used at each scale is the
+   larger of the white-noise value and the measured robust spread (1.4826·MAD)
+   of ``R_s`` over the sound pixels: significance is judged against what the
+   sound surface actually does at that scale. Near the frame edge and masked
+   pixels the window holds fewer samples and the smoothed noise is larger (up to
+   2× in a corner): each pixel's threshold is raised by that factor
+   ``√(Σg²v)/(Σg·v)`` relative to the frame's inside (``v``: valid pixels).
+4. **Hysteresis**: seeds where ``|R_s| ≥ k_hi·σ_s`` at any scale, grown over
+   pixels where ``|R_s| ≥ k_lo·σ_s`` at any scale (same sign). On white noise a
+   pixel exceeds ``k_hi`` at one scale with probability ``2·(1 − Φ(k_hi))``
+   (5.7·10⁻⁷ for 5σ).
+5. **Extent — one documented rule**: an anomaly extends to where its contrast
+   falls to ``extent_fraction`` (0.5) of its own robust peak contrast. The peak
+   is the 99th percentile of the contrast over the grown component minus the
+   bias a noise tail adds to it (2.33·σ_fine), measured on ``R`` smoothed at the
+   smallest scale whose noise is at most 4 % of the peak (so the half-peak edge
+   stands 12 σ clear of the noise). Pieces above half-peak that are joined
+   through contrast of at least a quarter of the peak are one anomaly; so the
+   rings of a graded wet area, the body of a cold-air fan and a ramp-edged damp
+   zone come out as one region each. Holes are filled.
+6. **Touching defects of different temperature**: after an anomaly is taken,
+   its edge band (the blur ramp, ``rim_px``) is set aside and what remains of
+   the grown component is looked at again with its own peak. A remainder whose
+   half-peak core touches an anomaly already taken is a *separate* defect only
+   if it has its own plateau (the median contrast of its core is at least
+   ``plateau_ratio`` (0.85) of its peak); a graded tail has no plateau (its
+   median sits near 0.75 of its peak) and is part of the anomaly it falls away
+   from. A remainder that does not touch (joined only through weak contrast)
+   is an anomaly of its own if it is significant and large enough.
+
+Frame-edge cooling: the sound surface carries an ``exp(−d/λ)`` decay from each frame
+edge (λ = 0.2 m), so the cooling toward a corner or a floor/ceiling junction along an
+edge of the frame is sound, not an anomaly; an anomaly that reaches the frame edge
+says so (``RegionInfo.touches_edge``: its area may be cut).
+
+Parameters are physical (m, m², K) and converted with the pixel footprint when
+it is known, else taken as fractions of the frame, so the same surface gives the
+same anomalies at any resolution.
+
+Smallest contrast found (white-noise limit)
+-------------------------------------------
+A disk of area ``A`` (radius ``ρ``) and contrast ``ΔT`` seen through a Gaussian of
+std ``s`` peaks at ``ΔT·(1 − e^{−ρ²/2s²})``; against ``σ_s = σ/(2√π s)`` the ratio is
+largest for ``ρ²/2s² = u*`` with ``2u*·e^{−u*} = 1 − e^{−u*}`` (u* ≈ 1.256), where
+it equals ``ΔT·ρ·√(2π)·0.638/σ ≈ 0.902·ΔT·√(A/p²)/σ`` (``p``: pixel footprint, m).
+A seed needs ``k_hi``, so::
+
+    ΔT_min ≈ 1.11 · k_hi · NETD · p / √A
+
+With k_hi = 5 and p = 3.9 mm (640 px across 2.5 m, a 45° lens at 3 m):
+
+==========  ==========  ==========
+NETD        A = 0.05 m² A = 0.5 m²
+==========  ==========  ==========
+0.05 K      0.0048 K    0.0015 K
+0.10 K      0.0097 K    0.0031 K
+==========  ==========  ==========
+
+These are the limits set by the camera noise alone; in real frames the measured
+σ_s (fixed pattern, the sound surface's own misfit, texture) is larger at large
+scales and sets the practical limit, and ``min_contrast_k`` (default 0.1 K)
+keeps contrasts below what a thermographer would report out. So the smallest
+contrast found is ``max(min_contrast_k, ΔT_min)`` with ``σ_s`` as measured
+(``info.sigma_k`` per scale).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import ndimage
+
+from ._scales import (
+    K_HI,
+    _dilate,
+    _fill_holes,
+    _pct,
+    contrast_at_scales,
+    gaussian_noise_factor,
+    min_detectable_contrast_k,
+    pixel_noise_k,
+    scale_bank,
+)
+from .._shared import MAD_TO_SIGMA
+from ._sound_surface import fit_sound_surface
+
+__all__ = ["detect_regions", "DetectionInfo", "RegionInfo", "gaussian_noise_factor", "scale_bank",
+           "contrast_at_scales", "pixel_noise_k", "min_detectable_contrast_k"]
+
+K_LO = 3.0
+EXTENT_FRACTION = 0.5
+JOIN_FRACTION = 0.25  # half-peak pieces joined through this fraction of the peak are one anomaly
+PLATEAU_RATIO = 0.85
+WRAP_MAX = 0.5  # a touching plateau may border at most half of the other anomaly's outline
+FINE_NOISE_FRACTION = 0.04  # the extent is measured where σ_fine ≤ 4 % of the peak
+PEAK_NOISE_FRACTION = 0.01  # the peak is read where σ ≤ 1 % of it
+PEAK_PERCENTILE = 99.0
+MIN_AREA_M2 = 0.005
+MIN_AREA_FRACTION = 1e-3  # without geometry: 0.1 % of the frame
+SOUND_LENGTH_M = 0.2
+EDGE_LENGTH_M = 0.2  # decay of the cooling toward a corner or junction at a frame edge
+EDGE_LENGTH_FRACTION = 0.08
+SOUND_LENGTH_FRACTION = 0.15  # without geometry: of the frame's long side
+MIN_CONTRAST_K = 0.1
+MAX_DEFECT_FRACTION = 0.3  # largest defect the scale bank is sized for
+MAX_EXCLUDED_FRACTION = 0.5  # the second sound surface needs at least half of the frame
+_FINE_SCALES = (0.7, 1.0, 1.4, 2.0, 2.8, 4.0, 5.7, 8.0, 11.3, 16.0)
+_MAX_PASSES = 12
+_SQUARE = ndimage.generate_binary_structure(2, 2)
+
+
+@dataclass(frozen=True)
+class RegionInfo:
+    """One detected anomaly."""
+
+    label: int
+    sign: int  # +1 warm, −1 cold
+    peak_k: float  # robust peak contrast against the sound surface, K (signed)
+    level_k: float  # the extent threshold (fraction of the peak), K (signed)
+    area_px: int
+    fine_scale_px: float  # the smoothing the extent was measured at
+    touches_edge: bool  # the anomaly reaches the frame edge (its area may be cut)
+    split_from: int  # label of the touching anomaly it was split from (0: none)
+
+
+@dataclass(frozen=True)
+class DetectionInfo:
+    """What :func:`detect_regions` used and found."""
+
+    noise_k: float
+    pixel_m: float | None
+    min_area_px: int
+    sound_length_px: float
+    scales_px: tuple[float, ...]
+    sigma_k: tuple[float, ...]  # σ_s used at each scale
+    sigma_white_k: tuple[float, ...]  # the white-noise value at each scale
+    k_hi: float
+    k_lo: float
+    extent_fraction: float
+    surface_scale_k: float
+    regions: tuple[RegionInfo, ...]
+
+
+def detect_regions(
+    temperature_c: np.ndarray,
+    mask: np.ndarray | None,
+    *,
+    noise_k: float | None,
+    pixel_m: float | None = None,
+    min_area_m2: float = MIN_AREA_M2,
+    sound_length_m: float = SOUND_LENGTH_M,
+    min_contrast_k: float = MIN_CONTRAST_K,
+    k_hi: float = K_HI,
+    k_lo: float = K_LO,
+    extent_fraction: float = EXTENT_FRACTION,
+    split_plateaus: bool = True,
+) -> tuple[np.ndarray, np.ndarray, DetectionInfo]:
+    """Find anomalies as significant contrast against a robust local sound surface.
+
+    Parameters
+    ----------
+    temperature_c : (M, N) float ndarray
+        Surface temperature, °C.
+    mask : (M, N) bool ndarray or None
+        True on invalid pixels (as ``ThermalFrame.mask``).
+    noise_k : float or None
+        Per-pixel noise (NETD or the segmenter's estimate), K; None estimates it
+        from the residual.
+    pixel_m : float, optional
+        Pixel footprint on the surface, m. Without it the physical settings fall
+        back to fractions of the frame (``min_area`` 0.1 % of it, the sound length
+        15 % of its long side).
+    min_area_m2 : float
+        Smallest anomaly kept, m².
+    sound_length_m : float
+        Length on which the sound surface may vary, m.
+    min_contrast_k : float
+        Smallest peak contrast reported, K.
+    k_hi, k_lo : float
+        Hysteresis thresholds in units of σ at each scale.
+    extent_fraction : float
+        The extent ends where the contrast falls to this fraction of the anomaly's peak.
+    split_plateaus : bool
+        Keep touching defects with their own plateaus apart.
+
+    Returns
+    -------
+    labels : (M, N) int32 ndarray
+        0 background, 1..n anomalies.
+    sound_surface : (M, N) float ndarray
+    info : DetectionInfo
+    """
+    t = np.asarray(temperature_c, dtype=float)
+    m, n = t.shape
+    invalid = np.zeros((m, n), bool) if mask is None else np.asarray(mask, bool)
+    valid = ~invalid & np.isfinite(t)
+    t = np.where(valid, t, np.nanmedian(t[valid]) if valid.any() else 0.0)
+    if pixel_m is not None and pixel_m > 0:
+        min_area_px = max(9, int(round(min_area_m2 / pixel_m**2)))
+        length_px = sound_length_m / pixel_m
+        edge_px = EDGE_LENGTH_M / pixel_m
+    else:
+        edge_px = EDGE_LENGTH_FRACTION * max(m, n)
+        min_area_px = max(9, int(round(MIN_AREA_FRACTION * m * n)))
+        length_px = SOUND_LENGTH_FRACTION * max(m, n)
+    length_px = float(min(max(length_px, 4.0), max(m, n)))
+
+    noise = float(noise_k) if noise_k is not None and noise_k > 0 else pixel_noise_k(t, valid)
+    noise = max(noise, 1e-6)
+    scales = scale_bank(min_area_px, MAX_DEFECT_FRACTION * m * n, 0.5 * length_px)
+    # two passes: the second sound surface leaves out every pixel the first pass found significant
+    # (the whole grown component, tails included), so soft tails cannot pull the surface toward a defect
+    exclude = np.zeros((m, n), bool)
+    for _ in range(2):
+        surf = fit_sound_surface(t, invalid=~valid | exclude, length_px=length_px, noise_k=noise,
+                                 edge_length_px=edge_px)
+        resid = t - surf.surface
+        if noise_k is None or noise_k <= 0:
+            noise = max(pixel_noise_k(resid, valid), 1e-6)
+        gains: list[np.ndarray] = []
+        fields = contrast_at_scales(resid, valid, scales, gains)
+        sound = valid & ~exclude & (surf.weight > 0.5)
+        if sound.sum() < 0.1 * valid.sum():
+            sound = valid
+        step = max(1, int(sound.sum() // 40_000))
+        sig, sig_w = [], []
+        for s, f, g in zip(scales, fields, gains):
+            sw = noise * gaussian_noise_factor(s)
+            vals = (f / g)[sound].ravel()[::step]
+            emp = MAD_TO_SIGMA * float(np.median(np.abs(vals - np.median(vals))))
+            sig.append(max(sw, emp))
+            sig_w.append(sw)
+        zs = [f / (sg * g) for f, sg, g in zip(fields, sig, gains)]
+        grown = {sign: _grown(zs, sign, k_hi, k_lo, valid) for sign in (-1, 1)}
+        found = (grown[-1][0] > 0) | (grown[1][0] > 0)
+        if not found.any() or exclude.any() or found[valid].mean() > MAX_EXCLUDED_FRACTION:
+            break
+        exclude = found
+
+    fine_cache: dict[float, np.ndarray] = {}
+
+    def fine(s: float) -> np.ndarray:
+        if s not in fine_cache:
+            fine_cache[s] = contrast_at_scales(resid, valid, (s,))[0]
+        return fine_cache[s]
+
+    labels = np.zeros((m, n), np.int32)
+    regions: list[RegionInfo] = []
+    for sign in (-1, 1):
+        comp, has_seed = grown[sign]
+        if not has_seed.any():
+            continue
+        for k, sl in enumerate(ndimage.find_objects(comp), start=1):
+            if sl is None or not has_seed[k]:
+                continue
+            _extract(
+                comp=comp, k=k, sl=sl, sign=sign, fine=fine, noise=noise, labels=labels, regions=regions,
+                min_area_px=min_area_px, min_contrast_k=min_contrast_k, k_hi=k_hi, extent_fraction=extent_fraction,
+                split_plateaus=split_plateaus, valid=valid,
+            )
+    info = DetectionInfo(noise, pixel_m, min_area_px, length_px, scales, tuple(sig), tuple(sig_w), k_hi, k_lo,
+                         extent_fraction, surf.scale_k, tuple(regions))
+    return labels, surf.surface, info
+
+
+def _grown(zs, sign, k_hi, k_lo, valid) -> tuple[np.ndarray, np.ndarray]:
+    """Hysteresis of one sign over all scales of ``z = R_s/σ_s``: (component labels, components with a seed)."""
+    m, n = valid.shape
+    seed = np.zeros((m, n), bool)
+    grow = np.zeros((m, n), bool)
+    for zz in zs:
+        z = sign * zz
+        seed |= z >= k_hi
+        grow |= z >= k_lo
+    seed &= valid
+    grow &= valid
+    comp, nc = ndimage.label(grow, structure=_SQUARE)
+    has_seed = np.zeros(nc + 1, bool)
+    if nc:
+        has_seed[np.unique(comp[seed])] = True
+    has_seed[0] = False
+    comp[~has_seed[comp]] = 0
+    return comp, has_seed
+
+
+def _choose_fine(peak_rough: float, noise: float, fraction: float) -> float:
+    """Smallest window of the fine bank whose white-noise σ is at most ``fraction`` of the peak."""
+    for s in _FINE_SCALES:
+        if noise * gaussian_noise_factor(s) <= fraction * abs(peak_rough):
+            return s
+    return _FINE_SCALES[-1]
+
+
+def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, min_contrast_k, k_hi,
+             extent_fraction, split_plateaus, valid) -> None:
+    """Anomalies of one grown component: the strongest first, then separate plateaus and pieces."""
+    m, n = comp.shape
+    pad = 8
+    r0, r1 = max(0, sl[0].start - pad), min(m, sl[0].stop + pad)
+    c0, c1 = max(0, sl[1].start - pad), min(n, sl[1].stop + pad)
+    crop = (slice(r0, r1), slice(c0, c1))
+    member = comp[crop] == k
+    near = _dilate(member, 2) & valid[crop]
+    claimed = np.zeros_like(member)  # taken anomalies and their edge bands, and rejected tails
+    taken = np.zeros(member.shape, np.int32)  # local anomaly ids
+    peaks: dict[int, float] = {}
+    rims: dict[int, int] = {}
+    queue: list[tuple[np.ndarray, int]] = [(member, 0)]
+    passes = 0
+    rough = sign * fine(2.0)[crop]
+    while queue and passes < _MAX_PASSES:
+        passes += 1
+        piece, _ = queue.pop(0)
+        if not piece.any():
+            continue
+        p_rough = _pct(rough[piece], PEAK_PERCENTILE)
+        if p_rough <= 0:
+            continue
+        s_f = _choose_fine(p_rough, noise, FINE_NOISE_FRACTION)
+        sig_f = noise * gaussian_noise_factor(s_f)
+        v = sign * fine(s_f)[crop]
+        # the peak: the maximum where the noise is at most 1 % of it, with the window kept well inside
+        # the piece (a quarter of its equivalent radius), so neither noise nor smoothing moves it much
+        s_p = min(_choose_fine(p_rough, noise, PEAK_NOISE_FRACTION),
+                  max(s_f, 0.25 * math.sqrt(float(piece.sum()) / math.pi)))
+        peak = float((sign * fine(s_p)[crop])[piece].max())
+        if peak < max(min_contrast_k, k_hi * sig_f):
+            continue
+        level = extent_fraction * peak
+        region_of = piece | (near & ~claimed & _dilate(piece, 2))
+        above = (v >= level) & region_of & ~claimed
+        joined = (v >= JOIN_FRACTION * peak) & region_of & ~claimed
+        jl, _ = ndimage.label(joined, structure=_SQUARE)
+        # the strongest place: the pixel of the piece at the robust peak's level nearest the maximum
+        top = np.argmax(np.where(above, v, -np.inf))
+        anchor = jl.flat[top]
+        if anchor == 0:
+            continue
+        core = above & (jl == anchor)
+        core = _fill_holes(core)
+        core &= ~claimed
+        touching = bool((_dilate(core, 1) & claimed).any())
+        rim_px = int(math.ceil(2.5 * math.hypot(1.0, s_f))) + 1
+        band = _dilate(core, rim_px)
+        rest = piece & ~band & ~claimed
+        accept = int(core.sum()) >= min_area_px
+        split_from = 0
+        if accept and touching:
+            # a remainder next to a taken anomaly: its own defect only with its own plateau, and only
+            # beside it (a halo wrapping round more than half of its outline, or weaker than a quarter
+            # of its peak, is its tail)
+            nb = taken[_dilate(core, rim_px + 2) & (taken > 0)]
+            split_from = int(np.bincount(nb).argmax()) if nb.size else 0
+            accept = split_plateaus and _pct(v[core], 50.0) >= PLATEAU_RATIO * peak
+            if accept and split_from:
+                a_band = _dilate(taken == split_from, rims[split_from])
+                outline = _dilate(a_band, 1) & ~a_band
+                wrap = float((outline & _dilate(core, rim_px + 4)).sum()) / max(float(outline.sum()), 1.0)
+                accept = wrap <= WRAP_MAX and peak >= JOIN_FRACTION * peaks[split_from]
+            if accept and split_from:
+                # the step between two plateaus is shared at its midpoint
+                mid = 0.5 * (peaks[split_from] + peak)
+                gap = _dilate(core, rim_px + 2) & claimed & (taken == 0) & (v >= level) & (v < mid)
+                core |= gap
+        if accept:
+            lab = int(labels.max()) + 1
+            sub = labels[crop]
+            sub[core & (sub == 0)] = lab
+            area = int((sub == lab).sum())
+            taken[core] = lab
+            peaks[lab] = peak
+            rims[lab] = rim_px
+            rr, cc = np.nonzero(core)
+            edge = bool(rr.min() + r0 == 0 or cc.min() + c0 == 0 or rr.max() + r0 == m - 1 or cc.max() + c0 == n - 1)
+            regions.append(RegionInfo(lab, sign, sign * peak, sign * level, area, s_f, edge, split_from))
+        claimed |= band if accept else _dilate(core, 1)
+        if not accept and not touching and int(core.sum()) < min_area_px:
+            claimed |= band  # a small isolated peak: its tail is not a defect either
+        rl, nr = ndimage.label(rest & ~claimed, structure=_SQUARE)
+        for i in range(1, nr + 1):
+            queue.append((rl == i, 0))

@@ -1,0 +1,331 @@
+"""A robust, local model of the sound surface: what the wall would look like without its anomalies.
+
+The sound surface of a thermogram is not a plane. Inside air is stratified (not
+always linearly), surfaces cool toward external corners and floor junctions, an
+outside face sees more sky at the top than at the bottom, and the camera itself
+adds a smooth radial shading from the centre of the frame to its corners (of the
+order of 1 K on uncooled cameras). All of these vary smoothly over a length of
+tens of centimetres or more, or are tied to the frame. Anomalies are what departs
+from that smooth field, so the model must follow the smooth field *and* ignore
+the anomalies while it is fitted, even one that covers a quarter of the frame.
+
+Model (fitted on a coarse grid of block means, ``block_px`` pixels a side)::
+
+    S(x, y) = P(x, y) + ℓ(x, y)
+
+- ``P``: a global part tied to the frame: a quadratic in the normalised frame
+  coordinates ``x, y ∈ [−1, 1]`` (plane, curvature, twist; ``x² + y²`` is the
+  ``r²`` shading term) plus ``r⁴`` about the frame centre, so the radial shading
+  of the lens, which grows fastest at the corners, is absorbed there too, where
+  a local model has neighbours on one side only; optionally (``edge_length_px``)
+  a decay ``exp(−d/λ)`` from each of the four frame edges, the shape of the
+  cooling toward a corner or a floor/ceiling junction that runs along an edge;
+- ``ℓ``: a local correction, the robust first-order *normalized convolution*
+  (Knutsson & Westin 1993) of what ``P`` leaves: at every block a plane fitted
+  to the residuals in a Gaussian window of std ``length_px``, each block
+  weighted by its robust weight. It follows stratification that is not linear
+  and sky-view gradients at that length and no shorter, up to the frame edge.
+  Where the weights vanish over a large area (inside a big anomaly) the plane's
+  offset is shrunk toward zero and its slopes toward flat, so the global part
+  bridges the gap instead of an extrapolation from one side.
+
+Robustness: a least-trimmed-squares start of the global part (robust
+to up to 45 % of the frame being anomalous), then iteratively reweighted least squares with Tukey's biweight
+``w = (1 − (r/c·s)²)²`` for ``|r| < c·s``, else 0, ``c = 4.685`` (95 % efficiency
+under Gaussian errors; Holland & Welsch 1977, from memory), on the residual of
+each block mean. The scale ``s`` is the normalised median absolute deviation of
+the block residuals about their median (1.4826·MAD), floored at the noise of a
+block mean; the median is taken over *all* valid blocks, so it stays in the sound
+population while anomalies cover less than half of the frame. ``P`` and ``ℓ`` are
+updated in turn (backfitting), the local window shrinking from 4 to 2 to 1 sound
+lengths, so a large anomaly is excluded by the stiff fits before a flexible one
+could follow it. Blocks whose weight falls to zero are excluded:
+those are the anomaly candidates, and the surface passes under them.
+
+Scale choice: the sound length is a physical length (``length_px`` comes from
+``sound_length_m`` and the pixel footprint when the geometry is known, else a
+fraction of the frame), so the same surface is modelled the same way at any
+resolution; the block size follows the frame (about 80 blocks on the long side)
+but never exceeds a quarter of the sound length.
+
+References
+----------
+H. Knutsson, C.-F. Westin, "Normalized and differential convolution", Proc. IEEE
+CVPR 1993, 515-523 (from memory).
+P. W. Holland, R. E. Welsch, "Robust regression using iteratively reweighted
+least-squares", Communications in Statistics - Theory and Methods 6(9), 1977
+(from memory).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import cv2
+import numpy as np
+
+from .._shared import MAD_TO_SIGMA
+
+__all__ = ["SoundSurface", "fit_sound_surface", "TUKEY_C"]
+
+#: Tukey biweight tuning constant (95 % Gaussian efficiency).
+TUKEY_C = 4.685
+#: 1/Φ⁻¹(3/4): the MAD of a Gaussian sample times this estimates its standard deviation.
+_BLOCKS_LONG_SIDE = 80  # coarse grid: about this many blocks on the long side
+_MIN_FILL = 0.25  # a block needs this fraction of valid pixels
+_SUPPORT_EPS = 0.05  # shrink the local correction where the weighted support is below ~5 % of full
+_SLOPE_RIDGE = 0.05  # and its slopes, likewise (in units of the window's second moment)
+_LENGTH_STEPS = (4.0, 2.0, 1.0)  # local window, in sound lengths, stiff to flexible
+_PER_STEP = 3  # passes per local window
+_LTS_BLOCKS = 600  # sub-grid size of the robust start
+_LTS_COVERAGE = 0.55
+_LTS_STARTS = 40
+_LTS_CSTEPS = 3
+_LTS_SEED = 20240611
+
+
+@dataclass(frozen=True)
+class SoundSurface:
+    """A fitted sound surface.
+
+    Attributes
+    ----------
+    surface : (M, N) float ndarray
+        The sound surface, same units as the input (°C).
+    weight : (M, N) float ndarray
+        Final robust weight of each pixel's block (0: excluded as anomalous, 1: sound).
+    scale_k : float
+        Robust scale of the block residuals, K (the Tukey scale ``s``).
+    block_px : int
+        Block size of the coarse grid, px.
+    length_px : float
+        Sound length (standard deviation of the local Gaussian window), px.
+    coefficients : (7,) or (11,) ndarray
+        Global part: ``1, x, y, x², xy, y², r⁴`` in normalised frame coordinates, then
+        the edge decays (left, right, top, bottom) when they are modelled.
+    """
+
+    surface: np.ndarray
+    weight: np.ndarray
+    scale_k: float
+    block_px: int
+    length_px: float
+    coefficients: np.ndarray
+
+
+def _block_means(t: np.ndarray, valid: np.ndarray, b: int) -> tuple[np.ndarray, np.ndarray, tuple[int, int]]:
+    """Means over b×b blocks of the valid pixels and the valid fraction (padding counts as invalid)."""
+    m, n = t.shape
+    mb, nb = -(-m // b), -(-n // b)
+    tv = np.zeros((mb * b, nb * b))
+    vv = np.zeros((mb * b, nb * b))
+    tv[:m, :n] = np.where(valid, t, 0.0)
+    vv[:m, :n] = valid
+    s = tv.reshape(mb, b, nb, b).sum(axis=(1, 3))
+    c = vv.reshape(mb, b, nb, b).sum(axis=(1, 3))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean = np.where(c > 0, s / np.maximum(c, 1), 0.0)
+    return mean, c / (b * b), (mb, nb)
+
+
+def _frame_coords(m: int, n: int) -> tuple[float, float, float, float]:
+    """(centre row, half height, centre col, half width) of the frame, px."""
+    return (m - 1) / 2.0, max((m - 1) / 2.0, 0.5), (n - 1) / 2.0, max((n - 1) / 2.0, 0.5)
+
+
+def _edge_terms(c: np.ndarray, size: int, lam: float | None) -> list[np.ndarray]:
+    """``exp(−d/λ)`` from both ends of one frame axis (``c``: pixel coordinates), or nothing."""
+    if lam is None:
+        return []
+    return [np.exp(-(c + 0.5) / lam), np.exp(-(size - 0.5 - c) / lam)]
+
+
+def _design(yn: np.ndarray, xn: np.ndarray, yp: np.ndarray, xp: np.ndarray, m: int, n: int,
+            lam: float | None) -> np.ndarray:
+    """Global design matrix: 1, x, y, x², xy, y², r⁴ and the four edge decays (when ``lam`` is set)."""
+    r2 = 0.5 * (xn**2 + yn**2)
+    cols = [np.ones_like(xn), xn, yn, xn**2, xn * yn, yn**2, r2**2]
+    cols += _edge_terms(xp, n, lam) + _edge_terms(yp, m, lam)
+    return np.stack(cols, axis=-1)
+
+
+def _evaluate_global(beta: np.ndarray, m: int, n: int, lam: float | None) -> np.ndarray:
+    """The global part on the full frame, as one rank-4 product (rows) @ (columns)."""
+    cy, hy, cx, hx = _frame_coords(m, n)
+    yp, xp = np.arange(m, dtype=float), np.arange(n, dtype=float)
+    y = (yp - cy) / hy
+    x = (xp - cx) / hx
+    # r⁴ = ((x² + y²)/2)² = (x⁴ + 2x²y² + y⁴)/4
+    f = beta[0] + beta[2] * y + beta[5] * y**2 + 0.25 * beta[6] * y**4
+    g = beta[1] * x + beta[3] * x**2 + 0.25 * beta[6] * x**4
+    if lam is not None:
+        ex, ey = _edge_terms(xp, n, lam), _edge_terms(yp, m, lam)
+        g = g + beta[7] * ex[0] + beta[8] * ex[1]
+        f = f + beta[9] * ey[0] + beta[10] * ey[1]
+    u = np.stack([f, np.ones(m), y, y**2], axis=1)
+    v = np.stack([np.ones(n), g, beta[4] * x, 0.5 * beta[6] * x**2], axis=0)
+    return u @ v
+
+
+def _wls(x: np.ndarray, y: np.ndarray, w: np.ndarray | None = None) -> np.ndarray:
+    """Weighted least squares by the normal equations (7 unknowns; a tiny ridge keeps them regular)."""
+    xw = x if w is None else x * w[:, None]
+    a = xw.T @ x
+    a[np.diag_indices_from(a)] += 1e-9 * max(float(np.trace(a)), 1e-12)
+    return np.linalg.solve(a, xw.T @ y)
+
+
+def _tukey(r: np.ndarray, c: float) -> np.ndarray:
+    u = r / c
+    return np.where(np.abs(u) < 1.0, (1.0 - u**2) ** 2, 0.0)
+
+
+def _blur(a: np.ndarray, sigma: float) -> np.ndarray:
+    """Gaussian blur with zero padding (what normalized convolution needs at the frame edge)."""
+    a32 = a.astype(np.float32)
+    k = int(2 * np.ceil(3.0 * sigma) + 1)
+    return cv2.GaussianBlur(a32, (k, k), sigmaX=sigma, sigmaY=sigma, borderType=cv2.BORDER_CONSTANT).astype(float)
+
+
+def _local_linear(e: np.ndarray, w: np.ndarray, base: np.ndarray, length: float, gy: np.ndarray,
+                  gx: np.ndarray) -> np.ndarray:
+    """First-order robust normalized convolution: a Gaussian-windowed weighted plane fit at every block.
+
+    Minimises ``Σ g(x_j − x_i)·w_j·(e_j − a − b·(x_j − x_i) − c·(y_j − y_i))²`` per block ``i`` and returns
+    ``a``. A plane (not a mean) follows a gradient up to the frame edge and across a gap; the
+    intercept is shrunk toward zero and the slopes toward flat where the weighted support is
+    small (a large excluded area), so the global part bridges it.
+    """
+    blur = lambda a: _blur(a, length)  # noqa: E731
+    w_x, w_y = w * gx, w * gy
+    g0, gxs, gys = blur(w), blur(w_x), blur(w_y)
+    gxx, gxy, gyy = blur(w_x * gx), blur(w_x * gy), blur(w_y * gy)
+    e0, ex, ey = blur(w * e), blur(w_x * e), blur(w_y * e)
+    full = np.maximum(blur(base), 1e-12)  # the support a fully sound neighbourhood would give
+    m00 = g0 + _SUPPORT_EPS * full
+    m10 = gxs - gx * g0
+    m01 = gys - gy * g0
+    m20 = gxx - 2 * gx * gxs + gx**2 * g0 + _SLOPE_RIDGE * full * length**2
+    m11 = gxy - gx * gys - gy * gxs + gx * gy * g0
+    m02 = gyy - 2 * gy * gys + gy**2 * g0 + _SLOPE_RIDGE * full * length**2
+    r0 = e0
+    r1 = ex - gx * e0
+    r2 = ey - gy * e0
+    a = np.stack([np.stack([m00, m10, m01], -1), np.stack([m10, m20, m11], -1), np.stack([m01, m11, m02], -1)], -2)
+    rhs = np.stack([r0, r1, r2], -1)[..., None]
+    return np.linalg.solve(a, rhs)[..., 0, 0]
+
+
+def _lts_start(xd: np.ndarray, yv: np.ndarray, shape: tuple[int, int], ok: np.ndarray, base: np.ndarray) -> np.ndarray:
+    """Starting weights (0/1 per block) from a least-trimmed-squares fit of the global part.
+
+    FAST-LTS (Rousseeuw & Van Driessen 2006, from memory): elemental starts drawn with a fixed
+    seed, each improved by concentration steps (refit on the ``h`` blocks of smallest residual),
+    the best by trimmed sum of squares kept. Coverage ``h`` = 55 % of the blocks, so up to 45 % of
+    the frame may be anomalous. Runs on a sub-grid of at most ``_LTS_BLOCKS`` blocks.
+    """
+    idx = np.flatnonzero(ok.ravel())
+    step = max(1, int(np.ceil(idx.size / _LTS_BLOCKS)))
+    sub = np.arange(0, idx.size, step)
+    xs, ys = xd[sub], yv[sub]
+    p = xs.shape[1]
+    h = max(p + 1, int(_LTS_COVERAGE * sub.size))
+    if sub.size <= 2 * p:
+        return np.ones(shape)
+    rng = np.random.default_rng(_LTS_SEED)
+    best, best_obj = None, np.inf
+    for _ in range(_LTS_STARTS):
+        pick = rng.choice(sub.size, size=p, replace=False)
+        beta = _wls(xs[pick], ys[pick])
+        for _ in range(_LTS_CSTEPS):
+            r2 = (ys - xs @ beta) ** 2
+            keep = np.argpartition(r2, h - 1)[:h]
+            beta = _wls(xs[keep], ys[keep])
+        obj = float(np.partition((ys - xs @ beta) ** 2, h - 1)[:h].sum())
+        if obj < best_obj:
+            best, best_obj = beta, obj
+    r = yv - xd @ best
+    keep = np.zeros(idx.size, bool)
+    keep[np.argpartition(r**2, int(_LTS_COVERAGE * idx.size) - 1)[: int(_LTS_COVERAGE * idx.size)]] = True
+    w = np.zeros(shape)
+    w.ravel()[idx[keep]] = 1.0
+    return w
+
+
+def fit_sound_surface(
+    temperature_c: np.ndarray,
+    invalid: np.ndarray | None = None,
+    *,
+    length_px: float,
+    noise_k: float,
+    block_px: int | None = None,
+    edge_length_px: float | None = None,
+) -> SoundSurface:
+    """Fit the robust local sound surface of one thermogram.
+
+    Parameters
+    ----------
+    temperature_c : (M, N) float ndarray
+        Surface temperature, °C.
+    invalid : (M, N) bool ndarray, optional
+        True on pixels to ignore (dead, saturated, outside the element).
+    length_px : float
+        Sound length, px: the standard deviation of the local Gaussian window.
+        Variations on this length or longer are followed; shorter ones are not.
+    noise_k : float
+        Per-pixel noise standard deviation, K (floors the robust scale).
+    block_px : int, optional
+        Block size of the coarse grid (default: about 80 blocks on the long side,
+        at most a quarter of ``length_px``).
+    edge_length_px : float, optional
+        Decay length of the cooling (or warming) toward a junction or corner at a
+        frame edge, px: adds ``exp(−d/λ)`` from each of the four frame edges to
+        the global part. None leaves them out.
+
+    Returns
+    -------
+    SoundSurface
+    """
+    t = np.asarray(temperature_c, dtype=float)
+    m, n = t.shape
+    valid = np.isfinite(t) if invalid is None else (~np.asarray(invalid, bool) & np.isfinite(t))
+    if block_px is None:
+        block_px = int(max(1, min(round(max(m, n) / _BLOCKS_LONG_SIDE), np.floor(length_px / 4.0))))
+    b = int(block_px)
+    y, fill, (mb, nb) = _block_means(t, valid, b)
+    base = np.where(fill >= _MIN_FILL, fill, 0.0)
+    ok = base > 0
+    cy, hy, cx, hx = _frame_coords(m, n)
+    # block centres in frame pixels, then normalised (padding blocks lie partly outside; they carry less weight)
+    rows = (np.arange(mb) * b + (b - 1) / 2.0 - cy) / hy
+    cols = (np.arange(nb) * b + (b - 1) / 2.0 - cx) / hx
+    yn, xn = np.meshgrid(rows, cols, indexing="ij")
+    yp, xp = np.meshgrid(np.arange(mb) * b + (b - 1) / 2.0, np.arange(nb) * b + (b - 1) / 2.0, indexing="ij")
+    x_design = _design(yn, xn, yp, xp, m, n, edge_length_px)[ok]
+    yv = y[ok]
+    floor = max(float(noise_k) / b, 1e-6)  # noise of a block mean
+    lb = max(float(length_px) / b, 0.5)  # sound length in blocks
+
+    gy, gx = np.meshgrid(np.arange(mb, dtype=float) - mb / 2.0, np.arange(nb, dtype=float) - nb / 2.0, indexing="ij")
+    w = base * _lts_start(x_design[:, :7], yv, y.shape, ok, base)  # the frame-tied part alone
+    local = np.zeros_like(y)
+    glob = np.zeros_like(y)
+    scale = floor
+    # graduated: from the robust start, the local part at 4, 2 and 1 sound lengths, so a large anomaly
+    # is excluded by the stiff fits before a flexible one could follow it
+    lengths = [f * lb for f in _LENGTH_STEPS for _ in range(_PER_STEP)]
+    for length in lengths:
+        beta = _wls(x_design, yv - local[ok], w[ok])
+        glob[ok] = x_design @ beta
+        local = _local_linear(np.where(ok, y - glob, 0.0), w, base, length, gy, gx)
+        r = (y - glob - local)[ok]
+        scale = max(MAD_TO_SIGMA * float(np.median(np.abs(r - np.median(r)))), floor)
+        w = np.zeros_like(y)
+        w[ok] = base[ok] * _tukey(r, TUKEY_C * scale)
+
+    # back to full resolution: the global part exactly, the local part bilinear between block centres
+    surf = _evaluate_global(beta, m, n, edge_length_px)
+    up = cv2.resize(local.astype(np.float32), (nb * b, mb * b), interpolation=cv2.INTER_LINEAR)[:m, :n]
+    surf = surf + up.astype(float)
+    wfull = np.repeat(np.repeat(np.where(ok, w / np.maximum(base, 1e-12), 0.0), b, axis=0), b, axis=1)[:m, :n]
+    return SoundSurface(surf, wfull, float(scale), b, float(length_px), beta)
