@@ -16,6 +16,7 @@ __all__ = [
     "DEFAULT_MAX_PIXELS",
     "check_emissivity",
     "robust_sigma",
+    "escape_name",
 ]
 
 #: Kelvin at 0 °C (SI Brochure, 9th edition, 2019: T/K = t/°C + 273.15).
@@ -50,3 +51,48 @@ def robust_sigma(values: Any) -> float:
     if v.size < 2:
         return 0.0
     return float(MAD_TO_SIGMA * np.median(np.abs(v - np.median(v))))
+
+
+def escape_name(text: str) -> str:
+    """``text`` with every non-printable character written as an escape, for logs and terminals.
+
+    A file name may hold a newline, a carriage return, an ANSI escape sequence or a bidi
+    override; printed raw, such a name can start a new log line (and forge an "ok" line),
+    move the cursor or recolour the terminal. Each character that :meth:`str.isprintable`
+    rejects (C0/C1 controls, format characters, separators other than the space) becomes
+    ``\\n``, ``\\r``, ``\\t`` or ``\\xNN`` / ``\\uNNNN`` / ``\\UNNNNNNNN`` as in Python's
+    ``repr``; a byte that was not valid UTF-8 in a file name (decoded by ``os.fsdecode`` to a
+    lone surrogate U+DC80..U+DCFF) is written as that byte, ``\\xNN``. Printable text,
+    backslashes included (Windows paths), is unchanged, so the result is one line.
+
+    Parameters
+    ----------
+    text : str
+
+    Returns
+    -------
+    str
+    """
+    text = str(text)
+    if text.isprintable():
+        return text
+    out = []
+    for ch in text:
+        if ch.isprintable():
+            out.append(ch)
+            continue
+        code = ord(ch)
+        if ch in _SHORT_ESCAPES:
+            out.append(_SHORT_ESCAPES[ch])
+        elif 0xDC80 <= code <= 0xDCFF:  # os.fsdecode's stand-in for an undecodable byte
+            out.append(f"\\x{code - 0xDC00:02x}")
+        elif code <= 0xFF:
+            out.append(f"\\x{code:02x}")
+        elif code <= 0xFFFF:
+            out.append(f"\\u{code:04x}")
+        else:
+            out.append(f"\\U{code:08x}")
+    return "".join(out)
+
+
+_SHORT_ESCAPES = {"\n": "\\n", "\r": "\\r", "\t": "\\t"}

@@ -218,6 +218,7 @@ def _from_metadata(image: str, raw: RawFrame, meta: SurveyMeta, timings: dict[st
     frame: ThermalFrame = _run_stage(
         "calibrate", timings, caught, lambda: calibrate(raw, meta, **material_maps(zones, meta))
     )
+    del raw  # the stored values are not needed after calibration (frees the input's memory early)
     if zones is not None:  # exclude zones: invalid pixels from here on (no anomaly, no reference, no edge)
         zones, frame = _run_stage("calibrate", timings, caught, lambda: zones.exclude(frame))
     flat = _flat_warning(frame, meta)
@@ -326,10 +327,11 @@ def _flat_warning(frame: ThermalFrame, meta: SurveyMeta) -> str | None:
     """A warning when the valid pixels span less than the camera's NETD (nothing to segment)."""
     import numpy as np
 
-    valid = frame.temperature_c[~frame.mask]
-    if valid.size == 0:
+    valid = ~np.asarray(frame.mask, dtype=bool)
+    if not valid.any():
         return None
-    span = float(np.max(valid) - np.min(valid))
+    t = frame.temperature_c  # reductions over the valid pixels without copying them
+    span = float(np.max(t, where=valid, initial=-np.inf) - np.min(t, where=valid, initial=np.inf))
     netd = float(meta.camera.netd_k)
     if span >= netd:
         return None

@@ -31,6 +31,8 @@ from ._types import Analysis
 
 __all__ = ["analyse", "significance_threshold_k"]
 
+_BLOCK_ROWS = 256
+
 
 def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     """Measure and classify the anomalies of one corrected thermogram.
@@ -111,7 +113,10 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
         u=u, labels=labels, usable=usable, areas=areas, means_u=means_u, threshold_k=thr, min_area_px=MIN_SPOT_PX,
         slices=slices,
     )
-    reference[:] = trend.evaluate(np.arange(shape[0], dtype=float)[:, None], np.arange(shape[1], dtype=float)[None, :])
+    cols = np.arange(shape[1], dtype=float)[None, :]
+    for r0 in range(0, shape[0], _BLOCK_ROWS):  # a block of rows at a time: no frame-sized temporary
+        rows = np.arange(r0, min(shape[0], r0 + _BLOCK_ROWS), dtype=float)[:, None]
+        reference[r0 : r0 + rows.shape[0]] = trend.evaluate(rows, cols)
     reference[~valid] = np.nan
     allowed = usable & sound[labels]  # pixels that may serve as a sound reference
 

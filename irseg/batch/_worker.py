@@ -9,6 +9,8 @@ is part of the outcome.
 
 from __future__ import annotations
 
+import ctypes
+import ctypes.util
 import os
 from collections.abc import Iterable, Sequence
 from typing import Any
@@ -18,7 +20,39 @@ from .._version import __version__
 from ..errors import IrsegError
 from ._records import ImageFailure, ImageOutcome, ImageRecord, SurveySettings
 
-__all__ = ["run_task", "run_task_single_threaded", "import_stages"]
+__all__ = ["run_task", "run_task_single_threaded", "import_stages", "guard_malloc_trim"]
+
+_GUARD_THRESHOLD = 128 * 1024 * 1024
+_M_TRIM_THRESHOLD = -1  # glibc <malloc.h>
+
+
+def guard_malloc_trim() -> bool:
+    """Undo a tiny ``MALLOC_TRIM_THRESHOLD_`` in this worker process (glibc only; cheap, idempotent).
+
+    Why: see "Memory trimming" in :mod:`irseg.batch._dask`; it runs first in every task.
+
+    Returns
+    -------
+    bool
+        True when the threshold was raised by this call.
+    """
+    value = os.environ.get("MALLOC_TRIM_THRESHOLD_")
+    if value is None:
+        return False
+    try:
+        if int(value) >= _GUARD_THRESHOLD:
+            return False
+    except ValueError:
+        return False
+    name = ctypes.util.find_library("c")
+    if not name:
+        return False
+    try:
+        libc = ctypes.CDLL(name)
+        mallopt = libc.mallopt
+    except (OSError, AttributeError):
+        return False
+    return bool(mallopt(_M_TRIM_THRESHOLD, _GUARD_THRESHOLD))
 
 
 def _relativise(text: str, root: str) -> str:
@@ -58,10 +92,9 @@ def run_task(task: dict[str, Any]) -> ImageOutcome:
     """
     import traceback
 
-    from . import _dask
     from ..pipeline import failure_stage, process_image, render_result
 
-    _dask.guard_malloc_trim()
+    guard_malloc_trim()
     settings: SurveySettings = task["settings"]
     image, stem, root = task["image"], task["stem"], task["root"]
     timings: dict[str, float] = {}
@@ -88,7 +121,8 @@ def run_task(task: dict[str, Any]) -> ImageOutcome:
         else:
             message = f"unexpected {type(exc).__name__}: {exc} (the verbose setting shows the traceback)"
         if isinstance(exc, MemoryError):
-            message = f"out of memory ({exc}); lower the max_pixels setting or the jobs setting"
+            message = (f"out of memory in the {stage} stage ({exc or 'no detail'}); run fewer images at once "
+                       "(the jobs setting), or refuse images this large (the max_pixels setting)")
         failure = ImageFailure(
             image=image,
             stage=stage,

@@ -14,19 +14,28 @@ to the flags of :data:`irseg.cli.options.SETTING_FLAGS` (``_exit.py`` holds the 
 
 from __future__ import annotations
 
-import signal
-import traceback
-from collections.abc import Iterator
-from contextlib import contextmanager
-from typing import Any
+import sys
 
-import click
+try:  # a Ctrl-C while the command line loads is an interrupt too: exit 130, one line, no traceback
+    import signal
+    import traceback
+    from collections.abc import Iterator
+    from contextlib import contextmanager
+    from typing import Any
 
-from .._version import __version__
-from ..errors import IrsegError
-from ._exit import EXIT_ERROR, EXIT_INTERRUPTED, INTERRUPT_HINT, VERBOSE, describe
+    import click
+
+    from .._version import __version__
+    from ..errors import IrsegError
+    from ._exit import EXIT_ERROR, EXIT_INTERRUPTED, INTERRUPT_HINT, VERBOSE, describe
+except KeyboardInterrupt:  # pragma: no cover - timing-dependent; exercised by tests/cli/test_stop_signals.py
+    sys.stderr.write("Interrupted: irseg was starting; nothing was done.\n")
+    raise SystemExit(130) from None
 
 __all__ = ["cli"]
+
+#: The line printed when an interrupt comes before a command has started its work.
+_NOT_STARTED = "irseg was starting; nothing was done."
 
 @contextmanager
 def _sigterm_as_interrupt() -> Iterator[None]:
@@ -44,18 +53,62 @@ def _sigterm_as_interrupt() -> Iterator[None]:
         signal.signal(signal.SIGTERM, previous)
 
 
+def _ignore_stop_signals() -> None:
+    for signum in (signal.SIGINT, signal.SIGTERM):
+        try:
+            signal.signal(signum, signal.SIG_IGN)
+        except (ValueError, OSError):  # not the main thread
+            return
+
+
+def _interrupted(hint: str) -> None:
+    try:
+        click.echo(f"Interrupted: {hint}", err=True)
+    except (KeyboardInterrupt, OSError):  # a second Ctrl-C, or stderr gone: the exit code says it
+        pass
+
+
 class _IrsegGroup(click.Group):
-    """A click group that maps every command's exceptions to exit codes in one place."""
+    """A click group that maps every command's exceptions to exit codes in one place.
+
+    :meth:`main` runs click without its standalone handling so that a Ctrl-C or SIGTERM at
+    any moment (also while the arguments are parsed) ends in exit 130 and one line, never
+    click's "Aborted!" and exit 1; :meth:`invoke` maps the commands' exceptions.
+    """
+
+    def main(self, args: Any = None, prog_name: str | None = None, complete_var: str | None = None,
+             standalone_mode: bool = True, **extra: Any) -> Any:
+        if not standalone_mode:
+            return super().main(args, prog_name, complete_var, standalone_mode, **extra)
+        code: int = EXIT_INTERRUPTED
+        try:
+            with _sigterm_as_interrupt():
+                try:
+                    rv = super().main(args, prog_name, complete_var, False, **extra)
+                except click.exceptions.Abort as exc:
+                    if isinstance(exc.__cause__ or exc.__context__, KeyboardInterrupt):
+                        raise KeyboardInterrupt from None
+                    click.echo("Aborted!", err=True)
+                    code = EXIT_ERROR
+                except click.ClickException as exc:
+                    exc.show()
+                    code = exc.exit_code
+                else:
+                    code = rv if isinstance(rv, int) and not isinstance(rv, bool) else 0
+        except KeyboardInterrupt:
+            _interrupted(_NOT_STARTED)
+            code = EXIT_INTERRUPTED
+        if args is None:  # the process's own command line (not an embedding caller or a test runner):
+            _ignore_stop_signals()  # the outcome is decided; a late Ctrl-C must not turn it into a signal death
+        sys.exit(code)
 
     def invoke(self, ctx: click.Context) -> Any:
         try:
-            with _sigterm_as_interrupt():
-                return super().invoke(ctx)
+            return super().invoke(ctx)
         except (click.exceptions.Exit, click.ClickException, click.exceptions.Abort):
             raise
         except KeyboardInterrupt:
-            hint = ctx.meta.get(INTERRUPT_HINT) or "interrupted"
-            click.echo(f"Interrupted: {hint}", err=True)
+            _interrupted(ctx.meta.get(INTERRUPT_HINT) or _NOT_STARTED)
             ctx.exit(EXIT_INTERRUPTED)
         except IrsegError as exc:
             if ctx.meta.get(VERBOSE):
@@ -63,13 +116,19 @@ class _IrsegGroup(click.Group):
             click.echo(f"Error: {describe(str(exc))}", err=True)
             ctx.exit(EXIT_ERROR)
         except Exception as exc:  # a bug: short message, traceback on request
+            text = describe(f"unexpected {type(exc).__name__}: {_short(exc)}")
             if ctx.meta.get(VERBOSE):
                 click.echo(traceback.format_exc().rstrip(), err=True)
-                click.echo(f"Error: unexpected {type(exc).__name__}: {exc}", err=True)
+                click.echo(f"Error: {text}", err=True)
             else:
-                click.echo(f"Error: unexpected {type(exc).__name__}: {exc} (run again with -v for the "
-                           "traceback and please report it)", err=True)
+                click.echo(f"Error: {text} (run again with -v for the traceback and please report it)", err=True)
             ctx.exit(EXIT_ERROR)
+
+
+def _short(exc: BaseException, limit: int = 300) -> str:
+    """An unexpected exception's text, cut to one screen line's worth."""
+    text = str(exc)
+    return text if len(text) <= limit else text[: limit - 3] + "..."
 
 
 @click.group(cls=_IrsegGroup, context_settings={"help_option_names": ["-h", "--help"]})
@@ -92,7 +151,11 @@ def _register() -> None:
     cli.add_command(scene_cmd, "scene")
 
 
-_register()
+try:
+    _register()
+except KeyboardInterrupt:  # pragma: no cover - timing-dependent, as above
+    sys.stderr.write(f"Interrupted: {_NOT_STARTED}\n")
+    raise SystemExit(130) from None
 
 
 if __name__ == "__main__":  # pragma: no cover - exercised through subprocess tests

@@ -94,24 +94,66 @@ def metadata_options(command: Any) -> Any:
     return command
 
 
+#: Deepest list/table nesting a --set value may have (metadata needs at most one list).
+MAX_SET_NESTING = 8
+
+
+def _nesting(raw: str) -> int:
+    """Deepest bracket nesting of a TOML value, outside quoted strings (a cheap bound)."""
+    depth = deepest = 0
+    quote = ""
+    for ch in raw:
+        if quote:
+            if ch == quote:
+                quote = ""
+        elif ch in "\"'":
+            quote = ch
+        elif ch in "[{":
+            depth += 1
+            deepest = max(deepest, depth)
+        elif ch in "]}":
+            depth -= 1
+    return deepest
+
+
+def _excerpt(text: str, limit: int = 40) -> str:
+    return text if len(text) <= limit else text[: limit - 3] + "..."
+
+
 def parse_set(text: str) -> tuple[str, str, Any]:
     """Split ``section.key=value``; the value is read as a TOML value, else kept as text.
+
+    A value that opens a list or a table (``[`` or ``{``) must be valid TOML, nested at most
+    :data:`MAX_SET_NESTING` deep; it is never kept as text.
 
     Raises
     ------
     click.BadParameter
-        Not of the form ``section.key=value``.
+        Not of the form ``section.key=value``; a list or table value that is not valid TOML or
+        is nested too deep (the message quotes at most 40 characters of it).
     """
     name, sep, raw = text.partition("=")
     section, dot, key = name.strip().partition(".")
     if not sep or not dot or not section or not key or "." in key:
         raise click.BadParameter(
-            f"{text!r} is not section.key=value, e.g. --set surface.emissivity=0.95", param_hint="--set"
+            f"{_excerpt(text)!r} is not section.key=value, e.g. --set surface.emissivity=0.95", param_hint="--set"
         )
     raw = raw.strip()
+    structured = raw[:1] in ("[", "{")
+    if structured and _nesting(raw) > MAX_SET_NESTING:
+        raise click.BadParameter(
+            f"the value of {name.strip()} ({_excerpt(raw)!r}) is nested more than {MAX_SET_NESTING} deep; "
+            "metadata values are numbers, names or one list such as [8.0, 14.0]", param_hint="--set"
+        )
     try:
         value = tomllib.loads(f"v = {raw}")["v"]
-    except (tomllib.TOMLDecodeError, RecursionError):
+    except (tomllib.TOMLDecodeError, RecursionError, MemoryError) as exc:
+        if structured:
+            reason = "nested too deep" if isinstance(exc, (RecursionError, MemoryError)) else str(exc)
+            raise click.BadParameter(
+                f"the value of {name.strip()} ({_excerpt(raw)!r}) is not a TOML list or table ({reason}); "
+                "write e.g. --set camera.band_um=[8.0,14.0]", param_hint="--set"
+            ) from None
         value = raw
     return section.strip(), key.strip(), value
 
@@ -136,7 +178,8 @@ def out_dir_option(*, help: str) -> Callable[[Any], Any]:
 def jobs_option() -> Callable[[Any], Any]:
     """``-j/--jobs N``: worker processes."""
     return click.option("-j", "--jobs", type=click.IntRange(min=1), default=None,
-                        help="Worker processes (default: all cores; 1 = in this process).")
+                        help="Worker processes (default: the cores, as many as the free memory allows for "
+                        "the largest image; 1 = in this process).")
 
 
 def reader_option(choices: list[str]) -> Callable[[Any], Any]:

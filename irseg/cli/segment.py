@@ -8,6 +8,7 @@ from typing import Any
 
 import click
 
+from .._shared import escape_name
 from ..vocabulary import CAUTION_LINE
 from . import options as opt
 from ._exit import EXIT_OK, EXIT_PARTIAL, INTERRUPT_HINT, VERBOSE, describe
@@ -30,10 +31,9 @@ def _heat_text(excess_w: float | None, excess_kwh_year: float | None, *, n_anoma
     return text
 
 
-def _readers() -> list[str]:
-    from ..io import list_readers
-
-    return list_readers()
+# a copy of irseg.io.list_readers(), so that the command line starts without NumPy (a Ctrl-C
+# at start-up then finds irseg's handler in place); tests/cli keeps the two in step
+READERS = ("csv", "npy", "png", "tiff")
 
 
 @click.command("segment", short_help="Process a survey: defect list, overlays, report.",
@@ -47,7 +47,7 @@ def _readers() -> list[str]:
 @click.option("--scheduler", metavar="ADDRESS", default=None,
               help="Run on dask.distributed: 'local' starts a local cluster, else a scheduler address "
               "(tcp://host:8786) whose workers have irseg installed.")
-@opt.reader_option(_readers())
+@opt.reader_option(list(READERS))
 @opt.max_pixels_option()
 @opt.cmap_option()
 @opt.overlay_options
@@ -76,8 +76,8 @@ def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, job
     from ..batch import run_survey
 
     ctx.meta[VERBOSE] = verbose
-    ctx.meta[INTERRUPT_HINT] = (f"completed images are kept in {out_dir}; run the same command with "
-                                "--resume to finish.")
+    ctx.meta[INTERRUPT_HINT] = (f"completed images are kept in {escape_name(str(out_dir))}; run the same "
+                                "command with --resume to finish.")
     overrides = opt.overrides_from(options, sets)
     bar = None
     if sys.stderr.isatty() and not quiet:
@@ -95,11 +95,12 @@ def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, job
         if bar is not None:
             bar.total = total
             bar.update(done - bar.n)
-            bar.set_postfix_str(outcome.image, refresh=False)
+            bar.set_postfix_str(escape_name(outcome.image), refresh=False)
         if outcome.failure is not None:
             failure = outcome.failure
             message = describe(failure.message.removeprefix(f"{Path(failure.image).name}: "))
-            say_err(f"{failure.image}: failed at {failure.stage}: {message}")
+            # names escaped: a newline or an escape sequence in a file name cannot forge a line
+            say_err(f"{escape_name(failure.image)}: failed at {failure.stage}: {message}")
             if verbose and failure.traceback:
                 say_err(failure.traceback.rstrip())
 
@@ -115,13 +116,14 @@ def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, job
             bar.close()
     if not quiet:
         resumed = f" ({result.n_skipped} resumed)" if result.n_skipped else ""
-        failed = f", {result.n_failed} failed (see {out_dir / 'failures.csv'})" if result.n_failed else ""
+        failed = (f", {result.n_failed} failed (see {escape_name(str(out_dir / 'failures.csv'))})"
+                  if result.n_failed else "")
         heat = _heat_text(result.excess_w, result.excess_kwh_year, n_anomalies=result.n_anomalies,
                           n_unmeasured=int(result.summary["totals"].get("n_unmeasured") or 0))
         click.echo(
             f"irseg: {result.n_ok} of {len(result.outcomes)} images ok{resumed}{failed}; "
             f"{result.n_anomalies} anomalies; {heat}; "
-            f"report: {result.report_path}"
+            f"report: {escape_name(str(result.report_path))}"
         )
         click.echo(CAUTION_LINE)
     ctx.exit(EXIT_PARTIAL if result.n_failed else EXIT_OK)

@@ -30,10 +30,10 @@ def draw_confirm_marks(canvas: np.ndarray, points: Iterable[Any], lay: OverlayLa
     lay : OverlayLayout
         :func:`irseg.render.overlay_layout` of the thermogram.
     """
-    s = lay.scale
+    s, k = lay.scale, lay.shrink  # display pixels per thermogram pixel: s / k
     for p in points:
-        x = int(lay.image_col0 + (int(p.col) + 0.5) * s)
-        y = int(lay.image_row0 + (int(p.row) + 0.5) * s)
+        x = int(lay.image_col0 + (int(p.col) + 0.5) * s / k)
+        y = int(lay.image_row0 + (int(p.row) + 0.5) * s / k)
         colour = CONFIRM_MARK_COLOURS.get(str(p.kind), CONFIRM_MARK_COLOURS["dry"])
         cv2.circle(canvas, (x, y), 6, (0, 0, 0), 3, lineType=cv2.LINE_8)
         cv2.circle(canvas, (x, y), 6, colour, 1, lineType=cv2.LINE_8)

@@ -8,7 +8,7 @@ from dataclasses import dataclass
 from ..errors import ConfigError
 from ._margins import LEFT as _LEFT
 
-__all__ = ["OverlayLayout", "overlay_layout", "scale_bar_length_m", "BACKGROUND", "ID_SCALE"]
+__all__ = ["OverlayLayout", "overlay_layout", "scale_bar_length_m", "BACKGROUND", "ID_SCALE", "MAX_DISPLAY_SIDE"]
 
 BACKGROUND = (26, 28, 34)
 
@@ -20,6 +20,10 @@ _MIN_AREA_H = 200
 _MIN_AREA_W = 380
 _TARGET_LONG_SIDE = 480
 _MAX_UPSCALE = 16
+#: Longest side of the displayed thermogram, display pixels: larger thermograms are shown
+#: reduced by a whole factor (block means), so an overlay stays a picture for a screen or a
+#: report page (a 8000 x 6000 frame is drawn 1600 x 1200), whatever the sensor.
+MAX_DISPLAY_SIDE = 1600
 ID_SCALE = 0.45
 
 
@@ -33,7 +37,7 @@ class OverlayLayout:
         ``(M', N', 3)``: shape of the overlay array.
     scale : int
         Integer nearest-neighbour upscale of the thermogram (small sensors are enlarged so that
-        the longer side reaches about 480 pixels; never shrunk).
+        the longer side reaches about 480 pixels); 1 when the thermogram is reduced.
     image_row0, image_col0 : int
         Top-left display pixel of the thermogram; input pixel ``(r, c)`` covers display rows
         ``image_row0 + r*scale ... + scale - 1`` and the same for columns.
@@ -43,6 +47,10 @@ class OverlayLayout:
         The colour bar (rows/columns, end exclusive); the top row is the warm end.
     legend_row0 : int
         First row of the bottom strip (scale bar and cause legend).
+    shrink : int
+        Whole reduction factor of thermograms whose longer side exceeds
+        :data:`MAX_DISPLAY_SIDE` (1 otherwise): display pixel ``(i, j)`` shows the block of
+        input rows ``i*shrink ... i*shrink + shrink - 1`` and the same for columns.
     """
 
     shape: tuple[int, int, int]
@@ -56,6 +64,7 @@ class OverlayLayout:
     bar_col0: int
     bar_col1: int
     legend_row0: int
+    shrink: int = 1
 
 
 def overlay_layout(shape: tuple[int, int]) -> OverlayLayout:
@@ -70,13 +79,16 @@ def overlay_layout(shape: tuple[int, int]) -> OverlayLayout:
     -------
     OverlayLayout
         The output shape is ``(46 + max(M*s, 200) + 64, 10 + max(N*s, 380) + 86, 3)`` with the
-        upscale ``s = clip(ceil(480 / max(M, N)), 1, 16)``.
+        upscale ``s = clip(ceil(480 / max(M, N)), 1, 16)``; a thermogram longer than
+        :data:`MAX_DISPLAY_SIDE` is shown reduced by ``k = ceil(max(M, N) / 1600)``, as
+        ``ceil(M / k)`` by ``ceil(N / k)`` display pixels.
     """
     m, n = int(shape[0]), int(shape[1])
     if m < 1 or n < 1:
         raise ConfigError(f"render_overlay: image shape {shape} is empty; nothing to draw")
     s = int(min(_MAX_UPSCALE, max(1, math.ceil(_TARGET_LONG_SIDE / max(m, n)))))
-    rows, cols = m * s, n * s
+    k = max(1, -(-max(m, n) // MAX_DISPLAY_SIDE))
+    rows, cols = (m * s, n * s) if k == 1 else (-(-m // k), -(-n // k))
     area_h, area_w = max(rows, _MIN_AREA_H), max(cols, _MIN_AREA_W)
     bar_col0 = _LEFT + area_w + 12
     return OverlayLayout(
@@ -91,6 +103,7 @@ def overlay_layout(shape: tuple[int, int]) -> OverlayLayout:
         bar_col0=bar_col0,
         bar_col1=bar_col0 + 14,
         legend_row0=_TITLE_H + area_h,
+        shrink=k,
     )
 
 

@@ -151,14 +151,21 @@ def render_overlay(
     if labels.shape != shape:
         raise ConfigError(f"render_overlay: analysis.labels has shape {labels.shape}, image has {shape}")
     lay = overlay_layout(shape)
-    s = lay.scale
+    s, k = lay.scale, lay.shrink
+    range_mask = _range_mask(mask, zones, shape)
+    if k > 1:  # a large thermogram is drawn reduced: only display-sized arrays from here on
+        temp = _block_reduce(temp, k, "mean")
+        range_mask = None if range_mask is None else _block_reduce(range_mask, k, "majority")
+        mask = None if mask is None else _block_reduce(mask, k, "majority")
+        edges = None if edges is None else _block_reduce(edges, k, "any")
 
     if range_c is not None:
         lo, hi = float(range_c[0]), float(range_c[1])
         if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
             raise ConfigError(f"render_overlay: range_c = {range_c!r} must be two finite °C values, low first")
     else:
-        lo, hi = display_range(temp, mask=_range_mask(mask, zones, shape))
+        lo, hi = display_range(temp, mask=range_mask)
+    del range_mask
     canvas = np.empty(lay.shape, dtype=np.uint8)
     canvas[...] = _BACKGROUND
 
@@ -166,9 +173,12 @@ def render_overlay(
     with np.errstate(invalid="ignore", over="ignore"):
         norm = (temp.astype(np.float32) - np.float32(lo)) * np.float32(255.0 / (hi - lo))
     idx = np.clip(np.nan_to_num(norm, nan=0.0, posinf=255.0, neginf=0.0) + 0.5, 0, 255).astype(np.uint8)
+    del norm
     rgb = lut[idx]
+    del idx
+    dshape = temp.shape
     if mask is not None and mask.any():
-        checker = ((np.add.outer(np.arange(shape[0]), np.arange(shape[1])) & 1) == 0)
+        checker = ((np.add.outer(np.arange(dshape[0]), np.arange(dshape[1])) & 1) == 0)
         rgb[mask & checker] = _NO_DATA[0]
         rgb[mask & ~checker] = _NO_DATA[1]
     jumps = None
@@ -183,6 +193,7 @@ def render_overlay(
             blend_edges(rgb, thin_jump_lines(jumps, s))
     view = canvas[lay.image_row0 : lay.image_row0 + lay.image_rows, lay.image_col0 : lay.image_col0 + lay.image_cols]
     view[...] = rgb
+    del rgb
 
     if zones:
         draw_zones(canvas, zones, lay)
@@ -199,7 +210,7 @@ def render_overlay(
     draw_bottom(
         canvas,
         anomalies,
-        None if bar_m is None else (bar_m, int(round(bar_m / float(pixel_m) * s))),
+        None if bar_m is None else (bar_m, int(round(bar_m / float(pixel_m) * s / k))),
         has_mask,
         lay,
         causes=CAUSES,
@@ -230,20 +241,25 @@ def _as_bool(arr: Any, shape: tuple[int, ...], name: str) -> np.ndarray | None:
 
 
 def _draw_outlines(canvas: np.ndarray, labels: np.ndarray, anomalies: tuple, lay: OverlayLayout) -> None:
-    s = lay.scale
+    s, k = lay.scale, lay.shrink
     m, n = labels.shape
     thickness = 3
     for a in anomalies:
         aid = int(a.anomaly)
         r0, c0, r1, c1 = _bbox(a, m, n)
+        if k > 1:  # whole display blocks: every display pixel that holds a pixel of the anomaly
+            r0, c0 = r0 - r0 % k, c0 - c0 % k
         crop = labels[r0:r1, c0:c1] == aid
         if not crop.any():
             continue
+        if k > 1:
+            crop = _block_reduce(crop, k, "any")
         crop = crop.astype(np.uint8)
         if s > 1:
             crop = np.repeat(np.repeat(crop, s, axis=0), s, axis=1)
         contours, _ = cv2.findContours(
-            crop, cv2.RETR_EXTERNAL, cv2.CHAIN_APPROX_NONE, offset=(lay.image_col0 + c0 * s, lay.image_row0 + r0 * s)
+            crop, cv2.RETR_EXTERNAL, cv2.CHAIN_APPROX_NONE,
+            offset=(lay.image_col0 + c0 * s // k, lay.image_row0 + r0 * s // k),
         )
         colour = CAUSE_COLOURS.get(str(a.cause), CAUSE_COLOURS["unclassified"])
         cv2.drawContours(canvas, contours, -1, (0, 0, 0), thickness + 2, lineType=cv2.LINE_8)  # casing
@@ -263,10 +279,11 @@ def _bbox(a: Any, m: int, n: int) -> tuple[int, int, int, int]:
 
 def _draw_ids(canvas: np.ndarray, anomalies: tuple, lay: OverlayLayout) -> None:
     s = lay.scale
+    k = lay.shrink
     for a in anomalies:
         try:
-            row = (float(a.centroid_row) + 0.5) * s + lay.image_row0
-            col = (float(a.centroid_col) + 0.5) * s + lay.image_col0
+            row = (float(a.centroid_row) + 0.5) * s / k + lay.image_row0
+            col = (float(a.centroid_col) + 0.5) * s / k + lay.image_col0
         except (AttributeError, TypeError, ValueError):
             continue
         if not (math.isfinite(row) and math.isfinite(col)):
@@ -280,6 +297,38 @@ def _draw_ids(canvas: np.ndarray, anomalies: tuple, lay: OverlayLayout) -> None:
         draw_text(canvas, text, (x0, y0 + 12), _ID_SCALE, (255, 255, 255), 1)
 
 
+_BAND_BLOCKS = 64  # display rows reduced at a time: the temporaries stay a few rows of the input
+
+
+def _block_reduce(a: np.ndarray, k: int, how: str) -> np.ndarray:
+    """Reduce an ``(M, N)`` array by ``k`` in both directions, a band of rows at a time.
+
+    ``how``: ``"mean"`` (float64 block means of a numeric array), ``"any"`` (a block holding a
+    True pixel) or ``"majority"`` (more than half of a block's pixels True). The last row and
+    column of blocks may be partial: they are reduced over the pixels they hold.
+    """
+    m, n = a.shape
+    rows, cols = -(-m // k), -(-n // k)
+    out = np.empty((rows, cols), np.float64 if how == "mean" else bool)
+    for i0 in range(0, rows, _BAND_BLOCKS):
+        i1 = min(rows, i0 + _BAND_BLOCKS)
+        band = a[i0 * k : i1 * k]
+        h = band.shape[0]
+        pad_r, pad_c = (i1 - i0) * k - h, cols * k - n
+        vals = band.astype(np.float64)
+        weight = np.ones(band.shape, np.float64)
+        if pad_r or pad_c:
+            vals = np.pad(vals, ((0, pad_r), (0, pad_c)))
+            weight = np.pad(weight, ((0, pad_r), (0, pad_c)))
+        total = vals.reshape(i1 - i0, k, cols, k).sum(axis=(1, 3))
+        count = weight.reshape(i1 - i0, k, cols, k).sum(axis=(1, 3))
+        if how == "mean":
+            out[i0:i1] = total / count
+        elif how == "any":
+            out[i0:i1] = total > 0
+        else:
+            out[i0:i1] = total > 0.5 * count
+    return out
 
 
 # --------------------------------------------------------------------------- zones
@@ -323,6 +372,8 @@ def draw_zones(canvas: np.ndarray, zones: Any, lay: OverlayLayout) -> None:
         mask = np.asarray(z.mask, bool)
         if not mask.any():
             continue
+        if lay.shrink > 1:  # the zone on the reduced thermogram (every block it touches)
+            mask = _block_reduce(mask, lay.shrink, "any")
         big = np.repeat(np.repeat(mask, s, axis=0), s, axis=1) if s > 1 else mask
         spacing, direction, weight = _HATCH.get(str(z.kind), _HATCH["exclude"])
         hatch = big & (((rows + direction * cols) % spacing) == 0)

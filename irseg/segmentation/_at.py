@@ -33,6 +33,7 @@ from ._operators import (
     Workspace,
     apply_screened_laplacian,
     apply_weighted_laplacian,
+    gradient_sq,
     pcg,
 )
 
@@ -49,18 +50,6 @@ class LevelResult:
     iterations: int
     converged: bool
     cg_iterations: int
-
-
-def _gradient_sq(u: np.ndarray, out: np.ndarray, ws: Workspace) -> np.ndarray:
-    """``out = (Dx u)^2 + (Dy u)^2`` at the owning pixel (zero across the border)."""
-    out.fill(0.0)
-    np.subtract(u[:, 1:], u[:, :-1], out=ws.dx)
-    np.square(ws.dx, out=ws.dx)
-    out[:, :-1] += ws.dx
-    np.subtract(u[1:, :], u[:-1, :], out=ws.dy)
-    np.square(ws.dy, out=ws.dy)
-    out[:-1, :] += ws.dy
-    return out
 
 
 def energy(
@@ -153,6 +142,7 @@ def solve_level(
     """
     dtype = g.dtype
     shape = g.shape
+    m, n = shape
     ws = Workspace.for_shape(shape, dtype)
     if w is None:
         bw: np.ndarray | np.floating = np.float32(beta)
@@ -162,14 +152,20 @@ def solve_level(
         free_v = w > 0
         v[~free_v] = 1.0
         free = None if bool(free_v.all()) else free_v.astype(dtype)
-    rhs_u = bw * g
-    cx = np.empty((shape[0], shape[1] - 1), dtype)
-    cy = np.empty((shape[0] - 1, shape[1]), dtype)
-    grad2 = np.empty(shape, dtype)
-    diag_v = np.empty(shape, dtype)
-    inv_u = np.empty(shape, dtype)
-    inv_v = np.empty(shape, dtype)
-    scratch = np.empty(shape, dtype)
+        del free_v
+
+    def rhs_u(out: np.ndarray) -> np.ndarray:  # beta w g, formed when a u-solve needs it
+        return np.multiply(bw, g, out=out)
+
+    # The u-step needs the edge weights cx, cy; the v-step needs its diagonal (and the
+    # energy the squared gradient): they are never needed together, so they share memory.
+    # One inverse diagonal serves both steps in turn.
+    n_x, n_y = m * (n - 1), (m - 1) * n
+    weights = np.empty(max(n_x + n_y, m * n), dtype)
+    cx = weights[:n_x].reshape(m, n - 1)
+    cy = weights[n_x : n_x + n_y].reshape(m - 1, n)
+    diag_v = weights[: m * n].reshape(shape)
+    inv = np.empty(shape, dtype)
     v_old = np.empty(shape, dtype) if (not record_energy and v_tol > 0) else None
     k_pot = np.float32(alpha / (4.0 * epsilon))
     k_lap = np.float32(alpha * epsilon)
@@ -193,32 +189,34 @@ def solve_level(
         cx += eta32
         np.square(v[:-1, :], out=cy)
         cy += eta32
-        inv_u[...] = bw
-        inv_u[:, :-1] += cx
-        inv_u[:, 1:] += cx
-        inv_u[:-1, :] += cy
-        inv_u[1:, :] += cy
-        np.reciprocal(inv_u, out=inv_u)
-        n_u, _ = pcg(apply_u, rhs_u, u, inv_u, ws, rtol=cg_rtol, max_iter=cg_max_iter)
-        # v-step
-        _gradient_sq(u, grad2, ws)
-        np.add(grad2, k_pot, out=diag_v)
+        inv[...] = bw
+        inv[:, :-1] += cx
+        inv[:, 1:] += cx
+        inv[:-1, :] += cy
+        inv[1:, :] += cy
+        np.reciprocal(inv, out=inv)
+        n_u, _ = pcg(apply_u, rhs_u, u, inv, ws, rtol=cg_rtol, max_iter=cg_max_iter)
+        # v-step (cx, cy are dead: their memory now holds the v-system's diagonal)
+        gradient_sq(u, diag_v, ws)
+        diag_v += k_pot
         # diagonal of alpha eps L: 4 alpha eps inside, one neighbour less per border side
-        np.add(diag_v, 4.0 * k_lap, out=inv_v)
-        inv_v[0, :] -= k_lap
-        inv_v[-1, :] -= k_lap
-        inv_v[:, 0] -= k_lap
-        inv_v[:, -1] -= k_lap
-        np.reciprocal(inv_v, out=inv_v)
+        np.add(diag_v, 4.0 * k_lap, out=inv)
+        inv[0, :] -= k_lap
+        inv[-1, :] -= k_lap
+        inv[:, 0] -= k_lap
+        inv[:, -1] -= k_lap
+        np.reciprocal(inv, out=inv)
         if free is not None:
-            inv_v *= free
+            inv *= free
         if v_old is not None:
             v_old[...] = v
-        n_v, _ = pcg(apply_v, k_pot, v, inv_v, ws, rtol=cg_rtol, max_iter=cg_max_iter, free=free)
+        n_v, _ = pcg(apply_v, k_pot, v, inv, ws, rtol=cg_rtol, max_iter=cg_max_iter, free=free)
         np.clip(v, 0.0, 1.0, out=v)
         cg_total += n_u + n_v
+        scratch = ws.ap  # the CG buffers are free between solves
         if record_energy:
-            # energy of (u, v): grad2 belongs to the current u; smoothness = sum (v^2 + eta) G
+            # energy of (u, v); smoothness = sum (v^2 + eta) G with G the squared gradient of
+            # the current u, formed again in the diagonal's memory (same values)
             np.subtract(u, g, out=scratch)
             np.square(scratch, out=scratch)
             scratch *= bw
@@ -226,7 +224,7 @@ def solve_level(
             np.square(v, out=scratch)
             sum_v2 = _sum64(scratch)
             scratch += eta32
-            scratch *= grad2
+            scratch *= gradient_sq(u, diag_v, ws)
             smooth = _sum64(scratch)
             # sum |Dv|^2 = v . (L v) with the Neumann graph Laplacian; (1-v)^2 expanded
             apply_screened_laplacian(v, 1.0, 0.0, scratch, ws)

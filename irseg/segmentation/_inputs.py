@@ -9,7 +9,7 @@ import numpy as np
 
 from ..errors import ConfigError, InputError
 
-__all__ = ["MIN_SIZE_PX", "check_inputs", "check_number", "check_max_num_iter"]
+__all__ = ["MIN_SIZE_PX", "check_inputs", "check_number", "check_max_num_iter", "check_feature_size"]
 
 MIN_SIZE_PX = 8  # smallest accepted image side
 
@@ -83,3 +83,24 @@ def check_max_num_iter(max_num_iter: object) -> int:
     if isinstance(max_num_iter, bool) or not isinstance(max_num_iter, numbers.Integral) or max_num_iter < 1:
         raise ConfigError(f"segment: max_num_iter = {max_num_iter!r} must be an integer >= 1")
     return int(max_num_iter)
+
+
+def check_feature_size(min_feature_px: float, shape: tuple[int, ...]) -> None:
+    """Refuse a smallest feature larger than the image's shorter side.
+
+    No feature wider than the image can be separated, and the work grows with the size: the
+    merge step's square window has ``min_feature_px`` squared cells (30 000 px asked 900 MB)
+    and the phase field is ``min_feature_px / 4`` pixels wide.
+
+    Raises
+    ------
+    ConfigError
+        Naming ``[segment] min_feature_px``, the value and the valid range for this image.
+    """
+    side = int(min(shape))
+    if min_feature_px > side:
+        raise ConfigError(
+            f"segment: [segment] min_feature_px = {min_feature_px:g} px is larger than this image "
+            f"({shape[0]} x {shape[1]} px); its valid range is 1 to {side} px (the image's shorter side); "
+            "give the smallest feature worth separating, typically 4 to 50 px"
+        )

@@ -9,7 +9,9 @@ field restricted to ``[:, :-1]`` or ``[:-1, :]``.
 
 The operators work in place on preallocated float32 buffers: a 640 x 480 image
 is about 1.2 MB per field, and allocation-free loops keep the solver cache
-friendly.
+friendly. Differences are formed a block of rows at a time (a few rows of scratch instead
+of two frame-sized arrays), in the same element order as the whole-frame expressions, so
+the results are bit-identical to them.
 """
 
 from __future__ import annotations
@@ -23,38 +25,85 @@ from scipy.linalg import blas
 
 __all__ = [
     "Workspace",
+    "gradient_sq",
     "apply_weighted_laplacian",
     "apply_screened_laplacian",
     "pcg",
 ]
 
 
+_CHUNK_ROWS = 64  # rows per block of the difference operators (their scratch is a few rows, not a frame)
+
+
 @dataclass
 class Workspace:
-    """Scratch buffers for one grid size (not shared between threads)."""
+    """Scratch buffers for one grid size (not shared between threads).
 
-    dx: np.ndarray  # (M, N-1)
-    dy: np.ndarray  # (M-1, N)
+    Four full-size fields (``r``, ``z``, ``p``, ``ap``) and a few rows of difference
+    scratch: the operators work on blocks of :data:`_CHUNK_ROWS` rows, element by element
+    in the same order as whole-frame NumPy expressions, so the results are bit-identical
+    to them while no frame-sized difference array is ever held.
+    """
+
     r: np.ndarray  # (M, N) residual
     z: np.ndarray  # (M, N) preconditioned residual
     p: np.ndarray  # (M, N) search direction
-    ap: np.ndarray  # (M, N) operator times p
-    tmp: np.ndarray  # (M, N) scratch of pcg
-    op: np.ndarray  # (M, N) scratch of the operators (shares memory with tmp)
+    ap: np.ndarray  # (M, N) operator times p; holds the right-hand side at the start of pcg
+    dx: np.ndarray  # (rows, N-1) block scratch of horizontal differences
+    dy: np.ndarray  # (rows, N) block scratch of vertical differences
+    carry: np.ndarray  # (N,) the last vertical difference of the previous block
+
+    @property
+    def op(self) -> np.ndarray:
+        """Scratch of :func:`apply_screened_laplacian`: ``z``, free whenever pcg applies an operator."""
+        return self.z
 
     @classmethod
     def for_shape(cls, shape: tuple[int, int], dtype: np.dtype) -> Workspace:
         m, n = shape
+        rows = max(1, min(_CHUNK_ROWS, m))
         return cls(
-            dx=np.empty((m, n - 1), dtype),
-            dy=np.empty((m - 1, n), dtype),
             r=np.empty(shape, dtype),
             z=np.empty(shape, dtype),
             p=np.empty(shape, dtype),
             ap=np.empty(shape, dtype),
-            tmp=(tmp := np.empty(shape, dtype)),
-            op=tmp,  # pcg's scratch is free whenever an operator runs
+            dx=np.empty((rows, max(n - 1, 0)), dtype),
+            dy=np.empty((rows, n), dtype),
+            carry=np.empty(n, dtype),
         )
+
+
+def _blocks(m: int, rows: int):
+    for a in range(0, m, rows):
+        yield a, min(m, a + rows)
+
+
+def _rows_of(c: np.ndarray | float, a: int, b: int) -> np.ndarray | float:
+    return c[a:b] if isinstance(c, np.ndarray) and c.ndim == 2 else c
+
+
+def gradient_sq(u: np.ndarray, out: np.ndarray, ws: Workspace) -> np.ndarray:
+    """``out = (Dx u)^2 + (Dy u)^2`` at the owning pixel (zero across the border).
+
+    Bit-identical to ``out = 0; out[:, :-1] += (Dx u)**2; out[:-1, :] += (Dy u)**2``.
+    """
+    m, n = u.shape
+    rows = ws.dx.shape[0]
+    out.fill(0.0)
+    for a, b in _blocks(m, rows):
+        k = b - a
+        if n > 1:
+            dx = ws.dx[:k]
+            np.subtract(u[a:b, 1:], u[a:b, :-1], out=dx)
+            np.square(dx, out=dx)
+            out[a:b, :-1] += dx
+        hi = min(b, m - 1)  # vertical differences owned by rows a .. hi-1
+        if hi > a:
+            dy = ws.dy[: hi - a]
+            np.subtract(u[a + 1 : hi + 1], u[a:hi], out=dy)
+            np.square(dy, out=dy)
+            out[a:hi] += dy
+    return out
 
 
 def apply_weighted_laplacian(
@@ -86,16 +135,32 @@ def apply_weighted_laplacian(
     -------
     out : (M, N) ndarray
     """
-    dx, dy = ws.dx, ws.dy
-    np.multiply(x, diag, out=out)
-    np.subtract(x[:, 1:], x[:, :-1], out=dx)
-    dx *= cx
-    out[:, :-1] -= dx
-    out[:, 1:] += dx
-    np.subtract(x[1:, :], x[:-1, :], out=dy)
-    dy *= cy
-    out[:-1, :] -= dy
-    out[1:, :] += dy
+    m, n = x.shape
+    rows = ws.dx.shape[0]
+    carry = ws.carry
+    for a, b in _blocks(m, rows):
+        k = b - a
+        np.multiply(x[a:b], _rows_of(diag, a, b), out=out[a:b])
+        if n > 1:
+            dx = ws.dx[:k]
+            np.subtract(x[a:b, 1:], x[a:b, :-1], out=dx)
+            dx *= _rows_of(cx, a, b)
+            out[a:b, :-1] -= dx
+            out[a:b, 1:] += dx
+        # vertical: every pixel first loses its own difference, then gains the one above,
+        # as in the whole-frame form; the block's last difference waits for the next block
+        hi = min(b, m - 1)
+        if hi > a:
+            dy = ws.dy[: hi - a]
+            np.subtract(x[a + 1 : hi + 1], x[a:hi], out=dy)
+            dy *= _rows_of(cy, a, hi)
+            out[a:hi] -= dy
+        if a > 0:
+            out[a] += carry
+        if k > 1:
+            out[a + 1 : b] += ws.dy[: k - 1]
+        if b < m:
+            carry[...] = ws.dy[k - 1]
     return out
 
 
@@ -136,7 +201,7 @@ def _axpy(a: float, x: np.ndarray, y: np.ndarray) -> None:
 
 def pcg(
     apply: Callable[[np.ndarray, np.ndarray], np.ndarray],
-    b: np.ndarray | float,
+    b: np.ndarray | float | Callable[[np.ndarray], np.ndarray],
     x: np.ndarray,
     inv_diag: np.ndarray,
     ws: Workspace,
@@ -154,8 +219,9 @@ def pcg(
     ----------
     apply : callable ``(x, out) -> out``
         The SPD operator.
-    b : (M, N) ndarray or float
-        Right-hand side (a scalar: the same value everywhere).
+    b : (M, N) ndarray, float or callable ``(out) -> out``
+        Right-hand side (a scalar: the same value everywhere; a callable writes it into the
+        buffer it is given, so no frame-sized right-hand side is held between solves).
     x : (M, N) ndarray, C-contiguous
         Initial guess, overwritten by the solution.
     inv_diag : (M, N) ndarray
@@ -176,17 +242,19 @@ def pcg(
     """
     r, z, p, ap = ws.r, ws.z, ws.p, ws.ap
     rf, zf, pf, apf, xf = r.ravel(), z.ravel(), p.ravel(), ap.ravel(), x.ravel()
-    apply(x, r)
+    if callable(b):
+        b = b(ap)  # written into ap, which is free until the iterations start
+    apply(x, r)  # may use z as scratch; leaves ap alone
     np.subtract(b, r, out=r)
     if free is not None:
         r *= free
-    np.multiply(r, inv_diag, out=z)
-    rz = _dot(rf, zf)
     if np.ndim(b) == 0:
         bnorm = np.sqrt(max(float(b) ** 2 * float(np.sum(inv_diag, dtype=np.float64)), 0.0))
     else:
-        np.multiply(b, inv_diag, out=ws.tmp)
-        bnorm = np.sqrt(max(_dot(b.ravel(), ws.tmp.ravel()), 0.0))
+        np.multiply(b, inv_diag, out=z)
+        bnorm = np.sqrt(max(_dot(b.ravel(), zf), 0.0))
+    np.multiply(r, inv_diag, out=z)
+    rz = _dot(rf, zf)
     if bnorm == 0.0:
         bnorm = 1.0
     target = (rtol * bnorm) ** 2

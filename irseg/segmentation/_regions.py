@@ -31,6 +31,7 @@ from scipy import ndimage as ndi
 __all__ = ["extract_regions"]
 
 _CROSS = ndi.generate_binary_structure(2, 1)
+_BLOCK_ROWS = 256  # rows per block where a whole-frame temporary is not needed
 
 
 def _region_means(u: np.ndarray, labels: np.ndarray, n: int) -> tuple[np.ndarray, np.ndarray]:
@@ -59,8 +60,9 @@ def _assign_unlabelled(u: np.ndarray, labels: np.ndarray, todo: np.ndarray, *, m
     lab_flat = labels.reshape(-1)
     sentinel = m * n  # index of an extra "no label" cell
     lab_ext = np.concatenate([lab_flat, np.zeros(1, lab_flat.dtype)])
-    u_flat = u.reshape(-1).astype(np.float64)
-    ref_ext = np.concatenate([np.where(lab_flat > 0, u_flat, 0.0), np.zeros(1)])
+    u_flat = u.reshape(-1).astype(np.float64, copy=False)
+    ref_ext = np.zeros(m * n + 1)  # u on labelled pixels, 0 elsewhere (no frame-sized temporary)
+    np.copyto(ref_ext[:-1], u_flat, where=lab_flat > 0)
     row, col = np.divmod(band, n)
     nb = np.stack(
         [
@@ -145,9 +147,11 @@ def _thin_labels(labels: np.ndarray, n: int, side: int) -> np.ndarray:
     else:
         lo = ndi.minimum_filter(labels, size=side, mode="nearest")
         hi = ndi.maximum_filter(labels, size=side, mode="nearest")
-    inside = (lo == hi) & (lo > 0)
     survives = np.zeros(n + 1, dtype=bool)
-    survives[lo[inside].astype(np.int64)] = True
+    for a in range(0, lo.shape[0], _BLOCK_ROWS):  # a block at a time: no frame-sized index array
+        lo_b, hi_b = lo[a : a + _BLOCK_ROWS], hi[a : a + _BLOCK_ROWS]
+        inside = (lo_b == hi_b) & (lo_b > 0)
+        survives[lo_b[inside].astype(np.int64)] = True
     thin = ~survives
     thin[0] = False
     return thin
@@ -158,7 +162,7 @@ def _merge_thin(u: np.ndarray, labels: np.ndarray, n: int, side: int) -> np.ndar
     thin = _thin_labels(labels, n, side)
     parent = np.arange(n + 1)
     if not thin[1:].any():
-        return parent
+        return parent.astype(np.int32)
     means, counts = _region_means(u, labels, n)
     pairs = _adjacent_pairs(labels, thin)
     neighbours: dict[int, set[int]] = {}
@@ -185,7 +189,7 @@ def _merge_thin(u: np.ndarray, labels: np.ndarray, n: int, side: int) -> np.ndar
         counts[target] = total
         parent[rk] = target
         neighbours.setdefault(target, set()).update(neighbours.get(rk, set()))
-    return np.array([find(i) for i in range(n + 1)])
+    return np.array([find(i) for i in range(n + 1)], dtype=np.int32)
 
 
 _VALLEY_CURVATURE = 0.06  # second difference of v marking the bottom of a valley (calibrated, docs)
@@ -198,12 +202,16 @@ def _valley(v: np.ndarray) -> np.ndarray:
     sharply convex only at the bottom, so this picks the centre line of a band (also
     where it is too shallow to pass ``threshold``), not its flanks or a plateau.
     """
-    p = np.pad(v, 1, mode="edge")
-    c2 = 2.0 * p[1:-1, 1:-1]
     m, n = v.shape
     out = np.zeros(v.shape, dtype=bool)
-    for (a0, a1), (b0, b1) in (((1, 0), (1, 2)), ((0, 1), (2, 1)), ((0, 0), (2, 2)), ((0, 2), (2, 0))):
-        out |= (p[a0 : a0 + m, a1 : a1 + n] + p[b0 : b0 + m, b1 : b1 + n] - c2) >= _VALLEY_CURVATURE
+    for r0 in range(0, m, _BLOCK_ROWS):  # a block of rows at a time (same values, small temporaries)
+        r1 = min(m, r0 + _BLOCK_ROWS)
+        p = np.pad(v[max(0, r0 - 1) : r1 + 1], ((int(r0 == 0), int(r1 == m)), (1, 1)), mode="edge")
+        k = r1 - r0
+        c2 = 2.0 * p[1:-1, 1:-1]
+        block = out[r0:r1]
+        for (a0, a1), (b0, b1) in (((1, 0), (1, 2)), ((0, 1), (2, 1)), ((0, 0), (2, 2)), ((0, 2), (2, 0))):
+            block |= (p[a0 : a0 + k, a1 : a1 + n] + p[b0 : b0 + k, b1 : b1 + n] - c2) >= _VALLEY_CURVATURE
     return out
 
 

@@ -14,7 +14,7 @@ from threadpoolctl import ThreadpoolController
 
 from ..errors import ConvergenceWarning, SolverError
 from ._at import LevelResult, prolong, restrict, solve_level
-from ._inputs import MIN_SIZE_PX, check_inputs, check_max_num_iter, check_number
+from ._inputs import MIN_SIZE_PX, check_feature_size, check_inputs, check_max_num_iter, check_number
 from ._noise import noise_statistics
 from ._params import STEP_MARGIN, SegmentParams, derive_params, robust_range
 from ._regions import extract_regions
@@ -151,7 +151,7 @@ def segment(
     min_step_k : float
         Smallest temperature step that should make an edge, K.
     min_feature_px : float
-        Smallest feature worth separating, pixels (>= 1).
+        Smallest feature worth separating, pixels: from 1 to the image's shorter side.
     max_num_iter : int
         Cap on alternations at full resolution.
     tol : float
@@ -167,7 +167,8 @@ def segment(
         Not 2-D, smaller than 8 x 8, complex/bool/object dtype, NaN/inf outside the mask,
         or a mask of the wrong shape/dtype or covering everything.
     ConfigError
-        A knob out of range.
+        A knob out of range (``min_feature_px`` larger than the image's shorter side too:
+        the merge step's window and the phase-field width grow with it).
     SolverError
         The solver produced non-finite values.
 
@@ -187,6 +188,7 @@ def segment(
     noise_in = check_number("noise_k", noise_k, low=0.0, low_open=False, allow_none=True)
     step = check_number("min_step_k", min_step_k, low=0.0, low_open=True)
     feature = check_number("min_feature_px", min_feature_px, low=1.0, low_open=False)
+    check_feature_size(feature, arr.shape)
     n_iter = check_max_num_iter(max_num_iter)
     tol_f = check_number("tol", tol, low=0.0, low_open=False)
 
@@ -208,26 +210,32 @@ def segment(
         tol=tol_f,
     )
     u, v, res, total = _solve_pyramid(data, params, levels=levels, tol=tol_f)
+    energies, converged = tuple(float(e) for e in res.energies), res.converged
+    del res  # holds u and v too
+    mask_in, ref, out_dtype = data.mask, data.ref, data.out_dtype
+    del data  # the float32 data term is not needed any more
     if not (np.isfinite(u).all() and np.isfinite(v).all()):
         raise SolverError(
             "segment: the Ambrosio–Tortorelli solver produced non-finite values; "
             "check the input for extreme values or report the image"
         )
-    u_out = np.add(u, data.ref, dtype=data.out_dtype)
-    v_out = v.astype(data.out_dtype)
-    if data.mask is not None:
-        v_out[data.mask] = 1.0
+    u_out = np.add(u, ref, dtype=out_dtype)
+    del u
+    v_out = v.astype(out_dtype)
+    del v
+    if mask_in is not None:
+        v_out[mask_in] = 1.0
     edges, labels, n_regions = extract_regions(
         u_out,
         v_out,
-        data.mask,
+        mask_in,
         threshold=params.edge_threshold,
         weak_threshold=params.weak_edge_threshold,
         min_feature_px=feature,
     )
-    message = _message(params, noise_k=noise, step_k=step, converged=res.converged, alternations=total,
+    message = _message(params, noise_k=noise, step_k=step, converged=converged, alternations=total,
                        levels=levels, n_regions=n_regions, n_edges=int(edges.sum()))
-    if not res.converged:
+    if not converged:
         warnings.warn(
             f"segment: {message}; raise max_num_iter or tol for a tighter solution",
             ConvergenceWarning,
@@ -239,9 +247,9 @@ def segment(
         edges=edges,
         labels=labels,
         n_regions=n_regions,
-        energy=tuple(float(e) for e in res.energies),
+        energy=energies,
         iterations=total,
-        converged=res.converged,
+        converged=converged,
         message=message,
         params=params,
     )
@@ -319,6 +327,10 @@ def _solve_pyramid(
                 )
                 total += res.iterations
                 u, v = res.u, res.v
+            pyramid[lev] = (None, None)  # a finished grid's data is not needed again
+            del gl, wl
+            if lev > 0:
+                res = None  # the coarse fields live on in u, v until they are prolonged
     return u, v, res, total
 
 

@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 from scipy import ndimage
 
-from irseg.controls import ZoneLayer, ZoneMask, check_zone_tables, mark_zones, material_maps, zone_layer
+from irseg.controls import ZoneLayer, ZoneMask, mark_zones, material_maps, zone_layer
 from irseg.errors import MetadataError
 from irseg.metadata import load_metadata, parse_metadata_text
 from irseg.pipeline import process_image, render_result

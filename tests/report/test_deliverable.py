@@ -22,7 +22,7 @@ from irseg.report import (
 )
 from irseg.io import csv_bytes
 from irseg.report import ANOMALY_COLUMNS
-from tests.report.test_report import CHECK_SCRIPT, find_chromium, make_summary, overlay_png, parse, run_chromium
+from tests.report.test_report import find_chromium, make_summary, overlay_png, parse, run_chromium
 
 SAMPLE = Path(__file__).resolve().parents[2] / "sample_images"
 FRAMING = ("one of 6 parallel cold bands at regular 0.40 m spacing: framing members (studs, joists); "
