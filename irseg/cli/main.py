@@ -68,6 +68,18 @@ def _interrupted(hint: str) -> None:
         pass
 
 
+def _silence_stdout() -> None:
+    """Point stdout at /dev/null, so that flushing at exit does not raise a second BrokenPipeError."""
+    import os
+    import sys
+
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):  # no real stdout (embedded use): nothing to silence
+        pass
+
+
 class _IrsegGroup(click.Group):
     """A click group that maps every command's exceptions to exit codes in one place.
 
@@ -107,6 +119,9 @@ class _IrsegGroup(click.Group):
             return super().invoke(ctx)
         except (click.exceptions.Exit, click.ClickException, click.exceptions.Abort):
             raise
+        except BrokenPipeError:  # the reader of our output went away (`irseg ... | head`): stop quietly
+            _silence_stdout()
+            ctx.exit(EXIT_ERROR)
         except KeyboardInterrupt:
             _interrupted(ctx.meta.get(INTERRUPT_HINT) or _NOT_STARTED)
             ctx.exit(EXIT_INTERRUPTED)

@@ -177,3 +177,14 @@ def test_heat_text_says_what_is_missing_and_what_was_not_counted():
     text = _heat_text(1234.4, 5678.9, n_anomalies=4, n_unmeasured=1)
     assert "1,234 W" in text and "5,679 kWh/year" in text and "1 of 4 anomalies" in text
     assert "kWh/year n/a" in _heat_text(10.0, None, n_anomalies=1, n_unmeasured=0)
+
+
+def test_a_closed_output_pipe_stops_quietly(tmp_path):
+    # `irseg segment ... | head -1`: once the reader has gone (here at once), no "unexpected BrokenPipeError"
+    make_survey(tmp_path / "s", 1)
+    proc = subprocess.run(
+        f'"{sys.executable}" -m irseg segment "{tmp_path / "s"}" -o "{tmp_path / "out"}" -j 1 | true',
+        shell=True, capture_output=True, text=True, timeout=120,
+    )
+    assert "BrokenPipe" not in proc.stderr and "Traceback" not in proc.stderr, proc.stderr
+    assert (tmp_path / "out" / "anomalies.csv").is_file()
