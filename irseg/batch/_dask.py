@@ -92,8 +92,9 @@ def open_client(scheduler: str, *, jobs: int | None = None, tasks: list[dict[str
     if scheduler == "local":
         n_workers = int(jobs) if jobs else default_jobs(tasks or [])
         with dask.config.set(local_cluster_config()):
-            # the workers inherit a blocked SIGINT; an interrupt meanwhile waits for the cluster
-            with held_signals((signal.SIGINT,)):
+            # the workers inherit a blocked SIGINT (SIGTERM stays theirs: the nannies stop them
+            # with it); a Ctrl-C or SIGTERM meanwhile is acted on once the cluster exists
+            with held_signals((signal.SIGINT, signal.SIGTERM), block=(signal.SIGINT,)):
                 cluster = distributed.LocalCluster(
                     n_workers=n_workers,
                     threads_per_worker=1,
@@ -105,17 +106,24 @@ def open_client(scheduler: str, *, jobs: int | None = None, tasks: list[dict[str
                     silence_logs=logging.CRITICAL,
                 )
             stopping = False
+            client = None
             try:
-                with distributed.Client(cluster) as client:
-                    try:
-                        yield client
-                    except BaseException:
-                        stopping = True
-                        _kill_local_workers(cluster)
-                        raise
+                client = distributed.Client(cluster)
+                try:
+                    yield client
+                except BaseException:
+                    stopping = True
+                    _kill_local_workers(cluster)
+                    raise
             finally:
-                with contextlib.suppress(Exception):
-                    cluster.close(timeout=_CLOSE_TIMEOUT_S if stopping else None)
+                # closing is not interrupted half-way (a half-closed cluster makes dask's exit
+                # hook wait 10 s): a Ctrl-C meanwhile is acted on once it is closed
+                with held_signals((signal.SIGINT, signal.SIGTERM), block=()):
+                    if client is not None:
+                        with contextlib.suppress(Exception):
+                            client.close()
+                    with contextlib.suppress(Exception):
+                        cluster.close(timeout=_CLOSE_TIMEOUT_S if stopping else None)
         return
     try:
         client = distributed.Client(scheduler, timeout=f"{_CONNECT_TIMEOUT_S}s")
@@ -151,7 +159,8 @@ def open_client(scheduler: str, *, jobs: int | None = None, tasks: list[dict[str
             raise ConfigError(f"scheduler {scheduler}: the cluster has no workers; start some with dask worker")
         yield client
     finally:
-        client.close()
+        with held_signals((signal.SIGINT, signal.SIGTERM), block=()), contextlib.suppress(Exception):
+            client.close()
 
 
 @contextlib.contextmanager

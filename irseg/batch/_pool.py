@@ -1,14 +1,15 @@
 """Process-pool execution of survey tasks (used by irseg.batch).
 
 The parent alone decides how to stop. The forkserver and the workers are started with
-SIGINT and SIGTERM blocked, so a Ctrl-C at the terminal (which reaches the whole process
-group) or a SIGTERM sent to the group never interrupts a worker half-way through its start
-and never prints a worker traceback; a signal that arrives in the parent while the pool
-starts is held for that moment and then acted on. On Ctrl-C, SIGTERM (turned into
-``KeyboardInterrupt`` by the command line) or any error, the parent kills the workers at
-once instead of waiting for the images they are computing: every image accepted so far is
-already written (the caller writes each one as it arrives), the running ones are lost and
-are computed again on resume.
+SIGINT blocked, so a Ctrl-C at the terminal (which reaches the whole process group) never
+interrupts a worker half-way through its start and never prints a worker traceback (SIGTERM
+keeps its default action there: a worker it reaches ends without a word). A Ctrl-C or
+SIGTERM that arrives in the parent while the pool starts is held for that moment and then
+acted on. On Ctrl-C, SIGTERM (turned into ``KeyboardInterrupt`` by the command line) or any
+error, the parent kills the workers (SIGKILL) at once instead of waiting for the images they
+are computing: every image accepted so far is already written (the caller writes each one
+as it arrives), the running ones are lost and are computed again on resume. Orphaned
+workers (the parent killed with SIGKILL) end within a second by themselves.
 
 A worker that dies (out of memory, a crash in a native library) breaks the pool; its
 images are retried one at a time in a fresh pool, and an image that kills a worker again is
@@ -53,7 +54,7 @@ PEAK_BYTES_PER_PIXEL = 80
 WORKER_BASE_BYTES = 160 * 2**20
 #: Share of the available memory the default worker count may plan to use.
 MEMORY_SHARE = 0.8
-#: Signals blocked while the pool starts: inherited by the forkserver and every worker.
+#: Signals held in this process while the pool starts (acted on right after).
 _HELD_SIGNALS = (signal.SIGINT, signal.SIGTERM)
 _KILL_WAIT_S = 5.0  # after SIGKILL, how long to wait for each worker to be reaped
 
@@ -99,16 +100,17 @@ def _context() -> multiprocessing.context.BaseContext:
 
 
 @contextlib.contextmanager
-def held_signals(signals: Sequence[int] = _HELD_SIGNALS) -> Iterator[None]:
+def held_signals(signals: Sequence[int] = _HELD_SIGNALS, *, block: Sequence[int] | None = None) -> Iterator[None]:
     """Hold ``signals`` while processes are started, then act on any that came meanwhile.
 
-    The signals are blocked in this thread, so processes started here inherit the block
-    (a Ctrl-C at the terminal, which reaches the whole process group, then never interrupts
-    their start-up). Native threads of this process (BLAS pools) may still take the signal
-    for the process, so this process's handlers are also swapped for one that only records
-    it: a process being started is never abandoned half-way. When the block ends, the
-    handlers in force before are restored and called for each signal that came (for Ctrl-C:
-    ``KeyboardInterrupt``). Outside the main thread nothing is changed.
+    The signals of ``block`` (default: ``signals``) are blocked in this thread, so processes
+    started here inherit the block (a Ctrl-C at the terminal, which reaches the whole process
+    group, then never interrupts their start-up). Native threads of this process (BLAS pools)
+    may still take a signal for the process, so this process's handlers of ``signals`` are
+    also swapped for one that only records it: a process being started (or a cluster being
+    closed) is never abandoned half-way. When the hold ends, the handlers in force before are
+    restored and called for each signal that came (for Ctrl-C: ``KeyboardInterrupt``).
+    Outside the main thread nothing is changed.
     """
     if threading.current_thread() is not threading.main_thread():
         yield
@@ -129,7 +131,8 @@ def held_signals(signals: Sequence[int] = _HELD_SIGNALS) -> Iterator[None]:
     for signum in signals:
         with contextlib.suppress(ValueError, OSError):
             previous[signum] = signal.signal(signum, record)
-    mask = signal.pthread_sigmask(signal.SIG_BLOCK, signals) if hasattr(signal, "pthread_sigmask") else None
+    blocked = tuple(signals if block is None else block)
+    mask = signal.pthread_sigmask(signal.SIG_BLOCK, blocked) if blocked and hasattr(signal, "pthread_sigmask") else None
     try:
         yield
     finally:
@@ -148,16 +151,24 @@ def held_signals(signals: Sequence[int] = _HELD_SIGNALS) -> Iterator[None]:
 def _kill_workers(executor: ProcessPoolExecutor) -> None:
     """Stop the pool now: SIGKILL every worker (they hold no files), then release the pool.
 
-    Workers block SIGTERM (see the module docstring), and an image in native code could not
-    be interrupted anyway; the images they were computing are simply not accepted.
+    An image in native code could not be interrupted gently anyway; the images the workers
+    were computing are simply not accepted.
     """
-    processes = list((getattr(executor, "_processes", None) or {}).values())
+    processes = list((getattr(executor, "_processes", None) or {}).values())  # None once shut down
     for process in processes:
         with contextlib.suppress(Exception):
             process.kill()
     for process in processes:
         with contextlib.suppress(Exception):
             process.join(_KILL_WAIT_S)
+    # A worker killed while sending its result leaves half a message in the result pipe, and
+    # the pool's reader thread would wait for the rest for ever (then so would shutdown and the
+    # interpreter's exit). The workers are gone, so this process holds the pipe's last write
+    # end: closing it ends that read (end of file), and the pool shuts down as broken.
+    writer = getattr(getattr(executor, "_result_queue", None), "_writer", None)
+    if writer is not None:
+        with contextlib.suppress(Exception):
+            writer.close()
     executor.shutdown(wait=True, cancel_futures=True)
 
 
@@ -173,7 +184,7 @@ def _run_batch(
                                    initializer=_init_worker, initargs=(os.getpid(),))
     futures: dict[Future[Any], dict[str, Any]] = {}
     try:
-        with held_signals():  # the forkserver and the workers start with these signals blocked
+        with held_signals(block=(signal.SIGINT,)):  # the forkserver and the workers start with SIGINT blocked
             for task in tasks:
                 futures[executor.submit(fn, task)] = task
         pending = set(futures)
@@ -186,10 +197,10 @@ def _run_batch(
                     broken.append(futures[future])
                     continue
                 accept(outcome)
+        executor.shutdown(wait=True)
     except BaseException:
         _kill_workers(executor)
         raise
-    executor.shutdown(wait=True)
     return sorted(broken, key=lambda t: t["index"])
 
 

@@ -131,3 +131,14 @@ def test_the_command_line_starts_without_numpy():
     code = "import sys, irseg.cli.main; print('numpy' in sys.modules)"
     proc = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, timeout=120)
     assert proc.stdout.strip() == "False", proc.stderr
+
+
+def test_a_400_digit_integer_is_a_one_line_error_not_an_unexpected_one(tmp_path):
+    # Issue 15 item 17: float() of a 400-digit TOML integer raised OverflowError, printed as
+    # "unexpected OverflowError"; the metadata stage now names the key (its message, any wording).
+    make_survey(tmp_path / "s", 1)
+    result = _invoke(str(tmp_path / "s"), "-o", str(tmp_path / "out"), "--set", "segment.min_step_k=" + "1" * 400)
+    assert result.exit_code == 1, result.output
+    (line,) = result.stderr.splitlines()
+    assert line.startswith("Error: ") and "min_step_k" in line
+    assert "unexpected" not in line and "Traceback" not in result.stderr and len(line) < 400
