@@ -233,7 +233,12 @@ def execute(
 
         run_on_dask(run_task_single_threaded, tasks, scheduler=scheduler, jobs=jobs, accept=accept)
         return
-    n_workers = min(int(jobs) if jobs else _cpu_count(), len(tasks))
+    if jobs:
+        n_workers = min(int(jobs), len(tasks))
+    else:  # cores, and no more workers than the machine's memory holds (batch/_pool.default_jobs)
+        from ._pool import default_jobs
+
+        n_workers = min(default_jobs(tasks), len(tasks))
     if n_workers <= 1:
         from threadpoolctl import threadpool_limits
 
@@ -254,10 +259,3 @@ def execute(
     from ._pool import run_in_pool
 
     run_in_pool(run_task, tasks, n_workers=n_workers, accept=accept)
-
-
-def _cpu_count() -> int:
-    try:
-        return max(1, len(os.sched_getaffinity(0)))
-    except (AttributeError, OSError):  # pragma: no cover - non-Linux
-        return max(1, os.cpu_count() or 1)

@@ -210,3 +210,19 @@ def test_blockwise_valley_gives_the_whole_frame_answer():
     for (a0, a1), (b0, b1) in (((1, 0), (1, 2)), ((0, 1), (2, 1)), ((0, 0), (2, 2)), ((0, 2), (2, 0))):
         whole |= (p[a0 : a0 + m, a1 : a1 + n] + p[b0 : b0 + m, b1 : b1 + n] - c2) >= 0.06
     np.testing.assert_array_equal(_valley(v), whole)
+
+
+def test_a_run_without_the_jobs_setting_takes_its_worker_count_from_memory(tmp_path, monkeypatch):
+    # issue 15 item 20: the default number of workers is chosen so that their peaks fit the memory
+    from irseg.batch import run_survey
+
+    seen = []
+
+    def one_worker(tasks, **kwargs):
+        seen.append(len(tasks))
+        return 1  # as if memory held only one worker: the run stays in this process
+
+    monkeypatch.setattr(_pool, "default_jobs", one_worker)
+    make_survey(tmp_path / "s", 2)
+    result = run_survey([tmp_path / "s"], tmp_path / "out")
+    assert seen == [2] and result.n_ok == 2
