@@ -36,6 +36,7 @@ from typing import Any
 
 import numpy as np
 
+from .._shared import escape_name
 from ..errors import OutputError
 
 __all__ = [
@@ -79,7 +80,6 @@ _WINDOWS_RESERVED = {
 # --------------------------------------------------------------------------- text
 
 _SURROGATES = re.compile("[\ud800-\udfff]")
-_CONTROLS = re.compile("[\x00-\x1f\x7f-\x9f\u2028\u2029]")
 
 
 def _escape_surrogate(match: re.Match[str]) -> str:
@@ -114,7 +114,7 @@ def escape_line(text: str) -> str:
     A newline, carriage return or terminal escape sequence in a file name would otherwise
     break the line or forge another one; they become ``\\n``, ``\\r``, ``\\x1b``...
     """
-    return _CONTROLS.sub(lambda m: repr(m.group())[1:-1], escape_text(text))
+    return escape_name(text)  # one escaping rule for every line irseg prints or logs (irseg._shared)
 
 
 # --------------------------------------------------------------------------- numbers
