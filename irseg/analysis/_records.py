@@ -18,9 +18,10 @@ from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
 from ._thermal_region import Measured
 from ._types import Anomaly, severity_key, severity_score
 
-__all__ = ["ImageContext", "group_units", "anomaly_record", "rank_by_severity", "FRSI_PERCENTILE"]
+__all__ = ["ImageContext", "group_units", "anomaly_record", "rank_by_severity", "FRSI_PERCENTILE", "EDGE_NOTE"]
 
 FRSI_PERCENTILE = 5.0
+EDGE_NOTE = "touches the frame edge: its area may be cut"
 
 
 @dataclass(frozen=True)
@@ -129,8 +130,10 @@ def _cause(
         reason += f" ({len(unit) - n_frag} pieces of one member, interrupted by other anomalies or the segmentation)"
     if n_frag:
         reason += f" (with {n_frag} touching fragment(s) of similar temperature)"
-    if any(m.cand.ref.source == "trend" for m in unit):
-        reason += "; reference: the image's sound trend (no sound surface around it)"
+    if main.parts > 1:
+        reason += f" (one anomaly over {main.parts} segmented pieces: its extent is where it holds half its peak contrast)"
+    if any(m.cand.ref.source == "surface" for m in unit):
+        reason += "; reference: the local sound surface (no sound ring around it)"
     return cause, reason
 
 
@@ -154,6 +157,9 @@ def anomaly_record(
     delta_k = mean_c - reference_c
     cause, reason = _cause(unit, main, ctx=ctx, delta_k=delta_k, mean_c=mean_c, sets=sets, lines=lines,
                            host_of=host_of)
+    n_rows, n_cols = ctx.temperature_c.shape
+    if px.rows.min() == 0 or px.cols.min() == 0 or px.rows.max() == n_rows - 1 or px.cols.max() == n_cols - 1:
+        reason += f"; {EDGE_NOTE}"
     px_area = ctx.pixel_area_m2
     area_m2 = None if px_area is None else area_px * px_area
     expected_kind = "cold" if surf.view == "interior" else "warm"

@@ -147,6 +147,7 @@ class RegionInfo:
     fine_scale_px: float  # the smoothing the extent was measured at
     touches_edge: bool  # the anomaly reaches the frame edge (its area may be cut)
     split_from: int  # label of the touching anomaly it was split from (0: none)
+    component: int  # its significant component in ``DetectionInfo.components`` (signed: < 0 cold)
 
 
 @dataclass(frozen=True)
@@ -165,6 +166,7 @@ class DetectionInfo:
     extent_fraction: float
     surface_scale_k: float
     regions: tuple[RegionInfo, ...]
+    components: np.ndarray  # (M, N) int32: significant components, −k cold, +k warm, 0 none
 
 
 def detect_regions(
@@ -271,9 +273,11 @@ def detect_regions(
         return fine_cache[s]
 
     labels = np.zeros((m, n), np.int32)
+    components = np.zeros((m, n), np.int32)
     regions: list[RegionInfo] = []
     for sign in (-1, 1):
         comp, has_seed = grown[sign]
+        components[comp > 0] = sign * comp[comp > 0]
         if not has_seed.any():
             continue
         for k, sl in enumerate(ndimage.find_objects(comp), start=1):
@@ -285,7 +289,7 @@ def detect_regions(
                 split_plateaus=split_plateaus, valid=valid,
             )
     info = DetectionInfo(noise, pixel_m, min_area_px, length_px, scales, tuple(sig), tuple(sig_w), k_hi, k_lo,
-                         extent_fraction, surf.scale_k, tuple(regions))
+                         extent_fraction, surf.scale_k, tuple(regions), components)
     return labels, surf.surface, info
 
 
@@ -398,10 +402,12 @@ def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, mi
             rims[lab] = rim_px
             rr, cc = np.nonzero(core)
             edge = bool(rr.min() + r0 == 0 or cc.min() + c0 == 0 or rr.max() + r0 == m - 1 or cc.max() + c0 == n - 1)
-            regions.append(RegionInfo(lab, sign, sign * peak, sign * level, area, s_f, edge, split_from))
+            regions.append(RegionInfo(lab, sign, sign * peak, sign * level, area, s_f, edge, split_from, sign * k))
         claimed |= band if accept else _dilate(core, 1)
-        if not accept and not touching and int(core.sum()) < min_area_px:
-            claimed |= band  # a small isolated peak: its tail is not a defect either
+        if not accept and (touching or int(core.sum()) < min_area_px):
+            # a tail falling away from a taken anomaly, or a small isolated peak: its edge band is
+            # not a defect either (what lies beyond is looked at again, and touches it)
+            claimed |= band
         rl, nr = ndimage.label(rest & ~claimed, structure=_SQUARE)
         for i in range(1, nr + 1):
             queue.append((rl == i, 0))

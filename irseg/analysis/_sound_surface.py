@@ -66,7 +66,7 @@ import numpy as np
 
 from .._shared import MAD_TO_SIGMA
 
-__all__ = ["SoundSurface", "fit_sound_surface", "TUKEY_C"]
+__all__ = ["SoundSurface", "fit_sound_surface", "TUKEY_C", "EDGE_CONFIRM"]
 
 #: Tukey biweight tuning constant (95 % Gaussian efficiency).
 TUKEY_C = 4.685
@@ -82,6 +82,7 @@ _LTS_COVERAGE = 0.55
 _LTS_STARTS = 40
 _LTS_CSTEPS = 3
 _LTS_SEED = 20240611
+EDGE_CONFIRM = 0.5  # an edge decay needs half of its energy on blocks kept as sound
 
 
 @dataclass(frozen=True)
@@ -167,11 +168,14 @@ def _evaluate_global(beta: np.ndarray, m: int, n: int, lam: float | None) -> np.
     return u @ v
 
 
-def _wls(x: np.ndarray, y: np.ndarray, w: np.ndarray | None = None) -> np.ndarray:
-    """Weighted least squares by the normal equations (7 unknowns; a tiny ridge keeps them regular)."""
+def _wls(x: np.ndarray, y: np.ndarray, w: np.ndarray | None = None, ridge: np.ndarray | None = None) -> np.ndarray:
+    """Weighted least squares by the normal equations (a tiny ridge keeps them regular; ``ridge``
+    adds a penalty per coefficient)."""
     xw = x if w is None else x * w[:, None]
     a = xw.T @ x
     a[np.diag_indices_from(a)] += 1e-9 * max(float(np.trace(a)), 1e-12)
+    if ridge is not None:
+        a[np.diag_indices_from(a)] += ridge
     return np.linalg.solve(a, xw.T @ y)
 
 
@@ -252,6 +256,27 @@ def _lts_start(xd: np.ndarray, yv: np.ndarray, shape: tuple[int, int], ok: np.nd
     return w
 
 
+def _backfit(*, x_design: np.ndarray, y: np.ndarray, ok: np.ndarray, base: np.ndarray, lengths: list[float],
+             gy: np.ndarray, gx: np.ndarray, floor: float, w0: np.ndarray,
+             ridge: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, float]:
+    """Backfitting of the global and the local part with Tukey reweighting: ``(beta, local, weights, scale)``."""
+    yv = y[ok]
+    w = w0
+    local = np.zeros_like(y)
+    glob = np.zeros_like(y)
+    scale = floor
+    beta = np.zeros(x_design.shape[1])
+    for length in lengths:
+        beta = _wls(x_design, yv - local[ok], w[ok], ridge)
+        glob[ok] = x_design @ beta
+        local = _local_linear(np.where(ok, y - glob, 0.0), w, base, length, gy, gx)
+        r = (y - glob - local)[ok]
+        scale = max(MAD_TO_SIGMA * float(np.median(np.abs(r - np.median(r)))), floor)
+        w = np.zeros_like(y)
+        w[ok] = base[ok] * _tukey(r, TUKEY_C * scale)
+    return beta, local, w, scale
+
+
 def fit_sound_surface(
     temperature_c: np.ndarray,
     invalid: np.ndarray | None = None,
@@ -307,21 +332,24 @@ def fit_sound_surface(
     lb = max(float(length_px) / b, 0.5)  # sound length in blocks
 
     gy, gx = np.meshgrid(np.arange(mb, dtype=float) - mb / 2.0, np.arange(nb, dtype=float) - nb / 2.0, indexing="ij")
-    w = base * _lts_start(x_design[:, :7], yv, y.shape, ok, base)  # the frame-tied part alone
-    local = np.zeros_like(y)
-    glob = np.zeros_like(y)
-    scale = floor
+    w0 = base * _lts_start(x_design[:, :7], yv, y.shape, ok, base)  # the frame-tied part alone
+    w = w0
     # graduated: from the robust start, the local part at 4, 2 and 1 sound lengths, so a large anomaly
     # is excluded by the stiff fits before a flexible one could follow it
     lengths = [f * lb for f in _LENGTH_STEPS for _ in range(_PER_STEP)]
-    for length in lengths:
-        beta = _wls(x_design, yv - local[ok], w[ok])
-        glob[ok] = x_design @ beta
-        local = _local_linear(np.where(ok, y - glob, 0.0), w, base, length, gy, gx)
-        r = (y - glob - local)[ok]
-        scale = max(MAD_TO_SIGMA * float(np.median(np.abs(r - np.median(r)))), floor)
-        w = np.zeros_like(y)
-        w[ok] = base[ok] * _tukey(r, TUKEY_C * scale)
+    fit = dict(x_design=x_design, y=y, ok=ok, base=base, lengths=lengths, gy=gy, gx=gx, floor=floor)
+    ridge = np.zeros(x_design.shape[1])
+    beta, local, w, scale = _backfit(w0=w, ridge=ridge, **fit)
+    if edge_length_px is not None:
+        # an edge decay must be confirmed by sound data at its own edge: one fitted from the far tail
+        # while the blocks along the edge are excluded (an anomaly lying along that edge) is an
+        # extrapolation; it is switched off and the surface refitted
+        energy = x_design[:, 7:] ** 2
+        support = (w[ok][:, None] * energy).sum(axis=0) / np.maximum((base[ok][:, None] * energy).sum(axis=0), 1e-12)
+        off = (support < EDGE_CONFIRM) & (np.abs(beta[7:]) > TUKEY_C * scale)
+        if off.any():
+            ridge[7:][off] = 1e9 * max(float(base.sum()), 1.0)
+            beta, local, w, scale = _backfit(w0=w0, ridge=ridge, **fit)
 
     # back to full resolution: the global part exactly, the local part bilinear between block centres
     surf = _evaluate_global(beta, m, n, edge_length_px)

@@ -101,8 +101,9 @@ class Analysis:
     h_w_m2k : float or None
         Surface heat-transfer coefficient used, W/m²K.
     reference_c : (M, N) float ndarray
-        Local sound reference, °C: each anomaly's ring plane over its thermal region, the
-        image's sound trend elsewhere; NaN on masked pixels.
+        Local sound reference, °C: each segmented anomaly's ring plane over its thermal
+        region, the local sound surface elsewhere (under the detected anomalies too); NaN
+        on masked pixels.
     warnings : tuple of str
         Conditions and metadata warnings.
     """
