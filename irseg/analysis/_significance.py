@@ -99,6 +99,8 @@ from scipy import ndimage
 from ._scales import (
     K_HI,
     _dilate,
+    dome_of,
+    without_lines,
     _fill_holes,
     _pct,
     contrast_at_scales,
@@ -117,13 +119,18 @@ K_LO = 3.0
 EXTENT_FRACTION = 0.5
 JOIN_FRACTION = 0.25  # half-peak pieces joined through this fraction of the peak are one anomaly
 PLATEAU_RATIO = 0.85
+BROAD_FRACTION = 0.5  # a broad anomaly keeps this share of its peak with the narrow members taken out
+SADDLE_DIP = 0.25  # a dome beside a taken anomaly: its contrast falls by a quarter toward it
 WRAP_MAX = 0.5  # a touching plateau may border at most half of the other anomaly's outline
 FINE_NOISE_FRACTION = 0.04  # the extent is measured where σ_fine ≤ 4 % of the peak
+EDGE_JITTER_PX = 0.5  # ... and where the noise moves its half-peak edge by at most half a pixel
 PEAK_NOISE_FRACTION = 0.01  # the peak is read where σ ≤ 1 % of it
 PEAK_PERCENTILE = 99.0
 MIN_AREA_M2 = 0.005
 MIN_AREA_FRACTION = 1e-3  # without geometry: 0.1 % of the frame
 SOUND_LENGTH_M = 0.2
+LINE_WIDTH_M = 0.12  # members (studs, joists) up to 100 mm wide, blurred: never a ridge joining two defects
+LINE_WIDTH_FRACTION = 0.05  # without geometry: of the frame's long side
 EDGE_LENGTH_M = 0.2  # decay of the cooling toward a corner or junction at a frame edge
 EDGE_LENGTH_FRACTION = 0.08
 SOUND_LENGTH_FRACTION = 0.15  # without geometry: of the frame's long side
@@ -224,10 +231,12 @@ def detect_regions(
     valid = ~invalid & np.isfinite(t)
     t = np.where(valid, t, np.nanmedian(t[valid]) if valid.any() else 0.0)
     if pixel_m is not None and pixel_m > 0:
+        line_px = LINE_WIDTH_M / pixel_m
         min_area_px = max(9, int(round(min_area_m2 / pixel_m**2)))
         length_px = sound_length_m / pixel_m
         edge_px = EDGE_LENGTH_M / pixel_m
     else:
+        line_px = LINE_WIDTH_FRACTION * max(m, n)
         edge_px = EDGE_LENGTH_FRACTION * max(m, n)
         min_area_px = max(9, int(round(MIN_AREA_FRACTION * m * n)))
         length_px = SOUND_LENGTH_FRACTION * max(m, n)
@@ -285,7 +294,8 @@ def detect_regions(
                 continue
             _extract(
                 comp=comp, k=k, sl=sl, sign=sign, fine=fine, noise=noise, labels=labels, regions=regions,
-                min_area_px=min_area_px, min_contrast_k=min_contrast_k, k_hi=k_hi, extent_fraction=extent_fraction,
+                min_area_px=min_area_px, min_contrast_k=min_contrast_k, k_hi=k_hi, line_px=line_px,
+                extent_fraction=extent_fraction,
                 split_plateaus=split_plateaus, valid=valid,
             )
     info = DetectionInfo(noise, pixel_m, min_area_px, length_px, scales, tuple(sig), tuple(sig_w), k_hi, k_lo,
@@ -321,7 +331,28 @@ def _choose_fine(peak_rough: float, noise: float, fraction: float) -> float:
     return _FINE_SCALES[-1]
 
 
-def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, min_contrast_k, k_hi,
+def _steady_edge_scale(rough: np.ndarray, piece: np.ndarray, peak: float, noise: float, s_f: float) -> float:
+    """The fine scale, raised until the half-peak edge holds still: noise at that scale over the contrast
+    gradient across the edge at most :data:`EDGE_JITTER_PX` px (a soft edge is crossed at a shallow
+    slope, where the noise moves the crossing), but never wider than a quarter of the ramp itself
+    (``peak/gradient``), so the smoothing does not move the edge either."""
+    near = piece & (np.abs(rough - 0.5 * peak) <= 0.15 * peak)
+    if near.sum() < 8:
+        return s_f
+    gr, gc = np.gradient(rough)
+    grad = float(np.median(np.hypot(gr, gc)[near]))
+    if grad <= 0:
+        return s_f
+    cap = 0.25 * peak / grad
+    for s in _FINE_SCALES:
+        if s < s_f:
+            continue
+        if noise * gaussian_noise_factor(s) <= EDGE_JITTER_PX * grad or s >= cap:
+            return max(s_f, min(s, max(cap, s_f)))
+    return max(s_f, min(_FINE_SCALES[-1], max(cap, s_f)))
+
+
+def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, min_contrast_k, k_hi, line_px,
              extent_fraction, split_plateaus, valid) -> None:
     """Anomalies of one grown component: the strongest first, then separate plateaus and pieces."""
     m, n = comp.shape
@@ -346,27 +377,39 @@ def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, mi
         p_rough = _pct(rough[piece], PEAK_PERCENTILE)
         if p_rough <= 0:
             continue
-        s_f = _choose_fine(p_rough, noise, FINE_NOISE_FRACTION)
+        s_f = _steady_edge_scale(rough, piece, p_rough, noise, _choose_fine(p_rough, noise, FINE_NOISE_FRACTION))
         sig_f = noise * gaussian_noise_factor(s_f)
         v = sign * fine(s_f)[crop]
         # the peak: the maximum where the noise is at most 1 % of it, with the window kept well inside
         # the piece (a quarter of its equivalent radius), so neither noise nor smoothing moves it much
         s_p = min(_choose_fine(p_rough, noise, PEAK_NOISE_FRACTION),
                   max(s_f, 0.25 * math.sqrt(float(piece.sum()) / math.pi)))
-        peak = float((sign * fine(s_p)[crop])[piece].max())
+        vp = sign * fine(s_p)[crop]
+        peak = float(vp[piece].max())
+        # broad anomalies before narrow members: where taking the members out (studs, joists) keeps
+        # at least half of the peak, the peak, the strongest place and the domes are read without them
+        broad = without_lines(vp, line_px)
+        p_broad = float(broad[piece].max())
+        is_broad = p_broad >= BROAD_FRACTION * peak
+        if is_broad:
+            peak = p_broad
         if peak < max(min_contrast_k, k_hi * sig_f):
             continue
         level = extent_fraction * peak
         region_of = piece | (near & ~claimed & _dilate(piece, 2))
-        above = (v >= level) & region_of & ~claimed
+        # a broad anomaly's extent is read with its narrow members taken out: a stud or joist in or
+        # beside it neither widens nor cuts its outline (the member stays an anomaly of its own)
+        above = ((broad if is_broad else v) >= level) & region_of & ~claimed
         joined = (v >= JOIN_FRACTION * peak) & region_of & ~claimed
         jl, _ = ndimage.label(joined, structure=_SQUARE)
         # the strongest place: the pixel of the piece at the robust peak's level nearest the maximum
-        top = np.argmax(np.where(above, v, -np.inf))
+        top = np.argmax(np.where(above, broad if is_broad else v, -np.inf))
         anchor = jl.flat[top]
-        if anchor == 0:
+        if anchor == 0 or not above.flat[top]:
             continue
-        core = above & (jl == anchor)
+        core = above & dome_of(broad, jl == anchor, top, dip_k=SADDLE_DIP * peak, line_px=line_px)
+        cl, _ = ndimage.label(core, structure=_SQUARE)
+        core = cl == cl.flat[top]
         core = _fill_holes(core)
         core &= ~claimed
         touching = bool((_dilate(core, 1) & claimed).any())
@@ -376,12 +419,15 @@ def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, mi
         accept = int(core.sum()) >= min_area_px
         split_from = 0
         if accept and touching:
-            # a remainder next to a taken anomaly: its own defect only with its own plateau, and only
-            # beside it (a halo wrapping round more than half of its outline, or weaker than a quarter
-            # of its peak, is its tail)
+            # a remainder next to a taken anomaly: its own defect only with its own plateau or its own
+            # dome (its contrast falls toward the taken one: a saddle between them), and only beside it
+            # (a halo wrapping round more than half of its outline, or weaker than a quarter of its
+            # peak, is its tail)
             nb = taken[_dilate(core, rim_px + 2) & (taken > 0)]
             split_from = int(np.bincount(nb).argmax()) if nb.size else 0
-            accept = split_plateaus and _pct(v[core], 50.0) >= PLATEAU_RATIO * peak
+            rim = core & _dilate(claimed, 1)
+            dome = rim.any() and float(v[rim].max()) <= (1.0 - SADDLE_DIP) * float(v[core].max())
+            accept = split_plateaus and (dome or _pct(v[core], 50.0) >= PLATEAU_RATIO * peak)
             if accept and split_from:
                 a_band = _dilate(taken == split_from, rims[split_from])
                 outline = _dilate(a_band, 1) & ~a_band

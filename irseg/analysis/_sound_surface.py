@@ -82,6 +82,7 @@ _LTS_COVERAGE = 0.55
 _LTS_STARTS = 40
 _LTS_CSTEPS = 3
 _LTS_SEED = 20240611
+_MEDIAN_HALF_NORMAL = 0.6744897501960817  # Φ⁻¹(0.75) [C]
 EDGE_CONFIRM = 0.5  # an edge decay needs half of its energy on blocks kept as sound
 
 
@@ -256,6 +257,33 @@ def _lts_start(xd: np.ndarray, yv: np.ndarray, shape: tuple[int, int], ok: np.nd
     return w
 
 
+def _half_sample_mode(r: np.ndarray) -> float:
+    """Half-sample mode: the centre of the densest half of the values, recursively (Bickel &
+    Frühwirth 2006, from memory); it stays on the sound population when the anomalies pull the median."""
+    v = np.sort(r)
+    while v.size > 3:
+        h = (v.size + 1) // 2
+        widths = v[h - 1:] - v[: v.size - h + 1]
+        i = int(np.argmin(widths))
+        v = v[i:i + h]
+    return float(np.mean(v))
+
+
+def _one_sided_scale(r: np.ndarray) -> float:
+    """Robust scale of block residuals of which a large part may be anomalous, mostly on one side.
+
+    About the half-sample mode, the median deviation of each side over 0.6745 (the median of
+    the half-normal, Φ⁻¹(0.75) [C]) is a Gaussian population's σ; the smaller of the two is kept,
+    the side the anomalies do not fill. Cold defects seen from inside and warm ones from outside
+    mostly share one sign, and their soft halos can hold half the frame, where a two-sided median
+    absolute deviation would take them for sound variation.
+    """
+    centre = _half_sample_mode(r)
+    up, down = r[r > centre] - centre, centre - r[r < centre]
+    sides = [float(np.median(x)) / _MEDIAN_HALF_NORMAL for x in (up, down) if x.size >= 16]
+    return min(sides) if sides else float(np.median(np.abs(r - centre))) / _MEDIAN_HALF_NORMAL
+
+
 def _backfit(*, x_design: np.ndarray, y: np.ndarray, ok: np.ndarray, base: np.ndarray, lengths: list[float],
              gy: np.ndarray, gx: np.ndarray, floor: float, w0: np.ndarray,
              ridge: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, float]:
@@ -271,7 +299,7 @@ def _backfit(*, x_design: np.ndarray, y: np.ndarray, ok: np.ndarray, base: np.nd
         glob[ok] = x_design @ beta
         local = _local_linear(np.where(ok, y - glob, 0.0), w, base, length, gy, gx)
         r = (y - glob - local)[ok]
-        scale = max(MAD_TO_SIGMA * float(np.median(np.abs(r - np.median(r)))), floor)
+        scale = max(_one_sided_scale(r), floor)
         w = np.zeros_like(y)
         w[ok] = base[ok] * _tukey(r, TUKEY_C * scale)
     return beta, local, w, scale
