@@ -16,7 +16,7 @@ from scipy import ndimage
 from .._shared import MAD_TO_SIGMA
 
 __all__ = ["gaussian_noise_factor", "scale_bank", "contrast_at_scales", "pixel_noise_k",
-           "min_detectable_contrast_k", "dome_of", "without_lines", "K_HI", "FULL_RES_MAX_S"]
+           "min_detectable_contrast_k", "dome_of", "without_lines", "long_lines", "K_HI", "FULL_RES_MAX_S"]
 
 K_HI = 5.0  # seeds: |contrast at scale| > K_HI·σ at that scale
 FULL_RES_MAX_S = 3.0  # scales up to this many pixels are smoothed at full resolution
@@ -190,6 +190,19 @@ def without_lines(v: np.ndarray, line_px: float) -> np.ndarray:
     return np.minimum(_expand(opened, v.shape, cv2.INTER_LINEAR), v)
 
 
+def long_lines(mask: np.ndarray, line_px: float) -> np.ndarray:
+    """The parts of ``mask`` that are long lines: components at least three times ``line_px`` long
+    (the opening also clips the corners of a broad anomaly, small pieces that are not members)."""
+    lab, k = ndimage.label(mask)
+    if k == 0:
+        return mask
+    keep = np.zeros(k + 1, bool)
+    for i, sl in enumerate(ndimage.find_objects(lab), start=1):
+        if sl is not None and max(sl[0].stop - sl[0].start, sl[1].stop - sl[1].start) >= 3.0 * line_px:
+            keep[i] = True
+    return keep[lab]
+
+
 def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, line_px: float) -> np.ndarray:
     """The part of ``region`` in the same dome of ``field`` as the pixel ``top`` (flat index).
 
@@ -198,7 +211,7 @@ def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, li
     field is the contrast with its narrow members taken out (:func:`without_lines`), so a joist
     running between two defects is not a ridge joining them. Computed on the reduced copy.
     """
-    from skimage.morphology import h_maxima
+    from skimage.morphology import reconstruction
     from skimage.segmentation import watershed
 
     m, n = field.shape
@@ -210,8 +223,15 @@ def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, li
     if not inside.any():
         return region
     small = np.where(inside, small, float(small[inside].min()))
-    peaks = h_maxima(small.astype(np.float64), dip_k).astype(bool) & inside
-    markers, k = ndimage.label(peaks)
+    # h-domes: f − reconstruction(f − h) is positive on every dome; a dome standing h above its
+    # saddle reaches h (equal maxima joined above the saddle are one dome, not several markers)
+    f64 = small.astype(np.float64)
+    domes = f64 - reconstruction(f64 - dip_k, f64, method="dilation")
+    comp, k = ndimage.label(domes > 1e-9 * max(dip_k, 1e-12))
+    if k <= 1:
+        return region
+    tall = np.flatnonzero(ndimage.maximum(domes, comp, index=np.arange(1, k + 1)) >= 0.999 * dip_k) + 1
+    markers, k = ndimage.label(np.isin(comp, tall) & inside)
     if k <= 1:
         return region
     basins = watershed(-small, markers, mask=inside)

@@ -101,6 +101,7 @@ from ._scales import (
     _dilate,
     dome_of,
     without_lines,
+    long_lines,
     _fill_holes,
     _pct,
     contrast_at_scales,
@@ -336,11 +337,11 @@ def _steady_edge_scale(rough: np.ndarray, piece: np.ndarray, peak: float, noise:
     gradient across the edge at most :data:`EDGE_JITTER_PX` px (a soft edge is crossed at a shallow
     slope, where the noise moves the crossing), but never wider than a quarter of the ramp itself
     (``peak/gradient``), so the smoothing does not move the edge either."""
-    near = piece & (np.abs(rough - 0.5 * peak) <= 0.15 * peak)
+    near = piece & (np.abs(rough - 0.5 * peak) <= 0.05 * peak)
     if near.sum() < 8:
         return s_f
     gr, gc = np.gradient(rough)
-    grad = float(np.median(np.hypot(gr, gc)[near]))
+    grad = float(np.percentile(np.hypot(gr, gc)[near], 75))  # on the edge, not on a plateau near half the peak
     if grad <= 0:
         return s_f
     cap = 0.25 * peak / grad
@@ -397,9 +398,12 @@ def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, mi
             continue
         level = extent_fraction * peak
         region_of = piece | (near & ~claimed & _dilate(piece, 2))
-        # a broad anomaly's extent is read with its narrow members taken out: a stud or joist in or
-        # beside it neither widens nor cuts its outline (the member stays an anomaly of its own)
-        above = ((broad if is_broad else v) >= level) & region_of & ~claimed
+        # a broad anomaly's extent is read with its narrow members taken out: on a stud or joist in or
+        # beside it (a long narrow line standing out of the members-removed contrast) the members-removed
+        # contrast decides, so the member neither widens nor cuts its outline (it stays an anomaly of
+        # its own); elsewhere, corners included, the contrast itself
+        field = np.where(long_lines(v - broad >= 0.5 * level, line_px), broad, v) if is_broad else v
+        above = (field >= level) & region_of & ~claimed
         joined = (v >= JOIN_FRACTION * peak) & region_of & ~claimed
         jl, _ = ndimage.label(joined, structure=_SQUARE)
         # the strongest place: the pixel of the piece at the robust peak's level nearest the maximum

@@ -84,7 +84,12 @@ def _ceiling(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, patch=(0.9, 1.5, 0.6
 
 
 def _masonry(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, slab_y=None, patch=None, lintel=None, void=None,
-             sky_view=(0.4, 0.5), view="exterior", fan=None, stratification_k_m=1.0, stratification_k_m2=0.0):
+             sky_view=(0.4, 0.5), view="exterior", fan=None, stratification_k_m=1.0, stratification_k_m2=0.0,
+             solid=False, damp=None, relative_humidity=0.5):
+    if solid:
+        return _solid_wall(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, damp=damp, fan=fan,
+                           stratification_k_m=stratification_k_m, stratification_k_m2=stratification_k_m2,
+                           relative_humidity=relative_humidity)
     el = masonry_wall()
     ds = []
     if slab_y is not None:
@@ -129,8 +134,7 @@ def _roof(*, inside_c=20.0, wind_m_s=1.0, insulation="eps", wet=((1.2, 2.4, 0.9,
     return el, ds, cond, "roof", NightSchedule(dt_s=dt_s, end_h=end_h, air_mean_c=air_mean_c)
 
 
-PRESETS = {"timber-wall": _timber_wall, "ceiling": _ceiling, "masonry-wall": _masonry, "flat-roof": _roof,
-           "solid-wall": _solid_wall}
+PRESETS = {"timber-wall": _timber_wall, "ceiling": _ceiling, "masonry-wall": _masonry, "flat-roof": _roof}
 
 
 def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
@@ -138,7 +142,7 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
 
     Parameters
     ----------
-    kind : {"timber-wall", "ceiling", "masonry-wall", "flat-roof", "solid-wall"}
+    kind : {"timber-wall", "ceiling", "masonry-wall", "flat-roof"}
     name : str
         Scene name carried into the truth.
     **options
@@ -150,10 +154,10 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
         ``stratification_k_m``, ``stratification_k_m2``; ceiling: ``patch`` (x0, x1, y0, y1, or
         None), ``partial`` ((x0, x1, y0, y1, remaining fraction), ...); masonry wall: ``slab_y``,
         ``patch``, ``lintel``, ``void`` (x0, x1, y0, y1, depth), ``sky_view`` (top, bottom),
-        ``view`` ("exterior" or "interior"), ``fan`` (x, y, width, drop_k), stratification; solid
-        wall (uninsulated brick, seen from inside): ``damp`` (tide line height, wave, soft band,
-        water fraction, wet surface fraction, or None), ``fan``, stratification,
-        ``relative_humidity``; flat roof: ``insulation``, ``wet`` ((x0, x1, y0, y1, water
+        ``view`` ("exterior" or "interior"), ``fan`` (x, y, width, drop_k), stratification, and
+        ``solid=True`` for an uninsulated solid brick wall seen from inside (3.0 × 2.4 m) with
+        ``damp`` (tide line height, wave, soft band, water fraction, wet surface fraction, or
+        None), ``fan``, stratification, ``relative_humidity``; flat roof: ``insulation``, ``wet`` ((x0, x1, y0, y1, water
         fraction), ...), ``tapered`` ((x0, x1, y0, y1, water fraction, rings), ...) wetness
         tapering to the edge, ``dt_s``, ``end_h``, ``air_mean_c``.
 

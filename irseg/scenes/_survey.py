@@ -90,8 +90,10 @@ def graded_region(contrast: np.ndarray, mask: np.ndarray, pixel_m: float) -> np.
     and the region are read on the contrast with its narrow members taken out (a grey opening with
     a disk :data:`MEMBER_WIDTH_M` across: a stud or joist the defect exposes or runs past is a
     line of its own, neither the defect's peak nor a change of its outline): the peak is the 99th
-    percentile over the mask, the region where that contrast holds half of the peak, within
-    0.15 m of the mask, its parts that touch the mask.
+    percentile over the mask; the region is where the contrast holds half of the peak, read on
+    long members (lines standing a quarter of the peak out of the opened contrast, at least three
+    disk widths long) on the opened contrast, within 0.15 m of the mask, its parts that touch
+    the mask.
     """
     if not mask.any():
         return mask.copy()
@@ -101,7 +103,12 @@ def graded_region(contrast: np.ndarray, mask: np.ndarray, pixel_m: float) -> np.
     reach = max(1, int(round(_GRADED_REACH_M / pixel_m)))
     near = ndimage.binary_dilation(mask, iterations=reach)
     peak = float(np.percentile(broad[mask], 99))
-    half = near & (broad >= GRADED_FRACTION * peak)
+    lines, k = ndimage.label(c - broad >= 0.5 * GRADED_FRACTION * peak)
+    long = np.zeros(k + 1, bool)
+    for i, sl in enumerate(ndimage.find_objects(lines), start=1):
+        long[i] = max(sl[0].stop - sl[0].start, sl[1].stop - sl[1].start) * pixel_m >= 3.0 * MEMBER_WIDTH_M
+    long[0] = False
+    half = near & (np.where(long[lines], broad, c) >= GRADED_FRACTION * peak)
     lab, _ = ndimage.label(half)
     keep = np.unique(lab[half & mask])
     return np.isin(lab, keep[keep > 0])
