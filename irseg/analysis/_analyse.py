@@ -172,6 +172,7 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     ctx = ImageContext(
         temperature_c=t, meta=meta, threshold_k=thr, pixel_m=pixel_m, pixel_area_m2=px_area,
         h_convective_w_m2k=h_c, h_radiative_w_m2k=h_r, sky_limit_c=sky_limit_c, delta_air_k=delta_air_k,
+        heat_flow=heat_flow,
     )
     out_labels = np.zeros(shape, np.int32)
     drafts = [

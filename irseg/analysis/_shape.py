@@ -56,6 +56,7 @@ class Shape:
     transition_px: float  # |contrast| / 90th percentile of |∇u| across the outline
     nonuniformity: float  # interior spread of the contrast u − reference (noise removed) / |contrast|
     taper: float  # pixels in the wider end third / the narrower end third along the long axis
+    upper_roughness_px: float = 0.0  # spread of its upper outline about a straight line (a tide line is wavy)
 
     @property
     def sharp(self) -> bool:
@@ -142,4 +143,20 @@ def shape_features(
         transition_px=float(transition),
         nonuniformity=float(spread / abs(delta_k)) if delta_k else float("inf"),
         taper=float(taper),
+        upper_roughness_px=_upper_roughness(rr, cc),
     )
+
+
+def _upper_roughness(rr: np.ndarray, cc: np.ndarray) -> float:
+    """Robust spread (1.4826·MAD) of the topmost row of each column about the straight line through
+    them, px: ≈ 0.3 px for a straight edge, the wave of a tide line for a damp zone."""
+    if rr.size < 3:
+        return 0.0
+    cols = np.unique(cc)
+    if cols.size < 5:
+        return 0.0
+    top = np.full(int(cc.max()) + 1, np.iinfo(np.int64).max)
+    np.minimum.at(top, cc, rr)
+    top = top[cols].astype(float)
+    slope, offset = np.polyfit(cols.astype(float), top, 1)
+    return float(robust_sigma(top - (slope * cols + offset)))

@@ -75,6 +75,7 @@ _BLOCKS_LONG_SIDE = 80  # coarse grid: about this many blocks on the long side
 _MIN_FILL = 0.25  # a block needs this fraction of valid pixels
 _SUPPORT_EPS = 0.05  # shrink the local correction where the weighted support is below ~5 % of full
 _SLOPE_RIDGE = 0.05  # and its slopes, likewise (in units of the window's second moment)
+_GAP_SLOPE_RIDGE = 1.0  # ... and by the support an excluded area takes away
 _LENGTH_STEPS = (4.0, 2.0, 1.0)  # local window, in sound lengths, stiff to flexible
 _PER_STEP = 3  # passes per local window
 _LTS_BLOCKS = 600  # sub-grid size of the robust start
@@ -210,9 +211,13 @@ def _local_linear(e: np.ndarray, w: np.ndarray, base: np.ndarray, length: float,
     m00 = g0 + _SUPPORT_EPS * full
     m10 = gxs - gx * g0
     m01 = gys - gy * g0
-    m20 = gxx - 2 * gx * gxs + gx**2 * g0 + _SLOPE_RIDGE * full * length**2
+    # slopes are shrunk by a small ridge everywhere and by the missing support: beside an excluded
+    # anomaly inside the frame a plane fitted on one side would be extrapolated across it (at the frame
+    # edge the support is one-sided for every fit, so nothing is missing there)
+    ridge = (_SLOPE_RIDGE * full + _GAP_SLOPE_RIDGE * np.maximum(full - g0, 0.0)) * length**2
+    m20 = gxx - 2 * gx * gxs + gx**2 * g0 + ridge
     m11 = gxy - gx * gys - gy * gxs + gx * gy * g0
-    m02 = gyy - 2 * gy * gys + gy**2 * g0 + _SLOPE_RIDGE * full * length**2
+    m02 = gyy - 2 * gy * gys + gy**2 * g0 + ridge
     r0 = e0
     r1 = ex - gx * e0
     r2 = ey - gy * e0

@@ -113,8 +113,9 @@ def _solid_wall(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, damp=(0.6, 0.06, 
     el = solid_wall()
     ds = []
     if damp is not None:
-        tide, wave, soft, water, wet = damp
-        ds.append(rising_damp(el, tide_m=tide, wave_m=wave, soft_m=soft, water_fraction=water, wet_surface=wet))
+        tide, wave, soft, water, wet, *span = damp
+        ds.append(rising_damp(el, tide_m=tide, wave_m=wave, soft_m=soft, water_fraction=water, wet_surface=wet,
+                              x0_m=span[0] if span else 0.0, x1_m=span[1] if span else None))
     if fan is not None:
         ds.append(cold_air_fan(el, x_m=fan[0], y_m=fan[1], width_m=fan[2], drop_k=fan[3]))
     cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, top_height_m=2.4,
@@ -156,7 +157,7 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
         ``patch``, ``lintel``, ``void`` (x0, x1, y0, y1, depth), ``sky_view`` (top, bottom),
         ``view`` ("exterior" or "interior"), ``fan`` (x, y, width, drop_k), stratification, and
         ``solid=True`` for an uninsulated solid brick wall seen from inside (3.0 × 2.4 m) with
-        ``damp`` (tide line height, wave, soft band, water fraction, wet surface fraction, or
+        ``damp`` (tide line height, wave, soft band, water fraction, wet surface fraction[, x0, x1], or
         None), ``fan``, stratification, ``relative_humidity``; flat roof: ``insulation``, ``wet`` ((x0, x1, y0, y1, water
         fraction), ...), ``tapered`` ((x0, x1, y0, y1, water fraction, rings), ...) wetness
         tapering to the edge, ``dt_s``, ``end_h``, ``air_mean_c``.

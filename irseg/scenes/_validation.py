@@ -87,7 +87,7 @@ VALIDATION_RECIPES: tuple[ImageRecipe, ...] = (
                 _cam(n_cols=640, n_rows=480, distance_m=2.6, centre_m=(1.2, 0.9), seed=207), "tiff-float"),
     ImageRecipe("val8_damp_base", "solid brick wall from inside: rising damp along the base, NETD 0.1 K",
                 "masonry-wall", {"solid": True, "inside_c": 20.0, "outside_c": 1.0, "stratification_k_m2": 0.5,
-                                 "damp": (0.55, 0.06, 0.12, 0.08, 0.3)},
+                                 "damp": (0.55, 0.06, 0.12, 0.08, 0.3, 0.6, 2.4)},
                 _cam(n_cols=640, n_rows=480, distance_m=3.0, centre_m=(1.5, 1.45), netd_k=0.1, seed=208,
                      **_SHADED), "tiff-float"),
     ImageRecipe("val9_roof_tapered", "warm flat roof at 22:00: wetness tapering toward the edge, NETD 0.1 K",
