@@ -310,25 +310,28 @@ def _measure(
 
 def _shape(region: np.ndarray, dist: np.ndarray, rim_crop: np.ndarray, *, delta: float, peak_k: float,
            u_crop: np.ndarray, s_crop: np.ndarray, noise_k: float, offset: tuple[int, int]) -> Shape:
-    """Shape features of a detected anomaly's extent, its non-uniformity read along its length.
+    """Shape features of a detected anomaly: its outline from its extent, its fading below half its peak.
 
-    A soft edge makes the contrast vary *across* any soft anomaly (from its peak to half of
-    it), a stud as much as a fan. What tells a decaying or graded pattern (a fan, a streak, a
-    wet area fading outwards) from a uniform one (a member, a void, a damp band) is the
-    variation *along* it, and it shows below half of the peak: the profile of the strongest
-    contrast across each 1-px slice along the principal axis of the region where the
-    contrast holds a quarter of the peak (joined to the extent) is read, and the
-    non-uniformity is its robust spread over its mean (noise removed), the same ratio the
-    segmented anomalies use.
+    Size, fill, solidity, length, width, taper and outline come from the extent (what is reported).
+    The extent (half-peak) of a decaying pattern keeps its stronger part only; what makes it a fan or
+    a streak from a gap (its fading away from the source) shows between a quarter and a half of the
+    peak, so that is read on the region where the contrast holds a quarter of the peak, joined to the
+    extent (:func:`_fades_from_end`). A soft edge makes the contrast vary *across* any soft
+    anomaly, a stud as much as a fan; what tells a fading pattern from a uniform one (a member, a
+    void, a damp band) is the variation *along* it: the non-uniformity is the robust spread (noise
+    removed) over the mean of the profile of the strongest contrast across each 1-px slice along
+    the region's principal axis, the ratio the segmented anomalies use.
     """
-    shp = shape_features(region, u_crop=u_crop, reference_crop=s_crop, dist_crop=dist, delta_k=delta,
-                         noise_k=noise_k, row_offset=offset[0], col_offset=offset[1])
     sgn = 1.0 if delta >= 0 else -1.0
     contrast = sgn * (u_crop - s_crop)
     low = (region | rim_crop) & (contrast >= QUARTER * peak_k)
     lab, _ = ndimage.label(low | region, structure=np.ones((3, 3), bool))
     keep = np.unique(lab[region])
-    rr, cc = np.nonzero(np.isin(lab, keep[keep > 0]) | region)
+    reg = ndimage.binary_fill_holes(np.isin(lab, keep[keep > 0]) | region)
+    shp = shape_features(region, u_crop=u_crop, reference_crop=s_crop, dist_crop=dist, delta_k=delta,
+                         noise_k=noise_k, row_offset=offset[0], col_offset=offset[1])
+    rr, cc = np.nonzero(reg)
+    fades = _fades_from_end(contrast, rr, cc)
     if rr.size < 3:
         return shp
     cov = np.cov(np.vstack([cc, rr]).astype(float))
@@ -342,4 +345,30 @@ def _shape(region: np.ndarray, dist: np.ndarray, rim_crop: np.ndarray, *, delta:
     mean = float(profile.mean())
     spread = robust_sigma(profile) if profile.size > 1 else 0.0
     spread = math.sqrt(max(spread * spread - noise_k * noise_k, 0.0))
-    return replace(shp, nonuniformity=float(spread / mean) if mean > 0 else float("inf"))
+    return replace(shp, fades_from_end=fades, nonuniformity=float(spread / mean) if mean > 0 else float("inf"))
+
+
+def _fades_from_end(contrast: np.ndarray, rr: np.ndarray, cc: np.ndarray) -> bool:
+    """Strongest near one end of the region, down a row or column axis, fading to half toward the other end.
+
+    The strongest contrast of each row (and of each column) of the region is read as a profile;
+    a fan or streak from a gap peaks in the outer quarter of its length at one end and holds at most
+    half of that peak over the outer fifth at the other end. A member, a void or a damp band holds
+    its contrast along its length; a graded area peaks in its middle.
+    """
+    for along in (rr, cc):
+        a = along - int(along.min())
+        n = int(a.max()) + 1
+        if n < 8:
+            continue
+        profile = np.full(n, -np.inf)
+        np.maximum.at(profile, a, contrast[rr, cc])
+        profile = np.where(np.isfinite(profile), profile, np.nan)
+        top = float(np.nanmax(profile))
+        i = int(np.nanargmax(profile))
+        tail = max(1, n // 5)
+        if i < n // 4 and float(np.nanmean(profile[-tail:])) <= 0.5 * top:
+            return True
+        if i >= n - n // 4 and float(np.nanmean(profile[:tail])) <= 0.5 * top:
+            return True
+    return False
