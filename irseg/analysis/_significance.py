@@ -175,6 +175,7 @@ class DetectionInfo:
     surface_scale_k: float
     regions: tuple[RegionInfo, ...]
     components: np.ndarray  # (M, N) int32: significant components, −k cold, +k warm, 0 none
+    members_k: np.ndarray  # (M, N): the own contrast of narrow members in or beside broad anomalies, K (signed)
 
 
 def detect_regions(
@@ -284,6 +285,7 @@ def detect_regions(
 
     labels = np.zeros((m, n), np.int32)
     components = np.zeros((m, n), np.int32)
+    members = np.zeros((m, n))
     regions: list[RegionInfo] = []
     for sign in (-1, 1):
         comp, has_seed = grown[sign]
@@ -296,11 +298,11 @@ def detect_regions(
             _extract(
                 comp=comp, k=k, sl=sl, sign=sign, fine=fine, noise=noise, labels=labels, regions=regions,
                 min_area_px=min_area_px, min_contrast_k=min_contrast_k, k_hi=k_hi, line_px=line_px,
-                extent_fraction=extent_fraction,
+                extent_fraction=extent_fraction, members=members,
                 split_plateaus=split_plateaus, valid=valid,
             )
     info = DetectionInfo(noise, pixel_m, min_area_px, length_px, scales, tuple(sig), tuple(sig_w), k_hi, k_lo,
-                         extent_fraction, surf.scale_k, tuple(regions), components)
+                         extent_fraction, surf.scale_k, tuple(regions), components, members)
     return labels, surf.surface, info
 
 
@@ -354,7 +356,7 @@ def _steady_edge_scale(rough: np.ndarray, piece: np.ndarray, peak: float, noise:
 
 
 def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, min_contrast_k, k_hi, line_px,
-             extent_fraction, split_plateaus, valid) -> None:
+             extent_fraction, split_plateaus, valid, members) -> None:
     """Anomalies of one grown component: the strongest first, then separate plateaus and pieces."""
     m, n = comp.shape
     pad = 8
@@ -402,7 +404,8 @@ def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, mi
         # beside it (a long narrow line standing out of the members-removed contrast) the members-removed
         # contrast decides, so the member neither widens nor cuts its outline (it stays an anomaly of
         # its own); elsewhere, corners included, the contrast itself
-        field = np.where(long_lines(v - broad >= 0.5 * level, line_px), broad, v) if is_broad else v
+        lines = long_lines(v - broad >= 0.5 * level, line_px) if is_broad else np.zeros_like(piece)
+        field = np.where(lines, broad, v)
         above = (field >= level) & region_of & ~claimed
         joined = (v >= JOIN_FRACTION * peak) & region_of & ~claimed
         jl, _ = ndimage.label(joined, structure=_SQUARE)
@@ -443,6 +446,10 @@ def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, mi
                 gap = _dilate(core, rim_px + 2) & claimed & (taken == 0) & (v >= level) & (v < mid)
                 core |= gap
         if accept:
+            # the members' own contrast (what they add to the members-removed contrast) is theirs, not
+            # the broad anomaly's heat: recorded so that it is left out of its measurement
+            own = _dilate(lines, int(math.ceil(0.5 * line_px))) & region_of & ~claimed  # with their flanks
+            members[crop][own] = sign * (v - broad)[own]
             lab = int(labels.max()) + 1
             sub = labels[crop]
             sub[core & (sub == 0)] = lab

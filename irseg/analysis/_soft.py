@@ -23,8 +23,8 @@ joined here, region by region:
 
 A detected anomaly is measured on the sound surface: reference = the surface under
 its extent, contrast = temperature − surface, excess heat summed over its
-*thermal region*, the pixels of its significant component nearest to it and on no
-other anomaly.
+*thermal region*, the pixels of its significant component nearest to it, on no other
+anomaly, where its smooth contrast holds at least a tenth of its peak.
 """
 
 from __future__ import annotations
@@ -44,12 +44,13 @@ from ._shape import Shape, shape_features
 from ._significance import DetectionInfo
 from ._thermal_region import Measured
 
-__all__ = ["join_detections", "SNAP_IOU", "OWN_FRACTION", "QUARTER", "TAIL_FADE"]
+__all__ = ["join_detections", "SNAP_IOU", "OWN_FRACTION", "QUARTER", "TAIL_FADE", "RIM_FRACTION"]
 
 SNAP_IOU = 0.6  # a segmented anomaly gives the outline when its extent agrees this well with the detection
 OWN_FRACTION = 0.5  # a piece belongs to a detected region holding at least half of its extent
 _PAD = 3
 TAIL_FADE = 0.75  # a tail's far half holds at most this fraction of its near half's contrast
+RIM_FRACTION = 0.1  # a detected anomaly's thermal region reaches down to this fraction of its peak
 QUARTER = 0.25  # the non-uniformity of a detected anomaly is read down to this fraction of its peak
 
 
@@ -246,6 +247,7 @@ def join_detections(
     out = [m for k, ms in units.items() if k not in dropped for m in ms]
     new_host = {f: h for f, h in host_of.items() if h not in dropped}
     nearest = _Nearest(det_labels, info.components)
+    with_members = surface_c + info.members_k  # a member crossing a detected anomaly is part of its sound state
     multi = {c for c, n in zip(*np.unique([regions[lab].component for lab in extents], return_counts=True)) if n > 1} \
         if extents else set()
     for i, (lab, idx) in enumerate(sorted(extents.items())):
@@ -254,7 +256,10 @@ def join_detections(
         if r.component in multi:
             own_comp &= nearest.labels() == lab
         thermal = np.flatnonzero(own_comp & ~final)
-        m = _measure(first_label + i, idx, thermal, abs(r.peak_k), shape=shape, surface_c=surface_c, t=t, u=u,
+        # its soft rim: down to a tenth of its peak (the rest of a wide significant component is the
+        # sound surface's own misfit summed over many pixels, not the defect's heat)
+        thermal = thermal[r.sign * (u.flat[thermal] - with_members.flat[thermal]) >= RIM_FRACTION * abs(r.peak_k)]
+        m = _measure(first_label + i, idx, thermal, abs(r.peak_k), shape=shape, surface_c=with_members, t=t, u=u,
                      valid=valid, noise_k=noise_k, loss_sign=loss_sign, reference=reference,
                      n_parts=members[lab])
         if m is not None and abs(m.cand.delta_k) >= min_contrast_k and np.sign(m.cand.delta_k) == r.sign:
