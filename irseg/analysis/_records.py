@@ -127,7 +127,7 @@ def _cause(
         main.shape, kind=main.kind, view=ctx.meta.surface.view, delta_k=delta_k, mean_c=mean_c,
         threshold_k=ctx.threshold_k, pixel_m=ctx.pixel_m, regular_set=sets.get(main.cand.label),
         delta_air_k=ctx.delta_air_k, sky_limit_c=ctx.sky_limit_c, line=lines.get(main.cand.label),
-        contact=contact, heat_flow=ctx.heat_flow,
+        contact=contact, heat_flow=ctx.heat_flow, detected=main.cand.ref.source == "detected",
     )
     n_frag = sum(1 for m in unit if m.cand.label in host_of)
     if len(unit) - n_frag > 1:
