@@ -147,8 +147,7 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
         noise_k=noise, threshold_k=thr, trend=last_resort,
     )
     # a segmented candidate is confirmed by significant contrast of its own sign over most of it
-    accepted = [c for c in accepted if share[-1 if c.delta_k < 0 else 1][c.label] >= OWN_FRACTION
-                and areas[c.label] >= det.min_area_px]  # the smallest anomaly is a physical area
+    accepted = [c for c in accepted if share[-1 if c.delta_k < 0 else 1][c.label] >= OWN_FRACTION]
     accepted, host_of = group_fragments(accepted, labels=labels, min_step_k=min_step)
     is_anomaly = np.zeros(n + 1, dtype=bool)
     is_anomaly[[c.label for c in accepted]] = True

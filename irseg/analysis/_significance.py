@@ -91,8 +91,9 @@ contrast found is ``max(min_contrast_k, ΔT_min)`` with ``σ_s`` as measured
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
+import cv2
 import numpy as np
 from scipy import ndimage
 
@@ -127,9 +128,10 @@ FINE_NOISE_FRACTION = 0.04  # the extent is measured where σ_fine ≤ 4 % of th
 EDGE_JITTER_PX = 0.5  # ... and where the noise moves its half-peak edge by at most half a pixel
 PEAK_NOISE_FRACTION = 0.01  # the peak is read where σ ≤ 1 % of it
 PEAK_PERCENTILE = 99.0
-MIN_AREA_M2 = 0.005
+MIN_AREA_M2 = 0.0025  # 50 × 50 mm: a fixing or a tie is the smallest thing worth reporting
 MIN_AREA_FRACTION = 1e-3  # without geometry: 0.1 % of the frame
 SOUND_LENGTH_M = 0.2
+WORK_MAX_SIDE_PX = 800  # larger frames are detected on block means (the lengths are physical)
 LINE_WIDTH_M = 0.12  # members (studs, joists) up to 100 mm wide, blurred: never a ridge joining two defects
 LINE_WIDTH_FRACTION = 0.05  # without geometry: of the frame's long side
 EDGE_LENGTH_M = 0.2  # decay of the cooling toward a corner or junction at a frame edge
@@ -231,6 +233,11 @@ def detect_regions(
     m, n = t.shape
     invalid = np.zeros((m, n), bool) if mask is None else np.asarray(mask, bool)
     valid = ~invalid & np.isfinite(t)
+    f = int(math.ceil(max(m, n) / WORK_MAX_SIDE_PX))
+    if f > 1:
+        return _on_reduced(t, valid, f, noise_k=noise_k, pixel_m=pixel_m, min_area_m2=min_area_m2,
+                           sound_length_m=sound_length_m, min_contrast_k=min_contrast_k, k_hi=k_hi, k_lo=k_lo,
+                           extent_fraction=extent_fraction, split_plateaus=split_plateaus)
     t = np.where(valid, t, np.nanmedian(t[valid]) if valid.any() else 0.0)
     if pixel_m is not None and pixel_m > 0:
         line_px = LINE_WIDTH_M / pixel_m
@@ -306,6 +313,44 @@ def detect_regions(
     return labels, surf.surface, info
 
 
+def _on_reduced(t: np.ndarray, valid: np.ndarray, f: int, *, noise_k: float | None, pixel_m: float | None,
+                **settings) -> tuple[np.ndarray, np.ndarray, DetectionInfo]:
+    """Detection on ``f``×``f`` block means of the valid pixels, brought back to the frame.
+
+    The detection's lengths are physical, so a frame finer than :data:`WORK_MAX_SIDE_PX` on its long
+    side holds no more information at the scales it works on; the block means keep the noise of a
+    pixel over ``f`` (white noise). Labels, components and members come back by block (nearest), the
+    sound surface bilinearly; region areas are counted again on the frame.
+    """
+    m, n = t.shape
+    mb, nb = -(-m // f), -(-n // f)
+    tv = np.zeros((mb * f, nb * f))
+    vv = np.zeros((mb * f, nb * f))
+    tv[:m, :n] = np.where(valid, t, 0.0)
+    vv[:m, :n] = valid
+    cnt = vv.reshape(mb, f, nb, f).sum(axis=(1, 3))
+    small = tv.reshape(mb, f, nb, f).sum(axis=(1, 3)) / np.maximum(cnt, 1.0)
+    small_invalid = cnt < 0.5 * f * f
+    labels, surface, info = detect_regions(
+        small, small_invalid, noise_k=None if noise_k is None else float(noise_k) / f,
+        pixel_m=None if pixel_m is None else pixel_m * f, **settings)
+
+    def up(a: np.ndarray) -> np.ndarray:
+        return np.repeat(np.repeat(a, f, axis=0), f, axis=1)[:m, :n]
+
+    big = up(labels)
+    big[~valid] = 0
+    areas = np.bincount(big.ravel(), minlength=len(info.regions) + 1)
+    surf = cv2.resize(surface.astype(np.float32), (nb * f, mb * f), interpolation=cv2.INTER_LINEAR)[:m, :n]
+    regions = tuple(replace(r, area_px=int(areas[r.label]), fine_scale_px=r.fine_scale_px * f) for r in info.regions)
+    info = replace(
+        info, noise_k=info.noise_k * f, min_area_px=max(9, info.min_area_px * f * f),
+        sound_length_px=info.sound_length_px * f, scales_px=tuple(s * f for s in info.scales_px), regions=regions,
+        components=up(info.components), members_k=up(info.members_k),
+    )
+    return big, surf.astype(float), info
+
+
 def _grown(zs, sign, k_hi, k_lo, valid) -> tuple[np.ndarray, np.ndarray]:
     """Hysteresis of one sign over all scales of ``z = R_s/σ_s``: (component labels, components with a seed)."""
     m, n = valid.shape
@@ -355,39 +400,57 @@ def _steady_edge_scale(rough: np.ndarray, piece: np.ndarray, peak: float, noise:
     return max(s_f, min(_FINE_SCALES[-1], max(cap, s_f)))
 
 
+def _box(mask: np.ndarray, margin: int) -> tuple[slice, slice]:
+    """Bounding box of ``mask`` widened by ``margin`` (clipped to the array)."""
+    rows, cols = np.flatnonzero(mask.any(axis=1)), np.flatnonzero(mask.any(axis=0))
+    m, n = mask.shape
+    return (slice(max(0, int(rows[0]) - margin), min(m, int(rows[-1]) + margin + 1)),
+            slice(max(0, int(cols[0]) - margin), min(n, int(cols[-1]) + margin + 1)))
+
+
 def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, min_contrast_k, k_hi, line_px,
              extent_fraction, split_plateaus, valid, members) -> None:
-    """Anomalies of one grown component: the strongest first, then separate plateaus and pieces."""
+    """Anomalies of one grown component: the strongest first, then separate plateaus and pieces.
+
+    Each piece is worked on within its bounding box, widened by the reach of every dilation below
+    (the widest edge band, and a member's width for the grey opening).
+    """
     m, n = comp.shape
     pad = 8
     r0, r1 = max(0, sl[0].start - pad), min(m, sl[0].stop + pad)
     c0, c1 = max(0, sl[1].start - pad), min(n, sl[1].stop + pad)
     crop = (slice(r0, r1), slice(c0, c1))
     member = comp[crop] == k
-    near = _dilate(member, 2) & valid[crop]
-    claimed = np.zeros_like(member)  # taken anomalies and their edge bands, and rejected tails
-    taken = np.zeros(member.shape, np.int32)  # local anomaly ids
+    near_all = _dilate(member, 2) & valid[crop]
+    claimed_all = np.zeros_like(member)  # taken anomalies and their edge bands, and rejected tails
+    taken_all = np.zeros(member.shape, np.int32)  # local anomaly ids
     peaks: dict[int, float] = {}
     rims: dict[int, int] = {}
-    queue: list[tuple[np.ndarray, int]] = [(member, 0)]
+    queue: list[np.ndarray] = [member]
     passes = 0
-    rough = sign * fine(2.0)[crop]
+    rough_all = sign * fine(2.0)[crop]
+    margin = int(math.ceil(2.5 * math.hypot(1.0, _FINE_SCALES[-1]))) + 8 + int(math.ceil(line_px))
     while queue and passes < _MAX_PASSES:
         passes += 1
-        piece, _ = queue.pop(0)
-        if not piece.any():
-            continue
+        piece_all = queue.pop(0)
+        if int(piece_all.sum()) < min_area_px:
+            continue  # too small to hold an anomaly: left as it is
+        box = _box(piece_all, margin)
+        oy, ox = box[0].start, box[1].start
+        piece, near, claimed, taken = piece_all[box], near_all[box], claimed_all[box], taken_all[box]
+        rough = rough_all[box]
         p_rough = _pct(rough[piece], PEAK_PERCENTILE)
-        if p_rough <= 0:
-            continue
+        if p_rough <= 0.5 * min_contrast_k:
+            continue  # nothing that could reach the smallest contrast reported
         s_f = _steady_edge_scale(rough, piece, p_rough, noise, _choose_fine(p_rough, noise, FINE_NOISE_FRACTION))
         sig_f = noise * gaussian_noise_factor(s_f)
-        v = sign * fine(s_f)[crop]
+        v = sign * fine(s_f)[crop][box]
         # the peak: the maximum where the noise is at most 1 % of it, with the window kept well inside
         # the piece (a quarter of its equivalent radius), so neither noise nor smoothing moves it much
         s_p = min(_choose_fine(p_rough, noise, PEAK_NOISE_FRACTION),
                   max(s_f, 0.25 * math.sqrt(float(piece.sum()) / math.pi)))
-        vp = sign * fine(s_p)[crop]
+        s_p = max([s for s in _FINE_SCALES if s <= s_p] or [_FINE_SCALES[0]])  # on the bank (fields are cached)
+        vp = sign * fine(s_p)[crop][box]
         peak = float(vp[piece].max())
         # broad anomalies before narrow members: where taking the members out (studs, joists) keeps
         # at least half of the peak, the peak, the strongest place and the domes are read without them
@@ -422,7 +485,6 @@ def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, mi
         touching = bool((_dilate(core, 1) & claimed).any())
         rim_px = int(math.ceil(2.5 * math.hypot(1.0, s_f))) + 1
         band = _dilate(core, rim_px)
-        rest = piece & ~band & ~claimed
         accept = int(core.sum()) >= min_area_px
         split_from = 0
         if accept and touching:
@@ -436,9 +498,12 @@ def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, mi
             dome = rim.any() and float(v[rim].max()) <= (1.0 - SADDLE_DIP) * float(v[core].max())
             accept = split_plateaus and (dome or _pct(v[core], 50.0) >= PLATEAU_RATIO * peak)
             if accept and split_from:
-                a_band = _dilate(taken == split_from, rims[split_from])
+                # the other anomaly's whole outline, on the component's crop
+                a_band = _dilate(taken_all == split_from, rims[split_from])
                 outline = _dilate(a_band, 1) & ~a_band
-                wrap = float((outline & _dilate(core, rim_px + 4)).sum()) / max(float(outline.sum()), 1.0)
+                mine = np.zeros_like(member)
+                mine[box] = _dilate(core, rim_px + 4)
+                wrap = float((outline & mine).sum()) / max(float(outline.sum()), 1.0)
                 accept = wrap <= WRAP_MAX and peak >= JOIN_FRACTION * peaks[split_from]
             if accept and split_from:
                 # the step between two plateaus is shared at its midpoint
@@ -449,22 +514,27 @@ def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, mi
             # the members' own contrast (what they add to the members-removed contrast) is theirs, not
             # the broad anomaly's heat: recorded so that it is left out of its measurement
             own = _dilate(lines, int(math.ceil(0.5 * line_px))) & region_of & ~claimed  # with their flanks
-            members[crop][own] = sign * (v - broad)[own]
-            lab = int(labels.max()) + 1
-            sub = labels[crop]
-            sub[core & (sub == 0)] = lab
-            area = int((sub == lab).sum())
+            members[crop][box][own] = sign * (v - broad)[own]
+            lab = len(regions) + 1
+            sub = labels[crop][box]
+            fresh = core & (sub == 0)
+            sub[fresh] = lab
             taken[core] = lab
             peaks[lab] = peak
             rims[lab] = rim_px
             rr, cc = np.nonzero(core)
-            edge = bool(rr.min() + r0 == 0 or cc.min() + c0 == 0 or rr.max() + r0 == m - 1 or cc.max() + c0 == n - 1)
-            regions.append(RegionInfo(lab, sign, sign * peak, sign * level, area, s_f, edge, split_from, sign * k))
+            edge = bool(rr.min() + r0 + oy == 0 or cc.min() + c0 + ox == 0 or rr.max() + r0 + oy == m - 1
+                        or cc.max() + c0 + ox == n - 1)
+            regions.append(RegionInfo(lab, sign, sign * peak, sign * level, int(fresh.sum()), s_f, edge, split_from,
+                                      sign * k))
         claimed |= band if accept else _dilate(core, 1)
         if not accept and (touching or int(core.sum()) < min_area_px):
             # a tail falling away from a taken anomaly, or a small isolated peak: its edge band is
             # not a defect either (what lies beyond is looked at again, and touches it)
             claimed |= band
-        rl, nr = ndimage.label(rest & ~claimed, structure=_SQUARE)
+        rest = piece & ~claimed
+        rl, nr = ndimage.label(rest, structure=_SQUARE)
         for i in range(1, nr + 1):
-            queue.append((rl == i, 0))
+            nxt = np.zeros_like(member)
+            nxt[box] = rl == i
+            queue.append(nxt)

@@ -244,6 +244,8 @@ def join_detections(
     for idx in extents.values():
         final[idx] = True
 
+    # the smallest anomaly is a physical area (the detector's), for the segmented ones too
+    dropped.update(k for k, idx in ext.items() if not is_frame[k] and idx.size < info.min_area_px)
     out = [m for k, ms in units.items() if k not in dropped for m in ms]
     new_host = {f: h for f, h in host_of.items() if h not in dropped}
     nearest = _Nearest(det_labels, info.components)
