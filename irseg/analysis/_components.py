@@ -80,6 +80,24 @@ def _steady_edge_scale(rough: np.ndarray, piece: np.ndarray, peak: float, noise:
     return max(s_f, min(FINE_SCALES[-1], max(cap, s_f)))
 
 
+def _own_member_contrast(excess: np.ndarray, own: np.ndarray, core: np.ndarray, reach: int) -> np.ndarray:
+    """A member's own contrast: what it adds to the members-removed contrast, at most what it adds away
+    from the anomaly (the 90th percentile over its pixels farther than ``reach`` from the core: its core
+    level, not its flanks), so that a member
+    the defect itself makes colder (a joist exposed by a void) leaves that share to the defect."""
+    out = excess.copy()
+    lab, k = ndimage.label(own, structure=_SQUARE)
+    if k == 0:
+        return out
+    far = own & ~_dilate(core, reach)
+    for i in range(1, k + 1):
+        piece = lab == i
+        away = excess[piece & far]
+        if away.size >= 9:
+            out[piece] = np.minimum(excess[piece], max(float(np.percentile(away, 90)), 0.0))
+    return out
+
+
 def _box(mask: np.ndarray, margin: int) -> tuple[slice, slice]:
     """Bounding box of ``mask`` widened by ``margin`` (clipped to the array)."""
     rows, cols = np.flatnonzero(mask.any(axis=1)), np.flatnonzero(mask.any(axis=0))
@@ -148,6 +166,8 @@ def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_ar
         # contrast decides, so the member neither widens nor cuts its outline (it stays an anomaly of
         # its own); elsewhere, corners included, the contrast itself
         lines = long_lines(v - broad >= 0.5 * level, line_px) if is_broad else np.zeros_like(piece)
+        if lines.any():
+            lines = _dilate(lines, int(math.ceil(0.5 * line_px)))  # with their blurred flanks
         field = np.where(lines, broad, v)
         above = (field >= level) & region_of & ~claimed
         joined = (v >= JOIN_FRACTION * peak) & region_of & ~claimed
@@ -193,8 +213,8 @@ def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_ar
         if accept:
             # the members' own contrast (what they add to the members-removed contrast) is theirs, not
             # the broad anomaly's heat: recorded so that it is left out of its measurement
-            own = _dilate(lines, int(math.ceil(0.5 * line_px))) & region_of & ~claimed  # with their flanks
-            members[crop][box][own] = sign * (v - broad)[own]
+            own = lines & region_of & ~claimed
+            members[crop][box][own] = sign * _own_member_contrast(v - broad, own, core, rim_px + int(line_px))[own]
             lab = len(regions) + 1
             sub = labels[crop][box]
             fresh = core & (sub == 0)

@@ -92,7 +92,7 @@ def graded_region(contrast: np.ndarray, mask: np.ndarray, pixel_m: float) -> np.
     line of its own, neither the defect's peak nor a change of its outline): the peak is the 99th
     percentile over the mask; the region is where the contrast holds half of the peak, read on
     long members (lines standing a quarter of the peak out of the opened contrast, at least three
-    disk widths long) on the opened contrast, within 0.15 m of the mask, its parts that touch
+    disk widths long, with their flanks: half a disk width) on the opened contrast, within 0.15 m of the mask, its parts that touch
     the mask.
     """
     if not mask.any():
@@ -108,7 +108,8 @@ def graded_region(contrast: np.ndarray, mask: np.ndarray, pixel_m: float) -> np.
     for i, sl in enumerate(ndimage.find_objects(lines), start=1):
         long[i] = max(sl[0].stop - sl[0].start, sl[1].stop - sl[1].start) * pixel_m >= 3.0 * MEMBER_WIDTH_M
     long[0] = False
-    half = near & (np.where(long[lines], broad, c) >= GRADED_FRACTION * peak)
+    on_member = ndimage.binary_dilation(long[lines], iterations=max(1, int(round(0.5 * MEMBER_WIDTH_M / pixel_m))))
+    half = near & (np.where(on_member, broad, c) >= GRADED_FRACTION * peak)
     lab, _ = ndimage.label(half)
     keep = np.unique(lab[half & mask])
     return np.isin(lab, keep[keep > 0])
