@@ -201,6 +201,7 @@ def _result(rec: dict, analysis, masks: np.ndarray, seconds: dict) -> dict:
     """One image's validation row: the truth record's description plus :func:`compare_analysis`."""
     out = {
         "image": rec["image"], "title": rec["title"], "view": rec["view"], "format": rec["format"],
+        "defect_records": [{"name": d["name"], "description": d["description"]} for d in rec["defects"]],
         "pixel_m": rec["pixel_m"], "size": rec["size"], "simulation": rec["simulation"], "camera": rec["camera"],
         "h_w_m2k_truth": rec["simulation"]["h_view_w_m2k"], "h_w_m2k_analysis": analysis.h_w_m2k,
         "seconds": seconds,
