@@ -96,19 +96,24 @@ def scale_bank(min_area_px: float, max_area_px: float, max_s_px: float) -> tuple
 
 
 def contrast_at_scales(
-    residual: np.ndarray, valid: np.ndarray, scales_px: tuple[float, ...], gains: list | None = None
+    residual: np.ndarray, valid: np.ndarray, scales_px: tuple[float, ...], gains: list | None = None,
+    pyramid: dict | None = None,
 ) -> list[np.ndarray]:
     """``R_s`` for each scale (normalized convolution, so invalid pixels do not pull it to zero).
 
     Scales above 3 px are computed on a block-reduced copy (factor ``⌊s/2⌋`` rounded down to a
     power of two) and brought back bilinearly; the reduction adds ``f²/12`` px² of variance to
-    the window, which is taken off the reduced std.
+    the window, which is taken off the reduced std. ``pyramid`` (a dict the caller keeps for one
+    residual) holds the reduced copies between calls.
     """
     m, n = residual.shape
     r32 = np.where(valid, residual, 0.0).astype(np.float32)
     v32 = valid.astype(np.float32)
     out = []
-    pyramid: dict[int, tuple[np.ndarray, np.ndarray]] = {1: (r32 * v32, v32)}  # (Σ r·v, Σ v) per block, as means
+    if pyramid is None:
+        pyramid = {}
+    if 1 not in pyramid:  # (Σ r·v, Σ v) per block, as means; kept by the caller for further scales
+        pyramid[1] = (r32 * v32, v32)
 
     def level(f: int) -> tuple[np.ndarray, np.ndarray]:
         if f not in pyramid:
@@ -209,13 +214,14 @@ def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, li
     Domes are the maxima of ``field`` standing at least ``dip_k`` above the saddle to any higher
     one (h-maxima, morphological reconstruction), separated by the watershed of ``−field``; the
     field is the contrast with its narrow members taken out (:func:`without_lines`), so a joist
-    running between two defects is not a ridge joining them. Computed on the reduced copy.
+    running between two defects is not a ridge joining them. Computed on a copy reduced by
+    ``⌊line_px/4⌋`` (a member is about 4 px across there: domes are broad).
     """
     from skimage.morphology import reconstruction
     from skimage.segmentation import watershed
 
     m, n = field.shape
-    f = max(1, int(line_px // 8))
+    f = max(1, int(line_px // 4))
     if m // f < 3 or n // f < 3:
         return region
     inside = _reduce(region.astype(np.float32), f) >= 0.5

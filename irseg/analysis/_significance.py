@@ -226,9 +226,10 @@ def detect_regions(
     # two passes: the second sound surface leaves out every pixel the first pass found significant
     # (the whole grown component, tails included), so soft tails cannot pull the surface toward a defect
     exclude = np.zeros((m, n), bool)
+    surf = None
     for _ in range(2):
         surf = fit_sound_surface(t, invalid=~valid | exclude, length_px=length_px, noise_k=noise,
-                                 edge_length_px=edge_px)
+                                 edge_length_px=edge_px, start=surf)
         resid = t - surf.surface
         if noise_k is None or noise_k <= 0:
             noise = max(pixel_noise_k(resid, valid), 1e-6)
@@ -254,9 +255,11 @@ def detect_regions(
 
     fine_cache: dict[float, np.ndarray] = {}
 
+    pyramid: dict = {}
+
     def fine(s: float) -> np.ndarray:
         if s not in fine_cache:
-            fine_cache[s] = contrast_at_scales(resid, valid, (s,))[0]
+            fine_cache[s] = contrast_at_scales(resid, valid, (s,), pyramid=pyramid)[0]
         return fine_cache[s]
 
     labels = np.zeros((m, n), np.int32)

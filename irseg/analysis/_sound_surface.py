@@ -77,7 +77,7 @@ _SUPPORT_EPS = 0.05  # shrink the local correction where the weighted support is
 _SLOPE_RIDGE = 0.05  # and its slopes, likewise (in units of the window's second moment)
 _GAP_SLOPE_RIDGE = 1.0  # ... and by the support an excluded area takes away
 _LENGTH_STEPS = (4.0, 2.0, 1.0)  # local window, in sound lengths, stiff to flexible
-_PER_STEP = 3  # passes per local window
+_PER_STEP = 2  # passes per local window
 _LTS_BLOCKS = 600  # sub-grid size of the robust start
 _LTS_COVERAGE = 0.55
 _LTS_STARTS = 40
@@ -318,6 +318,7 @@ def fit_sound_surface(
     noise_k: float,
     block_px: int | None = None,
     edge_length_px: float | None = None,
+    start: SoundSurface | None = None,
 ) -> SoundSurface:
     """Fit the robust local sound surface of one thermogram.
 
@@ -339,6 +340,9 @@ def fit_sound_surface(
         Decay length of the cooling (or warming) toward a junction or corner at a
         frame edge, px: adds ``exp(−d/λ)`` from each of the four frame edges to
         the global part. None leaves them out.
+    start : SoundSurface, optional
+        A surface fitted before to the same frame (fewer pixels excluded): its weights start the
+        reweighting instead of the robust start, and only the final sound length is iterated.
 
     Returns
     -------
@@ -365,11 +369,15 @@ def fit_sound_surface(
     lb = max(float(length_px) / b, 0.5)  # sound length in blocks
 
     gy, gx = np.meshgrid(np.arange(mb, dtype=float) - mb / 2.0, np.arange(nb, dtype=float) - nb / 2.0, indexing="ij")
-    w0 = base * _lts_start(x_design[:, :7], yv, y.shape, ok, base)  # the frame-tied part alone
+    if start is not None and start.block_px == b and start.weight.shape == t.shape:
+        w0 = base * _block_means(start.weight, np.ones(t.shape, bool), b)[0]
+    else:
+        w0 = base * _lts_start(x_design[:, :7], yv, y.shape, ok, base)  # the frame-tied part alone
     w = w0
     # graduated: from the robust start, the local part at 4, 2 and 1 sound lengths, so a large anomaly
     # is excluded by the stiff fits before a flexible one could follow it
-    lengths = [f * lb for f in _LENGTH_STEPS for _ in range(_PER_STEP)]
+    steps = _LENGTH_STEPS[-1:] if start is not None else _LENGTH_STEPS
+    lengths = [f * lb for f in steps for _ in range(_PER_STEP)]
     fit = dict(x_design=x_design, y=y, ok=ok, base=base, lengths=lengths, gy=gy, gx=gx, floor=floor)
     ridge = np.zeros(x_design.shape[1])
     beta, local, w, scale = _backfit(w0=w, ridge=ridge, **fit)
