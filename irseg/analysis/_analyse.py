@@ -1,10 +1,12 @@
-"""``analyse``: regions of a segmentation -> measured, classified anomalies.
+"""``analyse``: significant contrast against the sound surface, joined with the segmentation -> anomalies.
 
-The steps, each in its own module: sound regions and the image's trend
-(:mod:`._reference`), candidates against their local ring (:mod:`._candidates`),
-fragments of one anomaly (:mod:`._fragments`), the thermal region and extent of
-each (:mod:`._thermal_region`), framing members (:mod:`._framing`), then one
-:class:`Anomaly` per unit (:mod:`._records`, :mod:`._classify`).
+The steps, each in its own module: the robust local sound surface and the anomalies found by
+their contrast at their own scale (:mod:`._sound_surface`, :mod:`._significance`,
+:mod:`._components`); the segmentation's candidates against their local ring, confirmed by that
+contrast (:mod:`._reference`, :mod:`._candidates`); fragments of one anomaly
+(:mod:`._fragments`); the thermal region and extent of each (:mod:`._thermal_region`); one anomaly
+per defect, jump outlines where they agree (:mod:`._soft`); framing members (:mod:`._framing`);
+then one :class:`Anomaly` per unit (:mod:`._records`, :mod:`._classify`).
 """
 
 from __future__ import annotations

@@ -24,9 +24,10 @@ class Anomaly:
     reason : str
         The rule that decided the cause, in a few words.
     area_px : int
-        Pixels of the measured extent: the segmented region's pixels holding at
-        least half its core contrast (all pieces when one framing member was split
-        into several regions).
+        Pixels of the measured extent: where the anomaly holds half of its own peak
+        contrast (a segmented region's pixels holding half its core contrast inside
+        its edge line, when the segmentation's outline agrees; all pieces when one
+        framing member was split into several regions).
     area_m2, area_low_m2, area_high_m2 : float or None
         Surface area estimate and its 5-95 % band, m² (None without geometry).
     mean_c, min_c, max_c : float
