@@ -19,6 +19,19 @@ Peers, run on the same frames:
 IoU is between the predicted anomaly pixels (irseg: every region but the largest;
 peers: the minority phase / thresholded pixels) and the true anomaly mask.
 
+Second part (issue 11), on the physics validation scenes of ``irseg.scenes._validation``
+(each defect against its truth region, sharp or graded): irseg's whole pipeline
+(``irseg.pipeline.process_image``: read, metadata, calibrate, segment, analyse) against the
+peer a skilled analyst would write with scipy and scikit-image: a robust background (a
+median filter about 0.8 m wide, on a copy reduced 4×, brought back bilinearly), the residual
+smoothed by a 1.5 px Gaussian, its noise as 1.4826·MAD, hysteresis thresholds at 2.5σ and
+5σ per sign (``skimage.filters.apply_hysteresis_threshold``), objects under 0.0025 m²
+removed. A predicted object belongs to the defect holding at least half of it (the rule of
+the validation); IoU is that of the union of a defect's objects with its truth region, n the
+number of objects. Then the whole pipeline's time per frame on one thread (OpenCV and BLAS
+threads set to 1), 640×480 and 1280×1024, in CPU seconds of the process (the minimum of 3
+runs; the shared machine's load is printed; wall time equals it on an idle core).
+
 The methods (and, for the scaling table, the frame sizes) run round-robin, one run of
 each per round, so load from other processes on a shared machine hits all alike;
 medians and minima are printed. chan_vese (about 1 s a run) gets 3 runs, 1 with
@@ -34,8 +47,16 @@ import statistics
 import time
 import tracemalloc
 
+import os
+import tempfile
+import warnings
+from pathlib import Path
+
+import cv2
 import numpy as np
 from scipy import ndimage as ndi
+from skimage.filters import apply_hysteresis_threshold
+from skimage.morphology import remove_small_objects
 from skimage.restoration import denoise_tv_chambolle
 from skimage.segmentation import chan_vese
 
@@ -112,11 +133,91 @@ def peak_mb(fn, g: np.ndarray) -> float:
     return peak / 2**20
 
 
+def analyst_peer(t: np.ndarray, pixel_m: float) -> np.ndarray:
+    """The skilled analyst's anomaly labels: robust background subtraction + hysteresis threshold."""
+    t = t.astype(np.float32)
+    m, n = t.shape
+    f = 4
+    small = cv2.resize(t, (n // f, m // f), interpolation=cv2.INTER_AREA)
+    win = int(round(0.8 / (pixel_m * f))) | 1
+    bg = cv2.resize(ndi.median_filter(small, size=win, mode="reflect"), (n, m), interpolation=cv2.INTER_LINEAR)
+    r = ndi.gaussian_filter(t - bg, 1.5)
+    sig = 1.4826 * float(np.median(np.abs(r - np.median(r))))
+    min_px = max(9, int(0.0025 / pixel_m**2))
+    out = np.zeros((m, n), np.int32)
+    for sgn in (-1, 1):
+        mk = apply_hysteresis_threshold(sgn * r, 2.5 * sig, 5.0 * sig)
+        mk = remove_small_objects(mk, max_size=min_px - 1)
+        lab, _ = ndi.label(mk)
+        out[lab > 0] = lab[lab > 0] + out.max()
+    return out
+
+
+def _defect_iou(labels: np.ndarray, truth: np.ndarray) -> tuple[float, int]:
+    ids, counts = np.unique(labels[labels > 0], return_counts=True)
+    inside = dict(zip(*np.unique(labels[truth & (labels > 0)], return_counts=True)))
+    mine = [i for i, c in zip(ids, counts) if inside.get(i, 0) >= 0.5 * c]
+    return iou(np.isin(labels, mine), truth), len(mine)
+
+
+def validation_comparison(repeats: int = 3) -> None:
+    """irseg's whole pipeline against the analyst peer on the validation scenes; pipeline timings."""
+    from irseg.pipeline import process_image
+    from irseg.scenes._survey import export_image
+    from irseg.scenes._validation import RESOLUTION_SERIES, VALIDATION_RECIPES
+
+    cv2.setNumThreads(1)
+    print("\nvalidation scenes: whole pipeline vs the analyst peer (IoU per defect against its truth region)")
+    print(f"{'scene':28} {'defect':22} {'truth':8} {'irseg IoU':>9} {'n':>2} {'peer IoU':>9} {'n':>2}")
+    tally = {"irseg": [], "peer": []}
+    timings: dict[str, list[float]] = {"640x480": [], "1280x1024": []}
+    with tempfile.TemporaryDirectory() as tmp, warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        recipes = list(VALIDATION_RECIPES) + [RESOLUTION_SERIES[k][2] for k in sorted(RESOLUTION_SERIES)]
+        for r in recipes:
+            rec = export_image(r, tmp)
+            path = Path(tmp) / rec["image"]
+            best = min(_time(process_image, path) for _ in range(repeats))
+            res = process_image(path)
+            size = f"{rec['size'][1]}x{rec['size'][0]}"
+            if size in timings:
+                timings[size].append(best)
+            peer = analyst_peer(res.frame.temperature_c, rec["pixel_m"])
+            for d in rec["defects"]:
+                if d["cause"] not in ("missing_insulation", "moisture", "air_leakage"):
+                    continue
+                truth = rec["_masks"][d["mask_index"]]
+                a, na = _defect_iou(np.asarray(res.analysis.labels), truth)
+                b, nb = _defect_iou(peer, truth)
+                tally["irseg"].append(a)
+                tally["peer"].append(b)
+                print(f"{r.stem:28} {d['name']:22} {d.get('kind', 'sharp'):8} {a:9.3f} {na:2d} {b:9.3f} {nb:2d}")
+    print(f"median IoU over {len(tally['irseg'])} defects: irseg {statistics.median(tally['irseg']):.3f}, "
+          f"peer {statistics.median(tally['peer']):.3f}")
+    load = os.getloadavg()[0]
+    for size, ts in timings.items():
+        if ts:
+            print(f"whole pipeline, one thread, {size}: median over frames {statistics.median(ts):.3f} CPU s, "
+                  f"range {min(ts):.3f}-{max(ts):.3f} s (min of {repeats} runs each; load average {load:.1f})")
+
+
+def _time(fn, arg) -> float:
+    """CPU seconds of this (single-threaded) process: the shared machine's load barely changes it."""
+    t0 = time.process_time()
+    fn(arg)
+    return time.process_time() - t0
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true", help="640 x 480 only, 3 repeats for the peers")
     ap.add_argument("--repeats", type=int, default=7)
+    ap.add_argument("--validation-only", action="store_true",
+                    help="only the validation-scene comparison and the pipeline timings")
     args = ap.parse_args()
+    if args.validation_only:
+        validation_comparison()
+        return
 
     segment(make_scene((120, 160), 0.05)[0])  # warm-up (imports, caches)
     cv_runs = 1 if args.quick else 3
@@ -151,6 +252,7 @@ def main() -> None:
                 f"{shape[1]}x{shape[0]:<5} median {med:.4f} s  min {best:.4f} s  ({med / base:.2f} x 640x480)  "
                 f"IoU {iou(p, scenes[shape][1]):.3f}  peak traced memory {mem:.1f} MB  runs {args.repeats}"
             )
+    validation_comparison(1 if args.quick else 3)
     rss = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
     print(f"\nprocess max RSS {rss:.0f} MB (includes Python, numpy, scipy, scikit-image)")
 

@@ -233,7 +233,7 @@ def physics_frame(name, n_cols, n_rows, netd, seed):
     contrast = shot.object_c - shot.baseline_c
     truths = []
     for i, (d, kind) in enumerate(zip(sc.truth, PHYSICS[name])):
-        fp = shot.footprints[i]
+        fp = shot.defect_masks[i]
         if not fp.any():
             continue
         if kind == "sharp":

@@ -23,7 +23,17 @@ from pathlib import Path
 
 from irseg import __version__
 from irseg.io import write_text
-from irseg.scenes._validation import TARGETS, VALIDATION_RECIPES, passes, validate_recipe, validate_sample, with_seed
+from irseg.scenes._validation import (
+    RESOLUTION_SERIES,
+    TARGETS,
+    VALIDATION_RECIPES,
+    passes,
+    resolution_consistency,
+    scene_passes,
+    validate_recipe,
+    validate_sample,
+    with_seed,
+)
 
 ROOT = Path(__file__).resolve().parents[1]
 
@@ -42,19 +52,20 @@ def _rows(results: list[dict]) -> list[list[str]]:
             verdict = ("pass" if all(ok.values()) else "MISS: " + ", ".join(k for k, v in ok.items() if not v)) \
                 if d["checked"] else ("not required" + ("" if "missing_insulation" not in d["causes"]
                                                         else "; WRONGLY missing_insulation"))
+            excess_err = _fmt(d["excess_rel"], "", True) if d.get("excess_checked", True) else "(not compared)"
             rows.append([
-                res["image"], str(res["camera"]["seed"]), d["name"], d["cause"], ",".join(d["causes"]) or "(none)",
+                res["image"], str(res["camera"]["seed"]), d["name"], d.get("kind", "sharp"), d["cause"],
+                ",".join(d["causes"]) or "(none)", str(d.get("n_found", "")),
                 _fmt(d["iou"], ".3f"), f"{d['true_area_m2']:.3f}", _fmt(d["area_m2"], ".3f"),
                 _fmt(d["area_rel"], "", True), f"{d['true_excess_w']:.2f} ({d['true_excess_footprint_w']:.2f})",
-                _fmt(d["excess_w"], ".2f"),
-                _fmt(d["excess_rel"], "", True), f"{d['true_reference_c']:.2f}", _fmt(d["reference_c"], ".2f"),
-                _fmt(d["reference_err_k"], "+.2f"), verdict,
+                _fmt(d["excess_w"], ".2f"), excess_err, f"{d['true_reference_c']:.2f}",
+                _fmt(d["reference_c"], ".2f"), _fmt(d["reference_err_k"], "+.2f"), verdict,
             ])
     return rows
 
 
-_HEAD = ["image", "seed", "defect", "true cause", "reported cause", "IoU", "area m² true", "est.", "err",
-         "excess W true (mask only)", "est.", "err", "ref °C true", "est.", "err K", "verdict"]
+_HEAD = ["image", "seed", "defect", "truth", "true cause", "reported cause", "n", "IoU", "area m² true", "est.",
+         "err", "excess W true (mask only)", "est.", "err", "ref °C true", "est.", "err K", "verdict"]
 
 
 def _markdown_table(head: list[str], rows: list[list[str]]) -> str:
@@ -73,9 +84,12 @@ def _settings(results: list[dict]) -> str:
         s, c = res["simulation"], res["camera"]
         layers = ", ".join(f"{m} {1000 * t:.1f} mm ({n} cells)" for m, t, n in s["layers"])
         tr = s["transient"]
+        strat = f"{s['stratification_k_m']} K/m" + (f" + {s['stratification_k_m2']} K/m²"
+                                                        if s.get("stratification_k_m2") else "")
         cond = (f"inside {s['inside_c']} °C, outside {s['outside_c']:.2f} °C, wind {s['wind_m_s']} m/s, "
-                f"stratification {s['stratification_k_m']} K/m, ε {s['emissivity']}, outside exposure "
-                f"{s['outside_exposure']}")
+                f"stratification {strat}, ε {s['emissivity']}, outside exposure {s['outside_exposure']}")
+        if s.get("relative_humidity") is not None:
+            cond += f", inside relative humidity {s['relative_humidity']:.0%}"
         if tr:
             cond += (f"; transient from {tr['start_h']:g} h to {tr['end_h']:g} h, Δt {tr['dt_s']:g} s, solar peak "
                      f"{tr['solar_peak_w_m2']:g} W/m² × absorptance {tr['absorptance']}, air {tr['air_mean_c']} ± "
@@ -89,20 +103,37 @@ def _settings(results: list[dict]) -> str:
             f"{c['distance_m']} m, tilt {c['tilt_deg']}°, PSF σ {c['psf_sigma_px']} px, NETD {c['netd_k']} K, "
             f"column σ {c['column_sigma_k']} K, shading {c['shading']}, "
             f"dead pixels {c['dead_pixels']}, seed {c['seed']}."
+            + "".join(f" Defect {d['name']}: {d['description']}." for d in res["defect_records"])
         )
     return "\n".join(out)
 
 
-def write_doc(path: Path, results: list[dict], seeds: int, seconds: float) -> None:
+def _resolution_table(series: dict[str, list[dict]]) -> str:
+    rows = []
+    for stem, results in series.items():
+        cons = resolution_consistency(results)
+        sizes = " / ".join(f"{r['size'][1]}×{r['size'][0]}" for r in results)
+        for name, d in cons["defects"].items():
+            areas = " / ".join("n/a" if a is None else f"{a:.3f}" for a in d["areas_m2"])
+            rows.append([stem, sizes, name, " / ".join(map(str, d["counts"])), areas,
+                         " / ".join(map(str, cons["anomaly_counts"])), "pass" if d["ok"] else "MISS"])
+    return _markdown_table(["scene", "frames", "defect", "anomalies on it", "area m²",
+                            "anomalies of defect causes", "verdict"], rows)
+
+
+def write_doc(path: Path, results: list[dict], seeds: int, seconds: float, series: dict[str, list[dict]]) -> None:
     rows = _rows(results)
     checked = [d for r in results for d in r["defects"] if d["checked"]]
     n_pass = sum(all(passes(d).values()) for d in checked)
     false_missing = sum(len(r["false_missing"]) for r in results)
+    scene_ok = sum(all(scene_passes(r).values()) for r in results)
+    n_consistent = sum(resolution_consistency(v)["ok"] for v in series.values())
     scenes = _markdown_table(
-        ["image", "scene IoU (checked defects)", "structural features reported as missing insulation",
-         "simulate s", "pipeline s"],
-        [[f"{r['image']} (seed {r['camera']['seed']})", f"{r['scene_iou']:.3f}", str(len(r["false_missing"])),
-          f"{r['seconds']['simulate']:.1f}", f"{r['seconds']['pipeline']:.1f}"] for r in results])
+        ["image", "scene IoU (checked defects)", "false-alarm area / defect area",
+         "structural features reported as missing insulation", "simulate s", "pipeline s"],
+        [[f"{r['image']} (seed {r['camera']['seed']})", f"{r['scene_iou']:.3f}", f"{100 * r['false_alarm_rel']:.1f} %",
+          str(len(r["false_missing"])), f"{r['seconds']['simulate']:.1f}", f"{r['seconds']['pipeline']:.2f}"]
+         for r in results])
     text = f"""# Validation against physics scenes
 
 This page is generated by `benchmarks/validate_scenes.py` (irseg {__version__}); re-run
@@ -115,32 +146,77 @@ must be confirmed on site under local codes and licensed practice.
 
 Each scene is an envelope element simulated by `irseg.scenes` (steady or transient 3-D
 finite-volume conduction, surface heat exchange with ISO 6946 surface coefficients
-h = h_c + ε·4σT_m³, stratified inside air, sky radiation outside) **with and without** its
-defects. The camera model resamples the viewed face onto the detector grid, blurs it,
-applies band-limited (7.5–14 µm) emissivity/reflection, NETD noise, a column pattern, lens
-shading and dead pixels, and writes a radiometric file plus its TOML sidecar. The file then
-goes through `irseg.pipeline.process_image` (read → metadata → calibrate → segment → analyse).
+h = h_c + ε·4σT_m³, stratified inside air — linear or not —, sky radiation outside) **with and
+without** its defects. The camera model resamples the viewed face onto the detector grid, blurs
+it, applies band-limited (7.5–14 µm) emissivity/reflection, lens shading (part of the signal
+from the warmer camera housing toward the corners, about 1.2 K centre-to-corner where set), NETD
+noise, a column pattern and dead pixels, and writes a radiometric file plus its TOML sidecar. The
+file then goes through `irseg.pipeline.process_image` (read → metadata → calibrate → segment →
+analyse).
 
-Truth per defect: defect mask (pixels at least half covered), area (surface grid, in view),
-excess heat = change of the viewed face's heat flow with vs. without the defects, charged to the
-defect mask plus a 0.3 m rim (nearest defect wins), reference = no-defect surface temperature
-averaged over the defect mask. Reported anomalies lying ≥ 50 % inside a defect mask are merged and
-compared with it. Structural features (studs, slab edges, lintels) are not required to be found,
-but must never be reported as missing insulation.
+What is physics and what is not:
 
-Targets (issue 6): IoU ≥ {TARGETS['iou_min']}, area within {100 * TARGETS['area_rel']:.0f} %, excess heat within
-{100 * TARGETS['excess_rel']:.0f} %, reference within {TARGETS['reference_abs_k']} K, cause as simulated.
+- conduction defects (empty bays, settled fill with a soft top, insulation left at part of its
+  depth, displaced insulation, wet insulation tapering toward its edge, damp brick and plaster):
+  materials in the 3-D grid, solved;
+- evaporation from a damp inside face: a heat sink at the face, the Chilton-Colburn (Lewis)
+  mass-transfer analogy with the Magnus saturation pressure, at the surface temperature the face
+  reaches (two fixed-point passes);
+- the **cold-air fan** from a sill gap is an **analytic overlay of the air** next to the face (no
+  flow is solved): the inside air is colder by `ΔT·exp(−d/0.5 m)` below the gap over a widening fan;
+  the wall's response to that air is solved by conduction. Its excess heat is not compared: the
+  heat an air leak carries is the air's, not a flow through the face.
+
+Truth per defect: **sharp** defects (a plateau with a step edge: empty bays, boards, displaced
+insulation, uniform wet areas) use the defect mask (pixels at least half covered) and its area on
+the surface grid; **graded** and **diffuse** defects (partial-depth voids, soft fill tops, damp,
+tapered wetness, the fan) use the region where their own noise-free simulated contrast (with minus
+without the defects) holds half of its peak — the analysis' extent rule —, read with narrow
+members (studs, joists: narrower than 0.12 m) taken out by a grey opening, within 0.15 m of the
+cells the defect changes; its area on the camera grid. Excess heat = change of the viewed face's
+heat flow with vs. without the defects, charged to the defect mask plus a 0.3 m rim (nearest
+defect wins; for a damp face the heat the room gives it, latent heat included). Reference = the
+no-defect surface temperature averaged over the truth region (for graded defects as the same
+camera records it, lens shading included). Reported anomalies lying ≥ 50 % inside a truth region
+are merged and compared with it. Structural features (studs, slab edges, lintels) are not required
+to be found, but must never be reported as missing insulation.
+
+Targets (issues 6 and 11): IoU ≥ {TARGETS['iou_min']} (sharp) / ≥ {TARGETS['iou_min_graded']} (graded, diffuse),
+area within {100 * TARGETS['area_rel']:.0f} %, excess heat within {100 * TARGETS['excess_rel']:.0f} %, reference within
+{TARGETS['reference_abs_k']} K, cause as simulated, exactly one anomaly per defect; per scene the area of anomalies
+of the defect causes (missing insulation, moisture, air leakage) outside every defect at most
+{100 * TARGETS['false_alarm_rel']:.0f} % of the defects' area; the same scene at 320×240, 640×480 and 1280×1024 gives the
+same anomaly count and areas within {100 * TARGETS['resolution_area_rel']:.0f} % of their median.
 
 ## Results
 
-{n_pass} of {len(checked)} checked defects meet every target; {false_missing} structural feature(s)
-reported as missing insulation. Run time {seconds:.0f} s on this machine (simulation + pipeline).
+{n_pass} of {len(checked)} checked defects meet every target; {scene_ok} of {len(results)} scenes keep their
+false-alarm area within the target and report no structural feature as missing insulation
+({false_missing} structural feature(s) reported as missing insulation in all); {n_consistent} of {len(series)} scenes
+agree across the three resolutions. Run time {seconds:.0f} s on this machine (simulation + pipeline).
 
 {scenes}
 
-Per defect (errors are estimate − truth, relative for area and excess heat):
+Per defect (errors are estimate − truth, relative for area and excess heat; n = anomalies matched):
 
 {_markdown_table(_HEAD, rows)}
+
+### The same scene at three resolutions
+
+{_resolution_table(series)}
+
+### What does not pass yet, and why
+
+- **Insulation left at part of its depth in a ceiling (val6)**: the removed insulation exposes the
+  joists' sides, so the joists next to the fill get colder *because of* the defect. The analysis
+  gives a member its own contrast (part of the sound state) up to what it shows away from the
+  defect; the rest of the joists' extra heat stays with the joist anomalies, not the defect: the
+  excess heat is 17–31 % low. The weaker fill (half depth, 0.2 K) sits beside a joist and near a
+  frame corner with 1.2 K of lens shading; its outline there is cut by up to 11 % (29 % at
+  1280×1024, where the taller view brings it nearer the corner), so its area differs across the
+  three resolutions.
+- **A bay left at a third of its depth between two studs (val7)**: its extent reaches over the
+  studs' flanks, 10.4 % over the truth region (the limit is 10 %).
 
 ## Simulation settings
 
@@ -149,8 +225,9 @@ Per defect (errors are estimate − truth, relative for area and excess heat):
 Materials (λ W/m·K): plasterboard 0.25, gypsum plaster 0.70, mineral wool 0.035, softwood 0.13,
 OSB 0.13, brick 0.77, EPS 0.036, PIR 0.022, render 1.4, concrete 2.3, bitumen 0.20; air layers
 as ISO 6946 unventilated layers (R 0.18 horizontal / 0.16 upward m²K/W); wet insulation by the
-ISO 10456 moisture factor exp(4ψ) with the water's heat capacity added. The solver is checked
-against ISO 6946 U-values and surface temperatures in `tests/scenes/test_conduction.py`.
+ISO 10456 moisture factor exp(4ψ), wet brick and plaster exp(10ψ), with the water's heat capacity
+added. The solver is checked against ISO 6946 U-values and surface temperatures in
+`tests/scenes/test_conduction.py`.
 """
     write_text(path, text)
 
@@ -231,18 +308,24 @@ def main(argv: list[str] | None = None) -> int:
         return 0
     t0 = time.perf_counter()
     results = []
+    series: dict[str, list[dict]] = {}
     with tempfile.TemporaryDirectory() as tmp, warnings.catch_warnings():
         warnings.simplefilter("ignore")
         for r in VALIDATION_RECIPES:
             for k in range(args.seeds):
                 results.append(validate_recipe(with_seed(r, r.camera.seed + 1000 * k), tmp))
                 print(f"done {r.stem} seed {r.camera.seed + 1000 * k}", file=sys.stderr)
+        for stem, recipes in RESOLUTION_SERIES.items():
+            series[stem] = [validate_recipe(r, tmp) for r in recipes]
+            print(f"done {stem} at three resolutions", file=sys.stderr)
     seconds = time.perf_counter() - t0
     _print_table(_rows(results))
+    for stem, res in series.items():
+        print(stem, resolution_consistency(res))
     pipe = [r["seconds"]["pipeline"] for r in results]
     sim = [r["seconds"]["simulate"] for r in results]
     print(f"median seconds per scene: simulate {statistics.median(sim):.2f}, pipeline {statistics.median(pipe):.2f}")
-    write_doc(args.doc, results, args.seeds, seconds)
+    write_doc(args.doc, results, args.seeds, seconds, series)
     print(f"wrote {args.doc}")
     return 0
 

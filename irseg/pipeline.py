@@ -218,7 +218,6 @@ def _from_metadata(image: str, raw: RawFrame, meta: SurveyMeta, timings: dict[st
     frame: ThermalFrame = _run_stage(
         "calibrate", timings, caught, lambda: calibrate(raw, meta, **material_maps(zones, meta))
     )
-    del raw  # the stored values are not needed after calibration (frees the input's memory early)
     if zones is not None:  # exclude zones: invalid pixels from here on (no anomaly, no reference, no edge)
         zones, frame = _run_stage("calibrate", timings, caught, lambda: zones.exclude(frame))
     flat = _flat_warning(frame, meta)

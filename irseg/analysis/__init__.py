@@ -1,7 +1,8 @@
 """Anomaly analysis: local sound reference, cause, area, excess heat loss, f_Rsi, confidence.
 
-``analyse(frame, seg, meta)`` turns the regions of a segmentation into measured,
-classified anomalies. All quantities are estimates; see ``docs/analysis.md`` for
+``analyse(frame, seg, meta)`` finds the anomalies of a thermogram by their significant contrast
+against a robust local sound surface (with or without a jump; the segmentation's jumps place the
+outline where they exist) and measures and classifies them, one anomaly per defect. All quantities are estimates; see ``docs/analysis.md`` for
 every rule, formula, default and its source.
 """
 

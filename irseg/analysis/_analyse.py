@@ -1,10 +1,12 @@
-"""``analyse``: regions of a segmentation -> measured, classified anomalies.
+"""``analyse``: significant contrast against the sound surface, joined with the segmentation -> anomalies.
 
-The steps, each in its own module: sound regions and the image's trend
-(:mod:`._reference`), candidates against their local ring (:mod:`._candidates`),
-fragments of one anomaly (:mod:`._fragments`), the thermal region and extent of
-each (:mod:`._thermal_region`), framing members (:mod:`._framing`), then one
-:class:`Anomaly` per unit (:mod:`._records`, :mod:`._classify`).
+The steps, each in its own module: the robust local sound surface and the anomalies found by
+their contrast at their own scale (:mod:`._sound_surface`, :mod:`._significance`,
+:mod:`._components`); the segmentation's candidates against their local ring, confirmed by that
+contrast (:mod:`._reference`, :mod:`._candidates`); fragments of one anomaly
+(:mod:`._fragments`); the thermal region and extent of each (:mod:`._thermal_region`); one anomaly
+per defect, jump outlines where they agree (:mod:`._soft`); framing members (:mod:`._framing`);
+then one :class:`Anomaly` per unit (:mod:`._records`, :mod:`._classify`).
 """
 
 from __future__ import annotations
@@ -15,6 +17,7 @@ import numpy as np
 from scipy import ndimage
 
 from .._defaults import resolve_reflected_c
+from .._shared import robust_sigma
 from ..errors import ConfigError
 from ..segmentation import estimate_noise_k
 from ..types import Air, Surface, SurveyMeta, ThermalFrame
@@ -24,7 +27,9 @@ from ._fragments import group_fragments
 from ._framing import find_lines, find_regular_sets
 from ._geometry import MIN_SPOT_PX, pixel_area_m2, pixel_size_m
 from ._records import ImageContext, anomaly_record, group_units, rank_by_severity
-from ._reference import find_sound_regions
+from ._reference import SurfaceReference, find_sound_regions
+from ._significance import MIN_CONTRAST_K, detect_regions
+from ._soft import OWN_FRACTION, join_detections
 from ._surface import CONVENTIONAL_WIND_M_S, h_convective_exterior, h_convective_interior, h_radiative, resolve_heat_flow
 from ._thermal_region import measure_candidate
 from ._types import Analysis
@@ -105,18 +110,28 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     if n == 0 or not valid.any():
         return Analysis((), np.zeros(shape, np.int32), pixel_m, px_area, None, reference, warn)
 
+    # significant contrast against the local sound surface, at the scale of each defect
+    floor_k = float(an.min_contrast_k) if an.min_contrast_k is not None else MIN_CONTRAST_K
+    det_labels, surface_c, det = detect_regions(t, ~valid, noise_k=noise, pixel_m=pixel_m, min_contrast_k=floor_k)
     flat = labels.ravel()
     areas = np.bincount(flat, minlength=n + 1).astype(float)
-    means_u = np.bincount(flat, weights=u.ravel(), minlength=n + 1) / np.maximum(areas, 1.0)
+    per = np.maximum(areas, 1.0)
+    share = {sign: np.bincount(flat, weights=(np.sign(det.components) == sign).ravel(), minlength=n + 1) / per
+             for sign in (-1, 1)}
+    in_core = np.bincount(flat, weights=(det_labels > 0).ravel(), minlength=n + 1) / per
+    means_u = np.bincount(flat, weights=u.ravel(), minlength=n + 1) / per
     slices = ndimage.find_objects(labels)
     sound, trend = find_sound_regions(
         u=u, labels=labels, usable=usable, areas=areas, means_u=means_u, threshold_k=thr, min_area_px=MIN_SPOT_PX,
         slices=slices,
     )
-    cols = np.arange(shape[1], dtype=float)[None, :]
-    for r0 in range(0, shape[0], _BLOCK_ROWS):  # a block of rows at a time: no frame-sized temporary
-        rows = np.arange(r0, min(shape[0], r0 + _BLOCK_ROWS), dtype=float)[:, None]
-        reference[r0 : r0 + rows.shape[0]] = trend.evaluate(rows, cols)
+    # a region is a candidate when most of it lies in a detected anomaly, or when it is off the image's
+    # sound trend and most of it shows significant contrast against the local sound surface (a region
+    # off the trend only because the sound surface is not a plane, lens shading, is sound)
+    sound &= in_core < OWN_FRACTION
+    sound |= (share[-1] + share[1] < OWN_FRACTION) & (in_core < OWN_FRACTION)
+    sound[0] = False
+    reference[:] = surface_c
     reference[~valid] = np.nan
     allowed = usable & sound[labels]  # pixels that may serve as a sound reference
 
@@ -127,13 +142,16 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     )
     h = h_c + h_r
 
+    sound_px = valid & (det.components == 0)
+    step = max(1, int(sound_px.sum()) // 40_000)
+    spread = robust_sigma((t - surface_c)[sound_px][::step]) if sound_px.any() else noise
+    last_resort = SurfaceReference(surface_c, float(spread), int(sound_px.sum()))
     accepted = select_candidates(
         labels=labels, t=t, u=u, allowed=allowed, sound=sound, areas=areas, means_u=means_u, slices=slices,
-        noise_k=noise, threshold_k=thr, trend=trend,
+        noise_k=noise, threshold_k=thr, trend=last_resort,
     )
-    if not accepted:
-        return Analysis((), np.zeros(shape, np.int32), pixel_m, px_area, h, reference, warn)
-
+    # a segmented candidate is confirmed by significant contrast of its own sign over most of it
+    accepted = [c for c in accepted if share[-1 if c.delta_k < 0 else 1][c.label] >= OWN_FRACTION]
     accepted, host_of = group_fragments(accepted, labels=labels, min_step_k=min_step)
     is_anomaly = np.zeros(n + 1, dtype=bool)
     is_anomaly[[c.label for c in accepted]] = True
@@ -143,19 +161,22 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
                           loss_sign=loss_sign, reference=reference)
         for c in accepted
     ]
-    shapes = {m.cand.label: m.shape for m in measured}
-    kinds = {m.cand.label: m.kind for m in measured}
-    sets = find_regular_sets(shapes, kinds, pixel_m=pixel_m)
-    lines = find_lines(
-        shapes, kinds, {m.cand.label: m.cand.delta_k for m in measured}, pixel_m=pixel_m, exclude=set(sets),
-        bboxes={m.cand.label: m.bbox for m in measured},
+    sets, lines = _framing(measured, pixel_m)
+    measured, host_of = join_detections(
+        measured, host_of=host_of, framing=set(sets) | set(lines), det_labels=det_labels, info=det,
+        surface_c=surface_c, t=t, u=u, valid=valid, noise_k=noise, loss_sign=loss_sign, reference=reference,
+        first_label=n + 1, min_contrast_k=floor_k, pixel_m=pixel_m,
     )
+    if not measured:
+        return Analysis((), np.zeros(shape, np.int32), pixel_m, px_area, h, reference, warn)
+    sets, lines = _framing(measured, pixel_m)
     delta_air_k = None
     if air.inside_c is not None and air.outside_c is not None and air.inside_c - air.outside_c > 0:
         delta_air_k = float(air.inside_c - air.outside_c)
     ctx = ImageContext(
         temperature_c=t, meta=meta, threshold_k=thr, pixel_m=pixel_m, pixel_area_m2=px_area,
         h_convective_w_m2k=h_c, h_radiative_w_m2k=h_r, sky_limit_c=sky_limit_c, delta_air_k=delta_air_k,
+        heat_flow=heat_flow,
     )
     out_labels = np.zeros(shape, np.int32)
     drafts = [
@@ -163,6 +184,18 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
         for i, unit in enumerate(group_units(measured, host_of=host_of, sets=sets, lines=lines), start=1)
     ]
     return Analysis(rank_by_severity(drafts), out_labels, pixel_m, px_area, h, reference, warn)
+
+
+def _framing(measured: list, pixel_m: float | None) -> tuple[dict, dict]:
+    """Regular parallel sets and straight bands of pieces among the measured anomalies."""
+    shapes = {m.cand.label: m.shape for m in measured}
+    kinds = {m.cand.label: m.kind for m in measured}
+    sets = find_regular_sets(shapes, kinds, pixel_m=pixel_m)
+    lines = find_lines(
+        shapes, kinds, {m.cand.label: m.cand.delta_k for m in measured}, pixel_m=pixel_m, exclude=set(sets),
+        bboxes={m.cand.label: m.bbox for m in measured},
+    )
+    return sets, lines
 
 
 def _coefficients(

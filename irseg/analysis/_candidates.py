@@ -9,7 +9,7 @@ import numpy as np
 from scipy import ndimage
 
 from ._geometry import MIN_SPOT_PX
-from ._reference import Plane, RingReference, rim_extent_px, ring_reference
+from ._reference import RingReference, SurfaceReference, rim_extent_px, ring_reference
 
 __all__ = [
     "Candidate",
@@ -71,7 +71,7 @@ def _ring_width(area_px: int) -> float:
 
 def select_candidates(
     *, labels: np.ndarray, t: np.ndarray, u: np.ndarray, allowed: np.ndarray, sound: np.ndarray,
-    areas: np.ndarray, means_u: np.ndarray, slices: list, noise_k: float, threshold_k: float, trend: Plane,
+    areas: np.ndarray, means_u: np.ndarray, slices: list, noise_k: float, threshold_k: float, trend: SurfaceReference,
 ) -> list[Candidate]:
     """Every region that is not sound, at least :data:`MIN_SPOT_PX` large and significant, by label.
 
@@ -91,8 +91,8 @@ def select_candidates(
         ``scipy.ndimage.find_objects(labels)``.
     noise_k, threshold_k : float
         Noise and significance threshold, K.
-    trend : Plane
-        The image's sound trend (the reference of last resort).
+    trend : SurfaceReference
+        The local sound surface, the reference of last resort.
     """
     n = areas.size - 1
     return [
@@ -107,7 +107,7 @@ def select_candidates(
 
 def _local_contrast(
     lab: int, sl: tuple[slice, slice], *, labels: np.ndarray, t: np.ndarray, u: np.ndarray, allowed: np.ndarray,
-    area_px: int, mean_u: float, noise_k: float, threshold_k: float, trend: Plane,
+    area_px: int, mean_u: float, noise_k: float, threshold_k: float, trend: SurfaceReference,
 ) -> Candidate | None:
     """Local ring reference of one candidate region; None when its contrast is not significant."""
     shape = labels.shape

@@ -9,14 +9,22 @@ matching rule wins and returns ``(cause, reason)``.
 from __future__ import annotations
 
 from ._framing import BAND_ELONGATION, BAND_FILL, LineInfo, is_band
-from ._shape import Shape
+from ._shape import FAN_TAPER, Shape
 
-__all__ = ["classify_cause", "WEAK_BAND_ELONGATION", "SMALL_SPOT_M", "PARTIAL_FRACTION", "STUD_SPACING_M"]
+__all__ = ["classify_cause", "WEAK_BAND_ELONGATION", "SMALL_SPOT_M", "PARTIAL_FRACTION", "STUD_SPACING_M",
+           "NARROW_LINE_M", "NARROW_ELONGATION", "DAMP_BASE_CONTACT", "DAMP_ROUGHNESS_M", "DAMP_ROUGHNESS_PX", "DAMP_TOP_CONTACT", "DAMP_REASON"]
 
 WEAK_BAND_ELONGATION = 3.0  # a shorter band counts when its contrast is weak (a timber header, not an empty cavity)
 SMALL_SPOT_M = 0.10  # a compact spot smaller than this across is not judged as missing insulation
 PARTIAL_FRACTION = 0.10  # |contrast| / (T_i − T_e) below which a void is partial-depth
 STUD_SPACING_M = (0.30, 0.70)
+NARROW_LINE_M = 0.12  # a cold line at most this wide is a member or a gap, not a void (members are 45-100 mm)
+NARROW_ELONGATION = 3.0
+DAMP_BASE_CONTACT = 0.5  # a damp base runs along the frame's bottom edge over at least half its width
+DAMP_TOP_CONTACT = 0.3  # a patch hanging from the frame's top edge over at least 30 % of its width
+DAMP_ROUGHNESS_M = 0.015  # a tide line wavers about a straight line by at least this (robust spread) ...
+DAMP_ROUGHNESS_PX = 2.0  # ... and by at least this many pixels (a straight edge measures about 0.3 px)
+DAMP_REASON = "rising or penetrating damp: confirm with a moisture meter"
 
 
 def classify_cause(
@@ -32,6 +40,9 @@ def classify_cause(
     delta_air_k: float | None,
     sky_limit_c: float | None,
     line: LineInfo | None = None,
+    contact: dict[str, float] | None = None,
+    heat_flow: str = "horizontal",
+    detected: bool = False,
 ) -> tuple[str, str]:
     """Cause and a short reason for one anomaly (rules in docs/analysis.md, in this order).
 
@@ -55,6 +66,14 @@ def classify_cause(
         Inside minus outside air temperature when positive, K.
     sky_limit_c : float or None
         Roofs: the temperature of a surface with no conduction from below, °C.
+    contact : dict, optional
+        Share of the frame's ``"top"`` and ``"bottom"`` edge columns the anomaly reaches
+        (over its own width).
+    heat_flow : {"horizontal", "upward", "downward"}
+        A ceiling (upward) is below a roof or loft.
+    detected : bool
+        The anomaly was found by its contrast alone (no segmented outline): a narrow soft line
+        is then a member or a gap (its half-peak outline is the width of a blurred member).
 
     Returns
     -------
@@ -88,7 +107,11 @@ def classify_cause(
         )
     if band:
         return "thermal_bridge", band_reason
-    return _wall_cause(shape, kind=kind, view=view, delta_k=delta_k, pixel_m=pixel_m, delta_air_k=delta_air_k)
+    damp = _damp(shape, view=view, pixel_m=pixel_m, contact=contact or {}, heat_flow=heat_flow)
+    if damp is not None:
+        return "moisture", damp
+    return _wall_cause(shape, kind=kind, view=view, delta_k=delta_k, pixel_m=pixel_m, delta_air_k=delta_air_k,
+                       soft_line=detected)
 
 
 def _band_reason(
@@ -147,16 +170,51 @@ def _roof_cause(
     )
 
 
+def _damp(shape: Shape, *, view: str, pixel_m: float | None, contact: dict[str, float],
+          heat_flow: str) -> str | None:
+    """Moisture seen from inside (cold, not a band): the reason, or None.
+
+    - a cold zone along the base of the wall (it reaches the frame's bottom edge over at least half
+      of its width) whose upper boundary wavers like a tide line (robust spread about a straight
+      line of at least 15 mm and 2 px), not a fan: rising damp; missing insulation fills bays and
+      ends in straight edges, settled fill leaves its void at the *top* of a bay;
+    - a cold patch on a wall with a soft irregular outline (diffuse, not compact), not a fan or a
+      streak from a gap, that hangs from the frame's top edge (it reaches it over at least 30 % of its
+      width): penetrating damp below a roof, gutter or pipe run. On a ceiling a damp patch is not
+      told from a soft void by its outline, so the rule does not apply there.
+    """
+    if view != "interior":
+        return None
+    rough_px = shape.upper_roughness_px
+    wavy = rough_px >= DAMP_ROUGHNESS_PX and (pixel_m is None or rough_px * pixel_m >= DAMP_ROUGHNESS_M)
+    if contact.get("bottom", 0.0) >= DAMP_BASE_CONTACT and wavy and shape.taper < FAN_TAPER:
+        wave = f"{1000 * rough_px * pixel_m:.0f} mm" if pixel_m is not None else f"{rough_px:.0f} px"
+        return (f"cold zone along the base of the wall, its upper boundary wavering by {wave} like a tide "
+                f"line: {DAMP_REASON}")
+    hanging = contact.get("top", 0.0) >= DAMP_TOP_CONTACT and heat_flow != "upward"
+    if hanging and shape.diffuse and not shape.compact and shape.taper < FAN_TAPER and not shape.fades_from_end:
+        return (f"cold patch with a soft irregular outline hanging from the top of the frame, below a roof, "
+                f"gutter or pipe run: {DAMP_REASON}")
+    return None
+
+
 def _wall_cause(
-    shape: Shape, *, kind: str, view: str, delta_k: float, pixel_m: float | None, delta_air_k: float | None
+    shape: Shape, *, kind: str, view: str, delta_k: float, pixel_m: float | None, delta_air_k: float | None,
+    soft_line: bool = False,
 ) -> tuple[str, str]:
-    """Wall and ceiling rules for a heat-loss sign that is not a band: leakage, spot, void."""
+    """Wall and ceiling rules for a heat-loss sign that is not a band: leakage, narrow line, spot, void."""
     side = "inside" if view == "interior" else "outside"
     if shape.streaky and shape.diffuse:
         flow = "infiltration" if view == "interior" else "exfiltration"
         return "air_leakage", (
             f"streaky or fan-shaped {kind} pattern with diffuse edges seen from {side}: air {flow} at a joint "
             "or opening; confirm under depressurisation"
+        )
+    if (soft_line and pixel_m is not None and shape.width_px * pixel_m <= NARROW_LINE_M
+            and shape.elongation >= NARROW_ELONGATION):
+        return "thermal_bridge", (
+            f"narrow {kind} line ({1000 * shape.width_px * pixel_m:.0f} mm wide, length/width "
+            f"{shape.elongation:.1f}) seen from {side}: a member (stud, joist, plate) or a gap between boards"
         )
     if pixel_m is not None and shape.length_px * pixel_m < SMALL_SPOT_M:
         return "unclassified", (

@@ -18,9 +18,10 @@ from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
 from ._thermal_region import Measured
 from ._types import Anomaly, severity_key, severity_score
 
-__all__ = ["ImageContext", "group_units", "anomaly_record", "rank_by_severity", "FRSI_PERCENTILE"]
+__all__ = ["ImageContext", "group_units", "anomaly_record", "rank_by_severity", "FRSI_PERCENTILE", "EDGE_NOTE"]
 
 FRSI_PERCENTILE = 5.0
+EDGE_NOTE = "touches the frame edge: its area may be cut"
 
 
 @dataclass(frozen=True)
@@ -44,6 +45,8 @@ class ImageContext:
         Roofs: temperature of a surface with no conduction from below, °C.
     delta_air_k : float or None
         Inside minus outside air temperature when positive, K.
+    heat_flow : str
+        Heat-flow direction in force (a ceiling is "upward").
     """
 
     temperature_c: np.ndarray
@@ -55,6 +58,7 @@ class ImageContext:
     h_radiative_w_m2k: float
     sky_limit_c: float | None
     delta_air_k: float | None
+    heat_flow: str = "horizontal"
 
     @property
     def h_w_m2k(self) -> float:
@@ -116,22 +120,32 @@ def _unit_pixels(unit: list[Measured], main: Measured, t: np.ndarray) -> _UnitPi
 
 def _cause(
     unit: list[Measured], main: Measured, *, ctx: ImageContext, delta_k: float, mean_c: float,
-    sets: dict[int, LineInfo], lines: dict[int, LineInfo], host_of: dict[int, int],
+    sets: dict[int, LineInfo], lines: dict[int, LineInfo], host_of: dict[int, int], contact: dict[str, float],
 ) -> tuple[str, str]:
     """Cause of the unit's main piece, the reason telling how many pieces were joined."""
     cause, reason = classify_cause(
         main.shape, kind=main.kind, view=ctx.meta.surface.view, delta_k=delta_k, mean_c=mean_c,
         threshold_k=ctx.threshold_k, pixel_m=ctx.pixel_m, regular_set=sets.get(main.cand.label),
         delta_air_k=ctx.delta_air_k, sky_limit_c=ctx.sky_limit_c, line=lines.get(main.cand.label),
+        contact=contact, heat_flow=ctx.heat_flow, detected=main.cand.ref.source == "detected",
     )
     n_frag = sum(1 for m in unit if m.cand.label in host_of)
     if len(unit) - n_frag > 1:
         reason += f" ({len(unit) - n_frag} pieces of one member, interrupted by other anomalies or the segmentation)"
     if n_frag:
         reason += f" (with {n_frag} touching fragment(s) of similar temperature)"
-    if any(m.cand.ref.source == "trend" for m in unit):
-        reason += "; reference: the image's sound trend (no sound surface around it)"
+    if main.parts > 1:
+        reason += f" (one anomaly over {main.parts} segmented pieces: its extent is where it holds half its peak contrast)"
+    if any(m.cand.ref.source == "surface" for m in unit):
+        reason += "; reference: the local sound surface (no sound ring around it)"
     return cause, reason
+
+
+def _frame_contact(rows: np.ndarray, cols: np.ndarray, n_rows: int) -> dict[str, float]:
+    """Share of the anomaly's columns in which it reaches the frame's top and bottom rows."""
+    width = int(np.unique(cols).size)
+    return {"top": int(np.unique(cols[rows == 0]).size) / max(width, 1),
+            "bottom": int(np.unique(cols[rows == n_rows - 1]).size) / max(width, 1)}
 
 
 def anomaly_record(
@@ -152,8 +166,11 @@ def anomaly_record(
     mean_c = float(vals.mean())
     reference_c = float(px.reference_c.mean())
     delta_k = mean_c - reference_c
+    n_rows, n_cols = ctx.temperature_c.shape
     cause, reason = _cause(unit, main, ctx=ctx, delta_k=delta_k, mean_c=mean_c, sets=sets, lines=lines,
-                           host_of=host_of)
+                           host_of=host_of, contact=_frame_contact(px.rows, px.cols, n_rows))
+    if px.rows.min() == 0 or px.cols.min() == 0 or px.rows.max() == n_rows - 1 or px.cols.max() == n_cols - 1:
+        reason += f"; {EDGE_NOTE}"
     px_area = ctx.pixel_area_m2
     area_m2 = None if px_area is None else area_px * px_area
     expected_kind = "cold" if surf.view == "interior" else "warm"

@@ -29,6 +29,7 @@ from .._shared import MAD_TO_SIGMA, robust_sigma
 __all__ = [
     "Plane",
     "RingReference",
+    "SurfaceReference",
     "fit_plane",
     "find_sound_regions",
     "ring_reference",
@@ -57,13 +58,32 @@ class Plane:
 
 
 @dataclass(frozen=True)
+class SurfaceReference:
+    """The local sound surface (:mod:`._sound_surface`) as the reference of last resort.
+
+    Evaluated like a :class:`Plane` (image rows and columns, broadcast), it is the surface's
+    value at the nearest pixel; ``sigma`` is the robust spread of the temperature about it.
+    """
+
+    surface_c: np.ndarray
+    sigma: float
+    n: int
+
+    def evaluate(self, rows: np.ndarray, cols: np.ndarray) -> np.ndarray:
+        m, n = self.surface_c.shape
+        r = np.clip(np.rint(rows).astype(int), 0, m - 1)
+        c = np.clip(np.rint(cols).astype(int), 0, n - 1)
+        return self.surface_c[r, c]
+
+
+@dataclass(frozen=True)
 class RingReference:
     """Local reference of one candidate region (plane in image coordinates)."""
 
-    plane: Plane
+    plane: Plane | SurfaceReference
     sigma_k: float  # robust spread of the measured temperature about the plane in the ring
     n_ring: int
-    source: str  # "ring", "wide ring" or "trend"
+    source: str  # "ring", "wide ring", "surface" (last resort) or "detected" (a detected anomaly)
 
 
 def fit_plane(
@@ -281,7 +301,7 @@ def ring_reference(
     col_offset: int,
     gap_px: float,
     width_px: float,
-    trend: Plane,
+    trend: Plane | SurfaceReference,
     extent: tuple[int, int, int, int],
     widen: bool = False,
 ) -> RingReference:
@@ -302,8 +322,8 @@ def ring_reference(
     widen : bool
         Try 2× and 4× the width (the crop must be large enough) instead of 1×;
         the caller widens when the first ring has fewer than 24 usable pixels.
-    trend : Plane
-        Image-wide sound trend, the last resort.
+    trend : Plane or SurfaceReference
+        The reference of last resort (the local sound surface).
     """
     steps = ((2.0, "wide ring"), (4.0, "wide ring")) if widen else ((1.0, "ring"),)
     for factor, source in steps:
@@ -320,4 +340,4 @@ def ring_reference(
             )
             resid_t = t_crop[rr, cc] - local.evaluate(rr.astype(float), cc.astype(float))
             return RingReference(plane, robust_sigma(resid_t), n_ring, source)
-    return RingReference(trend, float(trend.sigma), int(trend.n), "trend")
+    return RingReference(trend, float(trend.sigma), int(trend.n), "surface")

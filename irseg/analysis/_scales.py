@@ -11,11 +11,12 @@ import math
 
 import cv2
 import numpy as np
+from scipy import ndimage
 
 from .._shared import MAD_TO_SIGMA
 
 __all__ = ["gaussian_noise_factor", "scale_bank", "contrast_at_scales", "pixel_noise_k",
-           "min_detectable_contrast_k", "K_HI", "FULL_RES_MAX_S"]
+           "min_detectable_contrast_k", "dome_of", "without_lines", "long_lines", "K_HI", "FULL_RES_MAX_S"]
 
 K_HI = 5.0  # seeds: |contrast at scale| > K_HI·σ at that scale
 FULL_RES_MAX_S = 3.0  # scales up to this many pixels are smoothed at full resolution
@@ -95,19 +96,24 @@ def scale_bank(min_area_px: float, max_area_px: float, max_s_px: float) -> tuple
 
 
 def contrast_at_scales(
-    residual: np.ndarray, valid: np.ndarray, scales_px: tuple[float, ...], gains: list | None = None
+    residual: np.ndarray, valid: np.ndarray, scales_px: tuple[float, ...], gains: list | None = None,
+    pyramid: dict | None = None,
 ) -> list[np.ndarray]:
     """``R_s`` for each scale (normalized convolution, so invalid pixels do not pull it to zero).
 
     Scales above 3 px are computed on a block-reduced copy (factor ``⌊s/2⌋`` rounded down to a
     power of two) and brought back bilinearly; the reduction adds ``f²/12`` px² of variance to
-    the window, which is taken off the reduced std.
+    the window, which is taken off the reduced std. ``pyramid`` (a dict the caller keeps for one
+    residual) holds the reduced copies between calls.
     """
     m, n = residual.shape
     r32 = np.where(valid, residual, 0.0).astype(np.float32)
     v32 = valid.astype(np.float32)
     out = []
-    pyramid: dict[int, tuple[np.ndarray, np.ndarray]] = {1: (r32 * v32, v32)}  # (Σ r·v, Σ v) per block, as means
+    if pyramid is None:
+        pyramid = {}
+    if 1 not in pyramid:  # (Σ r·v, Σ v) per block, as means; kept by the caller for further scales
+        pyramid[1] = (r32 * v32, v32)
 
     def level(f: int) -> tuple[np.ndarray, np.ndarray]:
         if f not in pyramid:
@@ -151,3 +157,93 @@ def _pct(v: np.ndarray, q: float) -> float:
     """Percentile of at most ~50 000 values (a regular subsample of larger sets)."""
     step = max(1, v.size // 50_000)
     return float(np.percentile(v[::step], q))
+
+
+def _reduce(a: np.ndarray, f: int) -> np.ndarray:
+    m, n = a.shape
+    return cv2.resize(a.astype(np.float32), (max(1, n // f), max(1, m // f)), interpolation=cv2.INTER_AREA)
+
+
+def _expand(a: np.ndarray, shape: tuple[int, int], interpolation: int) -> np.ndarray:
+    """Back from a copy reduced by ``f`` to ``shape`` (the remainder rows/columns repeat the last)."""
+    m, n = shape
+    f_r, f_c = max(1, m // a.shape[0]), max(1, n // a.shape[1])
+    up = cv2.resize(a, (a.shape[1] * f_c, a.shape[0] * f_r), interpolation=interpolation)
+    out = np.empty((m, n), up.dtype)
+    out[: up.shape[0], : up.shape[1]] = up[:m, :n]
+    if up.shape[0] < m:
+        out[up.shape[0]:, : up.shape[1]] = up[-1:, :n]
+    if up.shape[1] < n:
+        out[:, up.shape[1]:] = out[:, up.shape[1] - 1: up.shape[1]]
+    return out
+
+
+def without_lines(v: np.ndarray, line_px: float) -> np.ndarray:
+    """``v`` with its narrow members taken out: a grey opening with a disk ``line_px`` across.
+
+    A stud or joist (narrower than the disk) is removed, a broad anomaly keeps its level (its
+    corners are rounded by the disk's radius). Computed on a copy reduced by ``⌊line_px/8⌋``
+    (the disk keeps about 8 px across) and brought back bilinearly.
+    """
+    f = max(1, int(line_px // 8))
+    if v.shape[0] // f < 3 or v.shape[1] // f < 3:
+        return v.copy()
+    small = _reduce(v, f)
+    r = max(1, int(round(0.5 * line_px / f)))
+    disk = cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (2 * r + 1, 2 * r + 1))
+    opened = cv2.morphologyEx(small, cv2.MORPH_OPEN, disk, borderType=cv2.BORDER_REPLICATE)
+    return np.minimum(_expand(opened, v.shape, cv2.INTER_LINEAR), v)
+
+
+def long_lines(mask: np.ndarray, line_px: float) -> np.ndarray:
+    """The parts of ``mask`` that are long lines: components at least three times ``line_px`` long
+    (the opening also clips the corners of a broad anomaly, small pieces that are not members)."""
+    lab, k = ndimage.label(mask)
+    if k == 0:
+        return mask
+    keep = np.zeros(k + 1, bool)
+    for i, sl in enumerate(ndimage.find_objects(lab), start=1):
+        if sl is not None and max(sl[0].stop - sl[0].start, sl[1].stop - sl[1].start) >= 3.0 * line_px:
+            keep[i] = True
+    return keep[lab]
+
+
+def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, line_px: float) -> np.ndarray:
+    """The part of ``region`` in the same dome of ``field`` as the pixel ``top`` (flat index).
+
+    Domes are the maxima of ``field`` standing at least ``dip_k`` above the saddle to any higher
+    one (h-maxima, morphological reconstruction), separated by the watershed of ``−field``; the
+    field is the contrast with its narrow members taken out (:func:`without_lines`), so a joist
+    running between two defects is not a ridge joining them. Computed on a copy reduced by
+    ``⌊line_px/4⌋`` (a member is about 4 px across there: domes are broad).
+    """
+    from skimage.morphology import reconstruction
+    from skimage.segmentation import watershed
+
+    m, n = field.shape
+    f = max(1, int(line_px // 4))
+    if m // f < 3 or n // f < 3:
+        return region
+    inside = _reduce(region.astype(np.float32), f) >= 0.5
+    small = np.where(inside, _reduce(np.where(region, field, 0.0), f), 0.0)
+    if not inside.any():
+        return region
+    small = np.where(inside, small, float(small[inside].min()))
+    # h-domes: f − reconstruction(f − h) is positive on every dome; a dome standing h above its
+    # saddle reaches h (equal maxima joined above the saddle are one dome, not several markers)
+    f64 = small.astype(np.float64)
+    domes = f64 - reconstruction(f64 - dip_k, f64, method="dilation")
+    comp, k = ndimage.label(domes > 1e-9 * max(dip_k, 1e-12))
+    if k <= 1:
+        return region
+    tall = np.flatnonzero(ndimage.maximum(domes, comp, index=np.arange(1, k + 1)) >= 0.999 * dip_k) + 1
+    markers, k = ndimage.label(np.isin(comp, tall) & inside)
+    if k <= 1:
+        return region
+    basins = watershed(-small, markers, mask=inside)
+    tr, tc = divmod(int(top), n)
+    own = basins[min(tr // f, basins.shape[0] - 1), min(tc // f, basins.shape[1] - 1)]
+    if own == 0:
+        return region
+    full = _expand(basins.astype(np.int32), (m, n), cv2.INTER_NEAREST)
+    return region & ((full == own) | (full == 0))

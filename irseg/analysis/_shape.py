@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import cv2
 import numpy as np
 from scipy import ndimage
+from scipy.stats import theilslopes
 
 from .._shared import robust_sigma
 
@@ -56,6 +57,8 @@ class Shape:
     transition_px: float  # |contrast| / 90th percentile of |∇u| across the outline
     nonuniformity: float  # interior spread of the contrast u − reference (noise removed) / |contrast|
     taper: float  # pixels in the wider end third / the narrower end third along the long axis
+    upper_roughness_px: float = 0.0  # spread of its upper outline about a straight line (a tide line is wavy)
+    fades_from_end: bool = False  # detected anomalies: strongest at one end, fading to half toward the other
 
     @property
     def sharp(self) -> bool:
@@ -76,6 +79,7 @@ class Shape:
             or self.rect_fill < STREAKY_FILL
             or self.elongation >= STREAK_ELONGATION
             or self.taper >= FAN_TAPER
+            or self.fades_from_end
         )
 
     @property
@@ -142,4 +146,25 @@ def shape_features(
         transition_px=float(transition),
         nonuniformity=float(spread / abs(delta_k)) if delta_k else float("inf"),
         taper=float(taper),
+        upper_roughness_px=_upper_roughness(rr, cc),
     )
+
+
+def _upper_roughness(rr: np.ndarray, cc: np.ndarray) -> float:
+    """Robust spread (1.4826·MAD) of the topmost row of each column about a straight line through
+    them (Theil-Sen), px, the outer tenth of the columns at each end left out (rounded corners): about
+    0 for a straight edge, the wave of a tide line for a damp zone."""
+    if rr.size < 3:
+        return 0.0
+    cols = np.unique(cc)
+    if cols.size < 10:
+        return 0.0
+    top = np.full(int(cc.max()) + 1, np.iinfo(np.int64).max)
+    np.minimum.at(top, cc, rr)
+    trim = max(1, cols.size // 10)
+    cols = cols[trim:-trim]
+    top = top[cols].astype(float)
+    step = max(1, cols.size // 200)  # Theil-Sen on at most ~200 columns
+    slope = float(theilslopes(top[::step], cols[::step].astype(float))[0])
+    resid = top - slope * cols
+    return float(robust_sigma(resid - np.median(resid)))

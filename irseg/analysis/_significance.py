@@ -91,62 +91,42 @@ contrast found is ``max(min_contrast_k, ΔT_min)`` with ``σ_s`` as measured
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
+import cv2
 import numpy as np
 from scipy import ndimage
 
+from .._shared import MAD_TO_SIGMA
+from ._components import EXTENT_FRACTION, JOIN_FRACTION, RegionInfo, extract_component
 from ._scales import (
     K_HI,
-    _dilate,
-    _fill_holes,
-    _pct,
     contrast_at_scales,
     gaussian_noise_factor,
     min_detectable_contrast_k,
     pixel_noise_k,
     scale_bank,
 )
-from .._shared import MAD_TO_SIGMA
 from ._sound_surface import fit_sound_surface
 
 __all__ = ["detect_regions", "DetectionInfo", "RegionInfo", "gaussian_noise_factor", "scale_bank",
-           "contrast_at_scales", "pixel_noise_k", "min_detectable_contrast_k"]
+           "contrast_at_scales", "pixel_noise_k", "min_detectable_contrast_k", "JOIN_FRACTION", "MIN_CONTRAST_K",
+           "MIN_AREA_M2"]
 
 K_LO = 3.0
-EXTENT_FRACTION = 0.5
-JOIN_FRACTION = 0.25  # half-peak pieces joined through this fraction of the peak are one anomaly
-PLATEAU_RATIO = 0.85
-WRAP_MAX = 0.5  # a touching plateau may border at most half of the other anomaly's outline
-FINE_NOISE_FRACTION = 0.04  # the extent is measured where σ_fine ≤ 4 % of the peak
-PEAK_NOISE_FRACTION = 0.01  # the peak is read where σ ≤ 1 % of it
-PEAK_PERCENTILE = 99.0
-MIN_AREA_M2 = 0.005
+_SQUARE = ndimage.generate_binary_structure(2, 2)
+MIN_AREA_M2 = 0.0025  # 50 × 50 mm: a fixing or a tie is the smallest thing worth reporting
 MIN_AREA_FRACTION = 1e-3  # without geometry: 0.1 % of the frame
 SOUND_LENGTH_M = 0.2
+WORK_MAX_SIDE_PX = 800  # larger frames are detected on block means (the lengths are physical)
+LINE_WIDTH_M = 0.12  # members (studs, joists) up to 100 mm wide, blurred: never a ridge joining two defects
+LINE_WIDTH_FRACTION = 0.05  # without geometry: of the frame's long side
 EDGE_LENGTH_M = 0.2  # decay of the cooling toward a corner or junction at a frame edge
 EDGE_LENGTH_FRACTION = 0.08
 SOUND_LENGTH_FRACTION = 0.15  # without geometry: of the frame's long side
 MIN_CONTRAST_K = 0.1
 MAX_DEFECT_FRACTION = 0.3  # largest defect the scale bank is sized for
 MAX_EXCLUDED_FRACTION = 0.5  # the second sound surface needs at least half of the frame
-_FINE_SCALES = (0.7, 1.0, 1.4, 2.0, 2.8, 4.0, 5.7, 8.0, 11.3, 16.0)
-_MAX_PASSES = 12
-_SQUARE = ndimage.generate_binary_structure(2, 2)
-
-
-@dataclass(frozen=True)
-class RegionInfo:
-    """One detected anomaly."""
-
-    label: int
-    sign: int  # +1 warm, −1 cold
-    peak_k: float  # robust peak contrast against the sound surface, K (signed)
-    level_k: float  # the extent threshold (fraction of the peak), K (signed)
-    area_px: int
-    fine_scale_px: float  # the smoothing the extent was measured at
-    touches_edge: bool  # the anomaly reaches the frame edge (its area may be cut)
-    split_from: int  # label of the touching anomaly it was split from (0: none)
 
 
 @dataclass(frozen=True)
@@ -165,6 +145,8 @@ class DetectionInfo:
     extent_fraction: float
     surface_scale_k: float
     regions: tuple[RegionInfo, ...]
+    components: np.ndarray  # (M, N) int32: significant components, −k cold, +k warm, 0 none
+    members_k: np.ndarray  # (M, N): the own contrast of narrow members in or beside broad anomalies, K (signed)
 
 
 def detect_regions(
@@ -220,12 +202,19 @@ def detect_regions(
     m, n = t.shape
     invalid = np.zeros((m, n), bool) if mask is None else np.asarray(mask, bool)
     valid = ~invalid & np.isfinite(t)
+    f = int(math.ceil(max(m, n) / WORK_MAX_SIDE_PX))
+    if f > 1:
+        return _on_reduced(t, valid, f, noise_k=noise_k, pixel_m=pixel_m, min_area_m2=min_area_m2,
+                           sound_length_m=sound_length_m, min_contrast_k=min_contrast_k, k_hi=k_hi, k_lo=k_lo,
+                           extent_fraction=extent_fraction, split_plateaus=split_plateaus)
     t = np.where(valid, t, np.nanmedian(t[valid]) if valid.any() else 0.0)
     if pixel_m is not None and pixel_m > 0:
+        line_px = LINE_WIDTH_M / pixel_m
         min_area_px = max(9, int(round(min_area_m2 / pixel_m**2)))
         length_px = sound_length_m / pixel_m
         edge_px = EDGE_LENGTH_M / pixel_m
     else:
+        line_px = LINE_WIDTH_FRACTION * max(m, n)
         edge_px = EDGE_LENGTH_FRACTION * max(m, n)
         min_area_px = max(9, int(round(MIN_AREA_FRACTION * m * n)))
         length_px = SOUND_LENGTH_FRACTION * max(m, n)
@@ -237,9 +226,10 @@ def detect_regions(
     # two passes: the second sound surface leaves out every pixel the first pass found significant
     # (the whole grown component, tails included), so soft tails cannot pull the surface toward a defect
     exclude = np.zeros((m, n), bool)
+    surf = None
     for _ in range(2):
         surf = fit_sound_surface(t, invalid=~valid | exclude, length_px=length_px, noise_k=noise,
-                                 edge_length_px=edge_px)
+                                 edge_length_px=edge_px, start=surf)
         resid = t - surf.surface
         if noise_k is None or noise_k <= 0:
             noise = max(pixel_noise_k(resid, valid), 1e-6)
@@ -265,28 +255,72 @@ def detect_regions(
 
     fine_cache: dict[float, np.ndarray] = {}
 
+    pyramid: dict = {}
+
     def fine(s: float) -> np.ndarray:
         if s not in fine_cache:
-            fine_cache[s] = contrast_at_scales(resid, valid, (s,))[0]
+            fine_cache[s] = contrast_at_scales(resid, valid, (s,), pyramid=pyramid)[0]
         return fine_cache[s]
 
     labels = np.zeros((m, n), np.int32)
+    components = np.zeros((m, n), np.int32)
+    members = np.zeros((m, n))
     regions: list[RegionInfo] = []
     for sign in (-1, 1):
         comp, has_seed = grown[sign]
+        components[comp > 0] = sign * comp[comp > 0]
         if not has_seed.any():
             continue
         for k, sl in enumerate(ndimage.find_objects(comp), start=1):
             if sl is None or not has_seed[k]:
                 continue
-            _extract(
+            extract_component(
                 comp=comp, k=k, sl=sl, sign=sign, fine=fine, noise=noise, labels=labels, regions=regions,
-                min_area_px=min_area_px, min_contrast_k=min_contrast_k, k_hi=k_hi, extent_fraction=extent_fraction,
+                min_area_px=min_area_px, min_contrast_k=min_contrast_k, k_hi=k_hi, line_px=line_px,
+                extent_fraction=extent_fraction, members=members,
                 split_plateaus=split_plateaus, valid=valid,
             )
     info = DetectionInfo(noise, pixel_m, min_area_px, length_px, scales, tuple(sig), tuple(sig_w), k_hi, k_lo,
-                         extent_fraction, surf.scale_k, tuple(regions))
+                         extent_fraction, surf.scale_k, tuple(regions), components, members)
     return labels, surf.surface, info
+
+
+def _on_reduced(t: np.ndarray, valid: np.ndarray, f: int, *, noise_k: float | None, pixel_m: float | None,
+                **settings) -> tuple[np.ndarray, np.ndarray, DetectionInfo]:
+    """Detection on ``f``×``f`` block means of the valid pixels, brought back to the frame.
+
+    The detection's lengths are physical, so a frame finer than :data:`WORK_MAX_SIDE_PX` on its long
+    side holds no more information at the scales it works on; the block means keep the noise of a
+    pixel over ``f`` (white noise). Labels, components and members come back by block (nearest), the
+    sound surface bilinearly; region areas are counted again on the frame.
+    """
+    m, n = t.shape
+    mb, nb = -(-m // f), -(-n // f)
+    tv = np.zeros((mb * f, nb * f))
+    vv = np.zeros((mb * f, nb * f))
+    tv[:m, :n] = np.where(valid, t, 0.0)
+    vv[:m, :n] = valid
+    cnt = vv.reshape(mb, f, nb, f).sum(axis=(1, 3))
+    small = tv.reshape(mb, f, nb, f).sum(axis=(1, 3)) / np.maximum(cnt, 1.0)
+    small_invalid = cnt < 0.5 * f * f
+    labels, surface, info = detect_regions(
+        small, small_invalid, noise_k=None if noise_k is None else float(noise_k) / f,
+        pixel_m=None if pixel_m is None else pixel_m * f, **settings)
+
+    def up(a: np.ndarray) -> np.ndarray:
+        return np.repeat(np.repeat(a, f, axis=0), f, axis=1)[:m, :n]
+
+    big = up(labels)
+    big[~valid] = 0
+    areas = np.bincount(big.ravel(), minlength=len(info.regions) + 1)
+    surf = cv2.resize(surface.astype(np.float32), (nb * f, mb * f), interpolation=cv2.INTER_LINEAR)[:m, :n]
+    regions = tuple(replace(r, area_px=int(areas[r.label]), fine_scale_px=r.fine_scale_px * f) for r in info.regions)
+    info = replace(
+        info, noise_k=info.noise_k * f, min_area_px=max(9, info.min_area_px * f * f),
+        sound_length_px=info.sound_length_px * f, scales_px=tuple(s * f for s in info.scales_px), regions=regions,
+        components=up(info.components), members_k=up(info.members_k),
+    )
+    return big, surf.astype(float), info
 
 
 def _grown(zs, sign, k_hi, k_lo, valid) -> tuple[np.ndarray, np.ndarray]:
@@ -307,101 +341,3 @@ def _grown(zs, sign, k_hi, k_lo, valid) -> tuple[np.ndarray, np.ndarray]:
     has_seed[0] = False
     comp[~has_seed[comp]] = 0
     return comp, has_seed
-
-
-def _choose_fine(peak_rough: float, noise: float, fraction: float) -> float:
-    """Smallest window of the fine bank whose white-noise σ is at most ``fraction`` of the peak."""
-    for s in _FINE_SCALES:
-        if noise * gaussian_noise_factor(s) <= fraction * abs(peak_rough):
-            return s
-    return _FINE_SCALES[-1]
-
-
-def _extract(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, min_contrast_k, k_hi,
-             extent_fraction, split_plateaus, valid) -> None:
-    """Anomalies of one grown component: the strongest first, then separate plateaus and pieces."""
-    m, n = comp.shape
-    pad = 8
-    r0, r1 = max(0, sl[0].start - pad), min(m, sl[0].stop + pad)
-    c0, c1 = max(0, sl[1].start - pad), min(n, sl[1].stop + pad)
-    crop = (slice(r0, r1), slice(c0, c1))
-    member = comp[crop] == k
-    near = _dilate(member, 2) & valid[crop]
-    claimed = np.zeros_like(member)  # taken anomalies and their edge bands, and rejected tails
-    taken = np.zeros(member.shape, np.int32)  # local anomaly ids
-    peaks: dict[int, float] = {}
-    rims: dict[int, int] = {}
-    queue: list[tuple[np.ndarray, int]] = [(member, 0)]
-    passes = 0
-    rough = sign * fine(2.0)[crop]
-    while queue and passes < _MAX_PASSES:
-        passes += 1
-        piece, _ = queue.pop(0)
-        if not piece.any():
-            continue
-        p_rough = _pct(rough[piece], PEAK_PERCENTILE)
-        if p_rough <= 0:
-            continue
-        s_f = _choose_fine(p_rough, noise, FINE_NOISE_FRACTION)
-        sig_f = noise * gaussian_noise_factor(s_f)
-        v = sign * fine(s_f)[crop]
-        # the peak: the maximum where the noise is at most 1 % of it, with the window kept well inside
-        # the piece (a quarter of its equivalent radius), so neither noise nor smoothing moves it much
-        s_p = min(_choose_fine(p_rough, noise, PEAK_NOISE_FRACTION),
-                  max(s_f, 0.25 * math.sqrt(float(piece.sum()) / math.pi)))
-        peak = float((sign * fine(s_p)[crop])[piece].max())
-        if peak < max(min_contrast_k, k_hi * sig_f):
-            continue
-        level = extent_fraction * peak
-        region_of = piece | (near & ~claimed & _dilate(piece, 2))
-        above = (v >= level) & region_of & ~claimed
-        joined = (v >= JOIN_FRACTION * peak) & region_of & ~claimed
-        jl, _ = ndimage.label(joined, structure=_SQUARE)
-        # the strongest place: the pixel of the piece at the robust peak's level nearest the maximum
-        top = np.argmax(np.where(above, v, -np.inf))
-        anchor = jl.flat[top]
-        if anchor == 0:
-            continue
-        core = above & (jl == anchor)
-        core = _fill_holes(core)
-        core &= ~claimed
-        touching = bool((_dilate(core, 1) & claimed).any())
-        rim_px = int(math.ceil(2.5 * math.hypot(1.0, s_f))) + 1
-        band = _dilate(core, rim_px)
-        rest = piece & ~band & ~claimed
-        accept = int(core.sum()) >= min_area_px
-        split_from = 0
-        if accept and touching:
-            # a remainder next to a taken anomaly: its own defect only with its own plateau, and only
-            # beside it (a halo wrapping round more than half of its outline, or weaker than a quarter
-            # of its peak, is its tail)
-            nb = taken[_dilate(core, rim_px + 2) & (taken > 0)]
-            split_from = int(np.bincount(nb).argmax()) if nb.size else 0
-            accept = split_plateaus and _pct(v[core], 50.0) >= PLATEAU_RATIO * peak
-            if accept and split_from:
-                a_band = _dilate(taken == split_from, rims[split_from])
-                outline = _dilate(a_band, 1) & ~a_band
-                wrap = float((outline & _dilate(core, rim_px + 4)).sum()) / max(float(outline.sum()), 1.0)
-                accept = wrap <= WRAP_MAX and peak >= JOIN_FRACTION * peaks[split_from]
-            if accept and split_from:
-                # the step between two plateaus is shared at its midpoint
-                mid = 0.5 * (peaks[split_from] + peak)
-                gap = _dilate(core, rim_px + 2) & claimed & (taken == 0) & (v >= level) & (v < mid)
-                core |= gap
-        if accept:
-            lab = int(labels.max()) + 1
-            sub = labels[crop]
-            sub[core & (sub == 0)] = lab
-            area = int((sub == lab).sum())
-            taken[core] = lab
-            peaks[lab] = peak
-            rims[lab] = rim_px
-            rr, cc = np.nonzero(core)
-            edge = bool(rr.min() + r0 == 0 or cc.min() + c0 == 0 or rr.max() + r0 == m - 1 or cc.max() + c0 == n - 1)
-            regions.append(RegionInfo(lab, sign, sign * peak, sign * level, area, s_f, edge, split_from))
-        claimed |= band if accept else _dilate(core, 1)
-        if not accept and not touching and int(core.sum()) < min_area_px:
-            claimed |= band  # a small isolated peak: its tail is not a defect either
-        rl, nr = ndimage.label(rest & ~claimed, structure=_SQUARE)
-        for i in range(1, nr + 1):
-            queue.append((rl == i, 0))

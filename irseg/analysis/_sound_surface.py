@@ -64,9 +64,8 @@ from dataclasses import dataclass
 import cv2
 import numpy as np
 
-from .._shared import MAD_TO_SIGMA
 
-__all__ = ["SoundSurface", "fit_sound_surface", "TUKEY_C"]
+__all__ = ["SoundSurface", "fit_sound_surface", "TUKEY_C", "EDGE_CONFIRM"]
 
 #: Tukey biweight tuning constant (95 % Gaussian efficiency).
 TUKEY_C = 4.685
@@ -75,13 +74,16 @@ _BLOCKS_LONG_SIDE = 80  # coarse grid: about this many blocks on the long side
 _MIN_FILL = 0.25  # a block needs this fraction of valid pixels
 _SUPPORT_EPS = 0.05  # shrink the local correction where the weighted support is below ~5 % of full
 _SLOPE_RIDGE = 0.05  # and its slopes, likewise (in units of the window's second moment)
+_GAP_SLOPE_RIDGE = 1.0  # ... and by the support an excluded area takes away
 _LENGTH_STEPS = (4.0, 2.0, 1.0)  # local window, in sound lengths, stiff to flexible
-_PER_STEP = 3  # passes per local window
+_PER_STEP = 2  # passes per local window
 _LTS_BLOCKS = 600  # sub-grid size of the robust start
 _LTS_COVERAGE = 0.55
 _LTS_STARTS = 40
 _LTS_CSTEPS = 3
 _LTS_SEED = 20240611
+_MEDIAN_HALF_NORMAL = 0.6744897501960817  # Φ⁻¹(0.75) [C]
+EDGE_CONFIRM = 0.5  # an edge decay needs half of its energy on blocks kept as sound
 
 
 @dataclass(frozen=True)
@@ -167,11 +169,14 @@ def _evaluate_global(beta: np.ndarray, m: int, n: int, lam: float | None) -> np.
     return u @ v
 
 
-def _wls(x: np.ndarray, y: np.ndarray, w: np.ndarray | None = None) -> np.ndarray:
-    """Weighted least squares by the normal equations (7 unknowns; a tiny ridge keeps them regular)."""
+def _wls(x: np.ndarray, y: np.ndarray, w: np.ndarray | None = None, ridge: np.ndarray | None = None) -> np.ndarray:
+    """Weighted least squares by the normal equations (a tiny ridge keeps them regular; ``ridge``
+    adds a penalty per coefficient)."""
     xw = x if w is None else x * w[:, None]
     a = xw.T @ x
     a[np.diag_indices_from(a)] += 1e-9 * max(float(np.trace(a)), 1e-12)
+    if ridge is not None:
+        a[np.diag_indices_from(a)] += ridge
     return np.linalg.solve(a, xw.T @ y)
 
 
@@ -205,9 +210,13 @@ def _local_linear(e: np.ndarray, w: np.ndarray, base: np.ndarray, length: float,
     m00 = g0 + _SUPPORT_EPS * full
     m10 = gxs - gx * g0
     m01 = gys - gy * g0
-    m20 = gxx - 2 * gx * gxs + gx**2 * g0 + _SLOPE_RIDGE * full * length**2
+    # slopes are shrunk by a small ridge everywhere and by the missing support: beside an excluded
+    # anomaly inside the frame a plane fitted on one side would be extrapolated across it (at the frame
+    # edge the support is one-sided for every fit, so nothing is missing there)
+    ridge = (_SLOPE_RIDGE * full + _GAP_SLOPE_RIDGE * np.maximum(full - g0, 0.0)) * length**2
+    m20 = gxx - 2 * gx * gxs + gx**2 * g0 + ridge
     m11 = gxy - gx * gys - gy * gxs + gx * gy * g0
-    m02 = gyy - 2 * gy * gys + gy**2 * g0 + _SLOPE_RIDGE * full * length**2
+    m02 = gyy - 2 * gy * gys + gy**2 * g0 + ridge
     r0 = e0
     r1 = ex - gx * e0
     r2 = ey - gy * e0
@@ -252,6 +261,54 @@ def _lts_start(xd: np.ndarray, yv: np.ndarray, shape: tuple[int, int], ok: np.nd
     return w
 
 
+def _half_sample_mode(r: np.ndarray) -> float:
+    """Half-sample mode: the centre of the densest half of the values, recursively (Bickel &
+    Frühwirth 2006, from memory); it stays on the sound population when the anomalies pull the median."""
+    v = np.sort(r)
+    while v.size > 3:
+        h = (v.size + 1) // 2
+        widths = v[h - 1:] - v[: v.size - h + 1]
+        i = int(np.argmin(widths))
+        v = v[i:i + h]
+    return float(np.mean(v))
+
+
+def _one_sided_scale(r: np.ndarray) -> float:
+    """Robust scale of block residuals of which a large part may be anomalous, mostly on one side.
+
+    About the half-sample mode, the median deviation of each side over 0.6745 (the median of
+    the half-normal, Φ⁻¹(0.75) [C]) is a Gaussian population's σ; the smaller of the two is kept,
+    the side the anomalies do not fill. Cold defects seen from inside and warm ones from outside
+    mostly share one sign, and their soft halos can hold half the frame, where a two-sided median
+    absolute deviation would take them for sound variation.
+    """
+    centre = _half_sample_mode(r)
+    up, down = r[r > centre] - centre, centre - r[r < centre]
+    sides = [float(np.median(x)) / _MEDIAN_HALF_NORMAL for x in (up, down) if x.size >= 16]
+    return min(sides) if sides else float(np.median(np.abs(r - centre))) / _MEDIAN_HALF_NORMAL
+
+
+def _backfit(*, x_design: np.ndarray, y: np.ndarray, ok: np.ndarray, base: np.ndarray, lengths: list[float],
+             gy: np.ndarray, gx: np.ndarray, floor: float, w0: np.ndarray,
+             ridge: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, float]:
+    """Backfitting of the global and the local part with Tukey reweighting: ``(beta, local, weights, scale)``."""
+    yv = y[ok]
+    w = w0
+    local = np.zeros_like(y)
+    glob = np.zeros_like(y)
+    scale = floor
+    beta = np.zeros(x_design.shape[1])
+    for length in lengths:
+        beta = _wls(x_design, yv - local[ok], w[ok], ridge)
+        glob[ok] = x_design @ beta
+        local = _local_linear(np.where(ok, y - glob, 0.0), w, base, length, gy, gx)
+        r = (y - glob - local)[ok]
+        scale = max(_one_sided_scale(r), floor)
+        w = np.zeros_like(y)
+        w[ok] = base[ok] * _tukey(r, TUKEY_C * scale)
+    return beta, local, w, scale
+
+
 def fit_sound_surface(
     temperature_c: np.ndarray,
     invalid: np.ndarray | None = None,
@@ -260,6 +317,7 @@ def fit_sound_surface(
     noise_k: float,
     block_px: int | None = None,
     edge_length_px: float | None = None,
+    start: SoundSurface | None = None,
 ) -> SoundSurface:
     """Fit the robust local sound surface of one thermogram.
 
@@ -281,6 +339,9 @@ def fit_sound_surface(
         Decay length of the cooling (or warming) toward a junction or corner at a
         frame edge, px: adds ``exp(−d/λ)`` from each of the four frame edges to
         the global part. None leaves them out.
+    start : SoundSurface, optional
+        A surface fitted before to the same frame (fewer pixels excluded): its weights start the
+        reweighting instead of the robust start, and only the final sound length is iterated.
 
     Returns
     -------
@@ -307,21 +368,28 @@ def fit_sound_surface(
     lb = max(float(length_px) / b, 0.5)  # sound length in blocks
 
     gy, gx = np.meshgrid(np.arange(mb, dtype=float) - mb / 2.0, np.arange(nb, dtype=float) - nb / 2.0, indexing="ij")
-    w = base * _lts_start(x_design[:, :7], yv, y.shape, ok, base)  # the frame-tied part alone
-    local = np.zeros_like(y)
-    glob = np.zeros_like(y)
-    scale = floor
+    if start is not None and start.block_px == b and start.weight.shape == t.shape:
+        w0 = base * _block_means(start.weight, np.ones(t.shape, bool), b)[0]
+    else:
+        w0 = base * _lts_start(x_design[:, :7], yv, y.shape, ok, base)  # the frame-tied part alone
+    w = w0
     # graduated: from the robust start, the local part at 4, 2 and 1 sound lengths, so a large anomaly
     # is excluded by the stiff fits before a flexible one could follow it
-    lengths = [f * lb for f in _LENGTH_STEPS for _ in range(_PER_STEP)]
-    for length in lengths:
-        beta = _wls(x_design, yv - local[ok], w[ok])
-        glob[ok] = x_design @ beta
-        local = _local_linear(np.where(ok, y - glob, 0.0), w, base, length, gy, gx)
-        r = (y - glob - local)[ok]
-        scale = max(MAD_TO_SIGMA * float(np.median(np.abs(r - np.median(r)))), floor)
-        w = np.zeros_like(y)
-        w[ok] = base[ok] * _tukey(r, TUKEY_C * scale)
+    steps = _LENGTH_STEPS[-1:] if start is not None else _LENGTH_STEPS
+    lengths = [f * lb for f in steps for _ in range(_PER_STEP)]
+    fit = dict(x_design=x_design, y=y, ok=ok, base=base, lengths=lengths, gy=gy, gx=gx, floor=floor)
+    ridge = np.zeros(x_design.shape[1])
+    beta, local, w, scale = _backfit(w0=w, ridge=ridge, **fit)
+    if edge_length_px is not None:
+        # an edge decay must be confirmed by sound data at its own edge: one fitted from the far tail
+        # while the blocks along the edge are excluded (an anomaly lying along that edge) is an
+        # extrapolation; it is switched off and the surface refitted
+        energy = x_design[:, 7:] ** 2
+        support = (w[ok][:, None] * energy).sum(axis=0) / np.maximum((base[ok][:, None] * energy).sum(axis=0), 1e-12)
+        off = (support < EDGE_CONFIRM) & (np.abs(beta[7:]) > TUKEY_C * scale)
+        if off.any():
+            ridge[7:][off] = 1e9 * max(float(base.sum()), 1.0)
+            beta, local, w, scale = _backfit(w0=w0, ridge=ridge, **fit)
 
     # back to full resolution: the global part exactly, the local part bilinear between block centres
     surf = _evaluate_global(beta, m, n, edge_length_px)

@@ -36,6 +36,7 @@ class Measured:
     rim_index: np.ndarray  # flat image indices of its soft-rim pixels
     rim_loss_k: np.ndarray  # their loss-signed contrast, K
     extent_mask: np.ndarray  # region pixels (in cand.rr, cand.cc order) inside the half-contrast edge
+    parts: int = 0  # detected anomalies: segmented pieces joined into it
 
 
 def measure_candidate(

@@ -24,9 +24,10 @@ class Anomaly:
     reason : str
         The rule that decided the cause, in a few words.
     area_px : int
-        Pixels of the measured extent: the segmented region's pixels holding at
-        least half its core contrast (all pieces when one framing member was split
-        into several regions).
+        Pixels of the measured extent: where the anomaly holds half of its own peak
+        contrast (a segmented region's pixels holding half its core contrast inside
+        its edge line, when the segmentation's outline agrees; all pieces when one
+        framing member was split into several regions).
     area_m2, area_low_m2, area_high_m2 : float or None
         Surface area estimate and its 5-95 % band, m² (None without geometry).
     mean_c, min_c, max_c : float
@@ -101,8 +102,9 @@ class Analysis:
     h_w_m2k : float or None
         Surface heat-transfer coefficient used, W/m²K.
     reference_c : (M, N) float ndarray
-        Local sound reference, °C: each anomaly's ring plane over its thermal region, the
-        image's sound trend elsewhere; NaN on masked pixels.
+        Local sound reference, °C: each segmented anomaly's ring plane over its thermal
+        region, the local sound surface elsewhere (under the detected anomalies too); NaN
+        on masked pixels.
     warnings : tuple of str
         Conditions and metadata warnings.
     """

@@ -100,6 +100,10 @@ class Shot:
         Pixel footprint across a row, m (rows are ``pixel_m/cos(tilt)`` tall).
     reflected_c : float
         Mean radiant temperature of the surroundings (the metadata's reflected temperature).
+    shading_k : (M, N) ndarray or None
+        What the lens shading adds to the apparent temperature of the no-defect surface, K
+        (noise-free; None without shading): the sound surface as this camera records it is
+        ``baseline_c`` plus this over the emissivity.
     """
 
     apparent_c: np.ndarray
@@ -110,6 +114,7 @@ class Shot:
     pixel_m: float
     reflected_c: float
     camera: CameraModel
+    shading_k: np.ndarray | None = None
 
 
 # The camera is the truth side of the validation: it keeps its own pixel-footprint formula on purpose
@@ -208,6 +213,7 @@ def shoot(scene, camera: CameraModel) -> Shot:
         lum = ndimage.gaussian_filter(lum, camera.psf_sigma_px, mode="nearest")
     m, n = lum.shape
     reflected = float(scene.radiant_c.mean())
+    shading_k = None
     if camera.shading > 0:
         yy = (np.arange(m) - (m - 1) / 2) / ((m - 1) / 2)
         xx = (np.arange(n) - (n - 1) / 2) / ((n - 1) / 2)
@@ -215,6 +221,13 @@ def shoot(scene, camera: CameraModel) -> Shot:
         housing = reflected if camera.housing_c is None else camera.housing_c
         housing_radiance = band_radiance(housing + KELVIN_AT_0C, band_um=band)
         lum = (1 - camera.shading * r2) * lum + camera.shading * r2 * housing_radiance
+        # the same optics on the no-defect surface, with and without the shading
+        tb = _at_samples(scene.baseline_c, ys, xs, cell, 1) + KELVIN_AT_0C
+        lb = _pixel_mean(eps * band_radiance(tb, band_um=band) + (1 - eps) * band_radiance(tr_kelvin, band_um=band), s)
+        if camera.psf_sigma_px > 0:
+            lb = ndimage.gaussian_filter(lb, camera.psf_sigma_px, mode="nearest")
+        shaded = (1 - camera.shading * r2) * lb + camera.shading * r2 * housing_radiance
+        shading_k = band_temperature(shaded, band_um=band) - band_temperature(lb, band_um=band)
     apparent = band_temperature(lum, band_um=band) - KELVIN_AT_0C
     rng = np.random.default_rng(camera.seed)
     apparent = apparent + rng.normal(0.0, camera.column_sigma_k, n)[None, :] + rng.normal(0.0, camera.netd_k, (m, n))
@@ -227,4 +240,4 @@ def shoot(scene, camera: CameraModel) -> Shot:
     obj = _pixel_mean(ts, s)
     base = _resample(scene.baseline_c, ys, xs, cell, 1, s)
     masks = np.stack([_resample(f, ys, xs, cell, 0, s) >= 0.5 for f in scene.defect_masks])
-    return Shot(apparent, obj, base, masks, dead, p, reflected, camera)
+    return Shot(apparent, obj, base, masks, dead, p, reflected, camera, shading_k)

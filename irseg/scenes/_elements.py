@@ -11,7 +11,7 @@ the conductivity and heat-capacity fields in :mod:`irseg.scenes._raster`.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, field, replace
 
 import numpy as np
 
@@ -26,6 +26,7 @@ __all__ = [
     "timber_ceiling",
     "masonry_wall",
     "flat_roof",
+    "solid_wall",
 ]
 
 
@@ -42,7 +43,9 @@ class Layer:
 class Block:
     """A box of one material replacing whatever the build-up has there.
 
-    ``shape`` is ``"rect"`` or ``"ellipse"`` (inscribed in the box, in plane).
+    ``shape`` is ``"rect"``, ``"ellipse"`` (inscribed in the box, in plane) or ``"mask"``:
+    the cells where ``plane`` (a (ny, nx) bool array on the element's surface grid) is set,
+    for outlines no box describes (a wavy tide line, a fill top).
     """
 
     material: Material
@@ -53,6 +56,7 @@ class Block:
     z0_m: float
     z1_m: float
     shape: str = "rect"
+    plane: np.ndarray | None = field(default=None, compare=False, repr=False)
 
 
 @dataclass(frozen=True)
@@ -195,4 +199,21 @@ def flat_roof(
         "flat_roof", layers, width_m, height_m, cell_m, "upward", (), layer_z_m(layers, 1), (),
         f"warm flat roof: 150 mm concrete deck, {insulation_m * 1000:.0f} mm {insulation.upper()} boards, "
         "bitumen membrane",
+    )
+
+
+def solid_wall(*, width_m: float = 3.0, height_m: float = 2.4, cell_m: float = 0.02) -> Element:
+    """Uninsulated solid brick wall: gypsum plaster 15 / brick 215 / render 10 (an older wall, rising damp).
+
+    The brick layer stands in for the insulation layer of the other elements (``insulation``
+    is its z-range), so defects that replace "the main layer" act on the brick.
+    """
+    layers = (
+        Layer("gypsum_plaster", 0.015, 1),
+        Layer("brick", 0.215, 6),
+        Layer("render", 0.010, 1),
+    )
+    return Element(
+        "solid_wall", layers, width_m, height_m, cell_m, "horizontal", (), layer_z_m(layers, 1), (),
+        "215 mm solid brick, plastered inside, rendered outside, no insulation",
     )

@@ -72,11 +72,19 @@ def air_layer(thickness_m: float, heat_flow: str = "horizontal") -> Material:
     return Material(f"air_{heat_flow}", max(thickness_m / r, 0.025), 1.2e3)
 
 
+# ISO 10456 moisture conversion factor by volume for fired clay brick and gypsum plaster: f_psi = 10 [M]
+_F_PSI_MASONRY = 10.0
+
+
 def wet_material(name: str, water_volume_fraction: float) -> Material:
-    """Insulation holding water: λ by the ISO 10456 moisture factor, ρc plus the water's."""
+    """A material holding water: λ by the ISO 10456 moisture factor, ρc plus the water's.
+
+    ``f_ψ`` is 4 for insulation (EPS, PIR, mineral wool) and 10 for brick and plaster [M].
+    """
     base = MATERIALS[name]
+    f_psi = _F_PSI_MASONRY if name in ("brick", "gypsum_plaster", "render") else _F_PSI
     return Material(
         f"wet_{name}",
-        base.conductivity_w_mk * float(np.exp(_F_PSI * water_volume_fraction)),
+        base.conductivity_w_mk * float(np.exp(f_psi * water_volume_fraction)),
         base.heat_capacity_j_m3k + water_volume_fraction * _WATER_RHO_C,
     )

@@ -23,7 +23,8 @@ import numpy as np
 from irseg._shared import KELVIN_AT_0C
 from irseg.errors import ConfigError
 
-__all__ = ["Conditions", "NightSchedule", "h_radiative", "h_convective_interior", "h_convective_exterior"]
+__all__ = ["Conditions", "NightSchedule", "h_radiative", "h_convective_interior", "h_convective_exterior",
+           "saturation_pressure_pa", "evaporation_w_m2"]
 
 # Stefan-Boltzmann constant, CODATA 2018 recommended value [V] (scipy.constants.sigma).
 SIGMA = 5.670374419e-8
@@ -49,6 +50,39 @@ def h_convective_exterior(wind_m_s: float) -> float:
     return 4.0 + 4.0 * wind_m_s
 
 
+# Magnus form of the saturation vapour pressure over water, Alduchov & Eskridge (1996), J. Appl.
+# Meteor. 35, 601-609: e_s = 610.94·exp(17.625·T/(T + 243.04)) Pa, T in °C [M].
+_MAGNUS = (610.94, 17.625, 243.04)
+_P_ATM = 101325.0  # standard atmosphere, Pa [V, ISO 2533]
+_CP_AIR = 1006.0  # specific heat of dry air, J/kgK [M]
+_LATENT = 2.45e6  # latent heat of evaporation of water near 20 °C, J/kg [M]
+
+
+def saturation_pressure_pa(t_c: float | np.ndarray) -> float | np.ndarray:
+    """Saturation vapour pressure over water, Pa (Magnus form, Alduchov & Eskridge 1996 [M])."""
+    a, b, c = _MAGNUS
+    return a * np.exp(b * np.asarray(t_c, float) / (np.asarray(t_c, float) + c))
+
+
+def _humidity_ratio(p_vapour_pa):
+    """Mass of water vapour per mass of dry air, kg/kg (0.622·e/(p − e), ideal gases [C])."""
+    return 0.622 * p_vapour_pa / (_P_ATM - p_vapour_pa)
+
+
+def evaporation_w_m2(*, surface_c, air_c: float, relative_humidity: float, h_convective_w_m2k: float,
+                     wet_fraction) -> np.ndarray:
+    """Latent heat drawn by evaporation from a damp surface, W/m².
+
+    Mass transfer by the Chilton-Colburn (Lewis) analogy with a Lewis number of 1 [M]:
+    ``g = h_c/c_p`` (kg/m²s), evaporation ``m = g·(x_s − x_a)·φ`` with the humidity ratios at
+    saturation at the surface and of the room air, and ``φ`` the wet fraction of the surface
+    (1: a free water film; damp plaster evaporates at a fraction of that); latent heat ``L·m``.
+    """
+    x_s = _humidity_ratio(saturation_pressure_pa(surface_c))
+    x_a = _humidity_ratio(relative_humidity * saturation_pressure_pa(air_c))
+    return np.maximum(0.0, h_convective_w_m2k / _CP_AIR * (x_s - x_a)) * _LATENT * np.asarray(wet_fraction, float)
+
+
 @dataclass(frozen=True)
 class Conditions:
     """Boundary conditions of a scene at survey time.
@@ -63,7 +97,13 @@ class Conditions:
     wind_m_s : float
         Wind speed at the outside surface, m/s.
     stratification_k_m : float
-        Inside air temperature gradient with height, K/m.
+        Inside air temperature gradient with height, K/m (at 1.5 m above the floor).
+    stratification_k_m2 : float
+        Curvature of the inside air temperature with height, K/m²: the air is
+        ``inside_c + a·(z − 1.5) + b·(z − 1.5)²`` at height ``z`` (stratification that is
+        not linear: a warm layer under the ceiling, cold air pooling at the floor).
+    relative_humidity : float
+        Inside relative humidity (for the evaporation from damp surfaces), 0..1.
     top_height_m : float
         Height of the element's top edge above the room floor, m (walls) or the
         ceiling height (ceilings, roofs: the whole soffit is at this height).
@@ -85,6 +125,8 @@ class Conditions:
     outside_c: float = 0.0
     wind_m_s: float = 1.0
     stratification_k_m: float = 1.0
+    stratification_k_m2: float = 0.0
+    relative_humidity: float = 0.5
     top_height_m: float = 2.4
     sky_c: float | None = None
     sky_view_top: float = 0.5

@@ -11,15 +11,20 @@ import inspect
 from irseg.errors import ConfigError
 from irseg.scenes._defects import (
     Defect,
+    cold_air_fan,
     missing_bay,
     missing_patch,
+    partial_fill,
     partial_void,
+    rising_damp,
+    settled_fill,
     settled_insulation,
     slab_edge,
+    tapered_wet_patch,
     wet_patch,
 )
 from irseg.scenes._defects import lintel as lintel_defect  # the presets' option is called "lintel"
-from irseg.scenes._elements import Block, flat_roof, masonry_wall, timber_ceiling, timber_frame_wall
+from irseg.scenes._elements import Block, flat_roof, masonry_wall, solid_wall, timber_ceiling, timber_frame_wall
 from irseg.scenes._materials import air_layer
 from irseg.scenes._physics import Conditions, NightSchedule
 from irseg.scenes._scene import Scene, simulate_scene
@@ -28,7 +33,7 @@ __all__ = ["PRESETS", "make_preset"]
 
 
 def _timber_wall(*, spacing_m=0.6, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, defects=("bay:1",),
-                 lintel=None):
+                 lintel=None, stratification_k_m=1.0, stratification_k_m2=0.0):
     el = timber_frame_wall(stud_spacing_m=spacing_m, first_stud_m=0.3 if spacing_m == 0.6 else 0.2)
     ds = []
     for spec in defects:
@@ -40,29 +45,51 @@ def _timber_wall(*, spacing_m=0.6, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, d
         elif kind == "void":
             x0, x1, y0, y1, depth = (float(a) for a in args)
             ds.append(partial_void(el, x0_m=x0, x1_m=x1, y0_m=y0, y1_m=y1, depth_m=depth))
+        elif kind == "soft":
+            bay, void, soft, *wave = args
+            ds.append(settled_fill(el, int(bay), void_m=float(void), soft_m=float(soft),
+                                   wave_m=float(wave[0]) if wave else 0.0))
+        elif kind == "fill":
+            x0, x1, y0, y1, remaining = (float(a) for a in args)
+            ds.append(partial_fill(el, x0_m=x0, x1_m=x1, y0_m=y0, y1_m=y1, remaining=remaining))
+        elif kind == "fan":
+            x, y, width, drop = (float(a) for a in args)
+            ds.append(cold_air_fan(el, x_m=x, y_m=y, width_m=width, drop_k=drop))
         else:
-            raise ConfigError(f"unknown timber-wall defect {spec!r}; use bay:N, settled:N:M or void:x0:x1:y0:y1:d")
+            raise ConfigError(f"unknown timber-wall defect {spec!r}; use bay:N, settled:N:M, "
+                              "void:x0:x1:y0:y1:d, soft:N:void:soft[:wave], fill:x0:x1:y0:y1:remaining or "
+                              "fan:x:y:width:drop")
     if lintel is not None:
         ds.append(lintel_defect(el, x0_m=lintel[0], x1_m=lintel[1], y0_m=lintel[2], height_m=lintel[3]))
     cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, outside_exposure="ventilated",
-                      top_height_m=2.1)
+                      top_height_m=2.1, stratification_k_m=stratification_k_m, stratification_k_m2=stratification_k_m2)
     return el, tuple(ds), cond, "interior", None
 
 
-def _ceiling(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, patch=(0.9, 1.5, 0.6, 1.2)):
+def _ceiling(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, patch=(0.9, 1.5, 0.6, 1.2), partial=()):
     el = timber_ceiling()
-    z0 = el.insulation[0]
-    mat = air_layer(el.thickness_m() - z0, "upward")
-    d = Defect("displaced_insulation", "missing_insulation",
-               (Block(mat, patch[0], patch[1], patch[2], patch[3], z0, el.thickness_m()),),
-               "insulation pushed aside over a patch (both layers)")
+    ds = []
+    if patch is not None:
+        z0 = el.insulation[0]
+        mat = air_layer(el.thickness_m() - z0, "upward")
+        ds.append(Defect("displaced_insulation", "missing_insulation",
+                         (Block(mat, patch[0], patch[1], patch[2], patch[3], z0, el.thickness_m()),),
+                         "insulation pushed aside over a patch (both layers)"))
+    for i, (x0, x1, y0, y1, remaining) in enumerate(partial):
+        ds.append(partial_fill(el, x0_m=x0, x1_m=x1, y0_m=y0, y1_m=y1, remaining=remaining,
+                               name=f"partial_fill_{i}"))
     cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, outside_exposure="loft",
                       top_height_m=2.4)
-    return el, (d,), cond, "interior", None
+    return el, tuple(ds), cond, "interior", None
 
 
 def _masonry(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, slab_y=None, patch=None, lintel=None, void=None,
-             sky_view=(0.4, 0.5)):
+             sky_view=(0.4, 0.5), view="exterior", fan=None, stratification_k_m=1.0, stratification_k_m2=0.0,
+             solid=False, damp=None, relative_humidity=0.5):
+    if solid:
+        return _solid_wall(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, damp=damp, fan=fan,
+                           stratification_k_m=stratification_k_m, stratification_k_m2=stratification_k_m2,
+                           relative_humidity=relative_humidity)
     el = masonry_wall()
     ds = []
     if slab_y is not None:
@@ -73,16 +100,37 @@ def _masonry(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, slab_y=None, patch=N
         ds.append(lintel_defect(el, x0_m=lintel[0], x1_m=lintel[1], y0_m=lintel[2], height_m=lintel[3]))
     if void is not None:
         ds.append(partial_void(el, x0_m=void[0], x1_m=void[1], y0_m=void[2], y1_m=void[3], depth_m=void[4]))
+    if fan is not None:
+        ds.append(cold_air_fan(el, x_m=fan[0], y_m=fan[1], width_m=fan[2], drop_k=fan[3]))
     cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, sky_view_top=sky_view[0],
-                      sky_view_bottom=sky_view[1], top_height_m=3.0)
-    return el, tuple(ds), cond, "exterior", None
+                      sky_view_bottom=sky_view[1], top_height_m=3.0, stratification_k_m=stratification_k_m,
+                      stratification_k_m2=stratification_k_m2)
+    return el, tuple(ds), cond, view, None
+
+
+def _solid_wall(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, damp=(0.6, 0.06, 0.12, 0.08, 0.3), fan=None,
+                stratification_k_m=1.0, stratification_k_m2=0.0, relative_humidity=0.5):
+    el = solid_wall()
+    ds = []
+    if damp is not None:
+        tide, wave, soft, water, wet, *span = damp
+        ds.append(rising_damp(el, tide_m=tide, wave_m=wave, soft_m=soft, water_fraction=water, wet_surface=wet,
+                              x0_m=span[0] if span else 0.0, x1_m=span[1] if span else None))
+    if fan is not None:
+        ds.append(cold_air_fan(el, x_m=fan[0], y_m=fan[1], width_m=fan[2], drop_k=fan[3]))
+    cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, top_height_m=2.4,
+                      stratification_k_m=stratification_k_m, stratification_k_m2=stratification_k_m2,
+                      relative_humidity=relative_humidity)
+    return el, tuple(ds), cond, "interior", None
 
 
 def _roof(*, inside_c=20.0, wind_m_s=1.0, insulation="eps", wet=((1.2, 2.4, 0.9, 1.9, 0.15),), dt_s=900.0,
-          end_h=22.0, air_mean_c=10.0):
+          end_h=22.0, air_mean_c=10.0, tapered=()):
     el = flat_roof(insulation=insulation)
     ds = tuple(wet_patch(el, x0_m=w[0], x1_m=w[1], y0_m=w[2], y1_m=w[3], water_fraction=w[4], name=f"wet_{i}")
                for i, w in enumerate(wet))
+    ds += tuple(tapered_wet_patch(el, x0_m=w[0], x1_m=w[1], y0_m=w[2], y1_m=w[3], water_fraction=w[4],
+                                  rings=int(w[5]), name=f"tapered_wet_{i}") for i, w in enumerate(tapered))
     cond = Conditions(inside_c=inside_c, wind_m_s=wind_m_s, sky_view_top=1.0, sky_view_bottom=1.0)
     return el, ds, cond, "roof", NightSchedule(dt_s=dt_s, end_h=end_h, air_mean_c=air_mean_c)
 
@@ -101,10 +149,18 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
     **options
         Preset options: ``inside_c``, ``outside_c``, ``wind_m_s`` for all; timber wall:
         ``spacing_m``, ``defects`` (``"bay:N[:y0]"``, ``"settled:N:void_m"``,
-        ``"void:x0:x1:y0:y1:depth"``), ``lintel`` (x0, x1, y0, height); ceiling: ``patch``
-        (x0, x1, y0, y1); masonry wall: ``slab_y``, ``patch``, ``lintel``, ``void``
-        (x0, x1, y0, y1, depth), ``sky_view`` (top, bottom); flat roof: ``insulation``,
-        ``wet`` ((x0, x1, y0, y1, water fraction), ...), ``dt_s``, ``end_h``, ``air_mean_c``.
+        ``"void:x0:x1:y0:y1:depth"``, ``"soft:N:void_m:soft_m[:wave_m]"`` settled fill with a soft
+        top, ``"fill:x0:x1:y0:y1:remaining"`` insulation left at a fraction of its depth,
+        ``"fan:x:y:width:drop_k"`` a cold-air fan from a gap), ``lintel`` (x0, x1, y0, height),
+        ``stratification_k_m``, ``stratification_k_m2``; ceiling: ``patch`` (x0, x1, y0, y1, or
+        None), ``partial`` ((x0, x1, y0, y1, remaining fraction), ...); masonry wall: ``slab_y``,
+        ``patch``, ``lintel``, ``void`` (x0, x1, y0, y1, depth), ``sky_view`` (top, bottom),
+        ``view`` ("exterior" or "interior"), ``fan`` (x, y, width, drop_k), stratification, and
+        ``solid=True`` for an uninsulated solid brick wall seen from inside (3.0 × 2.4 m) with
+        ``damp`` (tide line height, wave, soft band, water fraction, wet surface fraction[, x0, x1], or
+        None), ``fan``, stratification, ``relative_humidity``; flat roof: ``insulation``, ``wet`` ((x0, x1, y0, y1, water
+        fraction), ...), ``tapered`` ((x0, x1, y0, y1, water fraction, rings), ...) wetness
+        tapering to the edge, ``dt_s``, ``end_h``, ``air_mean_c``.
 
     Returns
     -------

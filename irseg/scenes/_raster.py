@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
+from irseg.errors import ConfigError
+
 from irseg.scenes._defects import Defect
 from irseg.scenes._elements import Block, Element
 from irseg.scenes._materials import MATERIALS
@@ -16,6 +18,10 @@ def _plane_mask(element: Element, b: Block) -> np.ndarray:
     c = element.cell_m
     xc = (np.arange(element.nx) + 0.5) * c
     yc = (np.arange(element.ny) + 0.5) * c
+    if b.shape == "mask":
+        if b.plane is None or b.plane.shape != (element.ny, element.nx):
+            raise ConfigError(f"a mask block needs a plane of shape {(element.ny, element.nx)}")
+        return np.asarray(b.plane, bool)
     if b.shape == "ellipse":
         cx, cy = 0.5 * (b.x0_m + b.x1_m), 0.5 * (b.y0_m + b.y1_m)
         rx, ry = 0.5 * (b.x1_m - b.x0_m), 0.5 * (b.y1_m - b.y0_m)
@@ -24,8 +30,12 @@ def _plane_mask(element: Element, b: Block) -> np.ndarray:
 
 
 def defect_mask(element: Element, defect: Defect) -> np.ndarray:
-    """(ny, nx) bool: the defect's region, the cells whose build-up it changes, projected on the surface."""
-    m = np.zeros((element.ny, element.nx), bool)
+    """(ny, nx) bool: the defect's region, the cells whose build-up it changes, projected on the surface.
+
+    A defect that changes the surface conditions instead (``Defect.region``, a cold-air fan) gives
+    that region.
+    """
+    m = np.zeros((element.ny, element.nx), bool) if defect.region is None else np.asarray(defect.region, bool).copy()
     for b in defect.blocks:
         m |= _plane_mask(element, b)
     return m

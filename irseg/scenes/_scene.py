@@ -27,6 +27,7 @@ from irseg.scenes._materials import MATERIALS
 from irseg.scenes._physics import (
     Conditions,
     NightSchedule,
+    evaporation_w_m2,
     h_convective_exterior,
     h_convective_interior,
     h_radiative,
@@ -118,7 +119,7 @@ def face_conditions(element: Element, cond: Conditions, *, outside_c: float | No
         height = cond.top_height_m - yc
     else:
         height = np.full(ny, cond.top_height_m)
-    t_air = cond.inside_c + cond.stratification_k_m * (height - 1.5)
+    t_air = cond.inside_c + cond.stratification_k_m * (height - 1.5) + cond.stratification_k_m2 * (height - 1.5) ** 2
     # 1-D estimate of the surface temperatures, for the mean temperature in h_r.
     hci = h_convective_interior(element.heat_flow)
     r_si = 1.0 / (hci + h_radiative(cond.inside_c, cond.emissivity))
@@ -194,6 +195,34 @@ def _night(element: Element, k: np.ndarray, c: np.ndarray, cond: Conditions, sch
     return t, fc_at(sched.end_h)
 
 
+def _surface_effects(element: Element, k: np.ndarray, fc: dict, defects: tuple[Defect, ...], cond: Conditions,
+                     t: np.ndarray) -> tuple[np.ndarray, dict]:
+    """Steady solution with the defects' changes of the inside face: colder air next to it (its convective
+    share of the ambient) and the latent heat of evaporation from a damp face (a sink, at the surface
+    temperature it reaches: two fixed-point passes from the dry solution).
+    """
+    hci = h_convective_interior(element.heat_flow)
+    h_in = fc["h_in"]
+    amb = fc["amb_in"].copy()
+    for d in defects:
+        if d.air_change_k is not None:
+            amb = amb + hci * d.air_change_k / h_in
+    wet = np.zeros_like(amb)
+    for d in defects:
+        if d.wet_surface is not None:
+            wet = np.maximum(wet, d.wet_surface)
+    out = dict(fc, amb_in=amb)
+    t = _steady(element, k, out) if not wet.any() else t
+    for _ in range(2 if wet.any() else 0):
+        ts, _ = surface_fields(t, conductivity=k, dz_m=element.dz_m(), h=h_in, ambient=out["amb_in"],
+                               face="inside")
+        sink = evaporation_w_m2(surface_c=ts, air_c=cond.inside_c, relative_humidity=cond.relative_humidity,
+                                h_convective_w_m2k=hci, wet_fraction=wet)
+        out = dict(fc, amb_in=amb - sink / h_in)
+        t = _steady(element, k, out)
+    return t, out
+
+
 def _attribute(masks: np.ndarray, rim_m: float, cell_m: float) -> np.ndarray:
     """Index (0..k-1) of the defect each cell's excess is charged to, −1 for none."""
     k = masks.shape[0]
@@ -251,14 +280,24 @@ def simulate_scene(
     key = "in" if face == "inside" else "out"
     dz = element.dz_m()
     results = []
+    effects = any(d.wet_surface is not None or d.air_change_k is not None for d in defects)
+    if effects and (view != "interior" or night is not None):
+        raise ConfigError("damp surfaces and cold-air fans act on the inside face of a steady interior scene")
     for ds in (defects, ()):
         k, c = rasterise(element, ds)
         if night is None:
             fc = face_conditions(element, conditions)
             t = _steady(element, k, fc)
+            if effects and ds:
+                air = fc
+                t, fc = _surface_effects(element, k, fc, ds, conditions, t)
         else:
             t, fc = _night(element, k, c, conditions, night)
         ts, q = surface_fields(t, conductivity=k, dz_m=dz, h=fc[f"h_{key}"], ambient=fc[f"amb_{key}"], face=face)
+        if effects and ds:
+            # the heat the room gives the face (convection and radiation against the real air): what
+            # a camera sees as h·ΔT; it includes the latent heat of the evaporation and the cold air
+            q = fc["h_in"] * (ts - air["amb_in"])
         _, q_in = surface_fields(t, conductivity=k, dz_m=dz, h=fc["h_in"], ambient=fc["amb_in"], face="inside")
         _, q_out = surface_fields(t, conductivity=k, dz_m=dz, h=fc["h_out"], ambient=fc["amb_out"], face="outside")
         results.append((ts, q, q_in, q_out, fc))
@@ -301,6 +340,10 @@ def simulate_scene(
             "air_mean_c": night.air_mean_c, "air_amplitude_k": night.air_amplitude_k,
             "sky_depression_k": night.sky_depression_k},
     }
+    if conditions.stratification_k_m2:  # written only when used, so older truth files stay the same
+        settings["stratification_k_m2"] = conditions.stratification_k_m2
+    if effects:
+        settings["relative_humidity"] = conditions.relative_humidity
     return Scene(name, view, element, tuple(defects), conditions, ts_d, ts_b, fc[f"rad_{key}"],
                  fc[f"h_{key}"], masks, tuple(truth), balance, settings, dq, owner)
 

@@ -13,6 +13,7 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
+from scipy import ndimage
 
 from irseg.io import write_text
 from irseg.io import write_exact_json, write_npz
@@ -22,7 +23,7 @@ from irseg.scenes._presets import make_preset
 from irseg.scenes._scene import Scene, truth_in_window
 
 __all__ = ["ImageRecipe", "SAMPLE_RECIPES", "render_recipe", "export_image", "make_sample_survey",
-           "write_truth_json"]
+           "write_truth_json", "graded_region", "GRADED_FRACTION"]
 
 # Camera settings shared by the whole sample survey (survey.toml).
 _SURVEY_DEFAULTS = {
@@ -52,6 +53,66 @@ class ImageRecipe:
 
 
 # --------------------------------------------------------------------------- export
+
+
+#: A graded defect's truth region: half of its own peak contrast (the rule the analysis documents).
+GRADED_FRACTION = 0.5
+_GRADED_REACH_M = 0.15  # looked for this far around the cells the defect changes
+MEMBER_WIDTH_M = 0.12  # narrower structures (studs, joists) are members, not part of a graded defect
+
+
+def _without_members(c: np.ndarray, pixel_m: float) -> np.ndarray:
+    """``c`` with structures narrower than :data:`MEMBER_WIDTH_M` taken out (grey opening with a disk),
+    on a copy reduced so that the disk keeps about 8 px across; never above ``c``."""
+    across = MEMBER_WIDTH_M / pixel_m
+    f = max(1, int(across // 8))
+    m, n = c.shape
+    mb, nb = m // f, n // f
+    if mb < 3 or nb < 3:
+        return c.copy()
+    small = c[: mb * f, : nb * f].reshape(mb, f, nb, f).mean(axis=(1, 3))
+    r = max(1, int(round(0.5 * across / f)))
+    yy, xx = np.mgrid[-r:r + 1, -r:r + 1]
+    opened = ndimage.grey_opening(small, footprint=(yy**2 + xx**2) <= r * r, mode="nearest")
+    up = ndimage.zoom(opened, (m / mb, n / nb), order=1, mode="nearest")[:m, :n]
+    full = np.empty_like(c)
+    full[: up.shape[0], : up.shape[1]] = up
+    full[up.shape[0]:, :] = full[up.shape[0] - 1: up.shape[0], :] if up.shape[0] < m else full[up.shape[0]:, :]
+    full[:, up.shape[1]:] = full[:, up.shape[1] - 1: up.shape[1]] if up.shape[1] < n else full[:, up.shape[1]:]
+    return np.minimum(full, c)
+
+
+def graded_region(contrast: np.ndarray, mask: np.ndarray, pixel_m: float) -> np.ndarray:
+    """Where a graded or diffuse defect's noise-free contrast holds half of its own peak.
+
+    ``contrast`` is the simulated surface temperature with minus without the defects (camera
+    grid, no noise), ``mask`` the pixels whose build-up (or air) the defect changes. Both the peak
+    and the region are read on the contrast with its narrow members taken out (a grey opening with
+    a disk :data:`MEMBER_WIDTH_M` across: a stud or joist the defect exposes or runs past is a
+    line of its own, neither the defect's peak nor a change of its outline): the peak is the 99th
+    percentile over the mask; the region is where the contrast holds half of the peak, read on
+    long members (lines standing a quarter of the peak out of the opened contrast, at least three
+    disk widths long, with their flanks: half a disk width) on the opened contrast, within 0.15 m of the mask, its parts that touch
+    the mask.
+    """
+    if not mask.any():
+        return mask.copy()
+    sign = 1.0 if float(np.median(contrast[mask])) >= 0 else -1.0
+    c = sign * contrast
+    broad = _without_members(c, pixel_m)
+    reach = max(1, int(round(_GRADED_REACH_M / pixel_m)))
+    near = ndimage.binary_dilation(mask, iterations=reach)
+    peak = float(np.percentile(broad[mask], 99))
+    lines, k = ndimage.label(c - broad >= 0.5 * GRADED_FRACTION * peak)
+    long = np.zeros(k + 1, bool)
+    for i, sl in enumerate(ndimage.find_objects(lines), start=1):
+        long[i] = max(sl[0].stop - sl[0].start, sl[1].stop - sl[1].start) * pixel_m >= 3.0 * MEMBER_WIDTH_M
+    long[0] = False
+    on_member = ndimage.binary_dilation(long[lines], iterations=max(1, int(round(0.5 * MEMBER_WIDTH_M / pixel_m))))
+    half = near & (np.where(on_member, broad, c) >= GRADED_FRACTION * peak)
+    lab, _ = ndimage.label(half)
+    keep = np.unique(lab[half & mask])
+    return np.isin(lab, keep[keep > 0])
 
 
 def render_recipe(recipe: ImageRecipe) -> tuple[Scene, Shot]:
@@ -103,19 +164,34 @@ def export_image(recipe: ImageRecipe, directory: str | os.PathLike[str], *, side
     x0, x1, y0, y1 = view_window(scene.element, recipe.camera)
     tw = truth_in_window(scene, x0_m=x0, x1_m=x1, y0_m=y0, y1_m=y1)
     names = [t.name for t in scene.truth]
+    masks = shot.defect_masks.copy()
+    px_area = shot.pixel_m ** 2 / float(np.cos(np.radians(recipe.camera.tilt_deg)))
     defects = []
     for t in tw:
         k = names.index(t.name)
-        fp = shot.defect_masks[k]
+        kind = scene.defects[k].truth_kind
+        area, reference, mean = t.area_m2, t.reference_c, t.mean_c
+        if kind != "sharp":
+            # graded or diffuse: the truth region is where its own simulated contrast holds half its peak
+            masks[k] = graded_region(shot.object_c - shot.baseline_c, shot.defect_masks[k], shot.pixel_m)
+            area = float(masks[k].sum()) * px_area
+            # the sound surface as this camera records it: the lens shading is the frame's, not the defect's
+            shade = 0.0 if shot.shading_k is None else shot.shading_k[masks[k]] / scene.conditions.emissivity
+            reference = float((shot.baseline_c[masks[k]] + shade).mean())
+            mean = float((shot.object_c[masks[k]] + shade).mean())
+        fp = masks[k]
         rows, cols = np.nonzero(fp)
-        defects.append({
+        row = {
             "name": t.name, "cause": t.cause, "description": t.description,
-            "area_m2": round(t.area_m2, 4), "excess_w": round(t.excess_w, 3),
+            "area_m2": round(area, 4), "excess_w": round(t.excess_w, 3),
             "excess_footprint_w": round(t.excess_footprint_w, 3),
-            "reference_c": round(t.reference_c, 3), "mean_c": round(t.mean_c, 3),
-            "delta_k": round(t.mean_c - t.reference_c, 3), "area_px": int(fp.sum()), "mask_index": k,
+            "reference_c": round(reference, 3), "mean_c": round(mean, 3),
+            "delta_k": round(mean - reference, 3), "area_px": int(fp.sum()), "mask_index": k,
             "bbox": [int(rows.min()), int(cols.min()), int(rows.max()) + 1, int(cols.max()) + 1] if fp.any() else None,
-        })
+        }
+        if kind != "sharp":  # only then, so the truth files of sharp scenes stay as they were
+            row["kind"] = kind
+        defects.append(row)
     return {
         "image": path.name, "title": recipe.title, "view": scene.view, "format": recipe.fmt,
         "size": [int(shot.apparent_c.shape[0]), int(shot.apparent_c.shape[1])],
@@ -129,7 +205,7 @@ def export_image(recipe: ImageRecipe, directory: str | os.PathLike[str], *, side
         "energy_balance": {k: (None if v is None else round(v, 6) if k != "relative_imbalance"
                                else float(f"{v:.3g}")) for k, v in scene.balance.items()},
         "simulation": scene.settings,
-        "_masks": shot.defect_masks,
+        "_masks": masks,
         "_scene": scene, "_shot": shot,
     }
 

@@ -77,14 +77,19 @@ def test_minimum_spot_is_three_by_three_pixels(side, kept):
 
 
 def test_contrast_threshold_default_and_setting():
+    # 0.2 K over 20×20 px at 0.05 K noise: matched to its area the contrast is 0.2/(0.05·0.28/2.5) ≈ 36σ
+    # (white noise smoothed by a Gaussian of std s keeps σ/(2√π·s), closed form), far above the 5σ seed,
+    # and above the 0.1 K reporting floor [CP]; the min_contrast_k setting raises the floor
     t = np.full((60, 80), 19.0)
     d = np.zeros(t.shape, int)
-    t[20:40, 30:50] -= 0.2  # below max(3·noise, ½·min_step) = 0.25 K
+    t[20:40, 30:50] -= 0.2
     d[20:40, 30:50] = 1
     seg = make_seg(d, u=t)
-    assert analyse(make_frame(t), seg, make_meta()).anomalies == ()
-    assert len(analyse(make_frame(t), seg, make_meta(analysis={"min_contrast_k": 0.1})).anomalies) == 1
+    assert len(analyse(make_frame(t), seg, make_meta()).anomalies) == 1
     assert analyse(make_frame(t), seg, make_meta(analysis={"min_contrast_k": 0.3})).anomalies == ()
+    weak = np.full((60, 80), 19.0)
+    weak[20:40, 30:50] -= 0.05  # below the 0.1 K floor
+    assert analyse(make_frame(weak), make_seg(d, u=weak), make_meta()).anomalies == ()
 
 
 def test_noise_estimate_fallback_when_segmentation_has_none(rng):

@@ -1,0 +1,240 @@
+"""The extent rule: the anomalies of one significant component, strongest first.
+
+Helper of :mod:`._significance` (its module docstring states the rule): within one grown
+component of significant contrast, the strongest place gives a peak and the anomaly extends to
+half of it; broad anomalies are read with their narrow members taken out; domes are split at
+saddles; a remainder touching a taken anomaly is a defect of its own only with its own plateau or
+dome, beside it; tails are left to the anomaly they fall away from.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import ndimage
+
+from ._scales import _dilate, _fill_holes, _pct, dome_of, gaussian_noise_factor, long_lines, without_lines
+
+__all__ = ["RegionInfo", "extract_component", "EXTENT_FRACTION", "JOIN_FRACTION", "PLATEAU_RATIO",
+           "BROAD_FRACTION", "SADDLE_DIP", "WRAP_MAX", "FINE_NOISE_FRACTION", "EDGE_JITTER_PX",
+           "PEAK_NOISE_FRACTION", "PEAK_PERCENTILE", "FINE_SCALES"]
+
+EXTENT_FRACTION = 0.5
+JOIN_FRACTION = 0.25  # half-peak pieces joined through this fraction of the peak are one anomaly
+PLATEAU_RATIO = 0.85
+BROAD_FRACTION = 0.5  # a broad anomaly keeps this share of its peak with the narrow members taken out
+SADDLE_DIP = 0.25  # a dome beside a taken anomaly: its contrast falls by a quarter toward it
+WRAP_MAX = 0.5  # a touching plateau may border at most half of the other anomaly's outline
+FINE_NOISE_FRACTION = 0.04  # the extent is measured where σ_fine ≤ 4 % of the peak
+EDGE_JITTER_PX = 0.5  # ... and where the noise moves its half-peak edge by at most half a pixel
+PEAK_NOISE_FRACTION = 0.01  # the peak is read where σ ≤ 1 % of it
+PEAK_PERCENTILE = 99.0
+FINE_SCALES = (0.7, 1.0, 1.4, 2.0, 2.8, 4.0, 5.7, 8.0, 11.3, 16.0)
+_MAX_PASSES = 12
+_SQUARE = ndimage.generate_binary_structure(2, 2)
+
+
+@dataclass(frozen=True)
+class RegionInfo:
+    """One detected anomaly."""
+
+    label: int
+    sign: int  # +1 warm, −1 cold
+    peak_k: float  # robust peak contrast against the sound surface, K (signed)
+    level_k: float  # the extent threshold (fraction of the peak), K (signed)
+    area_px: int
+    fine_scale_px: float  # the smoothing the extent was measured at
+    touches_edge: bool  # the anomaly reaches the frame edge (its area may be cut)
+    split_from: int  # label of the touching anomaly it was split from (0: none)
+    component: int  # its significant component in ``DetectionInfo.components`` (signed: < 0 cold)
+
+
+def _choose_fine(peak_rough: float, noise: float, fraction: float) -> float:
+    """Smallest window of the fine bank whose white-noise σ is at most ``fraction`` of the peak."""
+    for s in FINE_SCALES:
+        if noise * gaussian_noise_factor(s) <= fraction * abs(peak_rough):
+            return s
+    return FINE_SCALES[-1]
+
+
+def _steady_edge_scale(rough: np.ndarray, piece: np.ndarray, peak: float, noise: float, s_f: float) -> float:
+    """The fine scale, raised until the half-peak edge holds still: noise at that scale over the contrast
+    gradient across the edge at most :data:`EDGE_JITTER_PX` px (a soft edge is crossed at a shallow
+    slope, where the noise moves the crossing), but never wider than a quarter of the ramp itself
+    (``peak/gradient``), so the smoothing does not move the edge either."""
+    near = piece & (np.abs(rough - 0.5 * peak) <= 0.05 * peak)
+    if near.sum() < 8:
+        return s_f
+    gr, gc = np.gradient(rough)
+    grad = float(np.percentile(np.hypot(gr, gc)[near], 75))  # on the edge, not on a plateau near half the peak
+    if grad <= 0:
+        return s_f
+    cap = 0.25 * peak / grad
+    for s in FINE_SCALES:
+        if s < s_f:
+            continue
+        if noise * gaussian_noise_factor(s) <= EDGE_JITTER_PX * grad or s >= cap:
+            return max(s_f, min(s, max(cap, s_f)))
+    return max(s_f, min(FINE_SCALES[-1], max(cap, s_f)))
+
+
+def _own_member_contrast(excess: np.ndarray, own: np.ndarray, core: np.ndarray, reach: int) -> np.ndarray:
+    """A member's own contrast: what it adds to the members-removed contrast, at most what it adds away
+    from the anomaly (the 90th percentile over its pixels farther than ``reach`` from the core: its core
+    level, not its flanks), so that a member
+    the defect itself makes colder (a joist exposed by a void) leaves that share to the defect."""
+    out = excess.copy()
+    lab, k = ndimage.label(own, structure=_SQUARE)
+    if k == 0:
+        return out
+    far = own & ~_dilate(core, reach)
+    for i in range(1, k + 1):
+        piece = lab == i
+        away = excess[piece & far]
+        if away.size >= 9:
+            out[piece] = np.minimum(excess[piece], max(float(np.percentile(away, 90)), 0.0))
+    return out
+
+
+def _box(mask: np.ndarray, margin: int) -> tuple[slice, slice]:
+    """Bounding box of ``mask`` widened by ``margin`` (clipped to the array)."""
+    rows, cols = np.flatnonzero(mask.any(axis=1)), np.flatnonzero(mask.any(axis=0))
+    m, n = mask.shape
+    return (slice(max(0, int(rows[0]) - margin), min(m, int(rows[-1]) + margin + 1)),
+            slice(max(0, int(cols[0]) - margin), min(n, int(cols[-1]) + margin + 1)))
+
+
+def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, min_contrast_k, k_hi, line_px,
+             extent_fraction, split_plateaus, valid, members) -> None:
+    """Anomalies of one grown component: the strongest first, then separate plateaus and pieces.
+
+    Each piece is worked on within its bounding box, widened by the reach of every dilation below
+    (the widest edge band, and a member's width for the grey opening).
+    """
+    m, n = comp.shape
+    pad = 8
+    r0, r1 = max(0, sl[0].start - pad), min(m, sl[0].stop + pad)
+    c0, c1 = max(0, sl[1].start - pad), min(n, sl[1].stop + pad)
+    crop = (slice(r0, r1), slice(c0, c1))
+    member = comp[crop] == k
+    near_all = _dilate(member, 2) & valid[crop]
+    claimed_all = np.zeros_like(member)  # taken anomalies and their edge bands, and rejected tails
+    taken_all = np.zeros(member.shape, np.int32)  # local anomaly ids
+    peaks: dict[int, float] = {}
+    rims: dict[int, int] = {}
+    queue: list[np.ndarray] = [member]
+    passes = 0
+    rough_all = sign * fine(2.0)[crop]
+    margin = int(math.ceil(2.5 * math.hypot(1.0, FINE_SCALES[-1]))) + 8 + int(math.ceil(line_px))
+    while queue and passes < _MAX_PASSES:
+        passes += 1
+        piece_all = queue.pop(0)
+        if int(piece_all.sum()) < min_area_px:
+            continue  # too small to hold an anomaly: left as it is
+        box = _box(piece_all, margin)
+        oy, ox = box[0].start, box[1].start
+        piece, near, claimed, taken = piece_all[box], near_all[box], claimed_all[box], taken_all[box]
+        rough = rough_all[box]
+        p_rough = _pct(rough[piece], PEAK_PERCENTILE)
+        if p_rough <= 0.5 * min_contrast_k:
+            continue  # nothing that could reach the smallest contrast reported
+        s_f = _steady_edge_scale(rough, piece, p_rough, noise, _choose_fine(p_rough, noise, FINE_NOISE_FRACTION))
+        sig_f = noise * gaussian_noise_factor(s_f)
+        v = sign * fine(s_f)[crop][box]
+        # the peak: the maximum where the noise is at most 1 % of it, with the window kept well inside
+        # the piece (a quarter of its equivalent radius), so neither noise nor smoothing moves it much
+        s_p = min(_choose_fine(p_rough, noise, PEAK_NOISE_FRACTION),
+                  max(s_f, 0.25 * math.sqrt(float(piece.sum()) / math.pi)))
+        s_p = max([s for s in FINE_SCALES if s <= s_p] or [FINE_SCALES[0]])  # on the bank (fields are cached)
+        vp = sign * fine(s_p)[crop][box]
+        peak = float(vp[piece].max())
+        # broad anomalies before narrow members: where taking the members out (studs, joists) keeps
+        # at least half of the peak, the peak, the strongest place and the domes are read without them
+        broad = without_lines(vp, line_px)
+        p_broad = float(broad[piece].max())
+        is_broad = p_broad >= BROAD_FRACTION * peak
+        if is_broad:
+            peak = p_broad
+        if peak < max(min_contrast_k, k_hi * sig_f):
+            continue
+        level = extent_fraction * peak
+        region_of = piece | (near & ~claimed & _dilate(piece, 2))
+        # a broad anomaly's extent is read with its narrow members taken out: on a stud or joist in or
+        # beside it (a long narrow line standing out of the members-removed contrast) the members-removed
+        # contrast decides, so the member neither widens nor cuts its outline (it stays an anomaly of
+        # its own); elsewhere, corners included, the contrast itself
+        lines = long_lines(v - broad >= 0.5 * level, line_px) if is_broad else np.zeros_like(piece)
+        if lines.any():
+            lines = _dilate(lines, int(math.ceil(0.5 * line_px)))  # with their blurred flanks
+        field = np.where(lines, broad, v)
+        above = (field >= level) & region_of & ~claimed
+        joined = (v >= JOIN_FRACTION * peak) & region_of & ~claimed
+        jl, _ = ndimage.label(joined, structure=_SQUARE)
+        # the strongest place: the pixel of the piece at the robust peak's level nearest the maximum
+        top = np.argmax(np.where(above, broad if is_broad else v, -np.inf))
+        anchor = jl.flat[top]
+        if anchor == 0 or not above.flat[top]:
+            continue
+        core = above & dome_of(broad, jl == anchor, top, dip_k=SADDLE_DIP * peak, line_px=line_px)
+        cl, _ = ndimage.label(core, structure=_SQUARE)
+        core = cl == cl.flat[top]
+        core = _fill_holes(core)
+        core &= ~claimed
+        touching = bool((_dilate(core, 1) & claimed).any())
+        rim_px = int(math.ceil(2.5 * math.hypot(1.0, s_f))) + 1
+        band = _dilate(core, rim_px)
+        accept = int(core.sum()) >= min_area_px
+        split_from = 0
+        if accept and touching:
+            # a remainder next to a taken anomaly: its own defect only with its own plateau or its own
+            # dome (its contrast falls toward the taken one: a saddle between them), and only beside it
+            # (a halo wrapping round more than half of its outline, or weaker than a quarter of its
+            # peak, is its tail)
+            nb = taken[_dilate(core, rim_px + 2) & (taken > 0)]
+            split_from = int(np.bincount(nb).argmax()) if nb.size else 0
+            rim = core & _dilate(claimed, 1)
+            dome = rim.any() and float(v[rim].max()) <= (1.0 - SADDLE_DIP) * float(v[core].max())
+            accept = split_plateaus and (dome or _pct(v[core], 50.0) >= PLATEAU_RATIO * peak)
+            if accept and split_from:
+                # the other anomaly's whole outline, on the component's crop
+                a_band = _dilate(taken_all == split_from, rims[split_from])
+                outline = _dilate(a_band, 1) & ~a_band
+                mine = np.zeros_like(member)
+                mine[box] = _dilate(core, rim_px + 4)
+                wrap = float((outline & mine).sum()) / max(float(outline.sum()), 1.0)
+                accept = wrap <= WRAP_MAX and peak >= JOIN_FRACTION * peaks[split_from]
+            if accept and split_from:
+                # the step between two plateaus is shared at its midpoint
+                mid = 0.5 * (peaks[split_from] + peak)
+                gap = _dilate(core, rim_px + 2) & claimed & (taken == 0) & (v >= level) & (v < mid)
+                core |= gap
+        if accept:
+            # the members' own contrast (what they add to the members-removed contrast) is theirs, not
+            # the broad anomaly's heat: recorded so that it is left out of its measurement
+            own = lines & region_of & ~claimed
+            members[crop][box][own] = sign * _own_member_contrast(v - broad, own, core, rim_px + int(line_px))[own]
+            lab = len(regions) + 1
+            sub = labels[crop][box]
+            fresh = core & (sub == 0)
+            sub[fresh] = lab
+            taken[core] = lab
+            peaks[lab] = peak
+            rims[lab] = rim_px
+            rr, cc = np.nonzero(core)
+            edge = bool(rr.min() + r0 + oy == 0 or cc.min() + c0 + ox == 0 or rr.max() + r0 + oy == m - 1
+                        or cc.max() + c0 + ox == n - 1)
+            regions.append(RegionInfo(lab, sign, sign * peak, sign * level, int(fresh.sum()), s_f, edge, split_from,
+                                      sign * k))
+        claimed |= band if accept else _dilate(core, 1)
+        if not accept and (touching or int(core.sum()) < min_area_px):
+            # a tail falling away from a taken anomaly, or a small isolated peak: its edge band is
+            # not a defect either (what lies beyond is looked at again, and touches it)
+            claimed |= band
+        rest = piece & ~claimed
+        rl, nr = ndimage.label(rest, structure=_SQUARE)
+        for i in range(1, nr + 1):
+            nxt = np.zeros_like(member)
+            nxt[box] = rl == i
+            queue.append(nxt)
