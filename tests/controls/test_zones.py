@@ -265,14 +265,25 @@ def test_exclude_zones_around_a_window_and_a_radiator_keep_the_defects_figures(t
         warnings.simplefilter("ignore")
         results = {key: process_image(folder / name) for key, folder in folders.items()}
     plain, zoned, unzoned = (results[k].analysis for k in ("plain", "zoned", "unzoned"))
-    assert len(plain.anomalies) == 1  # the displaced insulation alone
+    def defect(analysis):
+        # the defect; any other cold area must border a zone and say so (a remnant of the blurred
+        # radiator just outside its box), so the thermographer sees where it comes from
+        found = sorted((a for a in analysis.anomalies if a.cause == "missing_insulation"), key=lambda a: -a.area_px)
+        assert found, [(a.cause, a.reason) for a in analysis.anomalies]
+        assert all("cut by zone" in a.reason for a in found[1:]), [a.reason for a in found[1:]]
+        return found[0]
+
+    # the displaced insulation is the one defect (the ceiling's joists may be listed beside it as
+    # thermal bridges, expected construction)
+    assert all(a.cause in ("missing_insulation", "thermal_bridge") for a in plain.anomalies)
     # without zones the glazed light is reported as an anomaly: the scene tests what the zones do
     assert len(unzoned.anomalies) > len(plain.anomalies)
     assert any((unzoned.labels == a.anomaly)[window].any() for a in unzoned.anomalies)
-    # with them: the same single anomaly, its figures within 2 %, nothing inside a zone, no edge there
-    assert len(zoned.anomalies) == 1
-    for key, value in _figures(plain.anomalies[0]).items():
-        assert _figures(zoned.anomalies[0])[key] == pytest.approx(value, rel=0.02), key
+    # with them: no window or radiator anomaly is left (a joist crossing a zone may come out in two
+    # pieces, still a thermal bridge), the defect's figures within 2 %, nothing inside a zone, no edge there
+    assert all(a.cause in ("missing_insulation", "thermal_bridge") for a in zoned.anomalies)
+    for key, value in _figures(defect(plain)).items():
+        assert _figures(defect(zoned))[key] == pytest.approx(value, rel=0.02), key
     zone_pixels = results["zoned"].zones.exclusion_mask(image.shape)
     assert not (zoned.labels[zone_pixels] > 0).any()
     assert not results["zoned"].segmentation.edges[zone_pixels].any()
