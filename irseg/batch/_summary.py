@@ -13,7 +13,7 @@ from typing import Any
 
 from .._version import __version__
 from ..io import normalise_json
-from ..report import ANOMALY_COLUMNS, SurveyAnomaly, anomaly_table, rank_anomalies
+from ..report import ANOMALY_COLUMNS, SurveyAnomaly, anomaly_table, is_expected, rank_anomalies
 from ..vocabulary import CAUSES, CAUTIONS
 from ._inputs import SkippedFile
 from ._records import ImageOutcome, ImageRecord
@@ -192,6 +192,10 @@ def build_summary(
         "n_failed": len(outcomes) - n_ok,
         "totals_by_cause": by_cause,
         "totals": _totals(counted),
+        # the report's first page and the command line's summary: probable defects only, framing members
+        # that are expected in the construction left out (report/_ranking.is_expected)
+        "defects": {**_totals([a for a in counted if not is_expected(a)]),
+                    "n_expected": sum(1 for a in counted if is_expected(a))},
         "anomalies": sorted(table_rows(anomalies), key=lambda row: _rank_key(row["rank"])),
         "failures": failures,
         "skipped": [{"file": s.file, "reason": s.reason} for s in skipped],

@@ -118,11 +118,15 @@ def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, job
         resumed = f" ({result.n_skipped} resumed)" if result.n_skipped else ""
         failed = (f", {result.n_failed} failed (see {escape_name(str(out_dir / 'failures.csv'))})"
                   if result.n_failed else "")
-        heat = _heat_text(result.excess_w, result.excess_kwh_year, n_anomalies=result.n_anomalies,
-                          n_unmeasured=int(result.summary["totals"].get("n_unmeasured") or 0))
+        defects = result.summary["defects"]  # the same figures as the report's first page
+        heat = _heat_text(defects["excess_w"], defects["excess_kwh_year"], n_anomalies=int(defects["count"]),
+                          n_unmeasured=int(defects.get("n_unmeasured") or 0))
+        expected = int(defects.get("n_expected") or 0)
+        found = (f"{result.n_anomalies} anomalies ({defects['count']} probable defects, {expected} expected "
+                 "framing members not counted)" if expected else f"{result.n_anomalies} anomalies")
         click.echo(
             f"irseg: {result.n_ok} of {len(result.outcomes)} images ok{resumed}{failed}; "
-            f"{result.n_anomalies} anomalies; {heat}; "
+            f"{found}; {heat}; "
             f"report: {escape_name(str(result.report_path))}"
         )
         click.echo(CAUTION_LINE)

@@ -188,3 +188,22 @@ def test_a_closed_output_pipe_stops_quietly(tmp_path):
     )
     assert "BrokenPipe" not in proc.stderr and "Traceback" not in proc.stderr, proc.stderr
     assert (tmp_path / "out" / "anomalies.csv").is_file()
+
+
+def test_the_summary_line_gives_the_same_defect_figures_as_the_report(tmp_path):
+    # the command line and the report's first page sum the same anomalies (probable defects; framing
+    # members expected in the construction left out), so a planner never sees two totals
+    import json
+    import re
+    from pathlib import Path
+
+    sample = Path(__file__).resolve().parents[2] / "sample_images"
+    result = _invoke(str(sample), "-o", str(tmp_path / "out"), "-j", "1")
+    assert result.exit_code == 0, result.output
+    defects = json.loads((tmp_path / "out" / "summary.json").read_text(encoding="utf-8"))["defects"]
+    watts = f"{defects['excess_w']:,.0f} W"
+    assert f"({defects['count']} probable defects, {defects['n_expected']} expected framing members" in result.stdout
+    assert f"estimated excess heat loss {watts}" in result.stdout
+    page = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
+    assert re.search(rf"<strong>{defects['count']} probable defects</strong>", page)
+    assert f"<strong>{watts}</strong>" in page
