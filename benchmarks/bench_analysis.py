@@ -67,7 +67,7 @@ def _scene(seed: int = 0):
                        params=params)
     meta = SurveyMeta(camera=Camera(hfov_deg=45.0, distance_m=3.0), surface=Surface(view="interior"),
                       air=Air(inside_c=20.0, outside_c=0.0))
-    frame = ThermalFrame(path="bench.npy", temperature_c=noisy, mask=np.zeros((m, n), bool), apparent_c=noisy)
+    frame = ThermalFrame(path="bench.npy", temperature_c=noisy, mask=np.zeros((m, n), bool))
     return frame, seg, meta
 
 

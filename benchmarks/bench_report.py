@@ -60,7 +60,7 @@ def _overlay(seed: int) -> bytes:
     labels[r0:r0 + 16, c0:c0 + 20] = 1
     t[labels == 1] -= 2.5
     meta = SurveyMeta(surface=Surface(view="interior"), air=Air(inside_c=20.0, outside_c=0.0))
-    frame = ThermalFrame(path=f"wall_{seed:04d}.tif", temperature_c=t, mask=np.zeros(t.shape, bool), apparent_c=t)
+    frame = ThermalFrame(path=f"wall_{seed:04d}.tif", temperature_c=t, mask=np.zeros(t.shape, bool))
     anomaly = SimpleNamespace(anomaly=1, cause="missing_insulation", centroid_row=r0 + 8.0, centroid_col=c0 + 10.0,
                               bbox_row0=r0, bbox_col0=c0, bbox_row1=r0 + 16, bbox_col1=c0 + 20)
     rgb = render_overlay(frame, SimpleNamespace(edges=None),

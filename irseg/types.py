@@ -386,12 +386,11 @@ class ThermalFrame:
     path : str
         The input file.
     temperature_c : (M, N) float32 or float64 ndarray
-        Object (surface) temperature, °C, after emissivity/reflected correction.
-        Masked pixels hold a finite fill value (local median), never NaN.
+        Object (surface) temperature, °C, after emissivity/reflected correction
+        (:func:`irseg.radiometry.calibrate` gives float32: micro-kelvin steps, half the
+        memory). Masked pixels hold a finite fill value (local median), never NaN.
     mask : (M, N) bool ndarray
         True where the pixel is invalid (NaN, dead/hot pixel, saturated).
-    apparent_c : (M, N) ndarray
-        Apparent (blackbody-equivalent) temperature, °C, before correction.
     n_dead : int
         Isolated dead/hot pixels detected and masked.
     n_nan : int
@@ -403,7 +402,6 @@ class ThermalFrame:
     path: str
     temperature_c: np.ndarray
     mask: np.ndarray
-    apparent_c: np.ndarray
     n_dead: int = 0
     n_nan: int = 0
     warnings: tuple[str, ...] = ()

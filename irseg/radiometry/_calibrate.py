@@ -8,7 +8,7 @@ from .._defaults import resolve_reflected_c
 from ..errors import CalibrationError, ConfigError, InputError
 from ..metadata import BAND_LIMITS_UM, SURFACE_C, SURFACE_REASON
 from ..types import RawFrame, SurveyMeta, ThermalFrame
-from ._dead_pixels import _DEAD_FLOOR_K, fill_masked, mask_dead_pixels
+from ._dead_pixels import _DEAD_FLOOR_K, _rad_blocks, fill_masked, mask_dead_pixels
 from ._planck import _K0, _rad_check_method
 from ._radiance import apparent_to_object, object_to_apparent
 
@@ -42,46 +42,59 @@ def _rad_encoding(meta: SurveyMeta, scaled: bool) -> str:
     return text
 
 
-def _rad_to_celsius(raw: RawFrame, meta: SurveyMeta, warnings: list[str]) -> tuple[np.ndarray, np.ndarray]:
-    """Stored values to °C (scale/offset for integer images, then units) and the implausible pixels.
+def _rad_values(stored: np.ndarray, meta: SurveyMeta) -> np.ndarray:
+    """Stored values (a block, or a few pixels) as float64 °C: scale/offset for integers, then units."""
+    cam = meta.camera
+    with np.errstate(over="ignore", invalid="ignore"):
+        values = stored.astype(np.float64)
+        if stored.dtype.kind in "iub":
+            values = values * cam.scale + cam.offset
+        if cam.units == "kelvin":
+            values -= _K0
+    return values
 
-    Finite pixels outside :data:`SURFACE_C` are returned as a mask (to be masked as dead) when they
-    are at most :data:`IMPLAUSIBLE_SHARE` of the finite pixels; more is a CalibrationError naming
-    the units, scale and offset to check.
+
+def _rad_to_celsius(raw: RawFrame, meta: SurveyMeta,
+                    warnings: list[str]) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Stored values to °C (scale/offset for integer images, then units) and the masked pixels.
+
+    Returns the float32 frame in °C (NaN on non-finite and implausible pixels), the non-finite
+    pixels and the implausible ones: finite pixels outside :data:`SURFACE_C`, masked (as dead)
+    when they are at most :data:`IMPLAUSIBLE_SHARE` of the finite pixels; more is a
+    CalibrationError naming the units, scale and offset to check. Converted one block of rows at
+    a time in float64 and checked before rounding to float32 (micro-kelvin steps).
     """
     cam = meta.camera
     data = np.asarray(raw.data)
     name = raw.path
     if data.ndim != 2 or data.size == 0:
         raise InputError(f"{name}: image of shape {data.shape} is not a non-empty 2-D matrix")
-    with np.errstate(over="ignore", invalid="ignore"):
-        if data.dtype.kind in "iub":
-            values = data.astype(np.float64) * cam.scale + cam.offset
-            scaled = True
-        elif data.dtype.kind == "f":
-            values = data.astype(np.float64)
-            scaled = False
-            if cam.scale != 1.0 or cam.offset != 0.0:
-                warnings.append(
-                    f"[camera] scale/offset apply to integer images only; {name} stores floats, taken as {cam.units}"
-                )
-        else:
-            raise InputError(f"{name}: pixel type {data.dtype} is not a number")
-        if cam.units == "kelvin":
-            values = values - _K0
-    finite = np.isfinite(values)
-    n_finite = int(finite.sum())
+    if data.dtype.kind not in "iubf":
+        raise InputError(f"{name}: pixel type {data.dtype} is not a number")
+    scaled = data.dtype.kind in "iub"
+    if not scaled and (cam.scale != 1.0 or cam.offset != 0.0):
+        warnings.append(f"[camera] scale/offset apply to integer images only; {name} stores floats, taken as {cam.units}")
+    lo, hi = SURFACE_C
+    celsius = np.empty(data.shape, np.float32)
+    nonfinite = np.empty(data.shape, bool)
+    implausible = np.empty(data.shape, bool)
+    for rows in _rad_blocks(data.shape[0]):
+        values = _rad_values(data[rows], meta)
+        finite = np.isfinite(values)
+        with np.errstate(invalid="ignore"):
+            implausible[rows] = finite & ~((values >= lo) & (values <= hi))
+        nonfinite[rows] = ~finite
+        values[~finite | implausible[rows]] = np.nan
+        celsius[rows] = values
+    n_finite = data.size - int(nonfinite.sum())
     if n_finite == 0:
         raise InputError(f"{name}: no finite pixel (all NaN or infinite); the export is empty or corrupt")
-    lo, hi = SURFACE_C
-    with np.errstate(invalid="ignore"):
-        implausible = finite & ~((values >= lo) & (values <= hi))
     n_bad = int(implausible.sum())
     if n_bad == 0:
-        return values, implausible
-    shown = values[finite]
-    med = float(np.median(shown))
-    if n_bad > IMPLAUSIBLE_SHARE * n_finite:
+        return celsius, nonfinite, implausible
+    if n_bad > IMPLAUSIBLE_SHARE * n_finite:  # refused: the finite values in float64, as stored
+        shown = _rad_values(data, meta)[~nonfinite]
+        med = float(np.median(shown))
         p1, p99 = (float(v) for v in np.percentile(shown, [1.0, 99.0]))
         if cam.units == "celsius" and lo <= med - _K0 <= hi:
             hint = 'the values look like kelvin: set [camera] units = "kelvin"'
@@ -97,13 +110,15 @@ def _rad_to_celsius(raw: RawFrame, meta: SurveyMeta, warnings: list[str]) -> tup
             f"{p1:.6g}…{p99:.6g} °C with {_rad_encoding(meta, scaled)}; these cannot be surface "
             f"temperatures; {hint}"
         )
-    worst = float(values[implausible][np.argmax(np.abs(values[implausible] - med))])
+    bad = _rad_values(data[implausible], meta)
+    med = float(np.median(celsius[~(nonfinite | implausible)]))  # of the plausible pixels (99 % or more)
+    worst = float(bad[np.argmax(np.abs(bad - med))])
     warnings.append(
         f"{n_bad} pixel(s) read outside the plausible {lo:g}…{hi:g} °C (as far as {worst:.6g} °C) with "
         f"{_rad_encoding(meta, scaled)} and were masked as implausible; a hot or cold object in the frame "
         "(lamp, flue outlet) does this, otherwise check the units and the export"
     )
-    return values, implausible
+    return celsius, nonfinite, implausible
 
 
 def _rad_check_band(raw: RawFrame, meta: SurveyMeta) -> tuple[float, float]:
@@ -243,8 +258,10 @@ def calibrate(
     Returns
     -------
     ThermalFrame
-        ``temperature_c`` and ``apparent_c`` float64 (finite everywhere), ``mask``,
-        ``n_dead``, ``n_nan`` and ``warnings``.
+        ``temperature_c`` float32 (finite everywhere; micro-kelvin steps), ``mask``,
+        ``n_dead``, ``n_nan`` and ``warnings``. The per-pixel radiances are computed in
+        float64, one block of rows at a time, so the working memory stays a few bytes per
+        pixel above the image.
 
     Raises
     ------
@@ -263,11 +280,9 @@ def calibrate(
     warnings: list[str] = []
     cam, surf = meta.camera, meta.surface
     band = _rad_check_band(raw, meta)
-    stored_c, implausible = _rad_to_celsius(raw, meta, warnings)
-    nan_mask = ~np.isfinite(stored_c)
+    apparent, nan_mask, implausible = _rad_to_celsius(raw, meta, warnings)
     n_nan = int(nan_mask.sum())
-
-    apparent = np.where(nan_mask | implausible, np.nan, stored_c)
+    del nan_mask
     if cam.export_emissivity < 1.0:
         if cam.export_reflected_c is None:
             raise CalibrationError(
@@ -275,13 +290,15 @@ def calibrate(
                 "the reflected temperature the export applied; add it, or set export_emissivity = 1.0 "
                 "for apparent-temperature exports"
             )
-        apparent = object_to_apparent(
-            apparent, emissivity=cam.export_emissivity, reflected_c=cam.export_reflected_c,
-            band_um=band, method=method,
-        )
+        for rows in _rad_blocks(apparent.shape[0]):
+            apparent[rows] = object_to_apparent(
+                apparent[rows].astype(np.float64), emissivity=cam.export_emissivity,
+                reflected_c=cam.export_reflected_c, band_um=band, method=method,
+            )
     invalid = ~np.isfinite(apparent)
     dead = mask_dead_pixels(apparent, invalid=invalid, floor_k=max(_DEAD_FLOOR_K, 20.0 * cam.netd_k))
     n_dead = int(dead.sum()) + int(implausible.sum())
+    del implausible
 
     reflected, _ = resolve_reflected_c(meta)  # the value in force: load_metadata has resolved it already
     atmosphere = cam.atmosphere_c if cam.atmosphere_c is not None else _rad_side_air_c(meta)
@@ -295,13 +312,17 @@ def calibrate(
         )
 
     emissivity, reflected_in = _rad_maps(raw, surf.emissivity, reflected, emissivity_map, reflected_map, warnings)
-    mask = invalid | dead
-    work = np.where(mask, np.nan, apparent)
-    obj = apparent_to_object(
-        work, emissivity=emissivity, reflected_c=reflected_in, transmittance=cam.transmittance,
-        atmosphere_c=atmosphere, band_um=band, method=method,
-    )
-    obj = np.asarray(obj, dtype=np.float64)
+    mask = np.logical_or(invalid, dead, out=invalid)
+    del dead
+    obj = np.empty(apparent.shape, np.float32)
+    for rows in _rad_blocks(apparent.shape[0]):  # float64 radiances of one block at a time
+        work = apparent[rows].astype(np.float64)
+        work[mask[rows]] = np.nan
+        obj[rows] = apparent_to_object(
+            work, emissivity=_rad_rows(emissivity, rows), reflected_c=_rad_rows(reflected_in, rows),
+            transmittance=cam.transmittance, atmosphere_c=atmosphere, band_um=band, method=method,
+        )
+    del apparent, work
     unphysical = ~mask & ~np.isfinite(obj)
     if unphysical.any():
         warnings.append(
@@ -309,6 +330,7 @@ def calibrate(
             f"(emissivity {surf.emissivity:g}, reflected {reflected:g} °C) and were masked; check both values"
         )
         mask = mask | unphysical
+    del unphysical
     if mask.all():
         raise CalibrationError(
             f"{raw.path}: no pixel gives a physical surface temperature with emissivity {surf.emissivity:g} "
@@ -318,14 +340,16 @@ def calibrate(
     air_warning = _rad_air_warning(meta, obj, mask, reflected)
     if air_warning is not None:
         warnings.append(air_warning)
-    temperature_c = fill_masked(obj, mask)
-    apparent_c = fill_masked(apparent, mask)
     return ThermalFrame(
         path=raw.path,
-        temperature_c=temperature_c,
+        temperature_c=fill_masked(obj, mask),
         mask=mask,
-        apparent_c=apparent_c,
         n_dead=n_dead,
         n_nan=n_nan,
         warnings=tuple(warnings),
     )
+
+
+def _rad_rows(value, rows: slice):
+    """A scalar setting as it is, a per-pixel map's rows ``rows``."""
+    return value if np.ndim(value) == 0 else value[rows]

@@ -135,7 +135,7 @@ def test_material_maps_hold_the_surface_values_outside_and_the_zones_inside():
 def test_exclusion_masks_fills_and_keeps_what_the_camera_saw():
     t = np.full((10, 12), 20.0)
     t[2:5, 2:5] = 5.0  # a cold window
-    frame = ThermalFrame("x.npy", t, np.zeros(t.shape, bool), t)
+    frame = ThermalFrame("x.npy", t, np.zeros(t.shape, bool))
     layer = zone_layer((Zone("window", "exclude", box=(2, 2, 5, 5)),), t.shape)
     layer, excluded = layer.exclude(frame)
     assert excluded.mask[2:5, 2:5].all() and excluded.mask.sum() == 9

@@ -203,7 +203,8 @@ def test_calibrate_celsius_float(rng):
     # measurement equation, Planck 7.5-14 um (CODATA 2018): 15.359 apparent -> 15.000 °C with eps 0.93,
     # refl 20 [C]
     assert np.median(f.temperature_c) == pytest.approx(15.0, abs=0.01)
-    np.testing.assert_allclose(f.apparent_c, app, atol=1e-5)
+    # the correction inverts the measurement equation: forward again, the reading comes back [C]
+    np.testing.assert_allclose(object_to_apparent(f.temperature_c, emissivity=0.93, reflected_c=20.0), app, atol=1e-5)
     assert f.n_dead == 0 and f.n_nan == 0 and not f.mask.any()
 
 
@@ -229,7 +230,6 @@ def test_integer_scale_offset():
     raw = np.round((t_c + 273.15) / 0.01).astype(np.uint16)
     meta = SurveyMeta(camera=Camera(scale=0.01, offset=-273.15), surface=Surface(emissivity=1.0))
     f = calibrate(_frame(raw), meta)
-    np.testing.assert_allclose(f.apparent_c, t_c, atol=0.006)
     np.testing.assert_allclose(f.temperature_c, t_c, atol=0.006)  # eps 1: object = apparent
 
 
@@ -247,7 +247,7 @@ def test_scale_ignored_for_float_with_warning():
 
 def test_undo_export_emissivity():
     # camera exported object temperature with eps 0.95 and refl 18 °C; re-processing with the same
-    # values must give the same temperatures back, and apparent_c must be the eps=1 reading
+    # values must give the same temperatures back, and with emissivity 1 the eps=1 reading itself
     true_c = np.linspace(5.0, 25.0, 64).reshape(8, 8)
     meta = SurveyMeta(
         camera=Camera(export_emissivity=0.95, export_reflected_c=18.0),
@@ -255,7 +255,9 @@ def test_undo_export_emissivity():
     )
     f = calibrate(_frame(true_c), meta)
     np.testing.assert_allclose(f.temperature_c, true_c, atol=1e-3)
-    np.testing.assert_allclose(f.apparent_c, object_to_apparent(true_c, emissivity=0.95, reflected_c=18.0), atol=1e-6)
+    as_read = calibrate(_frame(true_c), SurveyMeta(camera=meta.camera, surface=Surface(emissivity=1.0, reflected_c=18.0)))
+    np.testing.assert_allclose(as_read.temperature_c, object_to_apparent(true_c, emissivity=0.95, reflected_c=18.0),
+                               atol=2e-5)
 
 
 def test_export_emissivity_needs_reflected():
@@ -310,8 +312,9 @@ def test_nan_pixels_masked_and_filled(rng):
     f = calibrate(_frame(img), _meta())
     assert f.n_nan == 7
     assert f.mask[3, 4] and f.mask[10:12, 10:13].all()
-    assert np.isfinite(f.temperature_c).all() and np.isfinite(f.apparent_c).all()
-    assert abs(f.apparent_c[3, 4] - 20.0) < 0.3
+    assert np.isfinite(f.temperature_c).all()
+    # an apparent 20 °C under reflected 20 °C is a 20 °C surface whatever the emissivity [C]
+    assert abs(f.temperature_c[3, 4] - 20.0) < 0.3
 
 
 def test_all_nan_is_input_error():
@@ -345,7 +348,7 @@ def test_dead_pixels_found_and_real_features_kept(rng):
     assert f.n_dead == 5
     assert not f.mask[25:27, 30:32].any() and not f.mask[5:15, 5:20].any() and not f.mask[33].any()
     # filled with the local median: close to the background, not to the dead value
-    assert abs(f.apparent_c[20, 40] - 20.0) < 0.3
+    assert abs(f.temperature_c[20, 40] - 20.0) < 0.3
 
 
 def test_fill_masked_local_median():

@@ -55,7 +55,7 @@ def make_anomaly(aid: int, cause: str, labels: np.ndarray) -> Anomaly:
 def thermal_frame(path: str, t: np.ndarray, mask: np.ndarray, meta: SurveyMeta) -> ThermalFrame:
     """A ThermalFrame; ``meta`` goes in only while the type still has that field (issue 10 drops it)."""
     extra = {"meta": meta} if "meta" in {f.name for f in fields(ThermalFrame)} else {}
-    return ThermalFrame(path=path, temperature_c=t, mask=mask, apparent_c=t, **extra)
+    return ThermalFrame(path=path, temperature_c=t, mask=mask, **extra)
 
 
 def make_analysis(labels: np.ndarray, anomalies=(), pixel_m=None) -> Analysis:

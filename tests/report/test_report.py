@@ -52,7 +52,7 @@ def overlay_png(seed: int, name: str) -> tuple[bytes, tuple[int, ...]]:
     meta = SurveyMeta(surface=Surface(view="interior"), air=Air(inside_c=21.0, outside_c=1.0))
     # ThermalFrame loses its meta field in issue 10 (the overlay takes the metadata as an argument)
     extra = {"meta": meta} if "meta" in {f.name for f in fields(ThermalFrame)} else {}
-    frame = ThermalFrame(path=name, temperature_c=t, mask=np.zeros(t.shape, bool), apparent_c=t, **extra)
+    frame = ThermalFrame(path=name, temperature_c=t, mask=np.zeros(t.shape, bool), **extra)
     anomaly = SimpleNamespace(
         anomaly=1, cause="missing_insulation", centroid_row=6.5, centroid_col=8.0,
         bbox_row0=4, bbox_col0=5, bbox_row1=10, bbox_col1=12,

@@ -81,4 +81,4 @@ def make_frame(t: np.ndarray, mask: np.ndarray | None = None) -> ThermalFrame:
         # while ThermalFrame still has a meta field it holds None here, so any analysis code
         # that read its settings from the frame instead of its meta argument would fail
         extra["meta"] = None
-    return ThermalFrame(path="synthetic.npy", temperature_c=t, mask=mask, apparent_c=t, **extra)
+    return ThermalFrame(path="synthetic.npy", temperature_c=t, mask=mask, **extra)
