@@ -73,10 +73,10 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     EN 13187 and ASTM C1060 (conditions and signatures), ASTM C1153 (roofs).
     """
     cam, surf, air, an = meta.camera, meta.surface, meta.air, meta.analysis
-    t = np.asarray(frame.temperature_c, dtype=float)
+    t = _float_field(frame.temperature_c)  # float32 stays float32: no float64 copy of the frame (issue 15)
     shape = t.shape
-    labels = np.array(seg.labels, dtype=np.int32, copy=True)
-    u = np.asarray(getattr(seg, "u", t), dtype=float)
+    labels = np.asarray(seg.labels, dtype=np.int32)  # copied below only when it must change
+    u = _float_field(getattr(seg, "u", t))
     edges = np.asarray(getattr(seg, "edges", np.zeros(shape, bool)), dtype=bool)
     mask = np.asarray(frame.mask, dtype=bool)
     for name, arr in (("labels", labels), ("u", u), ("edges", edges), ("mask", mask)):
@@ -87,7 +87,11 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
             )
     heat_flow = resolve_heat_flow(surf.view, surf.heat_flow)
     reflected_c, reflected_reason = resolve_reflected_c(meta)
-    labels[mask | (labels < 0)] = 0
+    clear = mask | (labels < 0)
+    if labels[clear].any():  # a segmentation's own labels are 0 there already
+        labels = labels.copy()
+        labels[clear] = 0
+    del clear
     valid = labels > 0
     usable = valid & ~edges
 
@@ -106,7 +110,7 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     thr = significance_threshold_k(noise_k=noise, netd_k=cam.netd_k, min_step_k=min_step, min_contrast_k=an.min_contrast_k)
 
     n = int(labels.max()) if labels.size else 0
-    reference = np.full(shape, np.nan)
+    reference = np.full(shape, np.nan, dtype=t.dtype)
     if n == 0 or not valid.any():
         return Analysis((), np.zeros(shape, np.int32), pixel_m, px_area, None, reference, warn)
 
@@ -150,6 +154,7 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
         labels=labels, t=t, u=u, allowed=allowed, sound=sound, areas=areas, means_u=means_u, slices=slices,
         noise_k=noise, threshold_k=thr, trend=last_resort,
     )
+    del usable, allowed, sound_px  # frame-sized masks not needed any more (memory, issue 15)
     # a segmented candidate is confirmed by significant contrast of its own sign over most of it
     accepted = [c for c in accepted if share[-1 if c.delta_k < 0 else 1][c.label] >= OWN_FRACTION]
     accepted, host_of = group_fragments(accepted, labels=labels, min_step_k=min_step)
@@ -184,6 +189,12 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
         for i, unit in enumerate(group_units(measured, host_of=host_of, sets=sets, lines=lines), start=1)
     ]
     return Analysis(rank_by_severity(drafts), out_labels, pixel_m, px_area, h, reference, warn)
+
+
+def _float_field(values) -> np.ndarray:
+    """A frame-sized field as float32 or float64 as given (no copy), other types as float64."""
+    arr = np.asarray(values)
+    return arr if arr.dtype in (np.float32, np.float64) else arr.astype(np.float64)
 
 
 def _framing(measured: list, pixel_m: float | None) -> tuple[dict, dict]:

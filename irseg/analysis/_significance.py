@@ -118,6 +118,7 @@ _SQUARE = ndimage.generate_binary_structure(2, 2)
 MIN_AREA_M2 = 0.0025  # 50 × 50 mm: a fixing or a tie is the smallest thing worth reporting
 MIN_AREA_FRACTION = 1e-3  # without geometry: 0.1 % of the frame
 SOUND_LENGTH_M = 0.2
+_BAND_PX = 256  # rows per band when frame-sized block sums are formed
 WORK_MAX_SIDE_PX = 800  # larger frames are detected on block means (the lengths are physical)
 LINE_WIDTH_M = 0.12  # members (studs, joists) up to 100 mm wide, blurred: never a ridge joining two defects
 LINE_WIDTH_FRACTION = 0.05  # without geometry: of the frame's long side
@@ -198,15 +199,18 @@ def detect_regions(
     sound_surface : (M, N) float ndarray
     info : DetectionInfo
     """
-    t = np.asarray(temperature_c, dtype=float)
+    t = np.asarray(temperature_c)
+    if t.dtype != np.float32:
+        t = t.astype(float, copy=False)
     m, n = t.shape
     invalid = np.zeros((m, n), bool) if mask is None else np.asarray(mask, bool)
     valid = ~invalid & np.isfinite(t)
     f = int(math.ceil(max(m, n) / WORK_MAX_SIDE_PX))
-    if f > 1:
+    if f > 1:  # a float32 frame is summed into block means in float64, a band of rows at a time
         return _on_reduced(t, valid, f, noise_k=noise_k, pixel_m=pixel_m, min_area_m2=min_area_m2,
                            sound_length_m=sound_length_m, min_contrast_k=min_contrast_k, k_hi=k_hi, k_lo=k_lo,
                            extent_fraction=extent_fraction, split_plateaus=split_plateaus)
+    t = t.astype(float, copy=False)
     t = np.where(valid, t, np.nanmedian(t[valid]) if valid.any() else 0.0)
     if pixel_m is not None and pixel_m > 0:
         line_px = LINE_WIDTH_M / pixel_m
@@ -296,12 +300,18 @@ def _on_reduced(t: np.ndarray, valid: np.ndarray, f: int, *, noise_k: float | No
     """
     m, n = t.shape
     mb, nb = -(-m // f), -(-n // f)
-    tv = np.zeros((mb * f, nb * f))
-    vv = np.zeros((mb * f, nb * f))
-    tv[:m, :n] = np.where(valid, t, 0.0)
-    vv[:m, :n] = valid
-    cnt = vv.reshape(mb, f, nb, f).sum(axis=(1, 3))
-    small = tv.reshape(mb, f, nb, f).sum(axis=(1, 3)) / np.maximum(cnt, 1.0)
+    cnt, sums = np.zeros((mb, nb)), np.zeros((mb, nb))
+    band = max(1, _BAND_PX // f)  # block rows per band: float64 temporaries of one band only (issue 15)
+    for b0 in range(0, mb, band):
+        r0, r1 = b0 * f, min(m, (b0 + band) * f)
+        k = -(-(r1 - r0) // f)
+        tv = np.zeros((k * f, nb * f))
+        vv = np.zeros((k * f, nb * f))
+        tv[: r1 - r0, :n] = np.where(valid[r0:r1], t[r0:r1], 0.0)
+        vv[: r1 - r0, :n] = valid[r0:r1]
+        cnt[b0 : b0 + k] = vv.reshape(k, f, nb, f).sum(axis=(1, 3))
+        sums[b0 : b0 + k] = tv.reshape(k, f, nb, f).sum(axis=(1, 3))
+    small = sums / np.maximum(cnt, 1.0)
     small_invalid = cnt < 0.5 * f * f
     labels, surface, info = detect_regions(
         small, small_invalid, noise_k=None if noise_k is None else float(noise_k) / f,
@@ -318,9 +328,9 @@ def _on_reduced(t: np.ndarray, valid: np.ndarray, f: int, *, noise_k: float | No
     info = replace(
         info, noise_k=info.noise_k * f, min_area_px=max(9, info.min_area_px * f * f),
         sound_length_px=info.sound_length_px * f, scales_px=tuple(s * f for s in info.scales_px), regions=regions,
-        components=up(info.components), members_k=up(info.members_k),
+        components=up(info.components), members_k=up(info.members_k.astype(np.float32)),
     )
-    return big, surf.astype(float), info
+    return big, surf, info  # float32 fields of the frame's size
 
 
 def _grown(zs, sign, k_hi, k_lo, valid) -> tuple[np.ndarray, np.ndarray]:

@@ -249,7 +249,9 @@ def join_detections(
     out = [m for k, ms in units.items() if k not in dropped for m in ms]
     new_host = {f: h for f, h in host_of.items() if h not in dropped}
     nearest = _Nearest(det_labels, info.components)
-    with_members = surface_c + info.members_k  # a member crossing a detected anomaly is part of its sound state
+    # a member crossing a detected anomaly is part of its sound state (summed in place: the members'
+    # field is not needed apart any more, and a frame-sized sum is memory, issue 15)
+    with_members = np.add(surface_c, info.members_k, out=info.members_k)
     multi = {c for c, n in zip(*np.unique([regions[lab].component for lab in extents], return_counts=True)) if n > 1} \
         if extents else set()
     for i, (lab, idx) in enumerate(sorted(extents.items())):

@@ -12,6 +12,7 @@ max_pixels setting") to these flags; :func:`irseg.cli.main.describe` rewrites me
 
 from __future__ import annotations
 
+import math
 import tomllib
 from collections.abc import Callable
 from pathlib import Path
@@ -206,6 +207,20 @@ def cmap_option() -> Callable[[Any], Any]:
                         help="Colour map of the overlays (inferno, magma, plasma, viridis, cividis, turbo, gray).")
 
 
+def _check_range_c(ctx: click.Context, param: click.Parameter, value: str) -> str:
+    """``--range-c`` checked as it is parsed: a bad value is a usage error (exit 2) before any work."""
+    text = value.strip().lower()
+    if text in ("auto", "survey"):
+        return text
+    try:
+        lo, hi = (float(v) for v in value.split(","))
+    except ValueError:
+        raise click.BadParameter(f"{value!r}: give auto, survey or two temperatures LO,HI in °C, e.g. 5,22") from None
+    if not (math.isfinite(lo) and math.isfinite(hi) and lo < hi):
+        raise click.BadParameter(f"{value!r}: LO must be below HI and both finite, in °C (e.g. 5,22)")
+    return value
+
+
 def overlay_options(func: Callable[..., Any]) -> Callable[..., Any]:
     """``--show-jumps``, ``--range-c auto|survey|LO,HI`` and ``--csv-dialect rfc4180|excel-eu``."""
     func = click.option("--csv-dialect", type=click.Choice(["rfc4180", "excel-eu"]), default="rfc4180",
@@ -213,6 +228,7 @@ def overlay_options(func: Callable[..., Any]) -> Callable[..., Any]:
                         help="anomalies.csv format: rfc4180 (',' and decimal points) or excel-eu "
                         "(';' and decimal commas, for spreadsheets set to such a locale).")(func)
     func = click.option("--range-c", metavar="auto|survey|LO,HI", default="auto", show_default=True,
+                        callback=_check_range_c,
                         help="Colour range of the overlays: each image's own (auto), one range for the whole "
                         "survey (survey), or fixed, in °C (e.g. 5,22).")(func)
     return click.option("--show-jumps", is_flag=True,

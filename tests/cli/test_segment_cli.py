@@ -207,3 +207,21 @@ def test_the_summary_line_gives_the_same_defect_figures_as_the_report(tmp_path):
     page = (tmp_path / "out" / "report.html").read_text(encoding="utf-8")
     assert re.search(rf"<strong>{defects['count']} probable defects</strong>", page)
     assert f"<strong>{watts}</strong>" in page
+
+
+@pytest.mark.parametrize("value", ["abc", "5", "5,abc", "1,2,3", "25,5", "5,5", "nan,5"])
+def test_a_bad_range_c_is_a_usage_error_before_any_work(tmp_path, value):
+    # issue 15: a malformed --range-c exited 1 (an error of the run) after the survey was set up;
+    # it is a usage error (exit 2, as click's own option checks) and nothing is written
+    make_survey(tmp_path / "s", 1)
+    result = _invoke(str(tmp_path / "s"), "-o", str(tmp_path / "out"), "-j", "1", f"--range-c={value}")
+    assert result.exit_code == 2, result.output
+    assert "--range-c" in result.stderr and "LO" in result.stderr
+    assert not (tmp_path / "out").exists()
+
+
+@pytest.mark.parametrize("value", ["auto", "Survey", "5,22", "-10.5,3"])
+def test_good_range_c_values_pass_the_usage_check(tmp_path, value):
+    make_survey(tmp_path / "s", 1)
+    result = _invoke(str(tmp_path / "s"), "-o", str(tmp_path / "out"), "-j", "1", "-q", f"--range-c={value}")
+    assert result.exit_code == 0, result.output
