@@ -30,11 +30,13 @@ import cv2
 import numpy as np
 
 from ._operators import (
+    PhaseWeights,
     Workspace,
     apply_screened_laplacian,
     apply_weighted_laplacian,
     gradient_sq,
     pcg,
+    phase_diagonal,
 )
 
 __all__ = ["LevelResult", "solve_level", "energy", "restrict", "prolong"]
@@ -117,9 +119,9 @@ def solve_level(
     ----------
     g : (M, N) float32 ndarray
         Data (finite everywhere; masked values are ignored through ``w``).
-    w : (M, N) float32 ndarray or None
-        Data weight in [0, 1]; 0 marks a pixel without data, where ``v`` is held at 1.
-        None: every pixel has weight 1 (saves two full-size arrays).
+    w : (M, N) float32 or bool ndarray, or None
+        Data weight in [0, 1] (bool: 0/1, a quarter of the memory); 0 marks a pixel without
+        data, where ``v`` is held at 1. None: every pixel has weight 1 (saves two full-size arrays).
     u, v : (M, N) float32 ndarray
         Starting fields, updated in place.
     alpha, beta, epsilon, eta : float
@@ -148,31 +150,29 @@ def solve_level(
         bw: np.ndarray | np.floating = np.float32(beta)
         free = None
     else:
-        bw = (beta * w).astype(dtype)
+        bw = np.multiply(w, np.float32(beta), dtype=dtype)  # = beta * w in float32, bool or float w alike
         free_v = w > 0
         v[~free_v] = 1.0
-        free = None if bool(free_v.all()) else free_v.astype(dtype)
+        # 1 on unknowns, 0 on fixed entries: a bool multiplies like 1.0/0.0 at a quarter of the memory
+        free = None if bool(free_v.all()) else free_v
         del free_v
 
     def rhs_u(out: np.ndarray) -> np.ndarray:  # beta w g, formed when a u-solve needs it
         return np.multiply(bw, g, out=out)
 
-    # The u-step needs the edge weights cx, cy; the v-step needs its diagonal (and the
-    # energy the squared gradient): they are never needed together, so they share memory.
-    # One inverse diagonal serves both steps in turn.
-    n_x, n_y = m * (n - 1), (m - 1) * n
-    weights = np.empty(max(n_x + n_y, m * n), dtype)
-    cx = weights[:n_x].reshape(m, n - 1)
-    cy = weights[n_x : n_x + n_y].reshape(m - 1, n)
-    diag_v = weights[: m * n].reshape(shape)
+    # The u-step's edge weights v**2 + eta are formed from v a block of rows at a time
+    # (PhaseWeights), never held whole; the v-step needs its diagonal (and the energy the
+    # squared gradient). One inverse diagonal serves both steps in turn.
+    diag_v = np.empty(shape, dtype)
     inv = np.empty(shape, dtype)
     v_old = np.empty(shape, dtype) if (not record_energy and v_tol > 0) else None
     k_pot = np.float32(alpha / (4.0 * epsilon))
     k_lap = np.float32(alpha * epsilon)
     eta32 = np.float32(eta)
+    edge_weights = PhaseWeights(v, eta32)
 
     def apply_u(x: np.ndarray, out: np.ndarray) -> np.ndarray:
-        return apply_weighted_laplacian(x, cx, cy, bw, out, ws)
+        return apply_weighted_laplacian(x, edge_weights, None, bw, out, ws)
 
     def apply_v(x: np.ndarray, out: np.ndarray) -> np.ndarray:
         return apply_screened_laplacian(x, float(k_lap), diag_v, out, ws)
@@ -185,18 +185,10 @@ def solve_level(
     while it < max_alternations:
         it += 1
         # u-step: weights from the current edge field
-        np.square(v[:, :-1], out=cx)
-        cx += eta32
-        np.square(v[:-1, :], out=cy)
-        cy += eta32
-        inv[...] = bw
-        inv[:, :-1] += cx
-        inv[:, 1:] += cx
-        inv[:-1, :] += cy
-        inv[1:, :] += cy
+        phase_diagonal(bw, edge_weights, inv, ws)
         np.reciprocal(inv, out=inv)
         n_u, _ = pcg(apply_u, rhs_u, u, inv, ws, rtol=cg_rtol, max_iter=cg_max_iter)
-        # v-step (cx, cy are dead: their memory now holds the v-system's diagonal)
+        # v-step
         gradient_sq(u, diag_v, ws)
         diag_v += k_pot
         # diagonal of alpha eps L: 4 alpha eps inside, one neighbour less per border side
@@ -257,6 +249,8 @@ def restrict(g: np.ndarray, w: np.ndarray | None) -> tuple[np.ndarray, np.ndarra
     if w is None:
         gm = (g[0::2, 0::2] + g[1::2, 0::2] + g[0::2, 1::2] + g[1::2, 1::2]) * np.float32(0.25)
         return gm.astype(g.dtype, copy=False), None
+    if w.dtype == bool:  # the finest grid's 0/1 weight: its sums need numbers
+        w = w.astype(g.dtype)
     gw = g * w
     sw = w[0::2, 0::2] + w[1::2, 0::2] + w[0::2, 1::2] + w[1::2, 1::2]
     sg = gw[0::2, 0::2] + gw[1::2, 0::2] + gw[0::2, 1::2] + gw[1::2, 1::2]

@@ -25,6 +25,8 @@ from scipy.linalg import blas
 
 __all__ = [
     "Workspace",
+    "PhaseWeights",
+    "phase_diagonal",
     "gradient_sq",
     "apply_weighted_laplacian",
     "apply_screened_laplacian",
@@ -52,6 +54,7 @@ class Workspace:
     dx: np.ndarray  # (rows, N-1) block scratch of horizontal differences
     dy: np.ndarray  # (rows, N) block scratch of vertical differences
     carry: np.ndarray  # (N,) the last vertical difference of the previous block
+    c: np.ndarray  # (rows, N) block scratch of edge weights formed from the phase field
 
     @property
     def op(self) -> np.ndarray:
@@ -70,6 +73,7 @@ class Workspace:
             dx=np.empty((rows, max(n - 1, 0)), dtype),
             dy=np.empty((rows, n), dtype),
             carry=np.empty(n, dtype),
+            c=np.empty((rows, n), dtype),
         )
 
 
@@ -80,6 +84,56 @@ def _blocks(m: int, rows: int):
 
 def _rows_of(c: np.ndarray | float, a: int, b: int) -> np.ndarray | float:
     return c[a:b] if isinstance(c, np.ndarray) and c.ndim == 2 else c
+
+
+@dataclass(frozen=True)
+class PhaseWeights:
+    """Edge weights ``c = v**2 + eta`` of the u-step, formed a block of rows at a time from ``v``.
+
+    The weight of a difference is ``c`` at the pixel owning it: ``cx = c[:, :-1]``,
+    ``cy = c[:-1, :]``. Formed on demand into a few rows of scratch instead of held as two
+    frame-sized arrays (memory, issue 15); the values are those of the whole-frame
+    ``np.square(v) + eta``, so results are bit-identical.
+    """
+
+    v: np.ndarray  # (M, N) phase field (fixed during a u-solve)
+    eta: np.floating  # small positive floor, in v's dtype
+
+    def rows(self, a: int, b: int, out: np.ndarray) -> np.ndarray:
+        """``c`` of rows ``a .. b-1`` written into ``out[: b - a]``."""
+        c = out[: b - a]
+        np.square(self.v[a:b], out=c)
+        c += self.eta
+        return c
+
+
+def phase_diagonal(diag: np.ndarray | float, weights: PhaseWeights, out: np.ndarray, ws: Workspace) -> np.ndarray:
+    """``out`` = the diagonal of ``diag + Dx^T cx Dx + Dy^T cy Dy`` with :class:`PhaseWeights`.
+
+    Bit-identical to ``out = diag; out[:, :-1] += cx; out[:, 1:] += cx; out[:-1] += cy;
+    out[1:] += cy`` (the same additions in the same order at every pixel), a block of rows
+    at a time.
+    """
+    m, n = out.shape
+    rows = ws.c.shape[0]
+    for a, b in _blocks(m, rows):
+        k = b - a
+        out[a:b] = _rows_of(diag, a, b)
+        c = weights.rows(a, b, ws.c)
+        if n > 1:
+            out[a:b, :-1] += c[:, :-1]
+            out[a:b, 1:] += c[:, :-1]
+        hi = min(b, m - 1)
+        if hi > a:
+            out[a:hi] += c[: hi - a]
+        if a > 0:  # the difference owned by the row above the block: its weight formed again
+            above = ws.carry
+            np.square(weights.v[a - 1], out=above)
+            above += weights.eta
+            out[a] += above
+        if k > 1:
+            out[a + 1 : b] += c[: k - 1]
+    return out
 
 
 def gradient_sq(u: np.ndarray, out: np.ndarray, ws: Workspace) -> np.ndarray:
@@ -108,8 +162,8 @@ def gradient_sq(u: np.ndarray, out: np.ndarray, ws: Workspace) -> np.ndarray:
 
 def apply_weighted_laplacian(
     x: np.ndarray,
-    cx: np.ndarray | float,
-    cy: np.ndarray | float,
+    cx: np.ndarray | float | PhaseWeights,
+    cy: np.ndarray | float | None,
     diag: np.ndarray | float,
     out: np.ndarray,
     ws: Workspace,
@@ -120,8 +174,9 @@ def apply_weighted_laplacian(
     ----------
     x : (M, N) ndarray
         Field to apply the operator to.
-    cx : (M, N-1) ndarray or float
-        Weights of the horizontal differences (>= 0).
+    cx : (M, N-1) ndarray, float or PhaseWeights
+        Weights of the horizontal differences (>= 0); :class:`PhaseWeights` gives both
+        ``cx`` and ``cy``, formed block by block (``cy`` is then ignored).
     cy : (M-1, N) ndarray or float
         Weights of the vertical differences (>= 0).
     diag : (M, N) ndarray or float
@@ -140,20 +195,25 @@ def apply_weighted_laplacian(
     carry = ws.carry
     for a, b in _blocks(m, rows):
         k = b - a
+        hi = min(b, m - 1)
+        if isinstance(cx, PhaseWeights):
+            c = cx.rows(a, b, ws.c)
+            cx_rows, cy_rows = c[:, :-1], c[: hi - a]
+        else:
+            cx_rows, cy_rows = _rows_of(cx, a, b), _rows_of(cy, a, hi)
         np.multiply(x[a:b], _rows_of(diag, a, b), out=out[a:b])
         if n > 1:
             dx = ws.dx[:k]
             np.subtract(x[a:b, 1:], x[a:b, :-1], out=dx)
-            dx *= _rows_of(cx, a, b)
+            dx *= cx_rows
             out[a:b, :-1] -= dx
             out[a:b, 1:] += dx
         # vertical: every pixel first loses its own difference, then gains the one above,
         # as in the whole-frame form; the block's last difference waits for the next block
-        hi = min(b, m - 1)
         if hi > a:
             dy = ws.dy[: hi - a]
             np.subtract(x[a + 1 : hi + 1], x[a:hi], out=dy)
-            dy *= _rows_of(cy, a, hi)
+            dy *= cy_rows
             out[a:hi] -= dy
         if a > 0:
             out[a] += carry

@@ -60,8 +60,10 @@ def _assign_unlabelled(u: np.ndarray, labels: np.ndarray, todo: np.ndarray, *, m
     lab_flat = labels.reshape(-1)
     sentinel = m * n  # index of an extra "no label" cell
     lab_ext = np.concatenate([lab_flat, np.zeros(1, lab_flat.dtype)])
-    u_flat = u.reshape(-1).astype(np.float64, copy=False)
-    ref_ext = np.zeros(m * n + 1)  # u on labelled pixels, 0 elsewhere (no frame-sized temporary)
+    u_flat = u.reshape(-1)
+    # u on labelled pixels, 0 elsewhere, in u's own dtype: it only ever holds copies of u's values,
+    # so float32 storage loses nothing and costs are still formed in float64 (memory, issue 15)
+    ref_ext = np.zeros(m * n + 1, u_flat.dtype if u_flat.dtype == np.float32 else np.float64)
     np.copyto(ref_ext[:-1], u_flat, where=lab_flat > 0)
     row, col = np.divmod(band, n)
     nb = np.stack(
@@ -72,7 +74,7 @@ def _assign_unlabelled(u: np.ndarray, labels: np.ndarray, todo: np.ndarray, *, m
             np.where(col < n - 1, band + 1, sentinel),
         ]
     )
-    uu = u_flat[band]
+    uu = u_flat[band].astype(np.float64)
 
     def best_of(nbs: np.ndarray, uvals: np.ndarray, exclude: np.ndarray | None):
         best_lab = np.zeros(uvals.size, lab_ext.dtype)
@@ -80,7 +82,7 @@ def _assign_unlabelled(u: np.ndarray, labels: np.ndarray, todo: np.ndarray, *, m
         best_cost = np.full(uvals.size, np.inf)
         for d in range(4):
             lab = lab_ext[nbs[d]]
-            ref = ref_ext[nbs[d]]
+            ref = ref_ext[nbs[d]].astype(np.float64)
             cost = np.abs(ref - uvals)
             ok = lab > 0 if exclude is None else (lab > 0) & (lab != exclude)
             better = ok & (cost < best_cost)

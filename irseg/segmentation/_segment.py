@@ -203,7 +203,7 @@ def segment(
         noise_estimated=noise_in is None,
         min_step_k=step,
         min_feature_px=feature,
-        value_range_k=robust_range(data.valid_values),
+        value_range_k=data.value_range_k,
         noise_correlation=correlation,
         levels=levels,
         max_num_iter=n_iter,
@@ -262,7 +262,7 @@ class _Data:
     g: np.ndarray  # (M, N) float32, temperature − ref
     mask: np.ndarray | None  # True on invalid pixels; None when no pixel is masked
     ref: float  # mean of the valid temperatures
-    valid_values: np.ndarray  # the valid temperatures, as given
+    value_range_k: float  # robust range of the valid temperatures (:func:`robust_range`)
     out_dtype: np.dtype  # float dtype of the returned fields
 
 
@@ -275,10 +275,12 @@ def _offset_data(arr: np.ndarray, m: np.ndarray | None) -> _Data:
         ref = float(np.mean(valid_vals, dtype=np.float64))
         # float32 relative to a representative value: 7 digits resolve mK on any scale
         g = np.subtract(np.where(m, ref, arr), ref, dtype=np.float32)
-        return _Data(_fill_masked(g, m), m, ref, valid_vals, out_dtype)
+        value_range = robust_range(valid_vals)
+        del valid_vals  # a frame-sized copy: not held through the solve (memory, issue 15)
+        return _Data(_fill_masked(g, m), m, ref, value_range, out_dtype)
     valid_vals = arr.ravel()
     ref = float(np.mean(valid_vals, dtype=np.float64))
-    return _Data(np.subtract(arr, ref, dtype=np.float32), None, ref, valid_vals, out_dtype)
+    return _Data(np.subtract(arr, ref, dtype=np.float32), None, ref, robust_range(valid_vals), out_dtype)
 
 
 def _solve_pyramid(
@@ -289,7 +291,7 @@ def _solve_pyramid(
     Each coarser grid halves the size (weights scaled by the grid spacing ``h``); the
     coarsest starts at 2ε then ε, every finer grid at ε, warm-started from the grid below.
     """
-    w = (~data.mask).astype(np.float32) if data.mask is not None else None
+    w = ~data.mask if data.mask is not None else None  # the finest grid's 0/1 data weight, as bool (1 B/px)
     pyramid = [(data.g, w)]
     for _ in range(levels - 1):
         pyramid.append(restrict(*pyramid[-1]))
