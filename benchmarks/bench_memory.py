@@ -2,12 +2,12 @@
 
 Usage::
 
-    python benchmarks/bench_memory.py [--sizes 480x640 3000x4000 6000x8000] [--stages]
+    python benchmarks/bench_memory.py [--sizes 480x640 3000x4000 6000x8000] [--stages] [--nan-px N]
 
 For each size, a synthetic float32 thermogram (a 20 °C interior wall with noise, a cold
-rectangle, a stud strip and a cold corner; invented data) is written as NPY with a
-survey.toml, and two processes are measured with ``/usr/bin/time -v`` (maximum resident set
-size):
+rectangle, a stud strip and a cold corner, and ``--nan-px`` scattered NaN pixels as a camera's
+dead pixels; invented data) is written as NPY with a survey.toml, and two processes are
+measured with ``/usr/bin/time -v`` (maximum resident set size):
 
 * **run**: ``python -m irseg segment DIR -o OUT -j 1 -q`` (``--max-pixels`` raised for
   frames above the default budget) — the whole pipeline in one
@@ -18,19 +18,21 @@ size):
   scikit-image) imported, and the image read; nothing computed.
 
 Printed per size: both maxima, ``(run - baseline) / pixels`` (the working memory of the
-computation per pixel, the figure issue 15 bounds) and ``run / pixels``, with the sizes of
-the overlay PNG and of report.html. ``--stages`` adds an in-process breakdown: the peak of
+computation per pixel, the figure issue 15 bounds) and ``run / pixels``, with the size of
+the overlay PNG (bytes and pixels) and of report.html (which embeds the overlay). ``--stages`` adds an in-process breakdown: the peak of
 traced allocations (``tracemalloc``, NumPy's buffers included) within each stage, above what
 was held when the stage started, in bytes per pixel.
 
 The default worker count (:func:`irseg.batch._pool.default_jobs`) plans with
-``PEAK_BYTES_PER_PIXEL``; update it from the ``run`` column when the stages change.
+``PEAK_BYTES_PER_PIXEL``; update it from the ``(run-base)/px`` column (plus the stored image,
+which the baseline holds) when the stages change.
 """
 
 from __future__ import annotations
 
 import argparse
 import re
+import struct
 import subprocess
 import sys
 import tempfile
@@ -58,8 +60,8 @@ _TIME = "/usr/bin/time"
 _MAXRSS = re.compile(r"Maximum resident set size \(kbytes\):\s*(\d+)")
 
 
-def make_frame(rows: int, cols: int, *, seed: int = 20261201) -> np.ndarray:
-    """A synthetic interior wall (float32 °C): features scale with the frame."""
+def make_frame(rows: int, cols: int, *, seed: int = 20261201, nan_px: int = 0) -> np.ndarray:
+    """A synthetic interior wall (float32 °C): features scale with the frame; ``nan_px`` dead pixels."""
     rng = np.random.default_rng(seed)
     yy = np.arange(rows, dtype=np.float32)[:, None] / rows
     xx = np.arange(cols, dtype=np.float32)[None, :] / cols
@@ -70,6 +72,8 @@ def make_frame(rows: int, cols: int, *, seed: int = 20261201) -> np.ndarray:
     s0 = int(0.47 * cols)
     wall[:, s0 : s0 + max(2, cols // 50)] -= 1.2  # stud
     wall[(yy + xx) < 0.19] -= 1.8  # cold corner
+    if nan_px:  # dead pixels: the masked paths of calibration and segmentation run too
+        wall[rng.integers(0, rows, nan_px), rng.integers(0, cols, nan_px)] = np.nan
     return wall
 
 
@@ -143,12 +147,13 @@ def main() -> None:
     parser.add_argument("--sizes", nargs="+", default=["480x640", "3000x4000"],
                         help="ROWSxCOLS frames (6000x8000 takes about a minute and 4 GB)")
     parser.add_argument("--stages", action="store_true", help="also print the per-stage breakdown")
+    parser.add_argument("--nan-px", type=int, default=200, help="NaN (dead) pixels scattered over the frame")
     args = parser.parse_args()
     if not Path(_TIME).exists():
         raise SystemExit(f"{_TIME} (GNU time) is needed for the maximum RSS")
 
     print(f"{'size':>11} {'pixels':>10} {'run MB':>8} {'baseline MB':>11} {'(run-base)/px':>13} "
-          f"{'run/px':>7} {'wall s':>7} {'overlay':>9} {'report':>9}")
+          f"{'run/px':>7} {'wall s':>7} {'overlay':>9} {'overlay px':>11} {'report':>9}")
     with tempfile.TemporaryDirectory(prefix="irseg-mem-") as tmp:
         for size in args.sizes:
             rows, cols = (int(v) for v in size.lower().split("x"))
@@ -156,17 +161,18 @@ def main() -> None:
             folder.mkdir()
             (folder / "survey.toml").write_text(SURVEY_TOML, encoding="utf-8")
             image = folder / "frame.npy"
-            np.save(image, make_frame(rows, cols))
+            np.save(image, make_frame(rows, cols, nan_px=args.nan_px))
             out = Path(tmp) / f"out_{rows}x{cols}"
             pixels = rows * cols
             base, _ = max_rss_bytes([sys.executable, "-c", _BASELINE, str(image), str(pixels)])
             run, wall = max_rss_bytes([sys.executable, "-m", "irseg", "segment", str(folder), "-o", str(out),
                                        "-j", "1", "-q", "--max-pixels", str(max(pixels, 40_000_000))])
-            overlay = (out / "frame" / "overlay.png").stat().st_size
+            png = (out / "frame" / "overlay.png").read_bytes()
+            width, height = struct.unpack(">II", png[16:24])  # the IHDR chunk
             report = (out / "report.html").stat().st_size
             print(f"{size:>11} {pixels:>10} {run / 2**20:>8.0f} {base / 2**20:>11.0f} "
                   f"{(run - base) / pixels:>11.1f} B {run / pixels:>5.0f} B {wall:>7.1f} "
-                  f"{overlay / 1e6:>7.2f}MB {report / 1e6:>7.2f}MB")
+                  f"{len(png) / 1e6:>7.2f}MB {width:>5}x{height:<5} {report / 1e6:>7.2f}MB")
             if args.stages:
                 for name, held, extra in stage_breakdown(image, pixels):
                     print(f"{'':>11}   {name:<10} held {held:5.1f} B/px, peak within the stage +{extra:5.1f} B/px")

@@ -200,12 +200,17 @@ def process_image(
     meta: SurveyMeta = _run_stage(
         "metadata", timings, caught, lambda: load_metadata(image, overrides=overrides)
     )
-    return _from_metadata(image, raw, meta, timings, caught)
+    handed = [raw]
+    del raw  # the read image is freed as soon as it is calibrated (memory, issue 15)
+    return _from_metadata(image, handed, meta, timings, caught)
 
 
-def _from_metadata(image: str, raw: RawFrame, meta: SurveyMeta, timings: dict[str, float],
+def _from_metadata(image: str, handed: list[RawFrame], meta: SurveyMeta, timings: dict[str, float],
                    caught: list[str]) -> ImageResult:
-    """The stages after read and metadata: zones, calibrate, segment, analyse (shared by both entries)."""
+    """The stages after read and metadata: zones, calibrate, segment, analyse (shared by both entries).
+
+    ``handed`` holds the read image; it is taken out, so that no reference outlives calibration.
+    """
     import numpy as np
 
     from .analysis import analyse
@@ -214,10 +219,12 @@ def _from_metadata(image: str, raw: RawFrame, meta: SurveyMeta, timings: dict[st
     from .repairs import confirm_points
     from .segmentation import segment
 
+    raw = handed.pop()
     zones = _run_stage("metadata", timings, caught, lambda: zone_layer(meta.zones, np.shape(raw.data), image=image))
     frame: ThermalFrame = _run_stage(
         "calibrate", timings, caught, lambda: calibrate(raw, meta, **material_maps(zones, meta))
     )
+    del raw
     if zones is not None:  # exclude zones: invalid pixels from here on (no anomaly, no reference, no edge)
         zones, frame = _run_stage("calibrate", timings, caught, lambda: zones.exclude(frame))
     flat = _flat_warning(frame, meta)
@@ -305,7 +312,7 @@ def process_array(
     if data.ndim != 2 or data.dtype.kind not in "fiu" or 0 in data.shape:
         raise InputError(f"{name}: temperature_c must be a non-empty 2-D (M, N) array of numbers in °C, "
                          f"got shape {data.shape} and dtype {data.dtype}")
-    raw = RawFrame(path=name, data=data.astype(np.float64, copy=False), format="array")
+    raw = RawFrame(path=name, data=data if data.dtype.kind == "f" else data.astype(np.float64), format="array")
     celsius = {"camera": {"units": "celsius", "scale": 1.0, "offset": 0.0}}
 
     def _meta() -> SurveyMeta:
@@ -319,7 +326,7 @@ def process_array(
                               sources=(f"{name} metadata",))
 
     result_meta = _run_stage("metadata", timings, caught, _meta)
-    return _from_metadata(name, raw, result_meta, timings, caught)
+    return _from_metadata(name, [raw], result_meta, timings, caught)
 
 
 def _flat_warning(frame: ThermalFrame, meta: SurveyMeta) -> str | None:

@@ -117,13 +117,12 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     # significant contrast against the local sound surface, at the scale of each defect
     floor_k = float(an.min_contrast_k) if an.min_contrast_k is not None else MIN_CONTRAST_K
     det_labels, surface_c, det = detect_regions(t, ~valid, noise_k=noise, pixel_m=pixel_m, min_contrast_k=floor_k)
-    flat = labels.ravel()
-    areas = np.bincount(flat, minlength=n + 1).astype(float)
+    areas = _region_sums(labels, None, n)
     per = np.maximum(areas, 1.0)
-    share = {sign: np.bincount(flat, weights=(np.sign(det.components) == sign).ravel(), minlength=n + 1) / per
+    share = {sign: _region_sums(labels, lambda rows, s=sign: np.sign(det.components[rows]) == s, n) / per
              for sign in (-1, 1)}
-    in_core = np.bincount(flat, weights=(det_labels > 0).ravel(), minlength=n + 1) / per
-    means_u = np.bincount(flat, weights=u.ravel(), minlength=n + 1) / per
+    in_core = _region_sums(labels, lambda rows: det_labels[rows] > 0, n) / per
+    means_u = _region_sums(labels, lambda rows: u[rows], n) / per
     slices = ndimage.find_objects(labels)
     sound, trend = find_sound_regions(
         u=u, labels=labels, usable=usable, areas=areas, means_u=means_u, threshold_k=thr, min_area_px=MIN_SPOT_PX,
@@ -189,6 +188,20 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
         for i, unit in enumerate(group_units(measured, host_of=host_of, sets=sets, lines=lines), start=1)
     ]
     return Analysis(rank_by_severity(drafts), out_labels, pixel_m, px_area, h, reference, warn)
+
+
+def _region_sums(labels: np.ndarray, weights, n: int) -> np.ndarray:
+    """Per-label sums of ``weights(rows)`` (pixel counts when None), float64, ``n + 1`` entries.
+
+    ``np.bincount`` over a band of rows at a time: no frame-sized int64 labels or float64
+    weights (each 8 B/px; memory, issue 15).
+    """
+    out = np.zeros(n + 1)
+    for r0 in range(0, labels.shape[0], _BLOCK_ROWS):
+        rows = slice(r0, r0 + _BLOCK_ROWS)
+        w = None if weights is None else np.ravel(weights(rows))
+        out += np.bincount(labels[rows].ravel(), weights=w, minlength=n + 1)
+    return out
 
 
 def _float_field(values) -> np.ndarray:

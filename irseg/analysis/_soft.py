@@ -198,7 +198,9 @@ def join_detections(
         units.setdefault(host_of.get(m.cand.label, m.cand.label), []).append(m)
     ext = {k: np.concatenate([_extent_index(m, n_cols) for m in ms]) for k, ms in units.items()}
     is_frame = {k: any(m.cand.label in framing for m in ms) for k, ms in units.items()}
-    d_area = np.bincount(dl, minlength=max(regions, default=0) + 1)
+    d_area = np.zeros(max(max(regions, default=0), int(dl.max(initial=0))) + 1, np.int64)
+    for i0 in range(0, dl.size, 1 << 20):  # by pieces: no frame-sized int64 copy of the labels (issue 15)
+        d_area += np.bincount(dl[i0 : i0 + (1 << 20)], minlength=d_area.size)
     core_of, tail_of, covers = _assign(units, ext, is_frame, det_labels=det_labels, components=info.components,
                                        d_area=d_area, u=u, surface_c=surface_c, pixel_m=pixel_m)
 
@@ -229,6 +231,7 @@ def join_detections(
             taken[idx] = True
     blocked = ndimage.binary_dilation(taken.reshape(shape), structure=np.ones((3, 3), bool))
     extents: dict[int, np.ndarray] = {}
+    mine = x = None
     for lab in soft:
         r = regions[lab]
         mine = det_labels == lab
@@ -240,7 +243,8 @@ def join_detections(
         strong = int((r.sign * (t.flat[idx] - surface_c.flat[idx]) >= 0.5 * abs(r.peak_k)).sum())
         if n_x >= need and strong >= MIN_SPOT_PX:
             extents[lab] = idx
-    final = taken.copy()
+    del blocked, mine, x  # frame-sized masks of the loop above (memory, issue 15)
+    final = taken  # taken is not needed apart any more
     for idx in extents.values():
         final[idx] = True
 
