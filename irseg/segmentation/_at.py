@@ -30,6 +30,7 @@ import cv2
 import numpy as np
 
 from ._operators import (
+    DataWeights,
     PhaseWeights,
     Workspace,
     apply_screened_laplacian,
@@ -37,6 +38,7 @@ from ._operators import (
     gradient_sq,
     pcg,
     phase_diagonal,
+    times_data_weights,
 )
 
 __all__ = ["LevelResult", "solve_level", "energy", "restrict", "prolong"]
@@ -147,10 +149,13 @@ def solve_level(
     m, n = shape
     ws = Workspace.for_shape(shape, dtype)
     if w is None:
-        bw: np.ndarray | np.floating = np.float32(beta)
+        bw: DataWeights | np.ndarray | np.floating = np.float32(beta)
         free = None
     else:
-        bw = np.multiply(w, np.float32(beta), dtype=dtype)  # = beta * w in float32, bool or float w alike
+        if w.dtype == bool:  # the finest grid: beta or 0, formed a block at a time where needed
+            bw = DataWeights(w, np.float32(beta))
+        else:
+            bw = np.multiply(w, np.float32(beta), dtype=dtype)
         free_v = w > 0
         v[~free_v] = 1.0
         # 1 on unknowns, 0 on fixed entries: a bool multiplies like 1.0/0.0 at a quarter of the memory
@@ -158,7 +163,7 @@ def solve_level(
         del free_v
 
     def rhs_u(out: np.ndarray) -> np.ndarray:  # beta w g, formed when a u-solve needs it
-        return np.multiply(bw, g, out=out)
+        return times_data_weights(bw, g, out, ws)
 
     # The u-step's edge weights v**2 + eta are formed from v a block of rows at a time
     # (PhaseWeights), never held whole; the v-step needs its diagonal (and the energy the
@@ -211,7 +216,7 @@ def solve_level(
             # the current u, formed again in the diagonal's memory (same values)
             np.subtract(u, g, out=scratch)
             np.square(scratch, out=scratch)
-            scratch *= bw
+            times_data_weights(bw, scratch, scratch, ws)
             data = _sum64(scratch)
             np.square(v, out=scratch)
             sum_v2 = _sum64(scratch)

@@ -26,7 +26,9 @@ from scipy.linalg import blas
 __all__ = [
     "Workspace",
     "PhaseWeights",
+    "DataWeights",
     "phase_diagonal",
+    "times_data_weights",
     "gradient_sq",
     "apply_weighted_laplacian",
     "apply_screened_laplacian",
@@ -55,6 +57,7 @@ class Workspace:
     dy: np.ndarray  # (rows, N) block scratch of vertical differences
     carry: np.ndarray  # (N,) the last vertical difference of the previous block
     c: np.ndarray  # (rows, N) block scratch of edge weights formed from the phase field
+    d: np.ndarray  # (rows, N) block scratch of data weights formed from a 0/1 data weight
 
     @property
     def op(self) -> np.ndarray:
@@ -74,6 +77,7 @@ class Workspace:
             dy=np.empty((rows, n), dtype),
             carry=np.empty(n, dtype),
             c=np.empty((rows, n), dtype),
+            d=np.empty((rows, n), dtype),
         )
 
 
@@ -82,8 +86,37 @@ def _blocks(m: int, rows: int):
         yield a, min(m, a + rows)
 
 
-def _rows_of(c: np.ndarray | float, a: int, b: int) -> np.ndarray | float:
+def _rows_of(c, a: int, b: int, scratch: np.ndarray | None = None) -> np.ndarray | float:
+    if isinstance(c, DataWeights):
+        return c.rows(a, b, scratch)
     return c[a:b] if isinstance(c, np.ndarray) and c.ndim == 2 else c
+
+
+@dataclass(frozen=True)
+class DataWeights:
+    """Data-term weights ``beta * w`` of a 0/1 data weight ``w`` (bool), formed a block of rows at a time.
+
+    Used on the finest grid, where a masked pixel has weight 0 and every other 1: the values
+    are those of the whole-frame ``np.multiply(w, beta)``, so results are bit-identical, and
+    the frame-sized float array is never held (memory, issue 15).
+    """
+
+    w: np.ndarray  # (M, N) bool
+    beta: np.floating  # the data weight, float32
+
+    def rows(self, a: int, b: int, out: np.ndarray) -> np.ndarray:
+        """``beta * w`` of rows ``a .. b-1`` written into ``out[: b - a]``."""
+        return np.multiply(self.w[a:b], self.beta, out=out[: b - a])
+
+
+def times_data_weights(weights: DataWeights | np.ndarray | float, x: np.ndarray, out: np.ndarray,
+                       ws: Workspace) -> np.ndarray:
+    """``out = weights * x`` (``out`` may be ``x``), a block of rows at a time for :class:`DataWeights`."""
+    if not isinstance(weights, DataWeights):
+        return np.multiply(weights, x, out=out)
+    for a, b in _blocks(x.shape[0], ws.d.shape[0]):
+        np.multiply(weights.rows(a, b, ws.d), x[a:b], out=out[a:b])
+    return out
 
 
 @dataclass(frozen=True)
@@ -118,7 +151,7 @@ def phase_diagonal(diag: np.ndarray | float, weights: PhaseWeights, out: np.ndar
     rows = ws.c.shape[0]
     for a, b in _blocks(m, rows):
         k = b - a
-        out[a:b] = _rows_of(diag, a, b)
+        out[a:b] = _rows_of(diag, a, b, ws.d)
         c = weights.rows(a, b, ws.c)
         if n > 1:
             out[a:b, :-1] += c[:, :-1]
@@ -179,7 +212,7 @@ def apply_weighted_laplacian(
         ``cx`` and ``cy``, formed block by block (``cy`` is then ignored).
     cy : (M-1, N) ndarray or float
         Weights of the vertical differences (>= 0).
-    diag : (M, N) ndarray or float
+    diag : (M, N) ndarray, float or DataWeights
         Diagonal (zeroth-order) term.
     out : (M, N) ndarray
         Result buffer (must not alias ``x``).
@@ -201,7 +234,7 @@ def apply_weighted_laplacian(
             cx_rows, cy_rows = c[:, :-1], c[: hi - a]
         else:
             cx_rows, cy_rows = _rows_of(cx, a, b), _rows_of(cy, a, hi)
-        np.multiply(x[a:b], _rows_of(diag, a, b), out=out[a:b])
+        np.multiply(x[a:b], _rows_of(diag, a, b, ws.d), out=out[a:b])
         if n > 1:
             dx = ws.dx[:k]
             np.subtract(x[a:b, 1:], x[a:b, :-1], out=dx)

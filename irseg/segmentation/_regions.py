@@ -123,17 +123,23 @@ def _assign_unlabelled(u: np.ndarray, labels: np.ndarray, todo: np.ndarray, *, m
 
 
 def _adjacent_pairs(labels: np.ndarray, involved: np.ndarray) -> np.ndarray:
-    """Unique unordered pairs (a, b), a < b, of distinct positive 4-adjacent labels, one of them ``involved``."""
-    a = np.concatenate([labels[:, :-1].ravel(), labels[:-1, :].ravel()])
-    b = np.concatenate([labels[:, 1:].ravel(), labels[1:, :].ravel()])
-    keep = (a != b) & (a > 0) & (b > 0) & (involved[a] | involved[b])
-    a, b = a[keep], b[keep]
-    lo = np.minimum(a, b).astype(np.int64)
-    hi = np.maximum(a, b).astype(np.int64)
-    if lo.size == 0:
-        return np.empty((0, 2), dtype=np.int64)
-    key = np.unique(lo * (int(labels.max()) + 1) + hi)
+    """Unique unordered pairs (a, b), a < b, of distinct positive 4-adjacent labels, one of them ``involved``.
+
+    Gathered a block of rows at a time (no frame-sized pair arrays; memory, issue 15).
+    """
+    m = labels.shape[0]
     base = int(labels.max()) + 1
+    keys = []
+    for r0 in range(0, m, _BLOCK_ROWS):
+        r1, hi_row = min(m, r0 + _BLOCK_ROWS), min(m - 1, r0 + _BLOCK_ROWS)
+        a = np.concatenate([labels[r0:r1, :-1].ravel(), labels[r0:hi_row, :].ravel()])
+        b = np.concatenate([labels[r0:r1, 1:].ravel(), labels[r0 + 1 : hi_row + 1, :].ravel()])
+        keep = (a != b) & (a > 0) & (b > 0) & (involved[a] | involved[b])
+        a, b = a[keep], b[keep]
+        keys.append(np.unique(np.minimum(a, b).astype(np.int64) * base + np.maximum(a, b).astype(np.int64)))
+    key = np.unique(np.concatenate(keys)) if keys else np.empty(0, np.int64)
+    if key.size == 0:
+        return np.empty((0, 2), dtype=np.int64)
     return np.stack([key // base, key % base], axis=1)
 
 
