@@ -320,7 +320,7 @@ def _on_reduced(t: np.ndarray, valid: np.ndarray, f: int, *, noise_k: float | No
     def up(a: np.ndarray) -> np.ndarray:
         return np.repeat(np.repeat(a, f, axis=0), f, axis=1)[:m, :n]
 
-    big = up(labels)
+    big = up(_narrow(labels))
     big[~valid] = 0
     areas = np.bincount(big.ravel(), minlength=len(info.regions) + 1)
     surf = cv2.resize(surface.astype(np.float32), (nb * f, mb * f), interpolation=cv2.INTER_LINEAR)[:m, :n]
@@ -328,9 +328,14 @@ def _on_reduced(t: np.ndarray, valid: np.ndarray, f: int, *, noise_k: float | No
     info = replace(
         info, noise_k=info.noise_k * f, min_area_px=max(9, info.min_area_px * f * f),
         sound_length_px=info.sound_length_px * f, scales_px=tuple(s * f for s in info.scales_px), regions=regions,
-        components=up(info.components), members_k=up(info.members_k.astype(np.float32)),
+        components=up(_narrow(info.components)), members_k=up(info.members_k.astype(np.float32)),
     )
     return big, surf, info  # float32 fields of the frame's size
+
+
+def _narrow(a: np.ndarray) -> np.ndarray:
+    """Integer labels as int16 when every value fits: half the memory of their frame-sized copy (issue 15)."""
+    return a.astype(np.int16) if a.size == 0 or int(np.abs(a).max()) < 2**15 else a
 
 
 def _grown(zs, sign, k_hi, k_lo, valid) -> tuple[np.ndarray, np.ndarray]:

@@ -68,11 +68,17 @@ class _Nearest:
     def labels(self) -> np.ndarray:
         if self._map is None:
             det = self._det
-            if det.any():
-                _, (ir, ic) = ndimage.distance_transform_edt(det == 0, return_indices=True)
-                near = det[ir, ic]
-                same = self._comp == self._comp[ir, ic]
-                self._map = np.where(same & (self._comp != 0), near, 0).ravel()
+            if det.any():  # indices only, the map formed by bands (memory, issue 15)
+                ir, ic = ndimage.distance_transform_edt(det == 0, return_distances=False, return_indices=True)
+                comp = self._comp
+                out = np.zeros(det.shape, det.dtype)
+                for r0 in range(0, det.shape[0], 256):
+                    rows = slice(r0, r0 + 256)
+                    near_r, near_c = ir[rows], ic[rows]
+                    same = (comp[rows] == comp[near_r, near_c]) & (comp[rows] != 0)
+                    np.copyto(out[rows], det[near_r, near_c], where=same)
+                del ir, ic
+                self._map = out.ravel()
             else:
                 self._map = np.zeros(det.size, np.int32)
         return self._map
