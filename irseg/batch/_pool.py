@@ -47,9 +47,10 @@ _PRELOAD = ["irseg.pipeline", "irseg.io", "irseg.metadata", "irseg.radiometry", 
 
 #: Peak memory of one image in a worker, bytes per pixel of the image, above the worker's
 #: own start-up memory: measured with ``benchmarks/bench_memory.py`` (maximum RSS of a
-#: 4000 x 3000 and a 8000 x 6000 run minus an import-and-read baseline, rounded up). The
-#: calibration stage sets it today.
-PEAK_BYTES_PER_PIXEL = 80
+#: 4000 x 3000 and a 8000 x 6000 run minus an import-and-read baseline: 51.5 and 50.2 B/px,
+#: issue 15), plus the stored image, which that baseline holds (up to 8 B/px, float64 NPY),
+#: rounded up. The analysis stage sets it today.
+PEAK_BYTES_PER_PIXEL = 60
 #: Memory of a worker before its first image (interpreter, NumPy, SciPy, OpenCV), bytes.
 WORKER_BASE_BYTES = 160 * 2**20
 #: Share of the available memory the default worker count may plan to use.
