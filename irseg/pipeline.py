@@ -398,19 +398,8 @@ def render_result(result: ImageResult, *, cmap: str = "inferno", show_jumps: boo
 
 @dataclass(frozen=True)
 class PairResult:
-    """The pair analysis of a pressurised image (from :func:`process_pair`).
-
-    Attributes
-    ----------
-    reference : str
-        The reference image's file.
-    analysis : irseg.pairs.PairAnalysis
-        Registration, difference map and the leaks (ids after the image's own anomalies).
-    timings : dict of str to float
-        Seconds spent (``pair``).
-    warnings : tuple of str
-        Messages of the irseg warnings raised while reading and correcting the reference.
-    """
+    """The pair analysis of a pressurised image (:func:`process_pair`): ``reference`` (its file),
+    ``analysis`` (:class:`irseg.pairs.PairAnalysis`), ``timings`` (``pair``) and ``warnings``."""
 
     reference: str
     analysis: Any
@@ -418,39 +407,21 @@ class PairResult:
     warnings: tuple[str, ...] = ()
 
 
-def process_pair(
-    pressed: ImageResult,
-    reference_path: str | Path,
-    *,
-    overrides: Mapping[str, Mapping[str, Any]] | None = None,
-    format: str | None = None,
-    max_pixels: int = DEFAULT_MAX_PIXELS,
-) -> PairResult:
-    """Compare a processed pressurised image with its reference at ambient pressure.
+def process_pair(pressed: ImageResult, reference_path: str | Path, *,
+                 overrides: Mapping[str, Mapping[str, Any]] | None = None, format: str | None = None,
+                 max_pixels: int = DEFAULT_MAX_PIXELS) -> PairResult:
+    """Compare a processed pressurised image (``pressed.meta.pressure`` names the pair) with its reference.
 
-    The reference is read, its own metadata loaded (its own sidecar geometry) and corrected as
-    in :func:`process_image`, then registered onto the pressurised image and compared
-    (:func:`irseg.pairs.analyse_pair`). Nothing here changes ``pressed``.
-
-    Parameters
-    ----------
-    pressed : ImageResult
-        The pressurised image, from :func:`process_image`; its ``meta.pressure`` names the pair.
-    reference_path : str or Path
-        The reference image's file.
-    overrides, format, max_pixels
-        As :func:`process_image` (applied to the reference too).
-
-    Returns
-    -------
-    PairResult
+    The reference is read, its own metadata loaded and corrected as in :func:`process_image`,
+    then registered onto the pressurised image and compared (:func:`irseg.pairs.analyse_pair`);
+    ``overrides``, ``format`` and ``max_pixels`` apply to it as there.
 
     Raises
     ------
     IrsegError
-        ``MetadataError`` for an unusable ``[pressure]`` section or a reference that is itself a
-        pressurised image; ``InputError`` for views that do not overlap or match; any error of
-        reading or correcting the reference. Every exception carries the stage ``"pair"``.
+        ``MetadataError``: an unusable ``[pressure]`` section, a reference that is itself
+        pressurised; ``InputError``: views that do not overlap or match; any error of reading or
+        correcting the reference. Every exception carries the stage ``"pair"``.
     """
     from .controls import material_maps, zone_layer
     from .errors import MetadataError
@@ -494,13 +465,7 @@ def process_pair(
 
 
 def render_pair(pressed: ImageResult, pair: PairResult) -> tuple[bytes, bytes]:
-    """``difference.png`` (RGB) and ``pair_labels.png`` (16-bit, pixel = pair anomaly id) of a pair.
-
-    Raises
-    ------
-    IrsegError
-        Rendering errors; tagged with stage ``"render"``.
-    """
+    """``difference.png`` (RGB) and ``pair_labels.png`` (16-bit, pixel = pair anomaly id); errors tagged ``render``."""
     from types import SimpleNamespace
 
     from .io import encode_png

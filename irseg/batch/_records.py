@@ -263,8 +263,13 @@ def _anomaly_from_result(image: str, row: Any, where: str) -> SurveyAnomaly:
     return SurveyAnomaly.from_json({**values, "image": image, "image_severity": row.get("severity")}, where=where)
 
 
+#: Fields of a leak found by a pair (irseg.pairs): in result.json only for such anomalies.
+_PAIR_ONLY = ("pressure_pa", "cooling_k", "cooling_max_k")
+
+
 def _anomaly_to_result(anomaly: SurveyAnomaly) -> dict[str, Any]:
-    row = {key: value for key, value in anomaly.to_json().items() if key not in _SURVEY_ONLY}
+    row = {key: value for key, value in anomaly.to_json().items()
+           if key not in _SURVEY_ONLY and not (key in _PAIR_ONLY and value is None)}
     row["severity"] = anomaly.image_severity
     return row
 

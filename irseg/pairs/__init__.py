@@ -13,7 +13,7 @@ in the heating season), or warmed (outside view).
 - :func:`remove_drift` (``_difference``): ΔT = pressurised − registered reference minus a
   robust plane (the sound surface's common drift);
 - :func:`detect_leaks` (``_detect``): significant extra cooling against the noise of both
-  images and the registration residual, one anomaly per leak, the half-peak extent rule.
+  images and the registration residual, one anomaly per leak, its extent at 30 % of its peak.
 
 A defect present in both images (missing insulation, a stud) cancels in ΔT: it is not leakage.
 """
@@ -23,14 +23,14 @@ from __future__ import annotations
 import numpy as np
 
 from ..types import ThermalFrame
-from ._detect import GROW_Z, HALF, MIN_PEAK_K, SEED_Z, detect_leaks
+from ._detect import EXTENT_FRACTION, GROW_Z, MIN_PEAK_K, SEED_Z, detect_leaks
 from ._difference import SMOOTH_PX, remove_drift, smooth_nan, smoothed_noise
 from ._register import MIN_CORRELATION, MIN_OVERLAP, register, warp_reference
 from ._types import PairAnalysis, PairAnomaly, Registration
 
 __all__ = [
     "analyse_pair", "register", "remove_drift", "detect_leaks", "warp_reference", "PairAnalysis", "PairAnomaly",
-    "Registration", "MIN_OVERLAP", "MIN_CORRELATION", "SEED_Z", "GROW_Z", "MIN_PEAK_K", "HALF", "SMOOTH_PX",
+    "Registration", "MIN_OVERLAP", "MIN_CORRELATION", "SEED_Z", "GROW_Z", "MIN_PEAK_K", "EXTENT_FRACTION", "SMOOTH_PX",
     "leak_sign",
 ]
 

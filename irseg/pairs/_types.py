@@ -28,8 +28,9 @@ class Registration:
     scale : float
         Size of the reference's pixels on the pressurised image (1.02: the second shot zoomed in 2 %).
     rms_px : float or None
-        Residual misregistration, pixels: root mean square of the shifts still found between
-        the registered images tile by tile (None when fewer than three tiles hold structure).
+        Residual misregistration, pixels: the shifts still found between the registered images
+        tile by tile, as a robust root mean square (square root of the median squared shift;
+        None when fewer than three tiles hold structure in two directions).
     overlap : float
         Fraction of the pressurised image's pixels that the reference covers, 0-1.
     correlation : float
@@ -68,7 +69,7 @@ class PairAnomaly:
     pattern : str
         ``"jet"`` (elongated: a stream spreading from its entry point) or ``"spot"``.
     area_px : int
-        Pixels of the extent (the half-peak rule, see :mod:`irseg.pairs._detect`).
+        Pixels of the extent (30 % of the peak, the rule of :mod:`irseg.pairs._detect`).
     area_m2 : float or None
         Area on the surface, m² (None without the shot's geometry).
     cooling_k, cooling_max_k : float

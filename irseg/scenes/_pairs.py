@@ -14,8 +14,8 @@ plaster texture. The reference shot samples it as it is; the pressurised shot sa
 
 Both shots get the camera's white noise (NETD). Every defect of the wall is in both shots.
 The truth of each leak is its **cooled footprint**: the pixels of the pressurised shot where
-the jet's own cooling holds at least half its peak (the half-maximum; the rule the analysis
-documents for a leak's extent). The true transform is the affine map from a pressurised pixel
+the jet's own cooling, as the lens sees it, holds at least 30 % of its peak (the rule the
+analysis documents for a leak's extent, :data:`irseg.pairs.EXTENT_FRACTION`). The true transform is the affine map from a pressurised pixel
 to the reference (what :class:`irseg.pairs.Registration` estimates).
 
 ``far=True`` makes a pair whose pressurised shot looks at another part of the house (no
@@ -30,12 +30,15 @@ from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
+from scipy.ndimage import gaussian_filter
 from scipy.special import erf
 
 __all__ = ["PairScene", "Jet", "make_pair", "export_pair", "SAMPLE_PAIR", "LEAK_FRACTION"]
 
+#: The camera lens's blur, pixels (Gaussian σ), applied to both shots.
+_PSF_PX = 0.7
 #: A leak's footprint: where its own cooling holds this fraction of its peak.
-LEAK_FRACTION = 0.5
+LEAK_FRACTION = 0.3
 
 
 @dataclass(frozen=True)
@@ -146,9 +149,9 @@ def _jets(rng: np.random.Generator, n_rows: int, n_cols: int) -> tuple[Jet, ...]
     k = w / 640.0  # jets scale with the frame
     u = lambda lo, hi: float(rng.uniform(lo, hi))  # noqa: E731
     return (
-        Jet("skirting", "skirting board", 0.90 * h - 2, u(0.40, 0.48) * w, 180.0 * (rng.random() < 0.5),
+        Jet("skirting", "skirting board", 0.90 * h - 2, u(0.30, 0.36) * w, 180.0 * (rng.random() < 0.5),
             u(1.6, 2.4), k * u(70, 90), k * u(6, 8), 0.15),
-        Jet("window", "window frame", 0.62 * h + 3, u(0.60, 0.66) * w, u(80, 100), u(1.8, 2.8), k * u(60, 80),
+        Jet("window", "window frame", 0.62 * h + 3, u(0.76, 0.82) * w, u(80, 100), u(1.8, 2.8), k * u(60, 80),
             k * u(6, 8), 0.15),
         Jet("socket", "socket", 0.70 * h + 17 * k, (0.14 * 640 + 8) * k, 90.0, u(1.2, 1.8), k * u(28, 36),
             k * u(5, 7), 0.12),
@@ -185,14 +188,15 @@ def make_pair(seed: int = 0, *, n_rows: int = 480, n_cols: int = 640, far: bool 
     pressed, defects = _wall(q_rows, q_cols, n_rows, n_cols, texture_p)
     drift = float(rng.uniform(-0.4, -0.15))  # the room cooled a little while the fan ran
     slope = rng.uniform(-0.1, 0.1, 2)
-    pressed = pressed + drift + slope[0] * (rows / n_rows - 0.5) + slope[1] * (cols / n_cols - 0.5)
+    pressed = gaussian_filter(pressed, _PSF_PX) + drift + slope[0] * (rows / n_rows - 0.5) \
+        + slope[1] * (cols / n_cols - 0.5)
     footprints = np.zeros((len(jets), n_rows, n_cols), bool)
     if not far:
         for k, jet in enumerate(jets):
-            cool = jet.cooling(q_rows, q_cols)
+            cool = gaussian_filter(jet.cooling(q_rows, q_cols), _PSF_PX)  # as the lens sees it
             pressed = pressed - cool
             footprints[k] = cool >= LEAK_FRACTION * float(cool.max())
-    reference = reference + rng.normal(0.0, netd_k, reference.shape)
+    reference = gaussian_filter(reference, _PSF_PX) + rng.normal(0.0, netd_k, reference.shape)
     pressed = pressed + rng.normal(0.0, netd_k, pressed.shape)
     return PairScene(reference_c=reference, pressed_c=pressed, matrix=matrix, jets=jets if not far else (),
                      footprints=footprints if not far else footprints[:0], defects=defects, drift_k=drift,
