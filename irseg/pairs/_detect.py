@@ -133,7 +133,7 @@ def _measure(region: np.ndarray, ident: int, peak: tuple[int, int], peak_k: floa
              minutes: float | None, pixel_area_m2: float | None) -> PairAnomaly:
     rows, cols = np.nonzero(region)
     diff = difference_k[region].astype(np.float64)
-    cooling = float(np.nanmean(-sign * diff))
+    cooling = float(np.nanmean(-diff))  # negative when the surface warmed (outside view)
     pattern, direction = _pattern(rows, cols, (int(peak[0]), int(peak[1])))
     t = pressed_c[region].astype(np.float64)
     area_px = int(rows.size)

@@ -19,8 +19,9 @@ leaks cool it locally and the whole wall drifts by a few tenths of a kelvin. The
    is their root mean square.
 
 The pair fails (:class:`irseg.errors.InputError`) when the views do not overlap by
-:data:`MIN_OVERLAP`, when the correlation stays below :data:`MIN_CORRELATION`, or when the
-transform is not that of the same view (scale outside 0.8-1.25, rotation beyond 15°).
+:data:`MIN_OVERLAP`, when the correlation stays below :data:`MIN_CORRELATION`, when the
+residual exceeds :data:`MAX_RESIDUAL_PX`, or when the transform is not that of the same view
+(scale outside 0.8-1.25, rotation beyond 15°).
 """
 
 from __future__ import annotations
@@ -32,12 +33,16 @@ import numpy as np
 from ..errors import InputError
 from ._types import Registration
 
-__all__ = ["register", "MIN_OVERLAP", "MIN_CORRELATION", "warp_reference"]
+__all__ = ["register", "MIN_OVERLAP", "MIN_CORRELATION", "MAX_RESIDUAL_PX", "warp_reference"]
 
 #: Smallest fraction of the pressurised frame the reference must cover.
 MIN_OVERLAP = 0.5
-#: Smallest ECC correlation of the registered structure images: below it the views differ.
-MIN_CORRELATION = 0.5
+#: Smallest ECC correlation of the registered structure images: below it the views differ (two shots
+#: of one view correlate by 0.95-0.99 at a usual NETD; another wall with a window in the same place by
+#: about 0.7).
+MIN_CORRELATION = 0.8
+#: Largest residual misregistration, pixels, tile by tile: beyond it the views do not agree.
+MAX_RESIDUAL_PX = 1.0
 _BAND_PX = 12.0
 _MAX_ROTATION_DEG = 15.0
 _SCALE_RANGE = (0.8, 1.25)
@@ -215,5 +220,8 @@ def register(reference_c: np.ndarray, pressed_c: np.ndarray, *, noise_k: float,
     ref_s = warp_reference(b_full, warp, pressed_c.shape)
     valid = covered & np.isfinite(ref_s)
     rms = _tile_residual(a_full, np.nan_to_num(ref_s), valid, float(noise_k))
+    if rms is not None and rms > MAX_RESIDUAL_PX:
+        raise InputError(fail + f"after the best match the views still differ by {rms:.1f} px tile by tile (at most "
+                         f"{MAX_RESIDUAL_PX:g} px expected): the images do not show the same view; " + fix)
     return Registration(matrix=warp, shift_px=shift, rotation_deg=float(rotation), scale=float(scale),
                         rms_px=rms, overlap=overlap, correlation=float(cc))
