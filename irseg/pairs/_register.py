@@ -44,6 +44,7 @@ MIN_CORRELATION = 0.8
 #: Largest residual misregistration, pixels, tile by tile: beyond it the views do not agree.
 MAX_RESIDUAL_PX = 1.0
 _BAND_PX = 12.0
+_TILE_SHIFT_NOISE_PX = 0.05
 _MAX_ROTATION_DEG = 15.0
 _SCALE_RANGE = (0.8, 1.25)
 
@@ -119,10 +120,11 @@ def _similarity(matrix: np.ndarray, shape: tuple[int, int]) -> tuple[tuple[float
 def _tile_residual(pressed_s: np.ndarray, ref_s: np.ndarray, valid: np.ndarray, noise: float) -> float | None:
     """Root mean square of the shifts left between the registered structure images, tile by tile.
 
-    Each tile's (64 px, smaller in small images) shift is one Lucas-Kanade step (Lucas & Kanade 1981): the least-squares
-    solution of ``∇a · d = b − a`` over the tile. Tiles whose structure runs one way only (the
-    smaller eigenvalue of the gradients' matrix under a tenth of the larger, or under the noise's
-    share) cannot tell a shift and are left out.
+    Each tile's (64 px, smaller in small images) shift is one Lucas-Kanade step (Lucas & Kanade
+    1981): the least-squares solution of ``∇a · d = b − a`` over the tile, whose noise has the
+    covariance ``σ_d² (∑ ∇a ∇aᵀ)⁻¹``. A tile is used when that noise stays under 0.05 px in every
+    direction (``σ_d`` = 0.4 × the image noise: both images after the band-pass and the 1 px blur);
+    a tile whose structure runs one way only cannot tell a shift along it and is left out.
     """
     import cv2
 
@@ -140,8 +142,8 @@ def _tile_residual(pressed_s: np.ndarray, ref_s: np.ndarray, valid: np.ndarray, 
             gc, gr, diff = g_c[tile].ravel(), g_r[tile].ravel(), (b[tile] - a[tile]).ravel()
             normal = np.array([[gc @ gc, gc @ gr], [gc @ gr, gr @ gr]], dtype=np.float64)
             evals = np.linalg.eigvalsh(normal)
-            if evals[0] < 0.1 * evals[1] or evals[0] < 25.0 * size * size * (noise / 4.0) ** 2:
-                continue
+            if evals[0] < 0.02 * evals[1] or evals[0] < (0.4 * noise / _TILE_SHIFT_NOISE_PX) ** 2:
+                continue  # the tile's shift would carry more than 0.05 px of noise in some direction
             d = np.linalg.solve(normal, -np.array([gc @ diff, gr @ diff], dtype=np.float64))
             shifts.append(float(d @ d))
     if len(shifts) < 3:

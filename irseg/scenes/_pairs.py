@@ -33,7 +33,8 @@ import numpy as np
 from scipy.ndimage import gaussian_filter
 from scipy.special import erf
 
-__all__ = ["PairScene", "Jet", "make_pair", "export_pair", "SAMPLE_PAIR", "LEAK_FRACTION"]
+__all__ = ["PairScene", "Jet", "make_pair", "export_pair", "export_sample_pair", "SAMPLE_PAIR", "PAIR_TRUTH",
+           "LEAK_FRACTION"]
 
 #: The camera lens's blur, pixels (Gaussian σ), applied to both shots.
 _PSF_PX = 0.7
@@ -204,7 +205,10 @@ def make_pair(seed: int = 0, *, n_rows: int = 480, n_cols: int = 640, far: bool 
 
 
 #: The sample survey's pair: (stem of the reference, stem of the pressurised shot, seed, pressure Pa, minutes).
-SAMPLE_PAIR = ("lf09_lounge_east_wall_0pa", "lf10_lounge_east_wall_50pa", 2026, 50.0, 15.0)
+SAMPLE_PAIR = ("lf10_lounge_east_wall_0pa", "lf11_lounge_east_wall_50pa", 2026, 50.0, 15.0)
+
+#: The sample pair's truth files in the sample folder (new files beside the survey's own truth).
+PAIR_TRUTH = ("pair_truth.json", "pair_truth_masks.npz")
 
 
 def export_pair(directory: str | os.PathLike[str], *, pair: tuple = SAMPLE_PAIR) -> dict:
@@ -241,3 +245,19 @@ def export_pair(directory: str | os.PathLike[str], *, pair: tuple = SAMPLE_PAIR)
                    "area_px": int(scene.footprints[k].sum())} for k, j in enumerate(scene.jets)],
         "_footprints": scene.footprints,
     }
+
+
+def export_sample_pair(directory: str | os.PathLike[str]) -> dict:
+    """The sample survey's pair: two images, their sidecars and the truth files :data:`PAIR_TRUTH`."""
+    from irseg.io import write_exact_json, write_npz
+
+    d = Path(directory)
+    record = export_pair(d)
+    footprints = record.pop("_footprints")
+    payload = {"pairs": [record], "notes": (
+        "Synthetic truth of the pair under a pressure difference (irseg.scenes._pairs): matrix maps a pixel "
+        "(col, row) of the pressurised image to the reference; each leak's footprint (pair_truth_masks.npz, "
+        "leaks x rows x columns) is where its own cooling holds 30 % of its peak.")}
+    write_exact_json(d / PAIR_TRUTH[0], payload, indent=1)
+    write_npz(d / PAIR_TRUTH[1], {record["image"].rsplit(".", 1)[0]: np.asarray(footprints, bool)})
+    return record
