@@ -475,15 +475,15 @@ def render_pair(pressed: ImageResult, pair: PairResult) -> tuple[bytes, bytes]:
     reg = a.registration
     title = getattr(pressed.meta.image, "title", None) or Path(pressed.path).name
     n = len(a.anomalies)
-    minutes = f" after {a.minutes:g} min" if a.minutes is not None else ""
     residual = "not measurable" if reg.rms_px is None else f"{reg.rms_px:.2f} px"
-    header = (f"ΔT vs {Path(pair.reference).name} at {a.pressure_pa:g} Pa{minutes}, drift {a.drift_k:+.2f} K "
-              f"removed | registration residual {residual}, shift ({reg.shift_px[0]:.1f}, {reg.shift_px[1]:.1f}) px, "
-              f"rotation {reg.rotation_deg:.2f}°, scale {reg.scale:.3f}, overlap {reg.overlap:.0%}")
+    header = (f"registration residual {residual}, shift ({reg.shift_px[0]:.1f}, {reg.shift_px[1]:.1f}) px, "
+              f"rotation {reg.rotation_deg:.2f}°, scale {reg.scale:.3f}, overlap {reg.overlap:.0%}  |  "
+              f"drift {a.drift_k:+.2f} K removed")
 
     def _draw() -> tuple[bytes, bytes]:
         picture = render_difference(a.difference_k, a.labels, a.anomalies,
-                                    title=f"{title}  |  {n} lea{'k' if n == 1 else 'ks'} under pressure",
+                                    title=f"{title}  |  ΔT against {Path(pair.reference).name}: "
+                                          f"{n} lea{'k' if n == 1 else 'ks'} at {a.pressure_pa:g} Pa",
                                     header=header)
         return encode_png(picture), encode_png(label_image(SimpleNamespace(labels=a.labels)))
 
