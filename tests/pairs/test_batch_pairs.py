@@ -155,3 +155,40 @@ def test_resume_follows_the_reference(survey, tmp_path):
     computed = {o.image for o in third.outcomes if not o.skipped}
     assert computed == {f"{REF}.tiff", f"{PRESSED}.tiff"}
     assert (out / PRESSED / "difference.png").is_file()
+
+
+@pytest.mark.slow
+def test_the_dask_path_and_a_process_pool_write_the_same_pair(survey, tmp_path):
+    # the worker function is shared (irseg.batch._worker.run_task): every back-end gives the same files
+    folder, out, _, _ = survey
+    copy = tmp_path / "in"
+    copy.mkdir()
+    for stem in (REF, PRESSED):
+        for suffix in (".tiff", ".toml"):
+            shutil.copy(folder / f"{stem}{suffix}", copy / f"{stem}{suffix}")
+    for name, kwargs in (("dask", {"jobs": 1, "scheduler": "local"}), ("pool", {"jobs": 2})):
+        run_survey([copy], tmp_path / name, **kwargs)
+        for file in ("pair_labels.png", "difference.png", "result.json"):
+            ours = (tmp_path / name / PRESSED / file).read_bytes()
+            theirs = (out / PRESSED / file).read_bytes()
+            if file == "result.json":  # the fingerprints differ: the survey folders hold other images
+                ours, theirs = (json.loads(b) for b in (ours, theirs))
+                ours.pop("fingerprint"), theirs.pop("fingerprint")
+                ours["parameters"].pop("settings"), theirs["parameters"].pop("settings")
+            assert ours == theirs, (name, file)
+
+
+def test_the_command_line_names_a_failed_pair_apart_from_failed_images(tmp_path):
+    from click.testing import CliRunner
+
+    from irseg.cli.main import cli
+
+    folder = tmp_path / "in"
+    folder.mkdir()
+    export_pair(folder)
+    text = (folder / f"{PRESSED}.toml").read_text(encoding="utf-8")
+    (folder / f"{PRESSED}.toml").write_text(_sidecar(text, 'reference = "nope"\ndifference_pa = 50\n'),
+                                            encoding="utf-8")
+    result = CliRunner().invoke(cli, ["segment", str(folder), "-o", str(tmp_path / "out"), "-j", "1"])
+    assert result.exit_code == 3, result.output  # some inputs failed (cli/_exit.py)
+    assert "2 of 2 images ok, 1 pair under pressure failed (see" in result.output
