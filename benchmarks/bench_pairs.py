@@ -99,7 +99,8 @@ def main(argv: list[str] | None = None) -> int:
                 ious[name].append(_ious(labels, scene.footprints))
     print("640x480 pair, one core; median seconds per pair; IoU of each leak (skirting, window, socket, ceiling)")
     for seed in range(args.pairs):
-        print(f"  seed {seed}: irseg {times['irseg'][seed]:.3f} s IoU {' '.join(f'{v:.2f}' for v in ious['irseg'][seed])}"
+        ours_iou = " ".join(f"{v:.2f}" for v in ious["irseg"][seed])
+        print(f"  seed {seed}: irseg {times['irseg'][seed]:.3f} s IoU {ours_iou}"
               f"  |  peer {times['peer'][seed]:.3f} s IoU {' '.join(f'{v:.2f}' for v in ious['peer'][seed])}")
     ours, peer = statistics.median(times["irseg"]), statistics.median(times["peer"])
     print(f"median: irseg {ours:.3f} s, peer {peer:.3f} s, ratio irseg/peer {ours / peer:.2f}; "

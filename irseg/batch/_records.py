@@ -289,7 +289,8 @@ def _optional_object(data: Mapping[str, Any], key: str, where: str) -> dict[str,
     if value is None:
         return None
     if not isinstance(value, Mapping):
-        raise ConfigError(f"{where}: {key} = {value!r:.60} is not what irseg writes; delete the file to recompute the image")
+        raise ConfigError(f"{where}: {key} = {value!r:.60} is not what irseg writes; delete the file to "
+                          "recompute the image")
     return dict(value)
 
 

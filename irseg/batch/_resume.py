@@ -116,7 +116,8 @@ def load_complete(
     return record
 
 
-def _pair_reference(item: InputImage, by_folder: dict[str, list[InputImage]]) -> tuple[bool, InputImage | None, str | None]:
+def _pair_reference(item: InputImage,
+                    by_folder: dict[str, list[InputImage]]) -> tuple[bool, InputImage | None, str | None]:
     """``(is a pressurised image, its reference, why no reference can be used)`` from its metadata texts."""
     try:
         texts = irio.read_metadata_texts(item.path)

@@ -119,7 +119,8 @@ def write_survey_files(
     summary = build_summary(ordered, anomalies, skipped, review=review_info, photos=photo_names, notes=notes)
     summary = {**summary, "repairs": irio.normalise_json(repairs.summary)}  # the repair plan (irseg.repairs)
     # pairs under a pressure difference (irseg.pairs): a failed pair is a failures.csv row of stage "pair"
-    failed_pairs = [ImageFailure(image=image, stage="pair", message=message) for image, message in pair_failures(records)]
+    failed_pairs = [ImageFailure(image=image, stage="pair", message=message)
+                    for image, message in pair_failures(records)]
     summary = {**summary, "pairs": irio.normalise_json(pair_rows(records)),
                "failures": [*summary["failures"], *({"file": f.image, "stage": f.stage, "message": f.message}
                                                      for f in failed_pairs)]}

@@ -15,8 +15,9 @@ plaster texture. The reference shot samples it as it is; the pressurised shot sa
 Both shots get the camera's white noise (NETD). Every defect of the wall is in both shots.
 The truth of each leak is its **cooled footprint**: the pixels of the pressurised shot where
 the jet's own cooling, as the lens sees it, holds at least 30 % of its peak (the rule the
-analysis documents for a leak's extent, :data:`irseg.pairs.EXTENT_FRACTION`). The true transform is the affine map from a pressurised pixel
-to the reference (what :class:`irseg.pairs.Registration` estimates).
+analysis documents for a leak's extent, :data:`irseg.pairs.EXTENT_FRACTION`). The true transform
+is the affine map from a pressurised pixel to the reference (what :class:`irseg.pairs.Registration`
+estimates).
 
 ``far=True`` makes a pair whose pressurised shot looks at another part of the house (no
 overlap): its analysis must fail alone.
@@ -33,8 +34,8 @@ import numpy as np
 from scipy.ndimage import gaussian_filter
 from scipy.special import erf
 
-__all__ = ["PairScene", "Jet", "make_pair", "export_pair", "export_sample_pair", "validate_pair", "SAMPLE_PAIR", "PAIR_TRUTH",
-           "LEAK_FRACTION"]
+__all__ = ["PairScene", "Jet", "make_pair", "export_pair", "export_sample_pair", "validate_pair", "SAMPLE_PAIR",
+           "PAIR_TRUTH", "LEAK_FRACTION"]
 
 #: The camera lens's blur, pixels (Gaussian σ), applied to both shots.
 _PSF_PX = 0.7
@@ -109,7 +110,8 @@ def _box(rows: np.ndarray, cols: np.ndarray, r0: float, r1: float, c0: float, c1
     return fr * fc
 
 
-def _wall(rows: np.ndarray, cols: np.ndarray, n_rows: int, n_cols: int, texture: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+def _wall(rows: np.ndarray, cols: np.ndarray, n_rows: int, n_cols: int,
+          texture: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The wall's surface temperature at reference coordinates, °C, and where its defects are."""
     h, w = float(n_rows), float(n_cols)
     blur = 1.6
@@ -173,7 +175,8 @@ def make_pair(seed: int = 0, *, n_rows: int = 480, n_cols: int = 640, far: bool 
     zoom = 1.0 + float(rng.uniform(0, 1) * max_zoom)
     if far:
         shift = (0.0, 1.6 * n_cols)  # the second shot looks at another stretch of the house
-    # pressurised pixel p -> reference point q: q = c + R(-θ)(p - c - s) / zoom (forward: p = c + s + zoom R(θ)(q - c))
+    # pressurised pixel p -> reference point q: q = c + R(-θ)(p - c - s) / zoom
+    # (forward: p = c + s + zoom R(θ)(q - c))
     th = math.radians(rotation)
     rot_inv = np.array([[math.cos(th), math.sin(th)], [-math.sin(th), math.cos(th)]]) / zoom
     centre = np.array([(n_cols - 1) / 2.0, (n_rows - 1) / 2.0])

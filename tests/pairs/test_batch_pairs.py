@@ -43,7 +43,8 @@ def survey(tmp_path_factory):
             write_image(folder, stem, far.pressed_c, fmt="tiff-float")
         else:
             shutil.copy(folder / f"{PRESSED}.tiff", folder / f"{stem}.tiff")
-        (folder / f"{stem}.toml").write_text(_sidecar(text, pressure.format(ref=REF, pressed=PRESSED)), encoding="utf-8")
+        sidecar = _sidecar(text, pressure.format(ref=REF, pressed=PRESSED))
+        (folder / f"{stem}.toml").write_text(sidecar, encoding="utf-8")
     out = folder.parent / "out"
     result = run_survey([folder], out, jobs=1)
     return folder, out, result, truth

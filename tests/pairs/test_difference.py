@@ -40,7 +40,8 @@ def test_the_drift_plane_is_removed_despite_a_fifth_of_the_pixels_changed(rng):
 
 
 def test_the_noise_after_smoothing_is_that_of_a_gaussian_filter(rng):
-    # [C] white noise of σ after a 2-D Gaussian of s pixels has σ / (2 √π s) (the filter's energy, ∑ g² = 1/(4π s²));
+    # [C] white noise of σ after a 2-D Gaussian of s pixels has σ / (2 √π s) (the filter's energy,
+    # ∑ g² = 1/(4π s²));
     # checked against scipy.ndimage.gaussian_filter on a large noise field
     noise = rng.normal(0.0, 1.0, (600, 600))
     for s in (1.0, 2.0):
