@@ -460,7 +460,7 @@ def process_pair(pressed: ImageResult, reference_path: str | Path, *,
     analysis = _run_stage("pair", timings, caught, lambda: analyse_pair(
         frame, pressed.frame, pressure_pa=float(pressure.difference_pa), minutes=pressure.minutes,
         view=pressed.meta.surface.view, first_id=max(own, default=0) + 1,
-        pixel_area_m2=getattr(pressed.analysis, "pixel_area_m2", None)))
+        pixel_area_m2=getattr(pressed.analysis, "pixel_area_m2", None), own_labels=pressed.analysis.labels))
     return PairResult(reference=reference, analysis=analysis, timings=timings, warnings=tuple(caught))
 
 

@@ -42,7 +42,7 @@ def leak_sign(view: str | None) -> int:
 
 def analyse_pair(reference: ThermalFrame, pressed: ThermalFrame, *, pressure_pa: float,
                  minutes: float | None = None, view: str | None = "interior", first_id: int = 1,
-                 pixel_area_m2: float | None = None) -> PairAnalysis:
+                 pixel_area_m2: float | None = None, own_labels: np.ndarray | None = None) -> PairAnalysis:
     """Compare a pressurised thermogram with its reference at ambient pressure.
 
     Parameters
@@ -60,6 +60,8 @@ def analyse_pair(reference: ThermalFrame, pressed: ThermalFrame, *, pressure_pa:
         Id of the first leak (after the image's own anomalies).
     pixel_area_m2 : float, optional
         One pixel's area on the surface (areas in m² when given).
+    own_labels : (M, N) int ndarray, optional
+        The pressurised image's own anomaly ids (``Analysis.labels``): a leak's reason names those it covers.
 
     Returns
     -------
@@ -91,7 +93,7 @@ def analyse_pair(reference: ThermalFrame, pressed: ThermalFrame, *, pressure_pa:
     sign = leak_sign(view)
     labels, leaks = detect_leaks(difference, smooth, sigma, sign=sign, pressed_c=pressed.temperature_c,
                                  reference_c=registered, first_id=first_id, pressure_pa=pressure_pa,
-                                 minutes=minutes, pixel_area_m2=pixel_area_m2)
+                                 minutes=minutes, pixel_area_m2=pixel_area_m2, own_labels=own_labels)
     return PairAnalysis(registration=reg, difference_k=difference, drift_k=drift, noise_k=noise, labels=labels,
                         anomalies=leaks, pressure_pa=float(pressure_pa), minutes=minutes, sign=sign)
 

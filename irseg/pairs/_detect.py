@@ -75,7 +75,8 @@ def _reason(pattern: str, direction: str, sign: int, pressure_pa: float, minutes
 
 def detect_leaks(difference_k: np.ndarray, smooth_k: np.ndarray, sigma_k: np.ndarray, *, sign: int,
                  pressed_c: np.ndarray, reference_c: np.ndarray, first_id: int, pressure_pa: float,
-                 minutes: float | None, pixel_area_m2: float | None) -> tuple[np.ndarray, tuple[PairAnomaly, ...]]:
+                 minutes: float | None, pixel_area_m2: float | None,
+                 own_labels: np.ndarray | None = None) -> tuple[np.ndarray, tuple[PairAnomaly, ...]]:
     """The leaks of one pair: a label image and one record each (see the module notes).
 
     Parameters
@@ -92,6 +93,8 @@ def detect_leaks(difference_k: np.ndarray, smooth_k: np.ndarray, sigma_k: np.nda
         The first anomaly id (after the image's single-image anomalies).
     pressure_pa, minutes, pixel_area_m2
         For the records.
+    own_labels : (M, N) int ndarray, optional
+        The pressurised image's own anomaly ids: a leak that covers some of them names them in its reason.
 
     Returns
     -------
@@ -123,9 +126,24 @@ def detect_leaks(difference_k: np.ndarray, smooth_k: np.ndarray, sigma_k: np.nda
             continue
         ident = first_id + len(out)
         labels[region] = ident
-        out.append(_measure(region, ident, peak, value, difference_k, sign, pressed_c, reference_c, pressure_pa,
-                            minutes, pixel_area_m2))
+        record = _measure(region, ident, peak, value, difference_k, sign, pressed_c, reference_c, pressure_pa,
+                          minutes, pixel_area_m2)
+        if own_labels is not None:
+            record = _cross_reference(record, region, own_labels)
+        out.append(record)
     return labels, tuple(out)
+
+
+def _cross_reference(record: PairAnomaly, region: np.ndarray, own_labels: np.ndarray) -> PairAnomaly:
+    """The leak's reason naming the image's own anomalies it covers (one place, two findings)."""
+    from dataclasses import replace
+
+    ids = [int(i) for i in np.unique(own_labels[region]) if i]
+    if not ids:
+        return record
+    names = ", ".join(str(i) for i in ids)
+    return replace(record, reason=f"{record.reason}; the image alone shows this place as anomal"
+                                  f"{'y' if len(ids) == 1 else 'ies'} {names}")
 
 
 def _measure(region: np.ndarray, ident: int, peak: tuple[int, int], peak_k: float, difference_k: np.ndarray,

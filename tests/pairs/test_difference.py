@@ -118,3 +118,14 @@ def test_a_weak_change_within_the_noise_is_not_found(rng):
     result = analyse_pair(_frame(reference, "r.npy"), _frame(pressed, "p.npy"), pressure_pa=50.0)
     assert result.anomalies == ()
     assert math.isfinite(result.noise_k) and result.noise_k == pytest.approx(0.05 * math.sqrt(2), rel=0.3)
+
+
+def test_a_leak_names_the_images_own_anomalies_it_covers(rng):
+    reference, pressed, _ = _pair(rng, leaks=[((90, 80), 8.0, 1.5), ((100, 170), 6.0, 1.0)])
+    own = np.zeros(pressed.shape, np.int32)
+    own[85:95, 75:85] = 3  # the image alone outlined the first leak's core as its anomaly 3
+    result = analyse_pair(_frame(reference, "r.npy"), _frame(pressed, "p.npy"), pressure_pa=50.0, first_id=4,
+                          own_labels=own)
+    first, second = result.anomalies
+    assert first.reason.endswith("the image alone shows this place as anomaly 3")
+    assert "image alone" not in second.reason
