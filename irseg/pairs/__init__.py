@@ -24,7 +24,7 @@ import numpy as np
 
 from ..types import ThermalFrame
 from ._detect import EXTENT_FRACTION, GROW_Z, MIN_PEAK_K, SEED_Z, detect_leaks
-from ._difference import SMOOTH_PX, remove_drift, smooth_nan, smoothed_noise
+from ._difference import SMOOTH_PX, remove_drift, smooth_nan, smoothed_noise, smoothing_px
 from ._register import MIN_CORRELATION, MIN_OVERLAP, register, warp_reference
 from ._types import PairAnalysis, PairAnomaly, Registration
 
@@ -84,12 +84,13 @@ def analyse_pair(reference: ThermalFrame, pressed: ThermalFrame, *, pressure_pa:
     change = pressed.temperature_c.astype(np.float32) - registered
     change[np.asarray(pressed.mask, bool) | ~(ref_bad < 0.5)] = np.nan
     difference, drift = remove_drift(change)
-    smooth = smooth_nan(difference)
     noise = float(np.hypot(noise_p, noise_r))
+    scale_px = smoothing_px(noise)
+    smooth = smooth_nan(difference, scale_px)
     grad_r, grad_c = np.gradient(smooth_nan(registered))
     gradient = np.nan_to_num(np.hypot(grad_r, grad_c))
     residual = 0.5 if reg.rms_px is None else max(float(reg.rms_px), 0.2)
-    sigma = np.sqrt(smoothed_noise(noise) ** 2 + (residual * gradient) ** 2).astype(np.float32)
+    sigma = np.sqrt(smoothed_noise(noise, scale_px) ** 2 + (residual * gradient) ** 2).astype(np.float32)
     sign = leak_sign(view)
     labels, leaks = detect_leaks(difference, smooth, sigma, sign=sign, pressed_c=pressed.temperature_c,
                                  reference_c=registered, first_id=first_id, pressure_pa=pressure_pa,

@@ -1,6 +1,7 @@
 """Leaks in the difference map: significance, one anomaly per leak, its extent and measures.
 
-Significance. ΔT is smoothed by a Gaussian of :data:`~._difference.SMOOTH_PX`; the "extra"
+Significance. ΔT is smoothed by a Gaussian (:func:`~._difference.smoothing_px`: 1 px, more for a
+noisy pair); the "extra"
 change is ``-ΔT`` for an inside view (leakage cools) and ``+ΔT`` for an outside view (leakage
 warms). Its standard deviation at each pixel combines the noise of both images and the
 residual misregistration times the local gradient of the reference (a step seen 0.3 px off
@@ -9,8 +10,9 @@ looks like a change): ``σ² = σ_noise² + (rms_px · |∇T_ref|)²``.
 One anomaly per leak. Candidate peaks are the local maxima of the extra change (15 px
 window) that are significant (:data:`SEED_Z` σ and at least :data:`MIN_PEAK_K`), taken from
 the strongest down. A peak is a leak of its own unless it is a shoulder of a stronger one:
-when the pixels above ``peak − h`` (``h = max(3 σ, 25 % of the peak)``) around it reach a
-leak already found, it is skipped.
+when the pixels above ``peak − h`` (``h = max(3 σ, half the peak)``) around it reach a leak
+already found, it is skipped: two leaks are two when the cooling between them falls below half
+the weaker one's peak (a noise bump on a jet's fading tail does not).
 
 Extent rule (one rule, every leak). The pixels connected to the peak whose smoothed extra
 change is at least :data:`EXTENT_FRACTION` (30 %) of the peak's, not already part of a
@@ -38,6 +40,8 @@ EXTENT_FRACTION = 0.3
 _MIN_AREA_PX = 9
 _PEAK_WINDOW_PX = 15
 _JET_ELONGATION = 1.8
+#: A peak is a leak of its own only when it stands this fraction of its value above the saddle to a stronger one.
+_SHOULDER = 0.5
 
 
 def _components(binary: np.ndarray) -> np.ndarray:
@@ -114,7 +118,7 @@ def detect_leaks(difference_k: np.ndarray, smooth_k: np.ndarray, sigma_k: np.nda
         if labels[peak]:
             continue
         value = float(extra[peak])
-        h = max(3.0 * float(sigma_k[peak]), 0.25 * value)
+        h = max(3.0 * float(sigma_k[peak]), _SHOULDER * value)
         shoulder = _components(extra >= value - h)
         if np.any(labels[shoulder == shoulder[peak]] > 0):
             continue  # a shoulder of a stronger leak

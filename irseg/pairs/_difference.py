@@ -17,10 +17,14 @@ import numpy as np
 
 from .._shared import robust_sigma
 
-__all__ = ["remove_drift", "smooth_nan", "SMOOTH_PX"]
+__all__ = ["remove_drift", "smooth_nan", "smoothed_noise", "smoothing_px", "SMOOTH_PX"]
 
-#: Gaussian smoothing of ΔT before detection, pixels (σ).
+#: Gaussian smoothing of ΔT before detection, pixels (σ): the least, for a camera of usual noise.
 SMOOTH_PX = 1.0
+#: Smoothed noise aimed at, K: a noisier pair is smoothed more (up to :data:`MAX_SMOOTH_PX`), so that
+#: noise bumps on the fading tail of a jet do not stand out as leaks of their own.
+TARGET_NOISE_K = 0.03
+MAX_SMOOTH_PX = 3.0
 _TUKEY_C = 4.685
 
 
@@ -80,3 +84,10 @@ def smooth_nan(values: np.ndarray, sigma_px: float = SMOOTH_PX) -> np.ndarray:
 def smoothed_noise(noise_k: float, sigma_px: float = SMOOTH_PX) -> float:
     """Standard deviation of white noise ``noise_k`` after a 2-D Gaussian of ``sigma_px``: σ / (2 √π s)."""
     return float(noise_k) / (2.0 * math.sqrt(math.pi) * float(sigma_px))
+
+
+def smoothing_px(noise_k: float) -> float:
+    """The Gaussian's σ for ΔT of per-pixel noise ``noise_k``: the one that leaves :data:`TARGET_NOISE_K`,
+    between :data:`SMOOTH_PX` and :data:`MAX_SMOOTH_PX` (1 px for NETD up to about 0.07 K per image)."""
+    wanted = float(noise_k) / (2.0 * math.sqrt(math.pi) * TARGET_NOISE_K)
+    return float(min(MAX_SMOOTH_PX, max(SMOOTH_PX, wanted)))

@@ -266,7 +266,8 @@ def export_sample_pair(directory: str | os.PathLike[str]) -> dict:
     return record
 
 
-def validate_pair(seed: int, *, far: bool = False, n_rows: int = 480, n_cols: int = 640) -> dict:
+def validate_pair(seed: int, *, far: bool = False, n_rows: int = 480, n_cols: int = 640,
+                  netd_k: float = 0.05) -> dict:
     """Analyse one simulated pair and compare it with its truth (the issue's criteria, per pair).
 
     Returns
@@ -285,7 +286,7 @@ def validate_pair(seed: int, *, far: bool = False, n_rows: int = 480, n_cols: in
     from irseg.pairs import analyse_pair
     from irseg.types import ThermalFrame
 
-    scene = make_pair(seed, n_rows=n_rows, n_cols=n_cols, far=far)
+    scene = make_pair(seed, n_rows=n_rows, n_cols=n_cols, far=far, netd_k=netd_k)
 
     def frame(t: np.ndarray, name: str) -> ThermalFrame:
         t32 = np.asarray(t, np.float32)

@@ -129,3 +129,13 @@ def test_a_leak_names_the_images_own_anomalies_it_covers(rng):
     first, second = result.anomalies
     assert first.reason.endswith("the image alone shows this place as anomaly 3")
     assert "image alone" not in second.reason
+
+
+def test_a_noisy_pair_is_smoothed_more_but_never_beyond_three_pixels():
+    from irseg.pairs._difference import TARGET_NOISE_K, smoothing_px
+
+    assert smoothing_px(0.05 * math.sqrt(2)) == 1.0  # a usual camera (NETD 0.05 K per image): 1 px
+    s = smoothing_px(0.2)
+    # [C] the σ that leaves TARGET_NOISE_K of white noise: σ_noise / (2 √π s) = target
+    assert smoothed_noise(0.2, s) == pytest.approx(TARGET_NOISE_K)
+    assert smoothing_px(5.0) == 3.0

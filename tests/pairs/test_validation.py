@@ -28,6 +28,15 @@ def test_a_simulated_pair_meets_the_acceptance_criteria(seed):
 
 @pytest.mark.slow
 @pytest.mark.parametrize("seed", [0, 1])
+def test_a_noisy_camera_still_gives_one_anomaly_per_leak(seed):
+    # NETD 0.15 K, three times the sample camera's [CP: a poor but usable building camera]
+    out = validate_pair(seed, netd_k=0.15)
+    assert out["failed"] is None and out["n_per_leak"] == [1, 1, 1, 1] and out["n_false"] == 0
+    assert min(out["ious"]) >= 0.75 and out["registration_rms_px"] <= 0.5
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("seed", [0, 1])
 def test_a_pair_whose_views_do_not_overlap_fails(seed):
     out = validate_pair(seed, far=True)
     assert out["failed"] is not None and "cannot register" in out["failed"]
