@@ -140,8 +140,9 @@ def _pair_reference(item: InputImage,
         return True, None, (f"{sidecar}: [pressure] reference = \"{name}\" matches several images ({names}); "
                             "give the reference's file name with its suffix")
     if not matches:
-        return True, None, (f"{sidecar}: [pressure] reference = \"{name}\" names no image in this folder; give the "
-                            "stem of the image of the same view taken at ambient pressure, in the same folder")
+        return True, None, (f"{sidecar}: [pressure] reference = \"{name}\" names no image of this survey in its "
+                            "folder; give the stem of the image of the same view taken at ambient pressure, in the "
+                            "same folder, and include that image in the run")
     return True, matches[0], None
 
 

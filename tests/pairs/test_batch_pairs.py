@@ -21,7 +21,7 @@ REF, PRESSED = SAMPLE_PAIR[0], SAMPLE_PAIR[1]
 BAD = {
     "p_range": ('reference = "{ref}"\ndifference_pa = 150\n', "outside [1, 100] Pa"),
     "p_minutes": ('reference = "{ref}"\ndifference_pa = 50\nminutes = -3\n', "minutes = -3"),
-    "p_missing": ('reference = "no_such_view"\ndifference_pa = 50\n', "names no image in this folder"),
+    "p_missing": ('reference = "no_such_view"\ndifference_pa = 50\n', "names no image of this survey in its folder"),
     "p_chained": ('reference = "{pressed}"\ndifference_pa = 50\n', "is itself an image taken under a pressure"),
     "p_far": ('reference = "{ref}"\ndifference_pa = 50\n', "cannot register"),
 }
