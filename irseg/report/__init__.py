@@ -180,7 +180,9 @@ def _pair_sections(summary: Mapping[str, Any], images: list[dict[str, Any]], ano
     """One section per pair of ``summary["pairs"]`` (irseg.pairs): both overlays, the difference, the leaks."""
     by_name = {str(i.get("image")): i for i in images}
     out = []
-    for row in _list(summary, "pairs"):
+    for k, row in enumerate(_list(summary, "pairs")):
+        if not isinstance(row, Mapping):
+            raise ConfigError(f"report: summary['pairs'][{k}] must be an object, got {type(row).__name__}")
         pair = dict(row)
         name, reference = str(pair.get("image")), str(pair.get("reference"))
         pair["pressed"] = by_name.get(name, {})
