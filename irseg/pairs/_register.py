@@ -180,11 +180,12 @@ def register(reference_c: np.ndarray, pressed_c: np.ndarray, *, noise_k: float,
     fail = (f"{pressed_name}: cannot register its reference {ref_name} onto it: ")
     fix = ("take both shots of the same view from the same place (a moved tripod is fine, a different "
            "view is not), or name the right reference in [pressure] reference")
+    if np.shape(pressed_c) != np.shape(reference_c):
+        raise InputError(fail + f"the images differ in size ({np.shape(pressed_c)} and {np.shape(reference_c)}); "
+                         "take both shots with the same camera at the same resolution")
     a_full = _structure(pressed_c)
     b_full = _structure(reference_c)
     a4, b4 = _down(a_full, 4), _down(b_full, 4)
-    if a4.shape != b4.shape:
-        raise InputError(fail + f"the images differ in size ({pressed_c.shape} and {reference_c.shape}); " + fix)
     dx, dy = _coarse_shift(a4, b4)
     warp = np.array([[1.0, 0.0, dx], [0.0, 1.0, dy]])  # pressed -> reference, quarter size
     try:

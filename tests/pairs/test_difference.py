@@ -139,3 +139,29 @@ def test_a_noisy_pair_is_smoothed_more_but_never_beyond_three_pixels():
     # [C] the σ that leaves TARGET_NOISE_K of white noise: σ_noise / (2 √π s) = target
     assert smoothed_noise(0.2, s) == pytest.approx(TARGET_NOISE_K)
     assert smoothing_px(5.0) == 3.0
+
+
+def test_invalid_pixels_of_either_shot_are_left_out(rng):
+    reference, pressed, _ = _pair(rng, leaks=[((90, 80), 8.0, 1.5)])
+    pressed_frame = _frame(pressed, "p.npy")
+    mask = np.zeros(pressed.shape, bool)
+    mask[150:170, 150:170] = True  # dead or excluded pixels of the pressurised shot
+    pressed_frame = ThermalFrame(path="p.npy", temperature_c=pressed_frame.temperature_c, mask=mask,
+                                 apparent_c=pressed_frame.apparent_c)
+    reference_frame = _frame(reference, "r.npy")
+    ref_mask = np.zeros(reference.shape, bool)
+    ref_mask[20:30, 200:230] = True
+    reference_frame = ThermalFrame(path="r.npy", temperature_c=reference_frame.temperature_c, mask=ref_mask,
+                                   apparent_c=reference_frame.apparent_c)
+    result = analyse_pair(reference_frame, pressed_frame, pressure_pa=50.0)
+    assert np.isnan(result.difference_k[mask]).all()
+    assert np.isnan(result.difference_k[22:28, 205:225]).all()  # the reference's invalid pixels, registered
+    assert len(result.anomalies) == 1 and not result.labels[mask].any()
+
+
+def test_shots_of_different_sizes_fail_with_both_sizes_named(rng):
+    from irseg.errors import InputError
+
+    reference, pressed, _ = _pair(rng, leaks=[])
+    with pytest.raises(InputError, match=r"differ in size \(\(200, 200\) and \(200, 260\)\)"):
+        analyse_pair(_frame(reference, "r.npy"), _frame(pressed[:, :200], "p.npy"), pressure_pa=50.0)
