@@ -10,6 +10,7 @@ Subpackages and modules, one line each:
 - ``irseg.radiometry``   -- band-limited Planck radiance, emissivity and reflected-temperature correction.
 - ``irseg.segmentation`` -- Ambrosio–Tortorelli phase-field segmentation (smooth field + jump set + regions).
 - ``irseg.analysis``     -- local sound reference, cause, area, excess heat loss, f_Rsi, confidence.
+- ``irseg.pairs``        -- paired thermograms under a pressure difference: registration, ΔT, leaks.
 - ``irseg.render``       -- annotated overlay and label images (arrays).
 - ``irseg.report``       -- the self-contained HTML survey report.
 - ``irseg.pipeline``     -- one image end to end (the only place the stages are chained).
@@ -56,6 +57,8 @@ _LAZY = {
     "process_image": "irseg.pipeline",
     "process_array": "irseg.pipeline",
     "render_result": "irseg.pipeline",
+    "process_pair": "irseg.pipeline",
+    "analyse_pair": "irseg.pairs",
     "run_survey": "irseg.batch",
     "SurveyAnomaly": "irseg.batch",
     "ImageRecord": "irseg.batch",

@@ -32,8 +32,11 @@ from .types import RawFrame, SurveyMeta, ThermalFrame
 __all__ = [
     "ImageResult",
     "RenderedImage",
+    "PairResult",
     "process_image",
+    "process_pair",
     "render_result",
+    "render_pair",
     "failure_stage",
 ]
 
@@ -395,3 +398,100 @@ def render_result(result: ImageResult, *, cmap: str = "inferno", show_jumps: boo
     own = overlay_range_c(frame, None if zones is None else zones.zones)
     used = own if range_c is None else (float(range_c[0]), float(range_c[1]))
     return RenderedImage(overlay_png, labels_png, tuple(caught), timings["render"], own, used)
+
+
+# --------------------------------------------------------------------------- pairs under pressure
+
+
+@dataclass(frozen=True)
+class PairResult:
+    """The pair analysis of a pressurised image (:func:`process_pair`): ``reference`` (its file),
+    ``analysis`` (:class:`irseg.pairs.PairAnalysis`), ``timings`` (``pair``) and ``warnings``."""
+
+    reference: str
+    analysis: Any
+    timings: dict[str, float] = field(default_factory=dict)
+    warnings: tuple[str, ...] = ()
+
+
+def process_pair(pressed: ImageResult, reference_path: str | Path, *,
+                 overrides: Mapping[str, Mapping[str, Any]] | None = None, format: str | None = None,
+                 max_pixels: int = DEFAULT_MAX_PIXELS) -> PairResult:
+    """Compare a processed pressurised image (``pressed.meta.pressure`` names the pair) with its reference.
+
+    The reference is read, its own metadata loaded and corrected as in :func:`process_image`,
+    then registered onto the pressurised image and compared (:func:`irseg.pairs.analyse_pair`);
+    ``overrides``, ``format`` and ``max_pixels`` apply to it as there.
+
+    Raises
+    ------
+    IrsegError
+        ``MetadataError``: an unusable ``[pressure]`` section, a reference that is itself
+        pressurised; ``InputError``: views that do not overlap or match; any error of reading or
+        correcting the reference. Every exception carries the stage ``"pair"``.
+    """
+    from .controls import material_maps, zone_layer
+    from .errors import MetadataError
+    from .io import read_thermogram
+    from .metadata import load_metadata
+    from .pairs import analyse_pair
+    from .radiometry import calibrate
+
+    timings: dict[str, float] = {}
+    caught: list[str] = []
+    reference = str(reference_path)
+    pressure = pressed.meta.pressure
+    sidecar = f"{Path(pressed.path).stem}.toml"
+
+    def _check() -> None:
+        if pressure is None:
+            raise MetadataError(f"{sidecar}: no [pressure] section; name the reference image there to form a pair")
+        if pressure.problem:
+            raise MetadataError(pressure.problem)
+
+    def _reference_frame() -> ThermalFrame:
+        raw = read_thermogram(reference, format=format, max_pixels=max_pixels)
+        meta = load_metadata(reference, overrides=overrides)
+        if meta.pressure is not None:
+            raise MetadataError(
+                f"{sidecar}: [pressure] reference = \"{pressure.reference}\" is itself an image taken under a "
+                f"pressure difference (its sidecar has [pressure]); name the image of the same view taken at "
+                "ambient pressure")
+        zones = zone_layer(meta.zones, raw.data.shape, image=reference)
+        frame = calibrate(raw, meta, **material_maps(zones, meta))
+        return frame if zones is None else zones.exclude(frame)[1]
+
+    _run_stage("pair", timings, caught, _check)
+    frame = _run_stage("pair", timings, caught, _reference_frame)
+    own = [int(a.anomaly) for a in pressed.analysis.anomalies]
+    analysis = _run_stage("pair", timings, caught, lambda: analyse_pair(
+        frame, pressed.frame, pressure_pa=float(pressure.difference_pa), minutes=pressure.minutes,
+        view=pressed.meta.surface.view, first_id=max(own, default=0) + 1,
+        pixel_area_m2=getattr(pressed.analysis, "pixel_area_m2", None), own_labels=pressed.analysis.labels))
+    return PairResult(reference=reference, analysis=analysis, timings=timings, warnings=tuple(caught))
+
+
+def render_pair(pressed: ImageResult, pair: PairResult) -> tuple[bytes, bytes]:
+    """``difference.png`` (RGB) and ``pair_labels.png`` (16-bit, pixel = pair anomaly id); errors tagged ``render``."""
+    from types import SimpleNamespace
+
+    from .io import encode_png
+    from .render import label_image, render_difference
+
+    a = pair.analysis
+    reg = a.registration
+    title = getattr(pressed.meta.image, "title", None) or Path(pressed.path).name
+    n = len(a.anomalies)
+    residual = "not measurable" if reg.rms_px is None else f"{reg.rms_px:.2f} px"
+    header = (f"registration residual {residual}, shift ({reg.shift_px[0]:.1f}, {reg.shift_px[1]:.1f}) px, "
+              f"rotation {reg.rotation_deg:.2f}°, scale {reg.scale:.3f}, overlap {reg.overlap:.0%}  |  "
+              f"drift {a.drift_k:+.2f} K removed")
+
+    def _draw() -> tuple[bytes, bytes]:
+        picture = render_difference(a.difference_k, a.labels, a.anomalies,
+                                    title=f"{title}  |  ΔT against {Path(pair.reference).name}: "
+                                          f"{n} lea{'k' if n == 1 else 'ks'} at {a.pressure_pa:g} Pa",
+                                    header=header)
+        return encode_png(picture), encode_png(label_image(SimpleNamespace(labels=a.labels)))
+
+    return _run_stage("render", {}, [], _draw)

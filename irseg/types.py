@@ -36,6 +36,7 @@ __all__ = [
     "ImageDetails",
     "Costs",
     "Zone",
+    "Pressure",
     "SurveyMeta",
     "RawFrame",
     "ThermalFrame",
@@ -316,6 +317,29 @@ class Zone:
 
 
 @dataclass(frozen=True)
+class Pressure:
+    """``[pressure]`` of a pressurised image's sidecar: the pair it forms (irseg.pairs).
+
+    Attributes
+    ----------
+    reference : str or None
+        Stem of the same view at ambient pressure, in the same folder.
+    difference_pa : float or None
+        Pressure difference during this image, Pa (inside lower than outside), 1-100.
+    minutes : float or None
+        Time at that difference when the image was taken, minutes (>= 0; optional).
+    problem : str or None
+        What is wrong with the section (file, key, value and fix), None when it is usable. A
+        problem fails the pair only: the image keeps its single-image results.
+    """
+
+    reference: str | None = None
+    difference_pa: float | None = None
+    minutes: float | None = None
+    problem: str | None = None
+
+
+@dataclass(frozen=True)
 class SurveyMeta:
     """All metadata in force for one image, after folder defaults, sidecar and overrides.
 
@@ -337,6 +361,8 @@ class SurveyMeta:
         the folder's).
     costs : Costs
         ``[costs]`` of the folder's ``survey.toml`` (no prices when not given).
+    pressure : Pressure or None
+        ``[pressure]`` of a pressurised image's sidecar (None for any other image).
     """
 
     camera: Camera = field(default_factory=Camera)
@@ -350,6 +376,7 @@ class SurveyMeta:
     image: ImageDetails = field(default_factory=ImageDetails)
     zones: tuple[Zone, ...] = ()
     costs: Costs = field(default_factory=Costs)
+    pressure: Pressure | None = None
 
 
 # --------------------------------------------------------------------------- frames

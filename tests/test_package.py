@@ -186,7 +186,7 @@ def test_the_top_of_the_package_holds_only_the_agreed_names():
     allowed_modules = {"__init__", "__main__", "_version", "errors", "types", "vocabulary", "_shared",
                        "_defaults", "metadata", "pipeline"}
     allowed_packages = {"metadata", "io", "radiometry", "segmentation", "analysis", "render", "report",
-                        "batch", "cli", "scenes", "controls", "repairs"}
+                        "batch", "cli", "scenes", "controls", "repairs", "pairs"}
     modules = {p.stem for p in PACKAGE.glob("*.py")}
     packages = {p.name for p in PACKAGE.iterdir() if p.is_dir() and (p / "__init__.py").is_file()}
     assert modules <= allowed_modules, sorted(modules - allowed_modules)

@@ -24,6 +24,7 @@ from ._worker import run_task, run_task_single_threaded
 
 __all__ = [
     "Collector", "FailFast", "execute", "stamp", "write_image", "image_files", "image_folder_problem", "IMAGE_FILES",
+    "PAIR_FILES",
 ]
 
 
@@ -42,14 +43,18 @@ class FailFast(Exception):
 
 #: An image's files in its folder under OUT, result.json last (the completion marker).
 IMAGE_FILES = ("labels.png", "overlay.png", "result.json")
+#: A pressurised image's pair pictures (irseg.pairs), written before its result.json.
+PAIR_FILES = ("pair_labels.png", "difference.png")
 
 #: errno values of a write that fails for one image folder only (the run goes on).
 _IMAGE_ONLY_ERRORS = (errno.EACCES, errno.EPERM, errno.ENOTDIR, errno.EISDIR, errno.ELOOP, errno.ENAMETOOLONG)
 
 
-def image_files(stem: str) -> list[str]:
-    """An image's output files relative to OUT (POSIX), as listed in the manifest."""
-    return [f"{stem}/{name}" for name in IMAGE_FILES]
+def image_files(stem: str, *, pair: bool = False) -> list[str]:
+    """An image's output files relative to OUT (POSIX), as listed in the manifest; ``pair``: with
+    the pair pictures (:data:`PAIR_FILES`)."""
+    names = (*IMAGE_FILES[:-1], *PAIR_FILES, IMAGE_FILES[-1]) if pair else IMAGE_FILES
+    return [f"{stem}/{name}" for name in names]
 
 
 def image_folder_problem(out_dir: Path, stem: str, manifest: OutputManifest) -> str | None:
@@ -70,7 +75,7 @@ def image_folder_problem(out_dir: Path, stem: str, manifest: OutputManifest) -> 
             f"{stem}: a file named {stem} is in the output folder where this image's output folder goes; "
             "move it away or choose another output folder (the out_dir setting)"
         )
-    for rel in image_files(stem):
+    for rel in image_files(stem, pair=True):
         if manifest.in_the_way(rel):
             return (
                 f"{rel}: irseg did not write this file and never replaces one it did not write; move it "
@@ -81,7 +86,8 @@ def image_folder_problem(out_dir: Path, stem: str, manifest: OutputManifest) -> 
 
 def _failed_at_write(outcome: ImageOutcome, message: str) -> ImageOutcome:
     failure = ImageFailure(image=outcome.image, stage="write", message=message)
-    return replace(outcome, status="failed", record=None, failure=failure, overlay_png=None, labels_png=None)
+    return replace(outcome, status="failed", record=None, failure=failure, overlay_png=None, labels_png=None,
+                   difference_png=None, pair_labels_png=None)
 
 
 def _image_only(exc: OutputError) -> OSError | None:
@@ -118,14 +124,22 @@ def write_image(out_dir: Path, outcome: ImageOutcome, manifest: OutputManifest |
     folder = irio.resolve_inside(out_dir, stem)
     try:
         if outcome.status != "ok":
-            for rel in image_files(stem):
+            for rel in image_files(stem, pair=True):
                 manifest.remove(rel, hint="a stale output of an earlier run")
             return outcome
-        manifest.claim(image_files(stem))
-        manifest.remove(f"{stem}/result.json", hint="check the out_dir setting")
         assert outcome.record is not None and outcome.labels_png is not None and outcome.overlay_png is not None
+        pair = outcome.record.registration is not None
+        assert not pair or (outcome.difference_png is not None and outcome.pair_labels_png is not None)
+        manifest.claim(image_files(stem, pair=pair))
+        manifest.remove(f"{stem}/result.json", hint="check the out_dir setting")
         irio.write_bytes(folder / "labels.png", outcome.labels_png)
         irio.write_bytes(folder / "overlay.png", outcome.overlay_png)
+        if pair:  # the pair pictures (irseg.pairs)
+            irio.write_bytes(folder / "pair_labels.png", outcome.pair_labels_png)
+            irio.write_bytes(folder / "difference.png", outcome.difference_png)
+        else:
+            for name in PAIR_FILES:
+                manifest.remove(f"{stem}/{name}", hint="a stale output of an earlier run")
         irio.write_json(folder / "result.json", outcome.record.to_json())
     except OutputError as exc:
         cause = _image_only(exc)
@@ -207,7 +221,8 @@ class Collector:
         else:
             line = f"{name}: failed at {failure.stage}: {escape_line(failure.message)}"
         self.log.append(f"{stamp()} {line}")
-        self._finish(replace(outcome, overlay_png=None, labels_png=None, timings=timings, failure=failure))
+        self._finish(replace(outcome, overlay_png=None, labels_png=None, difference_png=None, pair_labels_png=None,
+                             timings=timings, failure=failure))
         if self.fail_fast and outcome.status != "ok":
             raise FailFast(outcome)
 

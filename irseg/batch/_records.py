@@ -107,6 +107,8 @@ class ImageOutcome:
         Seconds per stage (empty for skipped images).
     overlay_png, labels_png : bytes or None
         Encoded images, from the worker to the writer; dropped once written.
+    difference_png, pair_labels_png : bytes or None
+        The pair pictures of a pressurised image whose pair was analysed (irseg.pairs).
     """
 
     index: int
@@ -119,10 +121,14 @@ class ImageOutcome:
     timings: dict[str, float] = field(default_factory=dict)
     overlay_png: bytes | None = field(default=None, repr=False)
     labels_png: bytes | None = field(default=None, repr=False)
+    difference_png: bytes | None = field(default=None, repr=False)
+    pair_labels_png: bytes | None = field(default=None, repr=False)
 
 
 #: Sections of result.json kept as JSON objects (provenance; the survey tables do not read them).
 _DETAIL_KEYS = ("metadata", "parameters", "image_size", "pixels", "segmentation", "analysis")
+#: Sections only a pressurised image's result.json has (irseg.pairs): absent, not null, elsewhere.
+_PAIR_KEYS = ("registration", "pair")
 
 
 @dataclass(frozen=True)
@@ -148,6 +154,12 @@ class ImageRecord:
         ``{"key", "value", "reason"}``: each value irseg assumed because the metadata lacked it.
     metadata, parameters, image_size, pixels, segmentation, analysis : dict
         JSON sections recording how the image was processed.
+    registration : dict or None
+        A pressurised image whose pair was analysed: ``{shift_px: [row, col], rotation_deg, scale,
+        rms_px, overlap}``, the transform that maps the reference onto this image (irseg.pairs).
+    pair : dict or None
+        A pressurised image (``[pressure]`` in its sidecar): ``reference``, ``status`` (``"ok"`` or
+        ``"failed"``), ``message`` when failed, and the pressure, drift, noise and leak count when ok.
 
     Notes
     -----
@@ -171,12 +183,16 @@ class ImageRecord:
     pixels: dict[str, Any]
     segmentation: dict[str, Any]
     analysis: dict[str, Any]
+    registration: dict[str, Any] | None = None
+    pair: dict[str, Any] | None = None
 
     @property
     def outputs(self) -> dict[str, str]:
-        """The image's files, relative to OUT."""
-        return {name: f"{self.stem}/{name}.{ext}" for name, ext in
-                (("labels", "png"), ("overlay", "png"), ("result", "json"))}
+        """The image's files, relative to OUT (the pair pictures when its pair was analysed)."""
+        names = [("labels", "png"), ("overlay", "png"), ("result", "json")]
+        if self.registration is not None:
+            names += [("pair_labels", "png"), ("difference", "png")]
+        return {name: f"{self.stem}/{name}.{ext}" for name, ext in names}
 
     @classmethod
     def from_json(cls, data: Any) -> ImageRecord:
@@ -210,6 +226,7 @@ class ImageRecord:
             warnings=tuple(str(w) for w in _typed(data, "warnings", list, where)),
             assumed=tuple(dict(a) for a in assumed),
             **{key: dict(_typed(data, key, Mapping, where)) for key in _DETAIL_KEYS},
+            **{key: _optional_object(data, key, where) for key in _PAIR_KEYS},
         )
 
     def to_json(self) -> dict[str, Any]:
@@ -225,6 +242,7 @@ class ImageRecord:
             "view": self.view,
             "delta_t_k": self.delta_t_k,
             **{key: getattr(self, key) for key in _DETAIL_KEYS},
+            **{key: getattr(self, key) for key in _PAIR_KEYS if getattr(self, key) is not None},
             "warnings": list(self.warnings),
             "assumed": [dict(a) for a in self.assumed],
             "anomalies": [_anomaly_to_result(a) for a in self.anomalies],
@@ -245,8 +263,13 @@ def _anomaly_from_result(image: str, row: Any, where: str) -> SurveyAnomaly:
     return SurveyAnomaly.from_json({**values, "image": image, "image_severity": row.get("severity")}, where=where)
 
 
+#: Fields of a leak found by a pair (irseg.pairs): in result.json only for such anomalies.
+_PAIR_ONLY = ("pressure_pa", "cooling_k", "cooling_max_k")
+
+
 def _anomaly_to_result(anomaly: SurveyAnomaly) -> dict[str, Any]:
-    row = {key: value for key, value in anomaly.to_json().items() if key not in _SURVEY_ONLY}
+    row = {key: value for key, value in anomaly.to_json().items()
+           if key not in _SURVEY_ONLY and not (key in _PAIR_ONLY and value is None)}
     row["severity"] = anomaly.image_severity
     return row
 
@@ -259,6 +282,16 @@ def _typed(data: Mapping[str, Any], key: str, kind: Any, where: str, **default: 
     if not isinstance(value, kind) or isinstance(value, bool):
         raise ConfigError(f"{where}: {key} = {value!r} is not what irseg writes; delete the file to recompute the image")
     return value
+
+
+def _optional_object(data: Mapping[str, Any], key: str, where: str) -> dict[str, Any] | None:
+    value = data.get(key)
+    if value is None:
+        return None
+    if not isinstance(value, Mapping):
+        raise ConfigError(f"{where}: {key} = {value!r:.60} is not what irseg writes; delete the file to "
+                          "recompute the image")
+    return dict(value)
 
 
 def worker_died(task: dict[str, Any]) -> ImageOutcome:

@@ -3,6 +3,10 @@
 An image is complete when its ``result.json`` (written last) holds the fingerprint of the
 input's bytes, its metadata files, the settings and irseg's version, and its two pictures
 exist. ``resume=True`` skips complete images; every other image becomes a task.
+
+A pressurised image (``[pressure]`` in its sidecar, :mod:`irseg.pairs`) is computed with its
+reference, so its fingerprint also covers the reference's bytes and metadata files, and its
+task names the reference's file (or why none can be used: the pair then fails alone).
 """
 
 from __future__ import annotations
@@ -21,7 +25,8 @@ from .. import io as irio
 from .._version import __version__
 from ..errors import ConfigError, InputError
 from ._inputs import InputImage, relativise
-from ._loop import image_files, image_folder_problem
+from ..metadata import pressure_reference
+from ._loop import PAIR_FILES, image_files, image_folder_problem
 from ._records import ImageFailure, ImageOutcome, ImageRecord, SurveySettings
 
 __all__ = ["fingerprint_input", "load_complete", "SurveyPlan", "plan_survey"]
@@ -104,7 +109,41 @@ def load_complete(
         return None
     if not (folder / "labels.png").is_file() or not (folder / "overlay.png").is_file():
         return None
+    if record.registration is not None and not all(
+        (folder / name).is_file() and (manifest is None or manifest.owns(f"{item.stem}/{name}")) for name in PAIR_FILES
+    ):
+        return None
     return record
+
+
+def _pair_reference(item: InputImage,
+                    by_folder: dict[str, list[InputImage]]) -> tuple[bool, InputImage | None, str | None]:
+    """``(is a pressurised image, its reference, why no reference can be used)`` from its metadata texts."""
+    try:
+        texts = irio.read_metadata_texts(item.path)
+    except InputError:
+        return False, None, None  # the metadata stage fails the image itself
+    if not any("pressure" in text for _name, text in texts):
+        return False, None, None
+    name = pressure_reference(texts)
+    if name is None:
+        return True, None, None  # the section's own problem fails the pair (irseg.metadata._pressure)
+    sidecar = f"{Path(item.path).stem}.toml"
+    folder = os.path.dirname(item.path)
+    matches = [o for o in by_folder.get(folder, []) if Path(o.path).stem == name] \
+        or [o for o in by_folder.get(folder, []) if Path(o.path).name == name]
+    if len(matches) == 1 and matches[0].path == item.path:
+        return True, None, (f"{sidecar}: [pressure] reference = \"{name}\" names this image itself; name the image "
+                            "of the same view taken at ambient pressure")
+    if len(matches) > 1:
+        names = ", ".join(Path(o.path).name for o in matches)
+        return True, None, (f"{sidecar}: [pressure] reference = \"{name}\" matches several images ({names}); "
+                            "give the reference's file name with its suffix")
+    if not matches:
+        return True, None, (f"{sidecar}: [pressure] reference = \"{name}\" names no image of this survey in its "
+                            "folder; give the stem of the image of the same view taken at ambient pressure, in the "
+                            "same folder, and include that image in the run")
+    return True, matches[0], None
 
 
 @dataclass(frozen=True)
@@ -138,13 +177,18 @@ def plan_survey(
     *,
     resume: bool,
     manifest: OutputManifest | None = None,
+    survey: Sequence[InputImage] | None = None,
 ) -> SurveyPlan:
     """Fingerprint every image; keep the complete ones when resuming, make tasks of the rest.
 
     With a ``manifest``, an image whose output folder is in the way fails at ``write`` without
-    being computed (:func:`irseg.batch._loop.image_folder_problem`).
+    being computed (:func:`irseg.batch._loop.image_folder_problem`). ``survey`` (default
+    ``items``) holds every image of the survey, where pressurised images find their reference.
     """
     plan = SurveyPlan([], [], [], [])
+    by_folder: dict[str, list[InputImage]] = {}
+    for other in (items if survey is None else survey):
+        by_folder.setdefault(os.path.dirname(other.path), []).append(other)
     for item in items:
         base = item.base or root
         problem = image_folder_problem(out_dir, item.stem, manifest) if manifest is not None else None
@@ -152,8 +196,15 @@ def plan_survey(
             failure = ImageFailure(image=item.image, stage="write", message=problem)
             plan.blocked.append(ImageOutcome(item.index, item.image, item.stem, "failed", failure=failure))
             continue
+        pressurised, reference, problem = _pair_reference(item, by_folder)
         try:
             fingerprint = fingerprint_input(item.path, settings)
+            if reference is not None:  # the pair is computed with this image: its reference counts too
+                try:
+                    fingerprint = _combined(fingerprint, fingerprint_input(reference.path, settings))
+                except InputError as exc:
+                    reference, problem = None, escape_text(relativise(str(exc), base))
+                    fingerprint = _combined(fingerprint, "unreadable reference")
         except InputError as exc:  # unreadable file: that image alone fails
             message = escape_text(relativise(str(exc), base))
             failure = ImageFailure(image=item.image, stage="read", message=message)
@@ -163,8 +214,19 @@ def plan_survey(
         if record is not None:
             plan.resumed.append(ImageOutcome(item.index, item.image, item.stem, "ok", record=record, skipped=True))
             continue
-        plan.tasks.append({
+        task = {
             "index": item.index, "path": item.path, "image": item.image, "rel": item.rel,
             "stem": item.stem, "root": base, "fingerprint": fingerprint, "settings": settings,
-        })
+        }
+        if pressurised:
+            task["pair"] = True
+            task["reference"] = None if reference is None else {"path": reference.path, "image": reference.image}
+            task["reference_problem"] = problem
+        plan.tasks.append(task)
     return plan
+
+
+def _combined(fingerprint: str, reference: str) -> str:
+    """A pressurised image's fingerprint: its own and its reference's."""
+    digest = hashlib.sha256(b"irseg-pair-1\0" + fingerprint.encode() + b"\0" + reference.encode())
+    return "sha256:" + digest.hexdigest()

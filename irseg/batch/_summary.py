@@ -18,7 +18,8 @@ from ..vocabulary import CAUSES, CAUTIONS
 from ._inputs import SkippedFile
 from ._records import ImageOutcome, ImageRecord
 
-__all__ = ["FAILURE_COLUMNS", "build_summary", "survey_anomalies", "survey_records", "rank_survey", "table_rows"]
+__all__ = ["FAILURE_COLUMNS", "build_summary", "survey_anomalies", "survey_records", "rank_survey", "table_rows",
+           "pair_rows", "pair_failures"]
 
 #: Columns of OUT/failures.csv (an interface: ``file`` is the image's name in the outputs).
 FAILURE_COLUMNS = ("file", "stage", "message")
@@ -204,3 +205,34 @@ def build_summary(
         "review": review,
     }
     return normalise_json(summary)
+
+
+def pair_rows(records: Sequence[ImageRecord]) -> list[dict[str, Any]]:
+    """summary.json's ``pairs``: one row per pressurised image, in input order (irseg.pairs).
+
+    Each row: ``image`` (the pressurised image), ``reference``, ``status`` (``"ok"``/``"failed"``),
+    ``message`` (when failed), ``registration`` (result.json's), the pair figures (pressure, minutes,
+    drift, noise, leak count), the leak ids (``anomalies``) and the pair pictures (``difference``,
+    ``pair_labels``, relative to OUT; None when failed).
+    """
+    rows = []
+    for record in records:
+        if record.pair is None:
+            continue
+        ok = record.registration is not None and record.pair.get("status") == "ok"
+        leaks = [a.anomaly for a in record.anomalies if a.pressure_pa is not None]
+        rows.append({
+            **dict(record.pair),
+            "image": record.image,
+            "registration": dict(record.registration) if ok else None,
+            "anomalies": leaks,
+            "difference": record.outputs.get("difference") if ok else None,
+            "pair_labels": record.outputs.get("pair_labels") if ok else None,
+        })
+    return rows
+
+
+def pair_failures(records: Sequence[ImageRecord]) -> list[tuple[str, str]]:
+    """``(image, message)`` of each pair that failed (a row of failures.csv with stage ``pair``)."""
+    return [(r.image, str(r.pair.get("message") or "the pair failed")) for r in records
+            if r.pair is not None and r.pair.get("status") == "failed"]

@@ -217,7 +217,7 @@ def _run_locked(
     log = [f"{stamp()} irseg {__version__}: {len(items)} images into {escape_line(str(out_path))}"]
     log += [f"{stamp()} skipped {escape_line(s.file)}: {escape_line(s.reason)}" for s in found.skipped]
     plan = plan_survey(items, found.root, settings, out_path, resume=resume, manifest=manifest)
-    manifest.claim(rel for task in plan.tasks for rel in image_files(task["stem"]))
+    manifest.claim(rel for task in plan.tasks for rel in image_files(task["stem"], pair=bool(task.get("pair"))))
     collector = Collector(
         out_path, total=len(items), log=log, on_progress=on_progress, fail_fast=fail_fast, manifest=manifest
     )
@@ -293,7 +293,7 @@ def _redraw_with_survey_range(found: SurveyInputs, out_path: Path, settings: Sur
     if not stale:
         return
     items = [item for item in found.images if item.index in stale]
-    plan = plan_survey(items, found.root, settings, out_path, resume=False, manifest=manifest)
+    plan = plan_survey(items, found.root, settings, out_path, resume=False, manifest=manifest, survey=found.images)
     for task in plan.tasks:
         task["range_c"] = common
     collector.total += len(plan.tasks)

@@ -23,7 +23,7 @@ from ..repairs import CONFIRM_COLUMNS, REPAIR_COLUMNS, survey_repairs
 from ._inputs import RESERVED_NAMES, SkippedFile
 from ._loop import stamp
 from ._records import ImageFailure, ImageOutcome, ImageRecord
-from ._summary import FAILURE_COLUMNS, build_summary, rank_survey, survey_records
+from ._summary import FAILURE_COLUMNS, build_summary, pair_failures, pair_rows, rank_survey, survey_records
 
 __all__ = ["SurveyFiles", "write_survey_files", "check_survey_names"]
 
@@ -118,7 +118,13 @@ def write_survey_files(
     notes += _condition_notes(records)
     summary = build_summary(ordered, anomalies, skipped, review=review_info, photos=photo_names, notes=notes)
     summary = {**summary, "repairs": irio.normalise_json(repairs.summary)}  # the repair plan (irseg.repairs)
-    failures = tuple(o.failure for o in ordered if o.failure is not None)
+    # pairs under a pressure difference (irseg.pairs): a failed pair is a failures.csv row of stage "pair"
+    failed_pairs = [ImageFailure(image=image, stage="pair", message=message)
+                    for image, message in pair_failures(records)]
+    summary = {**summary, "pairs": irio.normalise_json(pair_rows(records)),
+               "failures": [*summary["failures"], *({"file": f.image, "stage": f.stage, "message": f.message}
+                                                     for f in failed_pairs)]}
+    failures = (*(o.failure for o in ordered if o.failure is not None), *failed_pairs)
     contents: dict[str, bytes | None] = {
         "anomalies.csv": _anomalies_csv(anomalies, csv_dialect),
         "repairs.csv": irio.csv_bytes(repairs.rows, REPAIR_COLUMNS),
@@ -160,7 +166,15 @@ def _render_report(out_dir: Path, summary: dict[str, Any], ordered: Sequence[Ima
                 overlays[outcome.image] = irio.read_small_bytes(path, max_bytes=1 << 30, what="overlay")
             except InputError as exc:
                 raise OutputError(f"cannot read back the overlay: {exc}") from None
-    return render_report(summary, overlays, photos=photos)
+    differences: dict[str, bytes] = {}
+    for row in summary.get("pairs") or ():  # the pair pictures (irseg.pairs)
+        if row.get("difference"):
+            try:
+                differences[row["image"]] = irio.read_small_bytes(out_dir / row["difference"], max_bytes=1 << 30,
+                                                                  what="difference picture")
+            except InputError as exc:
+                raise OutputError(f"cannot read back the difference picture: {exc}") from None
+    return render_report(summary, overlays, photos=photos, differences=differences)
 
 
 # --------------------------------------------------------------------------- review and photos

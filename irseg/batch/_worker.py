@@ -68,7 +68,7 @@ def import_stages() -> None:
     import importlib
 
     for name in ("irseg.io", "irseg.metadata", "irseg.radiometry", "irseg.segmentation", "irseg.analysis",
-                 "irseg.render"):
+                 "irseg.render", "irseg.pairs"):
         importlib.import_module(name)
 
 
@@ -112,8 +112,9 @@ def run_task(task: dict[str, Any]) -> ImageOutcome:
         rendered = render_result(result, cmap=settings.cmap, show_jumps=settings.show_jumps,
                                  range_c=task.get("range_c") or fixed)
         timings["render"] = rendered.seconds
+        pair, pair_pngs, pair_info = _run_pair(result, task, timings)
         stage = "write"
-        record = _make_record(result, task, rendered.warnings, rendered)
+        record = _make_record(result, task, rendered.warnings, rendered, pair=pair, pair_info=pair_info)
     except Exception as exc:  # one bad input must never stop the survey
         stage = failure_stage(exc) or stage
         if isinstance(exc, IrsegError):
@@ -133,7 +134,53 @@ def run_task(task: dict[str, Any]) -> ImageOutcome:
     return ImageOutcome(
         task["index"], image, stem, "ok", record=record, timings=timings,
         overlay_png=rendered.overlay_png, labels_png=rendered.labels_png,
+        difference_png=None if pair_pngs is None else pair_pngs[0],
+        pair_labels_png=None if pair_pngs is None else pair_pngs[1],
     )
+
+
+def _run_pair(result: Any, task: dict[str, Any], timings: dict[str, float]) -> tuple[Any, Any, dict[str, Any] | None]:
+    """The pair analysis of a pressurised image: ``(PairResult, (difference, pair_labels) PNGs, pair info)``.
+
+    Never raises: a failing pair (its ``[pressure]`` section, a reference missing or itself
+    pressurised, views that do not overlap) is recorded in the pair info and fails the pair alone;
+    the image keeps its single-image results. ``(None, None, None)`` for an image without ``[pressure]``.
+    """
+    from ..pipeline import process_pair, render_pair
+
+    pressure = getattr(result.meta, "pressure", None)
+    if pressure is None:
+        return None, None, None
+    settings: SurveySettings = task["settings"]
+    reference = task.get("reference") or {}
+    info: dict[str, Any] = {"reference": reference.get("image") or pressure.reference}
+    try:
+        from ..errors import MetadataError
+
+        if pressure.problem:
+            raise MetadataError(pressure.problem)
+        if task.get("reference_problem") or not reference.get("path"):
+            raise MetadataError(task.get("reference_problem") or (
+                f"{stem_of(task)}.toml: [pressure] reference = \"{pressure.reference}\" names no image of this "
+                "survey; give the stem of the image of the same view taken at ambient pressure, in the same folder"))
+        pair = process_pair(result, reference["path"], overrides=settings.overrides or None,
+                            format=settings.format, max_pixels=settings.max_pixels)
+        timings["pair"] = sum(pair.timings.values())
+        pngs = render_pair(result, pair)
+    except Exception as exc:  # the pair fails alone
+        message = str(exc) if isinstance(exc, IrsegError) else (
+            f"unexpected {type(exc).__name__}: {exc} (the verbose setting shows the traceback)")
+        info.update(status="failed", message=_relativise(message, task["root"]))
+        return None, None, info
+    a = pair.analysis
+    info.update(status="ok", pressure_pa=a.pressure_pa, minutes=a.minutes, drift_k=a.drift_k, noise_k=a.noise_k,
+                correlation=a.registration.correlation, n_anomalies=len(a.anomalies))
+    return pair, pngs, info
+
+
+def stem_of(task: dict[str, Any]) -> str:
+    """The input file's stem (its sidecar is ``<stem>.toml``)."""
+    return os.path.splitext(os.path.basename(task["path"]))[0]
 
 
 def _dedupe(messages: Iterable[str], root: str) -> list[str]:
@@ -145,8 +192,14 @@ def _dedupe(messages: Iterable[str], root: str) -> list[str]:
     return seen
 
 
-def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[str], rendered: Any = None) -> ImageRecord:
-    """The content of result.json for one processed image (built from normalised JSON data)."""
+def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[str], rendered: Any = None, *,
+                 pair: Any = None, pair_info: dict[str, Any] | None = None) -> ImageRecord:
+    """The content of result.json for one processed image (built from normalised JSON data).
+
+    A pressurised image's pair anomalies follow its own in ``anomalies`` (ids continue the
+    sequence), with ``pressure_pa``, ``cooling_k`` and ``cooling_max_k``; ``registration`` and
+    ``pair`` are added for it alone.
+    """
     from dataclasses import asdict, is_dataclass
 
     from ..metadata import meta_to_dict
@@ -165,6 +218,8 @@ def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[st
     inside, outside = meta.air.inside_c, meta.air.outside_c
     delta_t = None if inside is None or outside is None else float(inside) - float(outside)
     anomalies = [asdict(a) for a in analysis.anomalies]
+    if pair is not None:  # the leaks found by the pair, after the image's own anomalies
+        anomalies += [{k: v for k, v in asdict(a).items() if k != "pattern"} for a in pair.analysis.anomalies]
     assumed = [  # SurveyMeta.assumed: what the metadata lacked and irseg assumed
         {"key": a.key, "value": a.value, "reason": _relativise(str(a.reason), root)}
         for a in getattr(meta, "assumed", ())
@@ -209,4 +264,8 @@ def _make_record(result: Any, task: dict[str, Any], render_warnings: Sequence[st
         "assumed": assumed,
         "anomalies": anomalies,
     }
+    if pair_info is not None:
+        record["pair"] = pair_info
+        if pair is not None:
+            record["registration"] = pair.analysis.registration.to_json()
     return ImageRecord.from_json(irio.normalise_json(record))

@@ -116,8 +116,10 @@ def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, job
             bar.close()
     if not quiet:
         resumed = f" ({result.n_skipped} resumed)" if result.n_skipped else ""
-        failed = (f", {result.n_failed} failed (see {escape_name(str(out_dir / 'failures.csv'))})"
-                  if result.n_failed else "")
+        n_pairs = sum(f.stage == "pair" for f in result.failures)  # pairs under pressure (irseg.pairs)
+        parts = [f"{result.n_failed - n_pairs} failed"] if result.n_failed > n_pairs else []
+        parts += [f"{n_pairs} pair{'' if n_pairs == 1 else 's'} under pressure failed"] if n_pairs else []
+        failed = (f", {', '.join(parts)} (see {escape_name(str(out_dir / 'failures.csv'))})" if parts else "")
         defects = result.summary["defects"]  # the same figures as the report's first page
         heat = _heat_text(defects["excess_w"], defects["excess_kwh_year"], n_anomalies=int(defects["count"]),
                           n_unmeasured=int(defects.get("n_unmeasured") or 0))

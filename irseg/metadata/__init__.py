@@ -18,7 +18,8 @@ Every number has an accepted range, what a building survey can have, with its re
 
 Modules: ``_bounds`` (ranges and their reasons), ``_checks`` (value checks), ``_schema``
 (sections, keys, renamed keys, validation), ``_assume`` (defaults resolved and recorded),
-``_load`` (parse, merge, load, JSON round trip), ``_survey`` (checks across images).
+``_load`` (parse, merge, load, JSON round trip), ``_survey`` (checks across images), ``_pressure``
+(the ``[pressure]`` section of a pair, whose problems fail the pair only).
 """
 
 from __future__ import annotations
@@ -35,6 +36,7 @@ from ._load import (
 )
 from ._details import DETAIL_SECTIONS, check_details, details_from
 from ._survey import survey_condition_warnings
+from ._pressure import PRESSURE_BOUNDS, PRESSURE_KEYS, check_pressure, pressure_reference, pressure_to_dict
 from ._zones import ZONE_KEYS, ZONE_KINDS, check_zone_tables, zone_to_dict
 
 __all__ = [
@@ -46,6 +48,11 @@ __all__ = [
     "meta_from_dict",
     "SURVEY_FILE",
     "survey_condition_warnings",
+    "check_pressure",
+    "pressure_reference",
+    "pressure_to_dict",
+    "PRESSURE_BOUNDS",
+    "PRESSURE_KEYS",
     "BOUNDS",
     "Bound",
     "BAND_LIMITS_UM",

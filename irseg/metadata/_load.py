@@ -9,11 +9,12 @@ from collections.abc import Mapping
 from typing import Any
 
 from ._details import details_from
+from ._pressure import pressure_to_dict
 from ._zones import zone_to_dict
 from ..errors import InputError, MetadataError
 from ..io import SURVEY_FILE, read_metadata_texts
 from ..repairs._costs import costs_from, costs_to_dict
-from ..types import Assumption, SurveyMeta
+from ..types import Assumption, Pressure, SurveyMeta
 from ._assume import _md_assume
 from ._checks import _md_kind
 from ._schema import _SECTIONS, _md_validate
@@ -106,16 +107,19 @@ def merge_metadata(*layers: Mapping[str, Mapping[str, Any]], sources: tuple[str,
     """
     merged: dict[str, dict[str, Any]] = {sec: {} for sec in (*_SECTIONS, "survey", "image", "costs")}
     zones: list[Any] = []
+    pressure = None
     for layer in layers:
         for sec, table in layer.items():
             if sec == "zone":
                 zones.extend(table)  # a sidecar's zones add to the folder's
+            elif sec == "pressure":
+                pressure = table  # a Pressure record (irseg.metadata._pressure): the last layer's
             else:
                 merged[sec].update(table)
     parts = {sec: cls(**merged[sec]) for sec, cls in _SECTIONS.items()}
     details = {sec: details_from(sec, merged[sec]) for sec in ("survey", "image")}
     meta = SurveyMeta(**parts, **details, zones=tuple(zones), sources=tuple(sources),
-                      costs=costs_from(merged["costs"]))
+                      costs=costs_from(merged["costs"]), pressure=pressure)
     return _md_assume(meta, merged["surface"])
 
 
@@ -175,6 +179,10 @@ def _md_placed(layer: dict[str, Any], *, source: str) -> dict[str, Any]:
             f"{source}: [image] describes one image; move it to that image's sidecar <stem>.toml "
             "([survey] holds what the whole folder shares)"
         )
+    if folder_file and "pressure" in layer:  # the pair fails, the images do not (irseg.types.Pressure)
+        layer = {**layer, "pressure": Pressure(problem=(
+            f"{source}: [pressure] describes one image taken under a pressure difference; move it to that "
+            "image's sidecar <stem>.toml"))}
     if not folder_file and "costs" in layer:
         raise MetadataError(
             f"{source}: [costs] holds the survey's prices; move it to {SURVEY_FILE} in the survey's folder"
@@ -205,6 +213,8 @@ def meta_to_dict(meta: SurveyMeta) -> dict[str, Any]:
         out[sec] = {f.name: getattr(obj, f.name) for f in dataclasses.fields(obj) if getattr(obj, f.name) is not None}
     out["zone"] = [zone_to_dict(z) for z in meta.zones]
     out["costs"] = costs_to_dict(meta.costs)
+    if meta.pressure is not None:  # only a pressurised image's record has the section
+        out["pressure"] = pressure_to_dict(meta.pressure)
     out["sources"] = list(meta.sources)
     out["assumed"] = [{"key": a.key, "value": a.value, "reason": a.reason} for a in meta.assumed]
     return out

@@ -15,6 +15,7 @@ from collections.abc import Mapping
 from typing import Any
 
 from ._details import check_details
+from ._pressure import check_pressure
 from ._zones import check_zone_tables
 from ..errors import MetadataError, MetadataWarning
 from ..repairs._costs import check_costs
@@ -111,14 +112,17 @@ _SCHEMA: dict[str, dict[str, _Check]] = {
 
 #: Sections that are not settings (checked by irseg.controls and irseg.repairs): free-text details,
 #: zones and prices. ``[survey]`` and ``[costs]`` belong in survey.toml, ``[image]`` in a sidecar,
-#: ``[[zone]]`` in either.
-_EXTRA_SECTIONS = ("survey", "image", "zone", "costs")
+#: ``[[zone]]`` in either. ``[pressure]`` (a sidecar's pair, ``_pressure``) never raises: its problem
+#: fails the pair only.
+_EXTRA_SECTIONS = ("survey", "image", "zone", "costs", "pressure")
 
 
 def _md_extra(source: str, sec: str, table: Any) -> Any:
     """A checked ``[survey]``/``[image]``/``[costs]`` table (dict) or ``[[zone]]`` list (tuple of Zone)."""
     if sec == "costs":
         return check_costs(source, table)
+    if sec == "pressure":
+        return check_pressure(source, table)
     return check_zone_tables(source, table) if sec == "zone" else check_details(source, sec, table)
 
 

@@ -11,6 +11,7 @@ the job of :mod:`irseg.io`; nothing here touches the filesystem.
 from __future__ import annotations
 
 from ._confirm_marks import draw_confirm_marks
+from ._difference import diverging_lut, render_difference
 from ._colours import COLORMAPS, colormap_lut, display_range
 from ._layout import MAX_DISPLAY_SIDE, OverlayLayout, overlay_layout, scale_bar_length_m
 from ._overlay import draw_zones, label_image, overlay_range_c, render_overlay
@@ -28,4 +29,6 @@ __all__ = [
     "draw_zones",
     "draw_confirm_marks",
     "overlay_range_c",
+    "render_difference",
+    "diverging_lut",
 ]

@@ -39,13 +39,13 @@ def _decimals(step: float) -> int:
     return max(0, -exponent + (1 if mantissa == 2.5 else 0))
 
 
-def draw_colour_bar(canvas: np.ndarray, lut: np.ndarray, lo: float, hi: float, lay: Any) -> None:
+def draw_colour_bar(canvas: np.ndarray, lut: np.ndarray, lo: float, hi: float, lay: Any, unit: str = "°C") -> None:
     h = lay.bar_row1 - lay.bar_row0
     pos = np.arange(h, dtype=np.float64)
     idx = np.round((h - 1 - pos) * (255.0 / max(h - 1, 1))).astype(np.intp)
     canvas[lay.bar_row0 : lay.bar_row1, lay.bar_col0 : lay.bar_col1] = lut[idx][:, None, :]
     cv2.rectangle(canvas, (lay.bar_col0 - 1, lay.bar_row0 - 1), (lay.bar_col1, lay.bar_row1), MUTED, 1)
-    draw_text(canvas, "°C", (lay.bar_col0 - 2, lay.bar_row0 - 6), FONT_SCALE, FOREGROUND, 1)
+    draw_text(canvas, unit, (lay.bar_col0 - 2, lay.bar_row0 - 6), FONT_SCALE, FOREGROUND, 1)
     step = _nice_step(hi - lo, max(2, h // 45))
     digits = _decimals(step)
     first = math.ceil(lo / step - 1e-9)

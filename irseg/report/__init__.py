@@ -175,8 +175,35 @@ def _totals_rows(by_cause: Mapping[str, Any]) -> list[dict[str, Any]]:
     return rows
 
 
+def _pair_sections(summary: Mapping[str, Any], images: list[dict[str, Any]], anomalies: list[SurveyAnomaly],
+                   differences: Mapping[str, bytes], link: bool) -> list[dict[str, Any]]:
+    """One section per pair of ``summary["pairs"]`` (irseg.pairs): both overlays, the difference, the leaks."""
+    by_name = {str(i.get("image")): i for i in images}
+    out = []
+    for k, row in enumerate(_list(summary, "pairs")):
+        if not isinstance(row, Mapping):
+            raise ConfigError(f"report: summary['pairs'][{k}] must be an object, got {type(row).__name__}")
+        pair = dict(row)
+        name, reference = str(pair.get("image")), str(pair.get("reference"))
+        pair["pressed"] = by_name.get(name, {})
+        pair["ambient"] = by_name.get(reference, {})
+        png = differences.get(name)
+        if link and isinstance(pair.get("difference"), str):
+            pair["difference_uri"] = pair["difference"]
+        else:
+            pair["difference_uri"] = _data_uri(name, png) if png is not None else None
+        pair["leaks"] = sorted((a for a in anomalies if a.image == name and a.pressure_pa is not None),
+                               key=lambda a: a.anomaly)
+        reg = pair.get("registration")
+        pair["registration"] = dict(reg) if isinstance(reg, Mapping) else None
+        for key in ("status", "message", "pressure_pa", "minutes", "drift_k"):
+            pair.setdefault(key, None)
+        out.append(pair)
+    return out
+
+
 def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes],
-                photos: Mapping[str, bytes]) -> dict[str, Any]:
+                photos: Mapping[str, bytes], differences: Mapping[str, bytes] | None = None) -> dict[str, Any]:
     images = [dict(i) for i in _list(summary, "images")]
     every = sorted(
         (SurveyAnomaly.from_json(a, where=f"report: summary['anomalies'][{k}]")
@@ -247,6 +274,7 @@ def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes],
         "warnings": [dict(w) for w in _list(summary, "warnings")],
         "cautions": list(CAUTIONS) + list(dict.fromkeys(extra)),
         "repairs": _repairs(summary.get("repairs")),
+        "pairs": _pair_sections(summary, images, anomalies, differences or {}, link),
     }
 
 
@@ -287,7 +315,8 @@ def _environment() -> Any:
 
 
 def render_report(
-    summary: Mapping[str, Any], overlays: Mapping[str, bytes], *, photos: Mapping[str, bytes] | None = None
+    summary: Mapping[str, Any], overlays: Mapping[str, bytes], *, photos: Mapping[str, bytes] | None = None,
+    differences: Mapping[str, bytes] | None = None,
 ) -> str:
     """Render the survey report as one self-contained HTML page.
 
@@ -310,6 +339,10 @@ def render_report(
     photos : mapping of str to bytes, optional
         JPEG or PNG bytes of each image's visible photo (scaled; :func:`irseg.controls.photo_thumbnail`),
         shown beside its overlay.
+    differences : mapping of str to bytes, optional
+        PNG bytes of each pressurised image's ``difference.png`` (:mod:`irseg.pairs`), keyed by its
+        name; with ``summary["pairs"]`` the report has a section per pair: both images side by
+        side, the difference and the leaks.
 
     Returns
     -------
@@ -338,5 +371,7 @@ def render_report(
         raise ConfigError(f"report: overlays must map image names to PNG bytes, got {type(overlays).__name__}")
     if photos is not None and not isinstance(photos, Mapping):
         raise ConfigError(f"report: photos must map image names to JPEG or PNG bytes, got {type(photos).__name__}")
-    model = _view_model(summary, overlays, photos or {})
+    if differences is not None and not isinstance(differences, Mapping):
+        raise ConfigError(f"report: differences must map image names to PNG bytes, got {type(differences).__name__}")
+    model = _view_model(summary, overlays, photos or {}, differences)
     return _environment().get_template("report.html").render(**model)

@@ -34,6 +34,8 @@ ANOMALY_COLUMNS = (
     "area_px",
     # the thermographer's review and the image's details (irseg.controls), appended
     "review", "note", "title", "element",
+    # pairs under a pressure difference (irseg.pairs), appended; empty for single-image anomalies
+    "pressure_pa", "cooling_k", "cooling_max_k",
 )
 
 
@@ -67,6 +69,10 @@ class SurveyAnomaly:
         The review's note.
     title, element : str or None
         ``[image] title`` and ``element`` of the image's sidecar.
+    pressure_pa, cooling_k, cooling_max_k : float or None
+        An anomaly of a pair under a pressure difference (:mod:`irseg.pairs`): the pressure
+        difference, Pa, and the mean and largest extra cooling between the shots, K (negative:
+        warming, outside view); None for single-image anomalies.
     """
 
     image: str
@@ -103,6 +109,9 @@ class SurveyAnomaly:
     note: str | None = None
     title: str | None = None
     element: str | None = None
+    pressure_pa: float | None = None
+    cooling_k: float | None = None
+    cooling_max_k: float | None = None
 
     @classmethod
     def from_json(cls, data: Mapping[str, Any], *, where: str = "anomaly") -> SurveyAnomaly:
@@ -175,6 +184,8 @@ CSV_DECIMALS = {
     **dict.fromkeys(("mean_c", "min_c", "max_c", "reference_c", "delta_k"), 2),
     "f_rsi": 2,
     **dict.fromkeys(("centroid_row", "centroid_col"), 1),
+    **dict.fromkeys(("cooling_k", "cooling_max_k"), 2),
+    "pressure_pa": 1,
 }
 
 #: CSV dialects of anomalies.csv: name -> (cell separator, decimal mark). ``rfc4180`` is the default;

@@ -285,6 +285,10 @@ def make_sample_survey(directory: str | os.PathLike[str], *, recipes: tuple[Imag
     write_truth_json(d / "truth.json", payload)
     write_text(d / "README.md", _readme(records))
     write_npz(d / "truth_masks.npz", {stem: np.asarray(m, bool) for stem, m in masks.items()})
+    if recipes is SAMPLE_RECIPES:  # the pair under a pressure difference (irseg.scenes._pairs; issue 16)
+        from irseg.scenes._pairs import export_sample_pair
+
+        export_sample_pair(d)
     return records
 
 

@@ -30,8 +30,9 @@ def test_survey_anomaly_has_the_image_every_anomaly_field_and_the_survey_rank():
     # (issue 14: it replaced the survey-level severity) plus the survey-level fields (issue 13): the
     # survey-wide name, the review and the image's details
     survey_level = ["uid", "review", "note", "title", "element"]
+    pair_level = ["pressure_pa", "cooling_k", "cooling_max_k"]  # leaks found by a pair (irseg.pairs, issue 16)
     expected = ["image", *(("image_severity" if n == "severity" else n) for n in analysis_fields), "rank",
-                *survey_level]
+                *survey_level, *pair_level]
     assert sorted(survey_fields) == sorted(expected)
     assert set(ANOMALY_COLUMNS) <= set(survey_fields)
 
