@@ -190,7 +190,7 @@ def _framing(measured: list, pixel_m: float | None) -> tuple[dict, dict]:
     """Regular parallel sets and straight bands of pieces among the measured anomalies."""
     shapes = {m.cand.label: m.shape for m in measured}
     kinds = {m.cand.label: m.kind for m in measured}
-    sets = find_regular_sets(shapes, kinds, pixel_m=pixel_m)
+    sets = find_regular_sets(shapes, kinds, pixel_m=pixel_m, deltas={m.cand.label: m.cand.delta_k for m in measured})
     lines = find_lines(
         shapes, kinds, {m.cand.label: m.cand.delta_k for m in measured}, pixel_m=pixel_m, exclude=set(sets),
         bboxes={m.cand.label: m.bbox for m in measured},

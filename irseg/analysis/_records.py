@@ -11,7 +11,8 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ..types import SurveyMeta
-from ._classify import classify_cause
+from ._bridges import linear_figures
+from ._classify import classify_cause, framing_summary_reason
 from ._confidence import BandInputs, confidence_bands
 from ._framing import LineInfo
 from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
@@ -71,8 +72,10 @@ def group_units(
 ) -> list[list[Measured]]:
     """Units in raster order of their top-left corner.
 
-    Pieces of one framing member (same ``(set, line)``) form one unit, a member
-    interrupted by other anomalies; fragments join their host's unit.
+    Pieces of one framing member (same ``(set, line)`` of a line found by
+    :func:`._framing.find_lines`) form one unit, a member interrupted by other anomalies;
+    every member of one regular set is one unit (the framing summary); fragments join
+    their host's unit.
     """
     members: dict[tuple[int, int], list[Measured]] = {}
     units: list[list[Measured]] = []
@@ -85,8 +88,9 @@ def group_units(
             units.append([m])
             by_label[m.cand.label] = units[-1]
         else:
-            members.setdefault(info[2], []).append(m)
-            by_label[m.cand.label] = members[info[2]]
+            key = (info[2][0], -1) if info[2][0] > 0 else info[2]  # a set: all its members
+            members.setdefault(key, []).append(m)
+            by_label[m.cand.label] = members[key]
     for m in measured:
         if m.cand.label in host_of:
             by_label[host_of[m.cand.label]].append(m)
@@ -122,7 +126,19 @@ def _cause(
     unit: list[Measured], main: Measured, *, ctx: ImageContext, delta_k: float, mean_c: float,
     sets: dict[int, LineInfo], lines: dict[int, LineInfo], host_of: dict[int, int], contact: dict[str, float],
 ) -> tuple[str, str]:
-    """Cause of the unit's main piece, the reason telling how many pieces were joined."""
+    """Cause of the unit's main piece, the reason telling how many pieces were joined.
+
+    A unit holding two or more members of one regular set is the image's framing summary:
+    ``thermal_bridge`` with the summary's reason when its sign is the heat-loss sign from this side.
+    """
+    view = ctx.meta.surface.view
+    set_lines = {sets[m.cand.label][2] for m in unit if m.cand.label in sets}
+    expected = "cold" if view == "interior" else "warm"
+    if len(set_lines) >= 2 and (main.kind == expected or view == "roof"):
+        info = sets[next(m.cand.label for m in unit if m.cand.label in sets)]
+        reason = framing_summary_reason(len(set_lines), info[1], kind=main.kind, pixel_m=ctx.pixel_m,
+                                        width_px=main.shape.width_px)
+        return "thermal_bridge", reason
     cause, reason = classify_cause(
         main.shape, kind=main.kind, view=ctx.meta.surface.view, delta_k=delta_k, mean_c=mean_c,
         threshold_k=ctx.threshold_k, pixel_m=ctx.pixel_m, regular_set=sets.get(main.cand.label),
@@ -193,6 +209,15 @@ def anomaly_record(
     )
     a_lo, a_hi, w_lo, w_hi = confidence_bands(bands, seed=an.seed, anomaly_id=anomaly_id, area_m2=area_m2,
                                               excess_w=excess_w)
+    members: dict[object, list] = {}
+    for m in unit:
+        if m.cand.label not in host_of:
+            info = sets.get(m.cand.label) or lines.get(m.cand.label)
+            members.setdefault(m.cand.label if info is None else info[2], []).append(m.shape)
+    length, psi, psi_lo, psi_hi = linear_figures(
+        list(members.values()) or [[main.shape]], cause=cause, pixel_m=ctx.pixel_m, tilt_deg=cam.tilt_deg, excess_w=excess_w,
+        delta_air_k=ctx.delta_air_k, bands=bands, seed=an.seed, anomaly_id=anomaly_id,
+    )
     return Anomaly(
         anomaly=anomaly_id, kind=main.kind, cause=cause, reason=reason, area_px=area_px,
         area_m2=area_m2, area_low_m2=a_lo, area_high_m2=a_hi, mean_c=mean_c, min_c=float(vals.min()),
@@ -203,6 +228,7 @@ def anomaly_record(
         bbox_row1=int(px.rows.max()) + 1, bbox_col1=int(px.cols.max()) + 1,
         severity=0,
         severity_score=severity_score(mould_risk=mould, excess_kwh_year=kwh, excess_w=excess_w, area_px=area_px),
+        length_m=length, psi_w_mk=psi, psi_low_w_mk=psi_lo, psi_high_w_mk=psi_hi,
     )
 
 
