@@ -12,6 +12,7 @@ then one :class:`Anomaly` per unit (:mod:`._records`, :mod:`._classify`).
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 from scipy import ndimage
@@ -23,6 +24,7 @@ from ..segmentation import estimate_noise_k
 from ..types import Air, Surface, SurveyMeta, ThermalFrame
 from ._candidates import select_candidates, significance_threshold_k
 from ._conditions import check_conditions
+from ._emitters import emitter_mask, emitter_records, merge_records
 from ._fragments import group_fragments
 from ._framing import find_lines, find_regular_sets
 from ._geometry import MIN_SPOT_PX, pixel_area_m2, pixel_size_m
@@ -72,6 +74,23 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     ISO 6946 / ISO 13789 (surface coefficients), ISO 13788 (temperature factor),
     EN 13187 and ASTM C1060 (conditions and signatures), ASTM C1153 (roofs).
     """
+    # heat emitters seen from inside are left out like an exclusion zone, then reported (._emitters)
+    t = np.asarray(frame.temperature_c, dtype=float)
+    if getattr(frame.mask, "shape", None) == t.shape:
+        ok = ~np.asarray(frame.mask, dtype=bool) & np.isfinite(t)
+        emit = emitter_mask(t, ok, view=meta.surface.view, inside_c=meta.air.inside_c)
+        if emit.any():
+            # the scale filters divide by their coverage, zero deep inside the left-out area (not used there)
+            with np.errstate(invalid="ignore", divide="ignore"):
+                res = _analyse(replace(frame, mask=np.asarray(frame.mask, dtype=bool) | emit), seg, meta)
+            extra = emitter_records(t, emit, ok, inside_c=float(meta.air.inside_c), pixel_area_m2=res.pixel_area_m2)
+            records, labels = merge_records(res.anomalies, res.labels, extra)
+            return replace(res, anomalies=rank_by_severity(records), labels=labels)
+    return _analyse(frame, seg, meta)
+
+
+def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
+    """:func:`analyse` without the emitter step."""
     cam, surf, air, an = meta.camera, meta.surface, meta.air, meta.analysis
     t = np.asarray(frame.temperature_c, dtype=float)
     shape = t.shape

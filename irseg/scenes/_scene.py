@@ -302,6 +302,9 @@ def simulate_scene(
         _, q_out = surface_fields(t, conductivity=k, dz_m=dz, h=fc["h_out"], ambient=fc["amb_out"], face="outside")
         results.append((ts, q, q_in, q_out, fc))
     (ts_d, q_d, qin_d, qout_d, fc), (ts_b, q_b, _, _, _) = results
+    for d in defects:  # objects in front of the face (radiators, pipes) hide it from the camera
+        if d.face_c is not None:
+            ts_d = np.where(np.isfinite(d.face_c), d.face_c, ts_d)
     area = element.cell_m ** 2
     # heat loss counted positive: out of the room (inside face) or out of the element (outside face)
     dq = (q_b - q_d) if face == "inside" else (q_d - q_b)

@@ -1,0 +1,109 @@
+"""Heat emitters seen from inside: radiators, pipes, lamps, appliances.
+
+A surface warmer than the inside air cannot be heated by the room: in a heating season every
+part of an outer wall or ceiling seen from inside is colder than the air, so a surface warmer
+than the air by :data:`EMITTER_MARGIN_K` is a heat source. Such pixels are found before the
+analysis (areas above the air by the margin, of at least ``MIN_SPOT_PX`` pixels, grown by
+:data:`EMITTER_GROW_PX` for the camera's blur), left out of the analysis like an exclusion zone
+(they never serve as sound reference and never join a defect) and reported as ``unclassified``
+anomalies with the reason :data:`EMITTER_REASON`. The fainter warm plume above a radiator is
+not left out (a large hole weakens the sound surface around it): the analysis finds it as a warm
+area seen from inside, which is never a heat-loss defect, and keeps it out of the sound
+reference as it does every significant area.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+
+import numpy as np
+from scipy import ndimage
+
+from ._geometry import MIN_SPOT_PX
+from ._types import Anomaly, severity_score
+
+__all__ = ["EMITTER_MARGIN_K", "EMITTER_GROW_PX", "EMITTER_REASON", "emitter_mask", "emitter_records",
+           "merge_records"]
+
+EMITTER_MARGIN_K = 3.0  # warmer than the inside air by this much: a heat source
+EMITTER_GROW_PX = 3  # the camera's blur around a hot surface
+EMITTER_REASON = "heat source"
+_RING_PX = 8  # width of the ring whose median is an emitter's reference
+
+
+def emitter_mask(t: np.ndarray, valid: np.ndarray, *, view: str, inside_c: float | None) -> np.ndarray:
+    """Pixels of heat emitters and their warm surroundings (interior views with a known inside air)."""
+    out = np.zeros(t.shape, bool)
+    if view != "interior" or inside_c is None:
+        return out
+    core = valid & (t > inside_c + EMITTER_MARGIN_K)
+    if not core.any():
+        return out
+    lab, n = ndimage.label(core)
+    sizes = np.bincount(lab.ravel(), minlength=n + 1)
+    keep = sizes >= MIN_SPOT_PX
+    keep[0] = False
+    core = keep[lab]
+    if not core.any():
+        return out
+    return ndimage.binary_dilation(core, iterations=EMITTER_GROW_PX) & valid
+
+
+def emitter_records(
+    t: np.ndarray, emitters: np.ndarray, valid: np.ndarray, *, inside_c: float, pixel_area_m2: float | None,
+) -> list[tuple[Anomaly, np.ndarray]]:
+    """One ``unclassified`` anomaly per connected emitter area (id 0: set by :func:`merge_records`).
+
+    Each comes with its pixel mask. Its reference is the median of the valid pixels in a ring
+    around it; it carries no heat figure (a heat source is not a loss through the envelope).
+    """
+    lab, n = ndimage.label(emitters)
+    out = []
+    for i, sl in enumerate(ndimage.find_objects(lab), start=1):
+        if sl is None:
+            continue
+        own = lab == i
+        ring = ndimage.binary_dilation(own, iterations=_RING_PX) & ~emitters & valid
+        vals = t[own]
+        ref = float(np.median(t[ring])) if ring.any() else float(inside_c)
+        rows, cols = np.nonzero(own)
+        peak = float(vals.max())
+        reason = (f"{EMITTER_REASON}: up to {peak:.1f} °C, warmer than the inside air ({inside_c:.1f} °C): radiator, "
+                  "pipe, lamp or appliance; not a heat-loss defect, and left out of "
+                  "the sound reference")
+        area_px = int(vals.size)
+        out.append((Anomaly(
+            anomaly=0, kind="warm", cause="unclassified", reason=reason, area_px=area_px,
+            area_m2=None if pixel_area_m2 is None else area_px * pixel_area_m2, area_low_m2=None, area_high_m2=None,
+            mean_c=float(vals.mean()), min_c=float(vals.min()), max_c=peak, reference_c=ref,
+            delta_k=float(vals.mean()) - ref, excess_w=None, excess_low_w=None, excess_high_w=None,
+            excess_kwh_year=None, f_rsi=None, mould_risk=None,
+            centroid_row=float(rows.mean()), centroid_col=float(cols.mean()),
+            bbox_row0=int(rows.min()), bbox_col0=int(cols.min()), bbox_row1=int(rows.max()) + 1,
+            bbox_col1=int(cols.max()) + 1, severity=0,
+            severity_score=severity_score(mould_risk=None, excess_kwh_year=None, excess_w=None, area_px=area_px),
+        ), own))
+    return out
+
+
+def merge_records(anomalies: tuple[Anomaly, ...], labels: np.ndarray,
+                  extra: list[tuple[Anomaly, np.ndarray]]) -> tuple[list[Anomaly], np.ndarray]:
+    """The analysis' anomalies and ``extra`` ones, ids renumbered in raster order of their top-left corner.
+
+    Returns the records (severity 0, to be ranked again) and the relabelled label image.
+    """
+    items = [(a, None) for a in anomalies] + list(extra)
+    items.sort(key=lambda it: (it[0].bbox_row0, it[0].bbox_col0, it[0].anomaly if it[1] is None else 1 << 30))
+    old_to_new = np.zeros(int(labels.max()) + 1 if labels.size else 1, np.int32)
+    out_labels = np.zeros_like(labels)
+    records = []
+    for new_id, (a, own) in enumerate(items, start=1):
+        if own is None:
+            old_to_new[a.anomaly] = new_id
+        records.append(replace(a, anomaly=new_id, severity=0))
+    keep = labels > 0
+    out_labels[keep] = old_to_new[labels[keep]]
+    for new_id, (a, own) in enumerate(items, start=1):
+        if own is not None:
+            out_labels[own & (out_labels == 0)] = new_id
+    return records, out_labels
