@@ -11,7 +11,7 @@ from __future__ import annotations
 from ._framing import BAND_ELONGATION, BAND_FILL, STUD_SPACING_M, LineInfo, is_band
 from ._shape import FAN_TAPER, Shape
 
-__all__ = ["classify_cause", "framing_summary_reason", "FRAMING_EXPECTED", "WEAK_BAND_ELONGATION", "SMALL_SPOT_M", "PARTIAL_FRACTION", "STUD_SPACING_M",
+__all__ = ["classify_cause", "framing_summary_reason", "FRAMING_EXPECTED", "GLAZING_REASON", "GLAZING_FILL", "WEAK_BAND_ELONGATION", "SMALL_SPOT_M", "PARTIAL_FRACTION", "STUD_SPACING_M",
            "NARROW_LINE_M", "NARROW_ELONGATION", "DAMP_BASE_CONTACT", "DAMP_ROUGHNESS_M", "DAMP_ROUGHNESS_PX", "DAMP_TOP_CONTACT", "DAMP_REASON"]
 
 WEAK_BAND_ELONGATION = 3.0  # a shorter band counts when its contrast is weak (a timber header, not an empty cavity)
@@ -24,6 +24,8 @@ DAMP_TOP_CONTACT = 0.3  # a patch hanging from the frame's top edge over at leas
 DAMP_ROUGHNESS_M = 0.015  # a tide line wavers about a straight line by at least this (robust spread) ...
 DAMP_ROUGHNESS_PX = 2.0  # ... and by at least this many pixels (a straight edge measures about 0.3 px)
 DAMP_REASON = "rising or penetrating damp: confirm with a moisture meter"
+GLAZING_FILL = 0.85  # a pane fills its rectangle
+GLAZING_REASON = "likely glazing: confirm or exclude with a zone"
 #: Words that mark framing as expected construction (the report's ranking leaves it unranked).
 FRAMING_EXPECTED = "expected in framed construction: repair only a member clearly colder than its neighbours"
 
@@ -113,6 +115,12 @@ def classify_cause(
         if view == "interior":
             return "unclassified", (
                 "warm seen from inside: a heat source (pipe, flue, appliance) or solar gain, not a heat-loss defect"
+            )
+        if shape.sharp and shape.rect_fill >= GLAZING_FILL and shape.uniform:
+            # glass (emissivity about 0.84) reflects the cold sky: a uniform, straight-edged cold rectangle
+            return "unclassified", (
+                f"{GLAZING_REASON}; uniform straight-edged cold rectangle seen from outside (fill "
+                f"{shape.rect_fill:.2f}): glass reflecting the sky, not a heat-loss signature"
             )
         return "unclassified", (
             "cold seen from outside: sky reflection, shading or evaporative cooling of a damp surface; "
