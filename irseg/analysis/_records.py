@@ -12,9 +12,10 @@ import numpy as np
 
 from ..types import SurveyMeta
 from ._bridges import linear_figures
-from ._classify import classify_cause, framing_summary_reason
+from ._classify import GLAZING_REASON, classify_cause, framing_summary_reason
 from ._confidence import BandInputs, confidence_bands
 from ._framing import LineInfo
+from ._glazing import is_framed_pane, pane_profile
 from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
 from ._thermal_region import Measured
 from ._types import Anomaly, severity_key, severity_score
@@ -157,6 +158,21 @@ def _cause(
     return cause, reason
 
 
+def _pane(main: Measured, px: _UnitPixels, ctx: ImageContext) -> tuple[float, float] | None:
+    """``(rim, middle)`` contrast of a framed pane (:mod:`._glazing`), None when the unit is not one.
+
+    Only a compact area of the heat-loss sign on a wall or ceiling, with a known pixel size.
+    """
+    view = ctx.meta.surface.view
+    if ctx.pixel_m is None or view == "roof" or main.kind != ("cold" if view == "interior" else "warm"):
+        return None
+    if not main.shape.compact:
+        return None
+    sign = -1.0 if view == "interior" else 1.0
+    profile = pane_profile(px.rows, px.cols, sign * (px.values_c - px.reference_c), ctx.pixel_m)
+    return profile if is_framed_pane(profile, rect_fill=main.shape.rect_fill) else None
+
+
 def _frame_contact(rows: np.ndarray, cols: np.ndarray, n_rows: int) -> dict[str, float]:
     """Share of the anomaly's columns in which it reaches the frame's top and bottom rows."""
     width = int(np.unique(cols).size)
@@ -183,15 +199,23 @@ def anomaly_record(
     reference_c = float(px.reference_c.mean())
     delta_k = mean_c - reference_c
     n_rows, n_cols = ctx.temperature_c.shape
-    cause, reason = _cause(unit, main, ctx=ctx, delta_k=delta_k, mean_c=mean_c, sets=sets, lines=lines,
-                           host_of=host_of, contact=_frame_contact(px.rows, px.cols, n_rows))
+    pane = _pane(main, px, ctx)
+    if pane is not None:
+        cause, reason = "unclassified", (
+            f"{GLAZING_REASON}; straight-edged {main.kind} rectangle whose rim (frame, glass edge) shows "
+            f"{pane[0]:.1f} K against {pane[1]:.1f} K in its middle: a framed pane (a void is strongest in its "
+            "middle); its heat is that of the window, not counted as a defect's"
+        )
+    else:
+        cause, reason = _cause(unit, main, ctx=ctx, delta_k=delta_k, mean_c=mean_c, sets=sets, lines=lines,
+                               host_of=host_of, contact=_frame_contact(px.rows, px.cols, n_rows))
     if px.rows.min() == 0 or px.cols.min() == 0 or px.rows.max() == n_rows - 1 or px.cols.max() == n_cols - 1:
         reason += f"; {EDGE_NOTE}"
     px_area = ctx.pixel_area_m2
     area_m2 = None if px_area is None else area_px * px_area
     expected_kind = "cold" if surf.view == "interior" else "warm"
     excess_w = None
-    if px_area is not None and main.kind == expected_kind:
+    if px_area is not None and main.kind == expected_kind and pane is None:
         excess_w = excess_heat_w(h_w_m2k=ctx.h_w_m2k, loss_sum_kpx=px.loss_sum_kpx, pixel_area_m2=px_area)
     kwh = annual_energy_kwh(excess_w, inside_c=air.inside_c, outside_c=air.outside_c, degree_days=an.degree_days)
     f_rsi = mould = None

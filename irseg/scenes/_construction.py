@@ -6,6 +6,12 @@
   face, like :func:`irseg.scenes._defects.cold_air_fan`; the wall's response is the scene's 3-D
   conduction).
 - :func:`pipe`: a vertical heating pipe in front of the face with a thin plume.
+- :func:`window`: a double-glazed window through the whole build-up: a frame, the glass with its
+  own U-value and emissivity 0.84, and the colder glass edge along the spacer. Each part is a box
+  of an equivalent material whose conductance through the element's thickness gives its U-value
+  with the standard surface resistances (R_si 0.13, R_se 0.04 m²K/W, ISO 6946:2017 table 7). Seen
+  from outside the glass reflects more of the cold sky than the wall (its emissivity map reaches the
+  camera through ``Defect.emissivity``).
 
 Each returns a :class:`~irseg.scenes._defects.Defect` of cause ``unclassified`` whose ``face_c``
 holds the object's surface temperature (the camera sees it instead of the wall) and whose region
@@ -23,9 +29,14 @@ import numpy as np
 
 from irseg.errors import ConfigError
 from irseg.scenes._defects import Defect
-from irseg.scenes._elements import Element
+from irseg.scenes._elements import Block, Element
+from irseg.scenes._materials import Material
 
-__all__ = ["radiator", "pipe", "construction_items", "truth_psi", "EMITTER_CAUSE"]
+__all__ = ["radiator", "pipe", "window", "construction_items", "truth_psi", "EMITTER_CAUSE", "GLASS_EMISSIVITY"]
+
+#: Emissivity of soda-lime glass in the long-wave band (common practice, about 0.84 for uncoated glass).
+GLASS_EMISSIVITY = 0.84
+_R_SI, _R_SE = 0.13, 0.04  # m²K/W, ISO 6946:2017 table 7 (horizontal heat flow)
 
 #: Cause the analysis must give an emitter (the vocabulary's "not judged").
 EMITTER_CAUSE = "unclassified"
@@ -99,10 +110,49 @@ def pipe(
                   region=region, air_change_k=air, face_c=face)
 
 
+def _equivalent(name: str, u_w_m2k: float, thickness_m: float) -> Material:
+    """A material whose conduction through ``thickness_m`` gives ``u_w_m2k`` with R_si and R_se."""
+    r = 1.0 / u_w_m2k - _R_SI - _R_SE
+    if r <= 0:
+        raise ConfigError(f"{name}: U = {u_w_m2k} W/m²K is above what the surface resistances allow "
+                          f"({1 / (_R_SI + _R_SE):.1f} W/m²K)")
+    return Material(name, thickness_m / r, 1.0e6)
+
+
+def window(
+    element: Element, *, x0_m: float, x1_m: float, y0_m: float, y1_m: float, u_glass: float = 1.2,
+    u_frame: float = 1.4, u_edge: float = 2.4, frame_m: float = 0.07, edge_m: float = 0.06,
+    name: str = "window",
+) -> Defect:
+    """A window over ``[x0, x1] × [y0, y1]`` m: frame ``frame_m`` wide, glass edge ``edge_m`` wide.
+
+    U-values: centre of glass ``u_glass`` (double glazing with a low-e coating about 1.1-1.4 W/m²K,
+    common practice), frame ``u_frame``, the glass edge over the spacer ``u_edge`` (the spacer's
+    linear loss spread over the edge strip).
+    """
+    _check_box(element, x0_m, x1_m, y0_m, y1_m, "window")
+    if 2 * (frame_m + edge_m) >= min(x1_m - x0_m, y1_m - y0_m):
+        raise ConfigError(f"window {x1_m - x0_m:.2f} × {y1_m - y0_m:.2f} m is too small for its frame and glass edge")
+    th = element.thickness_m()
+    f, e = frame_m, frame_m + edge_m
+    blocks = (
+        Block(_equivalent("window_frame", u_frame, th), x0_m, x1_m, y0_m, y1_m, 0.0, th),
+        Block(_equivalent("glass_edge", u_edge, th), x0_m + f, x1_m - f, y0_m + f, y1_m - f, 0.0, th),
+        Block(_equivalent("glazing", u_glass, th), x0_m + e, x1_m - e, y0_m + e, y1_m - e, 0.0, th),
+    )
+    y, x = _grid(element)
+    glass = (x >= x0_m + f) & (x < x1_m - f) & (y >= y0_m + f) & (y < y1_m - f)
+    emissivity = np.where(glass, GLASS_EMISSIVITY, np.nan)
+    return Defect(name, EMITTER_CAUSE, blocks,
+                  f"double-glazed window, U {u_glass:.1f} (glass) / {u_frame:.1f} (frame) W/m²K, glass emissivity "
+                  f"{GLASS_EMISSIVITY}", emissivity=emissivity)
+
+
 def construction_items(element: Element, specs: tuple[str, ...]) -> tuple[Defect, ...]:
     """Emitters from the presets' ``construction`` option.
 
-    ``"radiator:x0:x1:y0:y1[:top_c:bottom_c]"`` and ``"pipe:x:y0:y1[:water_c]"`` (m, °C).
+    ``"radiator:x0:x1:y0:y1[:top_c:bottom_c]"``, ``"pipe:x:y0:y1[:water_c]"`` and
+    ``"window:x0:x1:y0:y1[:u_glass]"`` (m, °C, W/m²K).
     """
     out = []
     for spec in specs:
@@ -119,9 +169,13 @@ def construction_items(element: Element, specs: tuple[str, ...]) -> tuple[Defect
         elif kind == "pipe" and len(vals) in (3, 4):
             extra = {"water_c": vals[3]} if len(vals) == 4 else {}
             out.append(pipe(element, x_m=vals[0], y0_m=vals[1], y1_m=vals[2], name=f"pipe_{len(out) + 1}", **extra))
+        elif kind == "window" and len(vals) in (4, 5):
+            extra = {"u_glass": vals[4]} if len(vals) == 5 else {}
+            out.append(window(element, x0_m=vals[0], x1_m=vals[1], y0_m=vals[2], y1_m=vals[3],
+                              name=f"window_{len(out) + 1}", **extra))
         else:
-            raise ConfigError(f"unknown construction item {spec!r}; use radiator:x0:x1:y0:y1[:top_c:bottom_c] "
-                              "or pipe:x:y0:y1[:water_c]")
+            raise ConfigError(f"unknown construction item {spec!r}; use radiator:x0:x1:y0:y1[:top_c:bottom_c], "
+                              "pipe:x:y0:y1[:water_c] or window:x0:x1:y0:y1[:u_glass]")
     return tuple(out)
 
 

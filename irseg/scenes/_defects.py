@@ -53,6 +53,8 @@ class Defect:
     face_c : (ny, nx) ndarray or None
         Temperature of an object in front of the viewed face (a radiator, a pipe), °C, NaN
         elsewhere: the camera sees it instead of the wall (:mod:`irseg.scenes._construction`).
+    emissivity : (ny, nx) ndarray or None
+        Emissivity of the viewed face where it differs from the scene's (glass), NaN elsewhere.
     """
 
     name: str
@@ -64,6 +66,7 @@ class Defect:
     wet_surface: np.ndarray | None = field(default=None, compare=False, repr=False)
     air_change_k: np.ndarray | None = field(default=None, compare=False, repr=False)
     face_c: np.ndarray | None = field(default=None, compare=False, repr=False)
+    emissivity: np.ndarray | None = field(default=None, compare=False, repr=False)
 
 
 def _bay(element: Element, bay: int) -> tuple[float, float]:

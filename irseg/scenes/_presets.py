@@ -87,7 +87,7 @@ def _ceiling(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, patch=(0.9, 1.5, 0.6
 
 def _masonry(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, slab_y=None, patch=None, lintel=None, void=None,
              sky_view=(0.4, 0.5), view="exterior", fan=None, stratification_k_m=1.0, stratification_k_m2=0.0,
-             solid=False, damp=None, relative_humidity=0.5):
+             solid=False, damp=None, relative_humidity=0.5, construction=()):
     if solid:
         return _solid_wall(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, damp=damp, fan=fan,
                            stratification_k_m=stratification_k_m, stratification_k_m2=stratification_k_m2,
@@ -104,6 +104,7 @@ def _masonry(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, slab_y=None, patch=N
         ds.append(partial_void(el, x0_m=void[0], x1_m=void[1], y0_m=void[2], y1_m=void[3], depth_m=void[4]))
     if fan is not None:
         ds.append(cold_air_fan(el, x_m=fan[0], y_m=fan[1], width_m=fan[2], drop_k=fan[3]))
+    ds.extend(construction_items(el, tuple(construction)))
     cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, sky_view_top=sky_view[0],
                       sky_view_bottom=sky_view[1], top_height_m=3.0, stratification_k_m=stratification_k_m,
                       stratification_k_m2=stratification_k_m2)
@@ -154,12 +155,13 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
         ``"void:x0:x1:y0:y1:depth"``, ``"soft:N:void_m:soft_m[:wave_m]"`` settled fill with a soft
         top, ``"fill:x0:x1:y0:y1:remaining"`` insulation left at a fraction of its depth,
         ``"fan:x:y:width:drop_k"`` a cold-air fan from a gap), ``lintel`` (x0, x1, y0, height),
-        ``construction`` (``"radiator:x0:x1:y0:y1[:top_c:bottom_c]"``, ``"pipe:x:y0:y1[:water_c]"``:
-        :mod:`irseg.scenes._construction`),
+        ``construction`` (``"radiator:x0:x1:y0:y1[:top_c:bottom_c]"``, ``"pipe:x:y0:y1[:water_c]"``,
+        ``"window:x0:x1:y0:y1[:u_glass]"``: :mod:`irseg.scenes._construction`),
         ``stratification_k_m``, ``stratification_k_m2``; ceiling: ``patch`` (x0, x1, y0, y1, or
         None), ``partial`` ((x0, x1, y0, y1, remaining fraction), ...); masonry wall: ``slab_y``,
         ``patch``, ``lintel``, ``void`` (x0, x1, y0, y1, depth), ``sky_view`` (top, bottom),
-        ``view`` ("exterior" or "interior"), ``fan`` (x, y, width, drop_k), stratification, and
+        ``view`` ("exterior" or "interior"), ``fan`` (x, y, width, drop_k), ``construction`` (as the
+        timber wall's), stratification, and
         ``solid=True`` for an uninsulated solid brick wall seen from inside (3.0 × 2.4 m) with
         ``damp`` (tide line height, wave, soft band, water fraction, wet surface fraction[, x0, x1], or
         None), ``fan``, stratification, ``relative_humidity``; flat roof: ``insulation``, ``wet`` ((x0, x1, y0, y1, water

@@ -76,6 +76,9 @@ class Scene:
         Extra heat flux density through the viewed face caused by the defects, W/m².
     owner : (ny, nx) int ndarray
         Index of the defect each cell's excess is charged to (−1: none); see ``rim_m``.
+    emissivity_map : (ny, nx) ndarray or None
+        Emissivity of the viewed face per cell where a defect sets one (glass); None: the
+        conditions' emissivity everywhere.
     """
 
     name: str
@@ -93,6 +96,7 @@ class Scene:
     settings: dict = field(default_factory=dict)
     excess_w_m2: np.ndarray | None = None
     owner: np.ndarray | None = None
+    emissivity_map: np.ndarray | None = None
 
     @property
     def cell_m(self) -> float:
@@ -347,8 +351,13 @@ def simulate_scene(
         settings["stratification_k_m2"] = conditions.stratification_k_m2
     if effects:
         settings["relative_humidity"] = conditions.relative_humidity
+    emissivity_map = None
+    for d in defects:  # glass: its own emissivity on the viewed face
+        if d.emissivity is not None:
+            base = np.full(ts_d.shape, conditions.emissivity) if emissivity_map is None else emissivity_map
+            emissivity_map = np.where(np.isfinite(d.emissivity), d.emissivity, base)
     return Scene(name, view, element, tuple(defects), conditions, ts_d, ts_b, fc[f"rad_{key}"],
-                 fc[f"h_{key}"], masks, tuple(truth), balance, settings, dq, owner)
+                 fc[f"h_{key}"], masks, tuple(truth), balance, settings, dq, owner, emissivity_map)
 
 
 def truth_in_window(scene: Scene, *, x0_m: float, x1_m: float, y0_m: float, y1_m: float) -> tuple[DefectTruth, ...]:
