@@ -24,8 +24,10 @@ from ..segmentation import estimate_noise_k
 from ..types import Air, Surface, SurveyMeta, ThermalFrame
 from ._candidates import select_candidates, significance_threshold_k
 from ._conditions import check_conditions
-from ._emitters import emitter_mask, emitter_records, merge_records
+from ._emitters import FilledSegmentation, emitter_mask, emitter_records, fill_emitters, merge_records
+from ._classify import GLAZING_REASON
 from ._fragments import group_fragments
+from ._glazing import mark_panes
 from ._framing import find_lines, find_regular_sets
 from ._geometry import MIN_SPOT_PX, pixel_area_m2, pixel_size_m
 from ._records import ImageContext, anomaly_record, group_units, rank_by_severity
@@ -74,18 +76,20 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     ISO 6946 / ISO 13789 (surface coefficients), ISO 13788 (temperature factor),
     EN 13187 and ASTM C1060 (conditions and signatures), ASTM C1153 (roofs).
     """
-    # heat emitters seen from inside are left out like an exclusion zone, then reported (._emitters)
+    # heat emitters seen from inside: filled from the wall around them, then reported (._emitters)
     t = np.asarray(frame.temperature_c, dtype=float)
     if getattr(frame.mask, "shape", None) == t.shape:
         ok = ~np.asarray(frame.mask, dtype=bool) & np.isfinite(t)
         emit = emitter_mask(t, ok, view=meta.surface.view, inside_c=meta.air.inside_c)
         if emit.any():
-            # the scale filters divide by their coverage, zero deep inside the left-out area (not used there)
-            with np.errstate(invalid="ignore", divide="ignore"):
-                res = _analyse(replace(frame, mask=np.asarray(frame.mask, dtype=bool) | emit), seg, meta)
+            u = np.asarray(getattr(seg, "u", t), dtype=float)
+            filled = FilledSegmentation(fill_emitters(u, emit), np.asarray(getattr(seg, "edges", emit & False)) & ~emit,
+                                        np.asarray(seg.labels), getattr(seg, "params", None))
+            res = _analyse(replace(frame, temperature_c=fill_emitters(t, emit)), filled, meta)
             extra = emitter_records(t, emit, ok, inside_c=float(meta.air.inside_c), pixel_area_m2=res.pixel_area_m2)
             records, labels = merge_records(res.anomalies, res.labels, extra)
-            return replace(res, anomalies=rank_by_severity(records), labels=labels)
+            reference = np.where(emit, np.nan, res.reference_c)
+            return replace(res, anomalies=rank_by_severity(records), labels=labels, reference_c=reference)
     return _analyse(frame, seg, meta)
 
 
@@ -202,6 +206,7 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
         anomaly_record(i, unit, ctx=ctx, sets=sets, lines=lines, host_of=host_of, labels_out=out_labels)
         for i, unit in enumerate(group_units(measured, host_of=host_of, sets=sets, lines=lines), start=1)
     ]
+    drafts = mark_panes(drafts, out_labels, t, reference, pixel_m=pixel_m, view=surf.view, reason=GLAZING_REASON)
     return Analysis(rank_by_severity(drafts), out_labels, pixel_m, px_area, h, reference, warn)
 
 

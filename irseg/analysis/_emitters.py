@@ -4,26 +4,31 @@ A surface warmer than the inside air cannot be heated by the room: in a heating 
 part of an outer wall or ceiling seen from inside is colder than the air, so a surface warmer
 than the air by :data:`EMITTER_MARGIN_K` is a heat source. Such pixels are found before the
 analysis (areas above the air by the margin, of at least ``MIN_SPOT_PX`` pixels, grown by
-:data:`EMITTER_GROW_PX` for the camera's blur), left out of the analysis like an exclusion zone
-(they never serve as sound reference and never join a defect) and reported as ``unclassified``
-anomalies with the reason :data:`EMITTER_REASON`. The fainter warm plume above a radiator is
-not left out (a large hole weakens the sound surface around it): the analysis finds it as a warm
-area seen from inside, which is never a heat-loss defect, and keeps it out of the sound
-reference as it does every significant area.
+:data:`EMITTER_GROW_PX` for the camera's blur) and reported as ``unclassified`` anomalies with the
+reason :data:`EMITTER_REASON`. For the analysis of everything else their temperatures (and the
+segmentation's smooth field) are replaced by the harmonic fill of the wall around them
+(:func:`fill_emitters`: Laplace's equation with the surrounding pixels as boundary values): they
+carry no value of their own, so they can neither pull the sound surface nor join a defect, and
+the sound surface stays continuous (a large hole would weaken it around the emitter). Their
+reference is reported as NaN. The fainter warm plume above a radiator is not filled: the analysis
+finds it as a warm area seen from inside, which is never a heat-loss defect, and keeps it out of
+the sound reference as it does every significant area.
 """
 
 from __future__ import annotations
 
-from dataclasses import replace
+from dataclasses import dataclass, replace
+from typing import Any
 
 import numpy as np
-from scipy import ndimage
+from scipy import ndimage, sparse
+from scipy.sparse.linalg import spsolve
 
 from ._geometry import MIN_SPOT_PX
 from ._types import Anomaly, severity_score
 
 __all__ = ["EMITTER_MARGIN_K", "EMITTER_GROW_PX", "EMITTER_REASON", "emitter_mask", "emitter_records",
-           "merge_records"]
+           "merge_records", "fill_emitters", "FilledSegmentation"]
 
 EMITTER_MARGIN_K = 3.0  # warmer than the inside air by this much: a heat source
 EMITTER_GROW_PX = 3  # the camera's blur around a hot surface
@@ -47,6 +52,52 @@ def emitter_mask(t: np.ndarray, valid: np.ndarray, *, view: str, inside_c: float
     if not core.any():
         return out
     return ndimage.binary_dilation(core, iterations=EMITTER_GROW_PX) & valid
+
+
+def fill_emitters(field: np.ndarray, emitters: np.ndarray) -> np.ndarray:
+    """``field`` with the ``emitters`` pixels replaced by the harmonic fill of their surroundings.
+
+    Solves the 5-point Laplace equation on the emitter pixels with the other pixels as boundary
+    values (an emitter touching the frame's edge has a zero-gradient edge there).
+    """
+    out = np.array(field, dtype=float, copy=True)
+    idx = np.flatnonzero(emitters.ravel())
+    if idx.size == 0:
+        return out
+    m, n = field.shape
+    number = np.full(m * n, -1, np.int64)
+    number[idx] = np.arange(idx.size)
+    r, c = np.divmod(idx, n)
+    rows, cols, vals = [], [], []
+    rhs = np.zeros(idx.size)
+    diag = np.zeros(idx.size)
+    flat = out.ravel()
+    for dr, dc in ((-1, 0), (1, 0), (0, -1), (0, 1)):
+        rr, cc = r + dr, c + dc
+        inside = (rr >= 0) & (rr < m) & (cc >= 0) & (cc < n)
+        diag += inside
+        nb = np.where(inside, rr * n + cc, 0)
+        unknown = inside & (number[nb] >= 0)
+        rows.append(np.flatnonzero(unknown))
+        cols.append(number[nb[unknown]])
+        vals.append(np.full(int(unknown.sum()), -1.0))
+        known = inside & ~unknown
+        rhs[known] += flat[nb[known]]
+    a = sparse.csr_matrix((np.concatenate(vals + [diag]),
+                           (np.concatenate(rows + [np.arange(idx.size)]), np.concatenate(cols + [np.arange(idx.size)]))),
+                          shape=(idx.size, idx.size))
+    flat[idx] = spsolve(a.tocsc(), rhs)
+    return out
+
+
+@dataclass(frozen=True)
+class FilledSegmentation:
+    """A segmentation whose smooth field is filled over the emitters (what ``analyse`` reads)."""
+
+    u: np.ndarray
+    edges: np.ndarray
+    labels: np.ndarray
+    params: Any = None
 
 
 def emitter_records(

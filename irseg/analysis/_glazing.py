@@ -20,7 +20,8 @@ from __future__ import annotations
 import numpy as np
 from scipy import ndimage
 
-__all__ = ["RIM_M", "CENTRE_M", "RIM_RATIO", "RIM_STEP_K", "PANE_FILL", "pane_profile", "is_framed_pane"]
+__all__ = ["RIM_M", "CENTRE_M", "RIM_RATIO", "RIM_STEP_K", "PANE_FILL", "pane_profile", "is_framed_pane",
+           "mark_panes"]
 
 RIM_M = (0.02, 0.20)  # a frame (50-100 mm) and the glass edge (about 50 mm) lie this far inside the outline
 CENTRE_M = 0.25  # the middle of the glass: at least this far inside
@@ -59,3 +60,49 @@ def is_framed_pane(profile: tuple[float, float] | None, *, rect_fill: float) -> 
         return False
     rim, middle = profile
     return rim >= RIM_RATIO * max(middle, 0.0) and rim - middle >= RIM_STEP_K
+
+
+def mark_panes(anomalies: list, labels: np.ndarray, temperature_c: np.ndarray, reference_c: np.ndarray, *,
+               pixel_m: float | None, view: str, reason: str) -> list:
+    """Anomalies that together make a framed pane, marked ``unclassified`` with ``reason``.
+
+    A window's frame and glass often come out as several touching anomalies of the heat-loss sign
+    (the frame bars as narrow bands, the glass as what is left). Touching anomalies of that sign
+    (within 2 px) are taken together; when their union fills its bounding box (at least
+    :data:`PANE_FILL`) and its contrast profile is a framed pane's (:func:`pane_profile`,
+    :func:`is_framed_pane`), each of them becomes ``unclassified`` with ``reason`` and loses its heat,
+    length and ψ figures (the heat of a window is not a defect's). Anomalies already unclassified
+    keep their reason.
+    """
+    from dataclasses import replace
+
+    if pixel_m is None or view == "roof" or not anomalies:
+        return list(anomalies)
+    kind = "cold" if view == "interior" else "warm"
+    sign = -1.0 if view == "interior" else 1.0
+    ids = [a.anomaly for a in anomalies if a.kind == kind and a.cause != "unclassified"]
+    if not ids:
+        return list(anomalies)
+    own = np.isin(labels, ids)
+    groups, n = ndimage.label(ndimage.binary_dilation(own, iterations=2))
+    marked: dict[int, str] = {}
+    for g in range(1, n + 1):
+        union = own & (groups == g)
+        members = sorted(int(i) for i in np.unique(labels[union]))
+        rows, cols = np.nonzero(union)
+        box = (rows.max() - rows.min() + 1) * (cols.max() - cols.min() + 1)
+        if rows.size / box < PANE_FILL:
+            continue
+        loss = sign * (temperature_c[rows, cols] - reference_c[rows, cols])
+        ok = np.isfinite(loss)
+        profile = pane_profile(rows[ok], cols[ok], loss[ok], pixel_m)
+        if is_framed_pane(profile, rect_fill=rows.size / box):
+            text = (f"{reason}; {len(members)} touching area(s) making a straight-edged rectangle whose rim (frame, "
+                    f"glass edge) shows {profile[0]:.1f} K against {profile[1]:.1f} K in its middle: a framed pane "
+                    "(a void is strongest in its middle); its heat is that of the window, not counted as a defect's")
+            marked.update(dict.fromkeys(members, text))
+    return [replace(a, cause="unclassified", reason=marked[a.anomaly], excess_w=None, excess_low_w=None,
+                    excess_high_w=None, excess_kwh_year=None, length_m=None, psi_w_mk=None, psi_low_w_mk=None,
+                    psi_high_w_mk=None,
+                    severity_score=0.0 + 1e-6 * min(a.area_px, 9.99e5) + (1e6 if a.mould_risk else 0.0))
+            if a.anomaly in marked else a for a in anomalies]

@@ -287,18 +287,21 @@ def simulate_scene(
     effects = any(d.wet_surface is not None or d.air_change_k is not None for d in defects)
     if effects and (view != "interior" or night is not None):
         raise ConfigError("damp surfaces and cold-air fans act on the inside face of a steady interior scene")
-    for ds in (defects, ()):
+    # construction that is not a defect (windows, radiators: cause "unclassified") stays in the run
+    # without the defects, so each defect's truth is its own change against the same construction
+    built = tuple(d for d in defects if d.cause == "unclassified")
+    for ds in (defects, built):
         k, c = rasterise(element, ds)
         if night is None:
             fc = face_conditions(element, conditions)
             t = _steady(element, k, fc)
-            if effects and ds:
+            if effects and any(d.wet_surface is not None or d.air_change_k is not None for d in ds):
                 air = fc
                 t, fc = _surface_effects(element, k, fc, ds, conditions, t)
         else:
             t, fc = _night(element, k, c, conditions, night)
         ts, q = surface_fields(t, conductivity=k, dz_m=dz, h=fc[f"h_{key}"], ambient=fc[f"amb_{key}"], face=face)
-        if effects and ds:
+        if effects and any(d.wet_surface is not None or d.air_change_k is not None for d in ds):
             # the heat the room gives the face (convection and radiation against the real air): what
             # a camera sees as h·ΔT; it includes the latent heat of the evaporation and the cold air
             q = fc["h_in"] * (ts - air["amb_in"])
