@@ -43,6 +43,7 @@ PARALLEL_DEG = 10.0
 SPACING_CV = 0.25
 SET_MAX_WIDTH_FRACTION = 0.35  # members are narrow against their spacing (45-100 mm at 400-600 mm centres)
 STUD_SPACING_M = (0.30, 0.70)  # usual centres of studs, joists and rafters (400-600 mm, common practice)
+MAX_GAP_MEMBERS = 3  # a set may miss members: a gap of up to three spacings
 PIECE_MISS_WIDTHS = 1.0  # a short piece joins a member's line when its centre is at most this many widths off it
 PIECE_FILL = 0.4  # ... and fills its rectangle this much (a soft detection along a member is ragged)
 COLDER_MEMBER_FACTOR = 1.6  # a member whose contrast exceeds the set's median by this factor stands alone
@@ -72,7 +73,8 @@ def find_regular_sets(
     Bands (elongation >= 2.5, straight) parallel within 10° and of similar mean
     width (within a factor 2) are grouped; bands on
     the same line (a member interrupted by another anomaly) merge into one line.
-    At least three lines whose spacings vary by at most 25 %, with a width of at
+    At least three lines whose gaps are one, two or three times a common spacing within 25 %
+    (members hidden behind a defect or a window leave a wider gap), with a width of at
     most 0.35 × the spacing, form a set; two lines form one when the pixel size is
     known and their spacing is a usual framing centre (0.30-0.70 m). Pieces
     lying on a member's line (within one width of it, filling 40 % of their rectangle) with the
@@ -118,11 +120,8 @@ def find_regular_sets(
             else:
                 lines.append([x])
         centres = np.array([float(np.mean(line)) for line in lines])
-        gaps = np.diff(centres)
-        mean_gap = float(gaps.mean()) if gaps.size else 0.0
-        if len(lines) < 2 or (len(lines) == 2 and not _framing_centre(mean_gap, pixel_m)):
-            continue
-        if mean_gap <= 0 or float(np.max(np.abs(gaps - mean_gap))) > SPACING_CV * mean_gap:
+        mean_gap = _regular_spacing(np.diff(centres))
+        if mean_gap is None or len(lines) < 2 or (len(lines) == 2 and not _framing_centre(mean_gap, pixel_m)):
             continue
         if width > SET_MAX_WIDTH_FRACTION * mean_gap:  # bays side by side, not members between bays
             continue
@@ -141,6 +140,21 @@ def find_regular_sets(
         if deltas is not None and len(lines) >= 3:
             _drop_colder(found, n_sets, shapes, deltas)
     return found
+
+
+def _regular_spacing(gaps: np.ndarray) -> float | None:
+    """The members' spacing when every gap is 1, 2 or 3 times it (a member hidden by a defect or a
+    window leaves a double gap) within :data:`SPACING_CV`; None otherwise. At least one gap is single."""
+    if gaps.size == 0 or float(gaps.min()) <= 0:
+        return None
+    base = float(gaps.min())
+    k = np.rint(gaps / base)
+    if float(k.max()) > MAX_GAP_MEMBERS:
+        return None
+    spacing = float(gaps.sum() / k.sum())
+    if float(np.max(np.abs(gaps - k * spacing))) > SPACING_CV * spacing:
+        return None
+    return spacing
 
 
 def _framing_centre(gap_px: float, pixel_m: float | None) -> bool:
