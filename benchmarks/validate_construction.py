@@ -103,8 +103,8 @@ def main(argv: list[str] | None = None) -> int:
         "reported as missing_insulation, moisture or air_leakage; slab edges, lintels and junctions found as "
         f"thermal_bridge over at least {CONSTRUCTION_TARGETS['bridge_length_min']:.0%} of their length with ψ "
         f"within {CONSTRUCTION_TARGETS['psi_rel']:.0%} of the simulated ψ; framing one anomaly per image (every "
-        "thermal bridge not on a simulated bridge counts); a defect beside a radiator keeps ΔT and heat within {CONSTRUCTION_TARGETS['beside_emitter_rel']:.0%} "
-        "of the same scene without it. The simulated ψ is the excess heat through the viewed face with and "
+        "thermal bridge not on a simulated bridge counts); a defect beside a radiator keeps ΔT and heat within "
+        f"{CONSTRUCTION_TARGETS['beside_emitter_rel']:.0%} of the same scene without it. The simulated ψ is the excess heat through the viewed face with and "
         "without the bridge (windows and emitters present in both runs), charged to the bridge (its cells and a "
         "0.3 m rim), per metre of its length in view and per kelvin of inside-outside difference.", "",
         "### Targets per scene", "",
