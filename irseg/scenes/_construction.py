@@ -93,7 +93,7 @@ def radiator(
 
 def pipe(
     element: Element, *, x_m: float, y0_m: float, y1_m: float, water_c: float = 50.0, diameter_m: float = 0.03,
-    plume_k: float = 3.0, name: str = "pipe",
+    plume_k: float = 1.0, name: str = "pipe",
 ) -> Defect:
     """A vertical heating pipe in front of the face from ``y0_m`` to ``y1_m`` (its top at ``y0_m``)."""
     x0, x1 = x_m - 0.5 * diameter_m, x_m + 0.5 * diameter_m
