@@ -53,9 +53,11 @@ def test_clean_run_meets_the_output_contract(tmp_path):
 
     header = (out / "anomalies.csv").read_bytes().split(b"\r\n")[0].decode()
     # uid first (issue 13: the anomaly's survey-wide name), the contract's columns in its order, then the
-    # extra area_px (known even without geometry), then the review and the image's details (issue 13)
+    # extra area_px (known even without geometry), then the review and the image's details (issue 13),
+    # then a linear thermal bridge's length and psi with its band (issue 12)
     assert header.split(",") == ["uid", *CONTRACT_COLUMNS, "area_px", "review", "note", "title",
-                                 "element"] == list(ANOMALY_COLUMNS)
+                                 "element", "length_m", "psi_w_mk", "psi_low_w_mk",
+                                 "psi_high_w_mk"] == list(ANOMALY_COLUMNS)
     rows = _rows(out)
     assert [r["image"] for r in rows] == [p.name for p in paths]  # input order, one patch each
 
