@@ -24,7 +24,7 @@ from ..segmentation import estimate_noise_k
 from ..types import Air, Surface, SurveyMeta, ThermalFrame
 from ._candidates import select_candidates, significance_threshold_k
 from ._conditions import check_conditions
-from ._emitters import FilledSegmentation, emitter_mask, emitter_records, fill_emitters, merge_records
+from ._emitters import FilledSegmentation, emitter_mask, emitter_records, emitter_warning, fill_emitters, merge_records
 from ._classify import GLAZING_REASON
 from ._fragments import group_fragments
 from ._glazing import mark_panes
@@ -81,6 +81,10 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     if getattr(frame.mask, "shape", None) == t.shape:
         ok = ~np.asarray(frame.mask, dtype=bool) & np.isfinite(t)
         emit = emitter_mask(t, ok, view=meta.surface.view, inside_c=meta.air.inside_c)
+        too_much = emitter_warning(emit, ok, inside_c=meta.air.inside_c) if emit.any() else None
+        if too_much is not None:
+            res = _analyse(frame, seg, meta)
+            return replace(res, warnings=res.warnings + (too_much,))
         if emit.any():
             u = np.asarray(getattr(seg, "u", t), dtype=float)
             filled = FilledSegmentation(fill_emitters(u, emit), np.asarray(getattr(seg, "edges", emit & False)) & ~emit,

@@ -27,11 +27,13 @@ from scipy.sparse.linalg import spsolve
 from ._geometry import MIN_SPOT_PX
 from ._types import Anomaly, severity_score
 
-__all__ = ["EMITTER_MARGIN_K", "EMITTER_GROW_PX", "EMITTER_REASON", "emitter_mask", "emitter_records",
+__all__ = ["EMITTER_MARGIN_K", "EMITTER_GROW_PX", "EMITTER_MAX_FRACTION", "EMITTER_REASON", "emitter_mask",
+           "emitter_warning", "emitter_records",
            "merge_records", "fill_emitters", "FilledSegmentation"]
 
 EMITTER_MARGIN_K = 3.0  # warmer than the inside air by this much: a heat source
 EMITTER_GROW_PX = 3  # the camera's blur around a hot surface
+EMITTER_MAX_FRACTION = 0.25  # warmer than the air over more of the frame: the inside air is wrong, not emitters
 EMITTER_REASON = "heat source"
 _RING_PX = 8  # width of the ring whose median is an emitter's reference
 
@@ -52,6 +54,21 @@ def emitter_mask(t: np.ndarray, valid: np.ndarray, *, view: str, inside_c: float
     if not core.any():
         return out
     return ndimage.binary_dilation(core, iterations=EMITTER_GROW_PX) & valid
+
+
+def emitter_warning(emitters: np.ndarray, valid: np.ndarray, *, inside_c: float) -> str | None:
+    """A warning when the emitters would cover more than :data:`EMITTER_MAX_FRACTION` of the frame.
+
+    In a heating season a wall seen from inside is colder than the air; warmer over a large part of
+    the frame means the inside air temperature is wrong (or the sun shines on it): nothing is then
+    taken as an emitter.
+    """
+    n = int(valid.sum())
+    if n == 0 or emitters.sum() <= EMITTER_MAX_FRACTION * n:
+        return None
+    return (f"the surface is warmer than [air] inside_c = {inside_c:.1f} °C + {EMITTER_MARGIN_K:.0f} K over "
+            f"{100 * emitters.sum() / n:.0f} % of the frame: check the inside air temperature (a wall seen from "
+            "inside is colder than the room in the heating season); no area was taken as a heat source")
 
 
 def fill_emitters(field: np.ndarray, emitters: np.ndarray) -> np.ndarray:

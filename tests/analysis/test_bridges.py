@@ -87,3 +87,13 @@ def test_cold_pane_seen_from_outside_is_likely_glazing():
     d[30:90, 80:160] = 1
     (a,) = _run(t, d, surface={"view": "exterior"}).anomalies
     assert a.cause == "unclassified" and "likely glazing: confirm or exclude with a zone" in a.reason
+
+
+def test_a_wall_warmer_than_the_inside_air_is_a_metadata_warning_not_a_heat_source():
+    # seen from inside in the heating season a wall is colder than the room (heat flows into it, ISO 6946
+    # surface resistance R_si > 0) [C: physics]: warmer over most of the frame means inside_c is wrong
+    t, d = _wall_with_defect(False)
+    res = _run(t, d, air={"inside_c": 14.0, "outside_c": 0.0, "wind_m_s": 1.0})
+    assert not any(a.reason.startswith("heat source") for a in res.anomalies)
+    assert any("inside air temperature" in w for w in res.warnings)
+    assert any(a.cause == "missing_insulation" for a in res.anomalies)
