@@ -71,7 +71,8 @@ def mark_panes(anomalies: list, labels: np.ndarray, temperature_c: np.ndarray, r
     (within 2 px) are taken together; when their union fills its bounding box (at least
     :data:`PANE_FILL`) and its contrast profile is a framed pane's (:func:`pane_profile`,
     :func:`is_framed_pane`), each of them becomes ``unclassified`` with ``reason`` and loses its heat,
-    length and ψ figures (the heat of a window is not a defect's). Anomalies already unclassified
+    length and ψ figures (the heat of a window is not a defect's) and its mould-risk flag (the
+    f_Rsi limit is for opaque elements). Anomalies already unclassified
     keep their reason.
     """
     from dataclasses import replace
@@ -103,6 +104,5 @@ def mark_panes(anomalies: list, labels: np.ndarray, temperature_c: np.ndarray, r
             marked.update(dict.fromkeys(members, text))
     return [replace(a, cause="unclassified", reason=marked[a.anomaly], excess_w=None, excess_low_w=None,
                     excess_high_w=None, excess_kwh_year=None, length_m=None, psi_w_mk=None, psi_low_w_mk=None,
-                    psi_high_w_mk=None,
-                    severity_score=0.0 + 1e-6 * min(a.area_px, 9.99e5) + (1e6 if a.mould_risk else 0.0))
+                    psi_high_w_mk=None, mould_risk=None, severity_score=1e-6 * min(a.area_px, 9.99e5))
             if a.anomaly in marked else a for a in anomalies]

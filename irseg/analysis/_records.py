@@ -204,7 +204,8 @@ def anomaly_record(
         cause, reason = "unclassified", (
             f"{GLAZING_REASON}; straight-edged {main.kind} rectangle whose rim (frame, glass edge) shows "
             f"{pane[0]:.1f} K against {pane[1]:.1f} K in its middle: a framed pane (a void is strongest in its "
-            "middle); its heat is that of the window, not counted as a defect's"
+            "middle); its heat is that of the window, not counted as a defect's, and its f_Rsi is not judged "
+            "against the mould limit of opaque elements"
         )
     else:
         cause, reason = _cause(unit, main, ctx=ctx, delta_k=delta_k, mean_c=mean_c, sets=sets, lines=lines,
@@ -222,7 +223,8 @@ def anomaly_record(
     if surf.view == "interior":
         t_si = float(np.percentile(vals, FRSI_PERCENTILE))
         f_rsi = temperature_factor(t_si, inside_c=air.inside_c, outside_c=air.outside_c)
-        mould = None if f_rsi is None else bool(f_rsi < an.frsi_limit)
+        # glazing is not judged against the mould limit of opaque elements (ISO 13788 is for those)
+        mould = None if f_rsi is None or pane is not None else bool(f_rsi < an.frsi_limit)
     bands = BandInputs(
         area_px=area_px, perimeter_px=int(sum(m.shape.perimeter_px for m in unit)), loss_sum_kpx=px.loss_sum_kpx,
         thermal_area_px=int(sum(m.region_area_px for m in unit)) + px.n_rim, pixel_area_m2=px_area,

@@ -97,3 +97,20 @@ def test_a_wall_warmer_than_the_inside_air_is_a_metadata_warning_not_a_heat_sour
     assert not any(a.reason.startswith("heat source") for a in res.anomalies)
     assert any("inside air temperature" in w for w in res.warnings)
     assert any(a.cause == "missing_insulation" for a in res.anomalies)
+
+
+def test_a_framed_pane_seen_from_inside_is_likely_glazing_and_a_void_is_not():
+    # a window: the frame and glass edge (rim, 0.06 m) colder than the middle of the glass; a void:
+    # strongest in its middle (lateral conduction weakens its rim) [C: conduction]
+    def wall(rim_k, middle_k):
+        t = np.full((160, 240), 19.0)
+        d = np.zeros(t.shape, int)
+        t[30:130, 60:180] -= rim_k
+        t[36:124, 66:174] += rim_k - middle_k
+        d[30:130, 60:180] = 1
+        return t, d
+    (pane,) = _run(*wall(3.5, 2.0)).anomalies
+    assert pane.cause == "unclassified" and pane.reason.startswith("likely glazing: confirm or exclude with a zone")
+    assert pane.excess_w is None and pane.mould_risk is None
+    (void,) = _run(*wall(2.6, 3.0)).anomalies
+    assert void.cause == "missing_insulation", void.reason
