@@ -152,11 +152,11 @@ def _band_reason(
     if line is not None:
         return (
             f"long narrow straight {kind} band in {line[0]} pieces (length/width {line[1]:.1f}{width_txt}): "
-            "stud, plate, slab edge or lintel"
+            "stud, plate, slab edge, lintel, corner or junction"
         )
     reason = (
         f"long narrow straight {kind} band (length/width {shape.elongation:.1f}{width_txt}): "
-        "stud, plate, slab edge or lintel"
+        "stud, plate, slab edge, lintel, corner or junction"
     )
     if shape.elongation < BAND_ELONGATION:
         reason += "; its weak contrast suits a timber or steel member better than an empty cavity"
