@@ -137,7 +137,7 @@ def emitter_records(
         rows, cols = np.nonzero(own)
         peak = float(vals.max())
         reason = (f"{EMITTER_REASON}: up to {peak:.1f} °C, warmer than the inside air ({inside_c:.1f} °C): radiator, "
-                  "pipe, lamp or appliance; not a heat-loss defect, and left out of "
+                  "pipe, lamp, appliance or sun on the surface; not a heat-loss defect, and left out of "
                   "the sound reference")
         area_px = int(vals.size)
         out.append((Anomaly(
