@@ -144,7 +144,8 @@ def find_regular_sets(
 
 def _regular_spacing(gaps: np.ndarray) -> float | None:
     """The members' spacing when every gap is 1, 2 or 3 times it (a member hidden by a defect or a
-    window leaves a double gap) within :data:`SPACING_CV`; None otherwise. At least one gap is single."""
+    window leaves a double gap) within :data:`SPACING_CV` (half of it when a gap is a multiple);
+    None otherwise. At least one gap is single."""
     if gaps.size == 0 or float(gaps.min()) <= 0:
         return None
     base = float(gaps.min())
@@ -152,7 +153,10 @@ def _regular_spacing(gaps: np.ndarray) -> float | None:
     if float(k.max()) > MAX_GAP_MEMBERS:
         return None
     spacing = float(gaps.sum() / k.sum())
-    if float(np.max(np.abs(gaps - k * spacing))) > SPACING_CV * spacing:
+    # with a missing member the gaps must fit the multiples twice as closely (0.4 and 0.6 m alternating
+    # would otherwise pass as 0.33 m centres with members missing)
+    tolerance = SPACING_CV if float(k.max()) == 1 else 0.5 * SPACING_CV
+    if float(np.max(np.abs(gaps - k * spacing))) > tolerance * spacing:
         return None
     return spacing
 

@@ -312,3 +312,16 @@ def test_small_spot_is_not_called_missing_insulation():
     d[50:56, 100:106] = 1
     (a,) = _run(t, d).anomalies
     assert a.cause == "unclassified" and "too small" in a.reason
+
+
+def test_a_set_with_a_member_hidden_by_a_window_is_still_one_framing_anomaly():
+    # studs at 400 mm centres [CP], the one at column 100 missing (cut out for an opening)
+    t, d = _wall()
+    _studs(t, d, cols=(20, 60, 140, 180, 220), width=5)
+    res = _run(t, d)
+    (framing,) = res.anomalies
+    assert "5 parallel" in framing.reason and "0.40 m" in framing.reason
+    # gaps of 0.4 and 0.6 m are not one spacing: no set
+    t2, d2 = _wall()
+    _studs(t2, d2, cols=(20, 60, 120, 160, 220), width=5)
+    assert all("summarised" not in a.reason for a in _run(t2, d2).anomalies)
