@@ -12,7 +12,6 @@ then one :class:`Anomaly` per unit (:mod:`._records`, :mod:`._classify`).
 from __future__ import annotations
 
 import math
-from dataclasses import replace
 
 import numpy as np
 from scipy import ndimage
@@ -24,7 +23,7 @@ from ..segmentation import estimate_noise_k
 from ..types import Air, Surface, SurveyMeta, ThermalFrame
 from ._candidates import select_candidates, significance_threshold_k
 from ._conditions import check_conditions
-from ._emitters import FilledSegmentation, emitter_mask, emitter_records, emitter_warning, fill_emitters, merge_records
+from ._emitters import with_emitters
 from ._classify import GLAZING_REASON
 from ._fragments import group_fragments
 from ._glazing import mark_panes
@@ -77,24 +76,7 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     EN 13187 and ASTM C1060 (conditions and signatures), ASTM C1153 (roofs).
     """
     # heat emitters seen from inside: filled from the wall around them, then reported (._emitters)
-    t = np.asarray(frame.temperature_c, dtype=float)
-    if getattr(frame.mask, "shape", None) == t.shape:
-        ok = ~np.asarray(frame.mask, dtype=bool) & np.isfinite(t)
-        emit = emitter_mask(t, ok, view=meta.surface.view, inside_c=meta.air.inside_c)
-        too_much = emitter_warning(emit, ok, inside_c=meta.air.inside_c) if emit.any() else None
-        if too_much is not None:
-            res = _analyse(frame, seg, meta)
-            return replace(res, warnings=res.warnings + (too_much,))
-        if emit.any():
-            u = np.asarray(getattr(seg, "u", t), dtype=float)
-            filled = FilledSegmentation(fill_emitters(u, emit), np.asarray(getattr(seg, "edges", emit & False)) & ~emit,
-                                        np.asarray(seg.labels), getattr(seg, "params", None))
-            res = _analyse(replace(frame, temperature_c=fill_emitters(t, emit)), filled, meta)
-            extra = emitter_records(t, emit, ok, inside_c=float(meta.air.inside_c), pixel_area_m2=res.pixel_area_m2)
-            records, labels = merge_records(res.anomalies, res.labels, extra)
-            reference = np.where(emit, np.nan, res.reference_c)
-            return replace(res, anomalies=rank_by_severity(records), labels=labels, reference_c=reference)
-    return _analyse(frame, seg, meta)
+    return with_emitters(frame, seg, meta, _analyse)
 
 
 def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:

@@ -29,7 +29,7 @@ from ._types import Anomaly, severity_score
 
 __all__ = ["EMITTER_MARGIN_K", "EMITTER_GROW_PX", "EMITTER_MAX_FRACTION", "EMITTER_REASON", "emitter_mask",
            "emitter_warning", "emitter_records",
-           "merge_records", "fill_emitters", "FilledSegmentation"]
+           "merge_records", "fill_emitters", "FilledSegmentation", "with_emitters"]
 
 EMITTER_MARGIN_K = 3.0  # warmer than the inside air by this much: a heat source
 EMITTER_GROW_PX = 3  # the camera's blur around a hot surface
@@ -175,3 +175,36 @@ def merge_records(anomalies: tuple[Anomaly, ...], labels: np.ndarray,
         if own is not None:
             out_labels[own & (out_labels == 0)] = new_id
     return records, out_labels
+
+
+def with_emitters(frame, seg, meta, run):
+    """``run(frame, seg, meta)`` (the analysis) with the heat emitters taken care of.
+
+    Interior views with a known inside air: the emitters are filled (temperature and the
+    segmentation's smooth field, :func:`fill_emitters`) before ``run``, then reported
+    (:func:`emitter_records`), ids renumbered (:func:`merge_records`), their reference NaN. When the
+    would-be emitters cover more than :data:`EMITTER_MAX_FRACTION` of the frame, ``run`` sees the
+    frame unchanged and the result carries :func:`emitter_warning`.
+    """
+    from ._records import rank_by_severity
+
+    t = np.asarray(frame.temperature_c, dtype=float)
+    if getattr(frame.mask, "shape", None) != t.shape:
+        return run(frame, seg, meta)  # the analysis names the shape mismatch
+    ok = ~np.asarray(frame.mask, dtype=bool) & np.isfinite(t)
+    emit = emitter_mask(t, ok, view=meta.surface.view, inside_c=meta.air.inside_c)
+    if not emit.any():
+        return run(frame, seg, meta)
+    too_much = emitter_warning(emit, ok, inside_c=meta.air.inside_c)
+    if too_much is not None:
+        res = run(frame, seg, meta)
+        return replace(res, warnings=res.warnings + (too_much,))
+    u = np.asarray(getattr(seg, "u", t), dtype=float)
+    edges = getattr(seg, "edges", None)
+    edges = np.zeros(t.shape, bool) if edges is None else np.asarray(edges, dtype=bool) & ~emit
+    filled = FilledSegmentation(fill_emitters(u, emit), edges, np.asarray(seg.labels), getattr(seg, "params", None))
+    res = run(replace(frame, temperature_c=fill_emitters(t, emit)), filled, meta)
+    extra = emitter_records(t, emit, ok, inside_c=float(meta.air.inside_c), pixel_area_m2=res.pixel_area_m2)
+    records, labels = merge_records(res.anomalies, res.labels, extra)
+    return replace(res, anomalies=rank_by_severity(records), labels=labels,
+                   reference_c=np.where(emit, np.nan, res.reference_c))
