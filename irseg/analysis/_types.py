@@ -115,7 +115,7 @@ class Analysis:
     reference_c : (M, N) float ndarray
         Local sound reference, °C: each segmented anomaly's ring plane over its thermal
         region, the local sound surface elsewhere (under the detected anomalies too); NaN
-        on masked pixels.
+        on masked pixels and on heat emitters seen from inside (:mod:`._emitters`).
     warnings : tuple of str
         Conditions and metadata warnings.
     """
