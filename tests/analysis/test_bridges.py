@@ -114,3 +114,38 @@ def test_a_framed_pane_seen_from_inside_is_likely_glazing_and_a_void_is_not():
     assert pane.excess_w is None and pane.mould_risk is None
     (void,) = _run(*wall(2.6, 3.0)).anomalies
     assert void.cause == "missing_insulation", void.reason
+
+
+def test_a_window_cut_into_frame_bars_and_glass_is_glazing_as_a_whole():
+    # seen from outside: the frame (emissivity 0.9) warmer than the glass, which reflects the cold sky
+    # (glass about 0.84, common practice) [C: radiometry]; the segmentation cuts the bars and the glass apart
+    t = np.full((160, 240), 3.0)
+    d = np.zeros(t.shape, int)
+    t[30:130, 60:180] += 2.4  # frame, 70 mm
+    t[37:123, 67:173] -= 1.2  # glass less warm than the frame
+    d[30:37, 60:180], d[123:130, 60:180] = 1, 2
+    d[37:123, 60:67], d[37:123, 173:180] = 3, 4
+    d[37:123, 67:173] = 5
+    res = _run(t, d, surface={"view": "exterior"})
+    assert res.anomalies and all(a.cause == "unclassified" and "likely glazing" in a.reason for a in res.anomalies)
+    assert all(a.excess_w is None for a in res.anomalies)
+    # the same rectangle without a frame (a missing board, uniform) stays missing insulation
+    t2 = np.full((160, 240), 3.0)
+    t2[30:130, 60:180] += 2.0
+    d2 = np.zeros(t.shape, int)
+    d2[30:130, 60:180] = 1
+    (board,) = _run(t2, d2, surface={"view": "exterior"}).anomalies
+    assert board.cause == "missing_insulation", board.reason
+
+
+def test_emitter_fill_reproduces_a_harmonic_surface():
+    # a plane and x² − y² satisfy Laplace's equation (the 5-point stencil exactly): the fill over a hole
+    # must give them back [C: mathematics]
+    from irseg.analysis._emitters import fill_emitters
+
+    rows, cols = np.mgrid[0:60, 0:80].astype(float)
+    hole = np.zeros(rows.shape, bool)
+    hole[20:40, 25:60] = True
+    for field in (18.0 + 0.02 * rows - 0.01 * cols, 0.001 * ((cols - 40) ** 2 - (rows - 30) ** 2)):
+        damaged = np.where(hole, 50.0, field)
+        assert np.allclose(fill_emitters(damaged, hole), field, atol=1e-9)
