@@ -76,11 +76,14 @@ def group_units(
     Pieces of one framing member (same ``(set, line)`` of a line found by
     :func:`._framing.find_lines`) form one unit, a member interrupted by other anomalies;
     every member of one regular set is one unit (the framing summary); fragments join
-    their host's unit.
+    their host's unit, except a framing member, which stays with its set or line.
     """
     members: dict[tuple[int, int], list[Measured]] = {}
     units: list[list[Measured]] = []
     by_label: dict[int, list[Measured]] = {}
+    # a framing member stays with its set or line even when it touches another anomaly of similar
+    # temperature (it is never that anomaly's fragment)
+    host_of = _hosts(host_of, sets, lines)
     for m in measured:
         if m.cand.label in host_of:
             continue
@@ -98,6 +101,11 @@ def group_units(
     units.extend(members.values())
     units.sort(key=lambda u: (min(m.bbox[0] for m in u), min(m.bbox[1] for m in u), min(m.cand.label for m in u)))
     return units
+
+
+def _hosts(host_of: dict[int, int], sets: dict[int, LineInfo], lines: dict[int, LineInfo]) -> dict[int, int]:
+    """``host_of`` without the framing members: a member is never another anomaly's fragment."""
+    return {k: v for k, v in host_of.items() if k not in sets and k not in lines}
 
 
 @dataclass(frozen=True)
@@ -188,6 +196,7 @@ def anomaly_record(
 
     Writes ``anomaly_id`` over the unit's measured extent into ``labels_out``.
     """
+    host_of = _hosts(host_of, sets, lines)
     meta = ctx.meta
     cam, surf, air, an = meta.camera, meta.surface, meta.air, meta.analysis
     main = max(unit, key=lambda m: (m.shape.area_px, -m.cand.label))

@@ -325,3 +325,15 @@ def test_a_set_with_a_member_hidden_by_a_window_is_still_one_framing_anomaly():
     t2, d2 = _wall()
     _studs(t2, d2, cols=(20, 60, 120, 160, 220), width=5)
     assert all("summarised" not in a.reason for a in _run(t2, d2).anomalies)
+
+
+def test_a_member_touching_an_area_of_its_temperature_stays_in_the_framing_anomaly():
+    # a weak cold area (a partly filled bay) touching one member at the same contrast: the member is not
+    # that area's fragment; the six members stay one framing anomaly [CP: regular framing is construction]
+    t, d = _wall()
+    _studs(t, d, cols=range(20, 240, 40), width=5, delta=-0.8)
+    t[10:110, 145:175] -= 0.75
+    d[10:110, 145:175] = 2
+    res = _run(t, d)
+    framing = [a for a in res.anomalies if "summarised" in a.reason]
+    assert len(framing) == 1 and "6 parallel" in framing[0].reason, [a.reason for a in res.anomalies]
