@@ -229,12 +229,14 @@ ISO 10456 moisture factor exp(4ψ), wet brick and plaster exp(10ψ), with the wa
 added. The solver is checked against ISO 6946 U-values and surface temperatures in
 `tests/scenes/test_conduction.py`.
 """
-    kept = ""
-    if path.is_file():  # a section another script owns (benchmarks/validate_pairs.py) stays as it is
+    kept = []
+    if path.is_file():  # sections other scripts own (validate_construction.py, validate_pairs.py) stay as they are
         old = path.read_text(encoding="utf-8")
-        if "<!-- pairs:begin -->" in old and "<!-- pairs:end -->" in old:
-            kept = old[old.index("<!-- pairs:begin -->"):old.index("<!-- pairs:end -->") + len("<!-- pairs:end -->")]
-    write_text(path, text + ("\n" + kept + "\n" if kept else ""))
+        for start, end in (("<!-- construction -->", "<!-- /construction -->"),
+                           ("<!-- pairs:begin -->", "<!-- pairs:end -->")):
+            if start in old and end in old:
+                kept.append(old[old.index(start):old.index(end) + len(end)])
+    write_text(path, text + "".join("\n" + k + "\n" for k in kept))
 
 
 def _print_table(rows: list[list[str]]) -> None:

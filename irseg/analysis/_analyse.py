@@ -23,7 +23,10 @@ from ..segmentation import estimate_noise_k
 from ..types import Air, Surface, SurveyMeta, ThermalFrame
 from ._candidates import select_candidates, significance_threshold_k
 from ._conditions import check_conditions
+from ._emitters import with_emitters
+from ._classify import GLAZING_REASON
 from ._fragments import group_fragments
+from ._glazing import mark_panes
 from ._framing import find_lines, find_regular_sets
 from ._geometry import MIN_SPOT_PX, pixel_area_m2, pixel_size_m
 from ._records import ImageContext, anomaly_record, group_units, rank_by_severity
@@ -72,6 +75,12 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     ISO 6946 / ISO 13789 (surface coefficients), ISO 13788 (temperature factor),
     EN 13187 and ASTM C1060 (conditions and signatures), ASTM C1153 (roofs).
     """
+    # heat emitters seen from inside: filled from the wall around them, then reported (._emitters)
+    return with_emitters(frame, seg, meta, _analyse)
+
+
+def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
+    """:func:`analyse` without the emitter step."""
     cam, surf, air, an = meta.camera, meta.surface, meta.air, meta.analysis
     t = _float_field(frame.temperature_c)  # float32 stays float32: no float64 copy of the frame (issue 15)
     shape = t.shape
@@ -187,6 +196,7 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
         anomaly_record(i, unit, ctx=ctx, sets=sets, lines=lines, host_of=host_of, labels_out=out_labels)
         for i, unit in enumerate(group_units(measured, host_of=host_of, sets=sets, lines=lines), start=1)
     ]
+    drafts = mark_panes(drafts, out_labels, t, reference, pixel_m=pixel_m, view=surf.view, reason=GLAZING_REASON)
     return Analysis(rank_by_severity(drafts), out_labels, pixel_m, px_area, h, reference, warn)
 
 
@@ -214,7 +224,7 @@ def _framing(measured: list, pixel_m: float | None) -> tuple[dict, dict]:
     """Regular parallel sets and straight bands of pieces among the measured anomalies."""
     shapes = {m.cand.label: m.shape for m in measured}
     kinds = {m.cand.label: m.kind for m in measured}
-    sets = find_regular_sets(shapes, kinds, pixel_m=pixel_m)
+    sets = find_regular_sets(shapes, kinds, pixel_m=pixel_m, deltas={m.cand.label: m.cand.delta_k for m in measured})
     lines = find_lines(
         shapes, kinds, {m.cand.label: m.cand.delta_k for m in measured}, pixel_m=pixel_m, exclude=set(sets),
         bboxes={m.cand.label: m.bbox for m in measured},

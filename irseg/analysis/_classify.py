@@ -8,16 +8,15 @@ matching rule wins and returns ``(cause, reason)``.
 
 from __future__ import annotations
 
-from ._framing import BAND_ELONGATION, BAND_FILL, LineInfo, is_band
+from ._framing import BAND_ELONGATION, BAND_FILL, STUD_SPACING_M, LineInfo, is_band
 from ._shape import FAN_TAPER, Shape
 
-__all__ = ["classify_cause", "WEAK_BAND_ELONGATION", "SMALL_SPOT_M", "PARTIAL_FRACTION", "STUD_SPACING_M",
+__all__ = ["classify_cause", "framing_summary_reason", "FRAMING_EXPECTED", "GLAZING_REASON", "GLAZING_FILL", "WEAK_BAND_ELONGATION", "SMALL_SPOT_M", "PARTIAL_FRACTION", "STUD_SPACING_M",
            "NARROW_LINE_M", "NARROW_ELONGATION", "DAMP_BASE_CONTACT", "DAMP_ROUGHNESS_M", "DAMP_ROUGHNESS_PX", "DAMP_TOP_CONTACT", "DAMP_REASON"]
 
 WEAK_BAND_ELONGATION = 3.0  # a shorter band counts when its contrast is weak (a timber header, not an empty cavity)
 SMALL_SPOT_M = 0.10  # a compact spot smaller than this across is not judged as missing insulation
 PARTIAL_FRACTION = 0.10  # |contrast| / (T_i − T_e) below which a void is partial-depth
-STUD_SPACING_M = (0.30, 0.70)
 NARROW_LINE_M = 0.12  # a cold line at most this wide is a member or a gap, not a void (members are 45-100 mm)
 NARROW_ELONGATION = 3.0
 DAMP_BASE_CONTACT = 0.5  # a damp base runs along the frame's bottom edge over at least half its width
@@ -25,6 +24,22 @@ DAMP_TOP_CONTACT = 0.3  # a patch hanging from the frame's top edge over at leas
 DAMP_ROUGHNESS_M = 0.015  # a tide line wavers about a straight line by at least this (robust spread) ...
 DAMP_ROUGHNESS_PX = 2.0  # ... and by at least this many pixels (a straight edge measures about 0.3 px)
 DAMP_REASON = "rising or penetrating damp: confirm with a moisture meter"
+GLAZING_FILL = 0.85  # a pane fills its rectangle
+GLAZING_REASON = "likely glazing: confirm or exclude with a zone"
+#: Words that mark framing as expected construction (the report's ranking leaves it unranked).
+FRAMING_EXPECTED = "expected in framed construction: repair only a member clearly colder than its neighbours"
+
+
+def framing_summary_reason(n_members: int, spacing_px: float, *, kind: str, pixel_m: float | None,
+                           width_px: float) -> str:
+    """Reason of the one anomaly that stands for a regular set of framing members in an image."""
+    gap = f"{spacing_px * pixel_m:.2f} m" if pixel_m is not None else f"{spacing_px:.0f} px"
+    width = f", about {1000 * width_px * pixel_m:.0f} mm wide" if pixel_m is not None else ""
+    reason = (f"{n_members} parallel {kind} bands at regular {gap} spacing{width}, summarised as one anomaly: "
+              "framing members (studs, joists, rafters); area, length and heat summed, psi per metre of member")
+    if pixel_m is not None and not (STUD_SPACING_M[0] <= spacing_px * pixel_m <= STUD_SPACING_M[1]):
+        reason += " (spacing outside the usual 400-600 mm centres)"
+    return reason + "; " + FRAMING_EXPECTED
 
 
 def classify_cause(
@@ -101,6 +116,12 @@ def classify_cause(
             return "unclassified", (
                 "warm seen from inside: a heat source (pipe, flue, appliance) or solar gain, not a heat-loss defect"
             )
+        if shape.sharp and shape.rect_fill >= GLAZING_FILL and shape.uniform:
+            # glass (emissivity about 0.84) reflects the cold sky: a uniform, straight-edged cold rectangle
+            return "unclassified", (
+                f"{GLAZING_REASON}; uniform straight-edged cold rectangle seen from outside (fill "
+                f"{shape.rect_fill:.2f}): glass reflecting the sky, not a heat-loss signature"
+            )
         return "unclassified", (
             "cold seen from outside: sky reflection, shading or evaporative cooling of a damp surface; "
             "not a heat-loss signature"
@@ -127,15 +148,15 @@ def _band_reason(
         if pixel_m is not None and not (STUD_SPACING_M[0] <= gap_px * pixel_m <= STUD_SPACING_M[1]):
             reason += " (spacing outside the usual 400-600 mm centres)"
         # regular framing is part of the construction, not a fault (common practice)
-        return reason + "; expected in framed construction: repair only a member clearly colder than its neighbours"
+        return reason + "; " + FRAMING_EXPECTED
     if line is not None:
         return (
             f"long narrow straight {kind} band in {line[0]} pieces (length/width {line[1]:.1f}{width_txt}): "
-            "stud, plate, slab edge or lintel"
+            "stud, plate, slab edge, lintel, corner or junction"
         )
     reason = (
         f"long narrow straight {kind} band (length/width {shape.elongation:.1f}{width_txt}): "
-        "stud, plate, slab edge or lintel"
+        "stud, plate, slab edge, lintel, corner or junction"
     )
     if shape.elongation < BAND_ELONGATION:
         reason += "; its weak contrast suits a timber or steel member better than an empty cavity"

@@ -24,6 +24,8 @@ __all__ = [
     "BAND_ELONGATION",
     "BAND_FILL",
     "BAND_MAX_WIDTH_M",
+    "STUD_SPACING_M",
+    "COLDER_MEMBER_FACTOR",
 ]
 
 #: ``(members, spacing or span, (set number, line number))`` of one band: set number -1 for a
@@ -40,6 +42,11 @@ BAND_MAX_WIDTH_M = 0.35  # wider bands are not framing members, lintels or slab 
 PARALLEL_DEG = 10.0
 SPACING_CV = 0.25
 SET_MAX_WIDTH_FRACTION = 0.35  # members are narrow against their spacing (45-100 mm at 400-600 mm centres)
+STUD_SPACING_M = (0.30, 0.70)  # usual centres of studs, joists and rafters (400-600 mm, common practice)
+MAX_GAP_MEMBERS = 3  # a set may miss members: a gap of up to three spacings
+PIECE_MISS_WIDTHS = 1.0  # a short piece joins a member's line when its centre is at most this many widths off it
+PIECE_FILL = 0.4  # ... and fills its rectangle this much (a soft detection along a member is ragged)
+COLDER_MEMBER_FACTOR = 1.6  # a member whose contrast exceeds the set's median by this factor stands alone
 
 
 def is_band(shape: Shape, width_m: float | None, elongation: float) -> bool:
@@ -58,16 +65,23 @@ def angle_diff(a: float, b: float) -> float:
 
 
 def find_regular_sets(
-    shapes: dict[int, Shape], kinds: dict[int, str], *, pixel_m: float | None
+    shapes: dict[int, Shape], kinds: dict[int, str], *, pixel_m: float | None,
+    deltas: dict[int, float] | None = None,
 ) -> dict[int, LineInfo]:
     """Parallel bands of the same sign at regular spacing (studs, joists, rafters).
 
     Bands (elongation >= 2.5, straight) parallel within 10° and of similar mean
     width (within a factor 2) are grouped; bands on
     the same line (a member interrupted by another anomaly) merge into one line.
-    At least three lines whose spacings vary by at most 25 %, with a width of at
-    most 0.35 × the spacing, form a set. Pieces
-    lying on a member's line with the member's width join the set too.
+    At least three lines whose gaps are one, two or three times a common spacing within 25 %
+    (members hidden behind a defect or a window leave a wider gap), with a width of at
+    most 0.35 × the spacing, form a set; two lines form one when the pixel size is
+    known and their spacing is a usual framing centre (0.30-0.70 m). Pieces
+    lying on a member's line (within one width of it, filling 40 % of their rectangle) with the
+    member's width join the set too.
+    With ``deltas`` (contrast per key, K), a member of a set of at least three whose
+    contrast exceeds 1.6 × the members' median is left out of the set: a member clearly
+    colder than its neighbours is its own anomaly.
 
     Returns
     -------
@@ -105,12 +119,9 @@ def find_regular_sets(
                 lines[-1].append(x)
             else:
                 lines.append([x])
-        if len(lines) < 3:
-            continue
         centres = np.array([float(np.mean(line)) for line in lines])
-        gaps = np.diff(centres)
-        mean_gap = float(gaps.mean())
-        if mean_gap <= 0 or float(np.max(np.abs(gaps - mean_gap))) > SPACING_CV * mean_gap:
+        mean_gap = _regular_spacing(np.diff(centres))
+        if mean_gap is None or len(lines) < 2 or (len(lines) == 2 and not _framing_centre(mean_gap, pixel_m)):
             continue
         if width > SET_MAX_WIDTH_FRACTION * mean_gap:  # bays side by side, not members between bays
             continue
@@ -119,13 +130,57 @@ def find_regular_sets(
             line = int(np.argmin(np.abs(centres - offset(shapes[j]))))
             found[j] = (len(lines), mean_gap, (n_sets, line))
         for j, sj in shapes.items():  # interrupted pieces too short to be bands themselves
-            if j in found or kinds[j] != kinds[k] or sj.rect_fill < BAND_FILL:
+            if j in found or kinds[j] != kinds[k] or sj.rect_fill < PIECE_FILL:
                 continue
             across = sj.width_px if angle_diff(sj.orientation_deg, o) <= 2 * PARALLEL_DEG else sj.length_px
             miss = np.abs(centres - offset(sj))
-            if float(miss.min()) <= 0.5 * width and max(across, width) <= WIDTH_RATIO * min(across, width):
+            if (float(miss.min()) <= PIECE_MISS_WIDTHS * width
+                    and max(across, width) <= WIDTH_RATIO * min(across, width)):
                 found[j] = (len(lines), mean_gap, (n_sets, int(np.argmin(miss))))
+        if deltas is not None and len(lines) >= 3:
+            _drop_colder(found, n_sets, shapes, deltas)
     return found
+
+
+def _regular_spacing(gaps: np.ndarray) -> float | None:
+    """The members' spacing when every gap is 1, 2 or 3 times it (a member hidden by a defect or a
+    window leaves a double gap) within :data:`SPACING_CV` (half of it when a gap is a multiple);
+    None otherwise. At least one gap is single."""
+    if gaps.size == 0 or float(gaps.min()) <= 0:
+        return None
+    base = float(gaps.min())
+    k = np.rint(gaps / base)
+    if float(k.max()) > MAX_GAP_MEMBERS:
+        return None
+    spacing = float(gaps.sum() / k.sum())
+    # with a missing member the gaps must fit the multiples twice as closely (0.4 and 0.6 m alternating
+    # would otherwise pass as 0.33 m centres with members missing)
+    tolerance = SPACING_CV if float(k.max()) == 1 else 0.5 * SPACING_CV
+    if float(np.max(np.abs(gaps - k * spacing))) > tolerance * spacing:
+        return None
+    return spacing
+
+
+def _framing_centre(gap_px: float, pixel_m: float | None) -> bool:
+    """A spacing of two members that is a usual framing centre (known pixel size only)."""
+    return pixel_m is not None and gap_px > 0 and STUD_SPACING_M[0] <= gap_px * pixel_m <= STUD_SPACING_M[1]
+
+
+def _drop_colder(found: dict[int, LineInfo], set_no: int, shapes: dict[int, Shape], deltas: dict[int, float]) -> None:
+    """Members of set ``set_no`` clearly stronger in contrast than the set's median leave the set."""
+    keys = [k for k, info in found.items() if info[2][0] == set_no]
+    per_line: dict[int, list[int]] = {}
+    for k in keys:
+        per_line.setdefault(found[k][2][1], []).append(k)
+    strength = {
+        line: sum(abs(deltas[k]) * shapes[k].area_px for k in ks) / max(sum(shapes[k].area_px for k in ks), 1)
+        for line, ks in per_line.items()
+    }
+    median = float(np.median(list(strength.values())))
+    for line, ks in per_line.items():
+        if strength[line] > COLDER_MEMBER_FACTOR * median:
+            for k in ks:
+                del found[k]
 
 
 def find_lines(

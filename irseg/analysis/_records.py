@@ -11,9 +11,11 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ..types import SurveyMeta
-from ._classify import classify_cause
+from ._bridges import linear_figures
+from ._classify import GLAZING_REASON, classify_cause, framing_summary_reason
 from ._confidence import BandInputs, confidence_bands
 from ._framing import LineInfo
+from ._glazing import is_framed_pane, pane_profile
 from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
 from ._thermal_region import Measured
 from ._types import Anomaly, severity_key, severity_score
@@ -71,12 +73,17 @@ def group_units(
 ) -> list[list[Measured]]:
     """Units in raster order of their top-left corner.
 
-    Pieces of one framing member (same ``(set, line)``) form one unit, a member
-    interrupted by other anomalies; fragments join their host's unit.
+    Pieces of one framing member (same ``(set, line)`` of a line found by
+    :func:`._framing.find_lines`) form one unit, a member interrupted by other anomalies;
+    every member of one regular set is one unit (the framing summary); fragments join
+    their host's unit, except a framing member, which stays with its set or line.
     """
     members: dict[tuple[int, int], list[Measured]] = {}
     units: list[list[Measured]] = []
     by_label: dict[int, list[Measured]] = {}
+    # a framing member stays with its set or line even when it touches another anomaly of similar
+    # temperature (it is never that anomaly's fragment)
+    host_of = _hosts(host_of, sets, lines)
     for m in measured:
         if m.cand.label in host_of:
             continue
@@ -85,14 +92,20 @@ def group_units(
             units.append([m])
             by_label[m.cand.label] = units[-1]
         else:
-            members.setdefault(info[2], []).append(m)
-            by_label[m.cand.label] = members[info[2]]
+            key = (info[2][0], -1) if info[2][0] > 0 else info[2]  # a set: all its members
+            members.setdefault(key, []).append(m)
+            by_label[m.cand.label] = members[key]
     for m in measured:
         if m.cand.label in host_of:
             by_label[host_of[m.cand.label]].append(m)
     units.extend(members.values())
     units.sort(key=lambda u: (min(m.bbox[0] for m in u), min(m.bbox[1] for m in u), min(m.cand.label for m in u)))
     return units
+
+
+def _hosts(host_of: dict[int, int], sets: dict[int, LineInfo], lines: dict[int, LineInfo]) -> dict[int, int]:
+    """``host_of`` without the framing members: a member is never another anomaly's fragment."""
+    return {k: v for k, v in host_of.items() if k not in sets and k not in lines}
 
 
 @dataclass(frozen=True)
@@ -122,7 +135,19 @@ def _cause(
     unit: list[Measured], main: Measured, *, ctx: ImageContext, delta_k: float, mean_c: float,
     sets: dict[int, LineInfo], lines: dict[int, LineInfo], host_of: dict[int, int], contact: dict[str, float],
 ) -> tuple[str, str]:
-    """Cause of the unit's main piece, the reason telling how many pieces were joined."""
+    """Cause of the unit's main piece, the reason telling how many pieces were joined.
+
+    A unit holding two or more members of one regular set is the image's framing summary:
+    ``thermal_bridge`` with the summary's reason when its sign is the heat-loss sign from this side.
+    """
+    view = ctx.meta.surface.view
+    set_lines = {sets[m.cand.label][2] for m in unit if m.cand.label in sets}
+    expected = "cold" if view == "interior" else "warm"
+    if len(set_lines) >= 2 and (main.kind == expected or view == "roof"):
+        info = sets[next(m.cand.label for m in unit if m.cand.label in sets)]
+        reason = framing_summary_reason(len(set_lines), info[1], kind=main.kind, pixel_m=ctx.pixel_m,
+                                        width_px=main.shape.width_px)
+        return "thermal_bridge", reason
     cause, reason = classify_cause(
         main.shape, kind=main.kind, view=ctx.meta.surface.view, delta_k=delta_k, mean_c=mean_c,
         threshold_k=ctx.threshold_k, pixel_m=ctx.pixel_m, regular_set=sets.get(main.cand.label),
@@ -141,6 +166,21 @@ def _cause(
     return cause, reason
 
 
+def _pane(main: Measured, px: _UnitPixels, ctx: ImageContext) -> tuple[float, float] | None:
+    """``(rim, middle)`` contrast of a framed pane (:mod:`._glazing`), None when the unit is not one.
+
+    Only a compact area of the heat-loss sign on a wall or ceiling, with a known pixel size.
+    """
+    view = ctx.meta.surface.view
+    if ctx.pixel_m is None or view == "roof" or main.kind != ("cold" if view == "interior" else "warm"):
+        return None
+    if not main.shape.compact:
+        return None
+    sign = -1.0 if view == "interior" else 1.0
+    profile = pane_profile(px.rows, px.cols, sign * (px.values_c - px.reference_c), ctx.pixel_m)
+    return profile if is_framed_pane(profile, rect_fill=main.shape.rect_fill) else None
+
+
 def _frame_contact(rows: np.ndarray, cols: np.ndarray, n_rows: int) -> dict[str, float]:
     """Share of the anomaly's columns in which it reaches the frame's top and bottom rows."""
     width = int(np.unique(cols).size)
@@ -156,6 +196,7 @@ def anomaly_record(
 
     Writes ``anomaly_id`` over the unit's measured extent into ``labels_out``.
     """
+    host_of = _hosts(host_of, sets, lines)
     meta = ctx.meta
     cam, surf, air, an = meta.camera, meta.surface, meta.air, meta.analysis
     main = max(unit, key=lambda m: (m.shape.area_px, -m.cand.label))
@@ -167,22 +208,32 @@ def anomaly_record(
     reference_c = float(px.reference_c.mean())
     delta_k = mean_c - reference_c
     n_rows, n_cols = ctx.temperature_c.shape
-    cause, reason = _cause(unit, main, ctx=ctx, delta_k=delta_k, mean_c=mean_c, sets=sets, lines=lines,
-                           host_of=host_of, contact=_frame_contact(px.rows, px.cols, n_rows))
+    pane = _pane(main, px, ctx)
+    if pane is not None:
+        cause, reason = "unclassified", (
+            f"{GLAZING_REASON}; straight-edged {main.kind} rectangle whose rim (frame, glass edge) shows "
+            f"{pane[0]:.1f} K against {pane[1]:.1f} K in its middle: a framed pane (a void is strongest in its "
+            "middle); its heat is that of the window, not counted as a defect's, and its f_Rsi is not judged "
+            "against the mould limit of opaque elements"
+        )
+    else:
+        cause, reason = _cause(unit, main, ctx=ctx, delta_k=delta_k, mean_c=mean_c, sets=sets, lines=lines,
+                               host_of=host_of, contact=_frame_contact(px.rows, px.cols, n_rows))
     if px.rows.min() == 0 or px.cols.min() == 0 or px.rows.max() == n_rows - 1 or px.cols.max() == n_cols - 1:
         reason += f"; {EDGE_NOTE}"
     px_area = ctx.pixel_area_m2
     area_m2 = None if px_area is None else area_px * px_area
     expected_kind = "cold" if surf.view == "interior" else "warm"
     excess_w = None
-    if px_area is not None and main.kind == expected_kind:
+    if px_area is not None and main.kind == expected_kind and pane is None:
         excess_w = excess_heat_w(h_w_m2k=ctx.h_w_m2k, loss_sum_kpx=px.loss_sum_kpx, pixel_area_m2=px_area)
     kwh = annual_energy_kwh(excess_w, inside_c=air.inside_c, outside_c=air.outside_c, degree_days=an.degree_days)
     f_rsi = mould = None
     if surf.view == "interior":
         t_si = float(np.percentile(vals, FRSI_PERCENTILE))
         f_rsi = temperature_factor(t_si, inside_c=air.inside_c, outside_c=air.outside_c)
-        mould = None if f_rsi is None else bool(f_rsi < an.frsi_limit)
+        # glazing is not judged against the mould limit of opaque elements (ISO 13788 is for those)
+        mould = None if f_rsi is None or pane is not None else bool(f_rsi < an.frsi_limit)
     bands = BandInputs(
         area_px=area_px, perimeter_px=int(sum(m.shape.perimeter_px for m in unit)), loss_sum_kpx=px.loss_sum_kpx,
         thermal_area_px=int(sum(m.region_area_px for m in unit)) + px.n_rim, pixel_area_m2=px_area,
@@ -193,6 +244,15 @@ def anomaly_record(
     )
     a_lo, a_hi, w_lo, w_hi = confidence_bands(bands, seed=an.seed, anomaly_id=anomaly_id, area_m2=area_m2,
                                               excess_w=excess_w)
+    members: dict[object, list] = {}
+    for m in unit:
+        if m.cand.label not in host_of:
+            info = sets.get(m.cand.label) or lines.get(m.cand.label)
+            members.setdefault(m.cand.label if info is None else info[2], []).append(m.shape)
+    length, psi, psi_lo, psi_hi = linear_figures(
+        list(members.values()) or [[main.shape]], cause=cause, pixel_m=ctx.pixel_m, tilt_deg=cam.tilt_deg, excess_w=excess_w,
+        delta_air_k=ctx.delta_air_k, bands=bands, seed=an.seed, anomaly_id=anomaly_id,
+    )
     return Anomaly(
         anomaly=anomaly_id, kind=main.kind, cause=cause, reason=reason, area_px=area_px,
         area_m2=area_m2, area_low_m2=a_lo, area_high_m2=a_hi, mean_c=mean_c, min_c=float(vals.min()),
@@ -203,6 +263,7 @@ def anomaly_record(
         bbox_row1=int(px.rows.max()) + 1, bbox_col1=int(px.cols.max()) + 1,
         severity=0,
         severity_score=severity_score(mould_risk=mould, excess_kwh_year=kwh, excess_w=excess_w, area_px=area_px),
+        length_m=length, psi_w_mk=psi, psi_low_w_mk=psi_lo, psi_high_w_mk=psi_hi,
     )
 
 

@@ -54,6 +54,13 @@ class Anomaly:
         Rank within the image, 1 = repair first.
     severity_score : float
         Ordering score, larger = more urgent (not a physical quantity).
+    length_m : float or None
+        Linear thermal bridges (cause ``thermal_bridge``): length seen in the image, m (the
+        members' lengths summed for a framing summary); None for area anomalies or without geometry.
+    psi_w_mk, psi_low_w_mk, psi_high_w_mk : float or None
+        Linear thermal transmittance ψ = excess heat / (length · (T_i − T_e)) and its 5-95 % band,
+        W/(m·K) (ISO 14683 meaning; :mod:`._bridges`); None without a positive inside-outside
+        difference or a heat figure.
     """
 
     anomaly: int
@@ -83,6 +90,10 @@ class Anomaly:
     bbox_col1: int
     severity: int
     severity_score: float
+    length_m: float | None = None
+    psi_w_mk: float | None = None
+    psi_low_w_mk: float | None = None
+    psi_high_w_mk: float | None = None
 
 
 @dataclass(frozen=True)
@@ -104,7 +115,7 @@ class Analysis:
     reference_c : (M, N) float ndarray
         Local sound reference, °C: each segmented anomaly's ring plane over its thermal
         region, the local sound surface elsewhere (under the detected anomalies too); NaN
-        on masked pixels.
+        on masked pixels and on heat emitters seen from inside (:mod:`._emitters`).
     warnings : tuple of str
         Conditions and metadata warnings.
     """

@@ -34,6 +34,9 @@ ANOMALY_COLUMNS = (
     "area_px",
     # the thermographer's review and the image's details (irseg.controls), appended
     "review", "note", "title", "element",
+    # linear thermal bridges (issue 12): length and linear thermal transmittance psi with its band;
+    # empty for area anomalies
+    "length_m", "psi_w_mk", "psi_low_w_mk", "psi_high_w_mk",
     # pairs under a pressure difference (irseg.pairs), appended; empty for single-image anomalies
     "pressure_pa", "cooling_k", "cooling_max_k",
 )
@@ -69,6 +72,9 @@ class SurveyAnomaly:
         The review's note.
     title, element : str or None
         ``[image] title`` and ``element`` of the image's sidecar.
+    length_m, psi_w_mk, psi_low_w_mk, psi_high_w_mk : float or None
+        As :class:`irseg.analysis.Anomaly`: a linear thermal bridge's length (m) and its linear
+        thermal transmittance ψ with its band, W/(m·K); None for area anomalies.
     pressure_pa, cooling_k, cooling_max_k : float or None
         An anomaly of a pair under a pressure difference (:mod:`irseg.pairs`): the pressure
         difference, Pa, and the mean and largest extra cooling between the shots, K (negative:
@@ -109,6 +115,10 @@ class SurveyAnomaly:
     note: str | None = None
     title: str | None = None
     element: str | None = None
+    length_m: float | None = None
+    psi_w_mk: float | None = None
+    psi_low_w_mk: float | None = None
+    psi_high_w_mk: float | None = None
     pressure_pa: float | None = None
     cooling_k: float | None = None
     cooling_max_k: float | None = None
@@ -176,7 +186,7 @@ def anomaly_table(
 
 #: Decimals written to anomalies.csv per column: what each value means, no more (summary.json keeps
 #: full precision): area 0.001 m², heat flow 0.1 W, energy 1 kWh, temperatures and ΔT 0.01 K,
-#: f_Rsi 0.01, centroid 0.1 px.
+#: f_Rsi 0.01, centroid 0.1 px, length 0.01 m, ψ 0.001 W/(m·K).
 CSV_DECIMALS = {
     **dict.fromkeys(("area_m2", "area_low_m2", "area_high_m2"), 3),
     **dict.fromkeys(("excess_w", "excess_low_w", "excess_high_w"), 1),
@@ -184,6 +194,8 @@ CSV_DECIMALS = {
     **dict.fromkeys(("mean_c", "min_c", "max_c", "reference_c", "delta_k"), 2),
     "f_rsi": 2,
     **dict.fromkeys(("centroid_row", "centroid_col"), 1),
+    "length_m": 2,
+    **dict.fromkeys(("psi_w_mk", "psi_low_w_mk", "psi_high_w_mk"), 3),
     **dict.fromkeys(("cooling_k", "cooling_max_k"), 2),
     "pressure_pa": 1,
 }

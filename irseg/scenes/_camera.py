@@ -201,6 +201,8 @@ def shoot(scene, camera: CameraModel) -> Shot:
     ys, xs, p = _sample_coords(scene, camera)
     cell, s = scene.cell_m, camera.supersample
     eps = scene.conditions.emissivity
+    if getattr(scene, "emissivity_map", None) is not None:  # glass: its own emissivity per cell
+        eps = _at_samples(scene.emissivity_map, ys, xs, cell, 0)
     band = camera.band_um
 
     # radiance leaving the surface at every sub-sample, then integrated over the pixel

@@ -50,6 +50,11 @@ class Defect:
         Wet fraction of the viewed (inside) face, 0..1: evaporation draws latent heat there.
     air_change_k : (ny, nx) ndarray or None
         Change of the inside air temperature next to the face, K (a cold-air fan from a gap).
+    face_c : (ny, nx) ndarray or None
+        Temperature of an object in front of the viewed face (a radiator, a pipe), °C, NaN
+        elsewhere: the camera sees it instead of the wall (:mod:`irseg.scenes._construction`).
+    emissivity : (ny, nx) ndarray or None
+        Emissivity of the viewed face where it differs from the scene's (glass), NaN elsewhere.
     """
 
     name: str
@@ -60,6 +65,8 @@ class Defect:
     region: np.ndarray | None = field(default=None, compare=False, repr=False)
     wet_surface: np.ndarray | None = field(default=None, compare=False, repr=False)
     air_change_k: np.ndarray | None = field(default=None, compare=False, repr=False)
+    face_c: np.ndarray | None = field(default=None, compare=False, repr=False)
+    emissivity: np.ndarray | None = field(default=None, compare=False, repr=False)
 
 
 def _bay(element: Element, bay: int) -> tuple[float, float]:

@@ -9,6 +9,7 @@ from __future__ import annotations
 import inspect
 
 from irseg.errors import ConfigError
+from irseg.scenes._construction import construction_items
 from irseg.scenes._defects import (
     Defect,
     cold_air_fan,
@@ -33,7 +34,7 @@ __all__ = ["PRESETS", "make_preset"]
 
 
 def _timber_wall(*, spacing_m=0.6, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, defects=("bay:1",),
-                 lintel=None, stratification_k_m=1.0, stratification_k_m2=0.0):
+                 lintel=None, stratification_k_m=1.0, stratification_k_m2=0.0, construction=()):
     el = timber_frame_wall(stud_spacing_m=spacing_m, first_stud_m=0.3 if spacing_m == 0.6 else 0.2)
     ds = []
     for spec in defects:
@@ -61,6 +62,7 @@ def _timber_wall(*, spacing_m=0.6, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, d
                               "fan:x:y:width:drop")
     if lintel is not None:
         ds.append(lintel_defect(el, x0_m=lintel[0], x1_m=lintel[1], y0_m=lintel[2], height_m=lintel[3]))
+    ds.extend(construction_items(el, tuple(construction)))
     cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, outside_exposure="ventilated",
                       top_height_m=2.1, stratification_k_m=stratification_k_m, stratification_k_m2=stratification_k_m2)
     return el, tuple(ds), cond, "interior", None
@@ -85,7 +87,7 @@ def _ceiling(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, patch=(0.9, 1.5, 0.6
 
 def _masonry(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, slab_y=None, patch=None, lintel=None, void=None,
              sky_view=(0.4, 0.5), view="exterior", fan=None, stratification_k_m=1.0, stratification_k_m2=0.0,
-             solid=False, damp=None, relative_humidity=0.5):
+             solid=False, damp=None, relative_humidity=0.5, construction=()):
     if solid:
         return _solid_wall(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, damp=damp, fan=fan,
                            stratification_k_m=stratification_k_m, stratification_k_m2=stratification_k_m2,
@@ -102,6 +104,7 @@ def _masonry(*, inside_c=20.0, outside_c=0.0, wind_m_s=1.0, slab_y=None, patch=N
         ds.append(partial_void(el, x0_m=void[0], x1_m=void[1], y0_m=void[2], y1_m=void[3], depth_m=void[4]))
     if fan is not None:
         ds.append(cold_air_fan(el, x_m=fan[0], y_m=fan[1], width_m=fan[2], drop_k=fan[3]))
+    ds.extend(construction_items(el, tuple(construction)))
     cond = Conditions(inside_c=inside_c, outside_c=outside_c, wind_m_s=wind_m_s, sky_view_top=sky_view[0],
                       sky_view_bottom=sky_view[1], top_height_m=3.0, stratification_k_m=stratification_k_m,
                       stratification_k_m2=stratification_k_m2)
@@ -152,10 +155,13 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
         ``"void:x0:x1:y0:y1:depth"``, ``"soft:N:void_m:soft_m[:wave_m]"`` settled fill with a soft
         top, ``"fill:x0:x1:y0:y1:remaining"`` insulation left at a fraction of its depth,
         ``"fan:x:y:width:drop_k"`` a cold-air fan from a gap), ``lintel`` (x0, x1, y0, height),
+        ``construction`` (``"radiator:x0:x1:y0:y1[:top_c:bottom_c]"``, ``"pipe:x:y0:y1[:water_c]"``,
+        ``"window:x0:x1:y0:y1[:u_glass]"``: :mod:`irseg.scenes._construction`),
         ``stratification_k_m``, ``stratification_k_m2``; ceiling: ``patch`` (x0, x1, y0, y1, or
         None), ``partial`` ((x0, x1, y0, y1, remaining fraction), ...); masonry wall: ``slab_y``,
         ``patch``, ``lintel``, ``void`` (x0, x1, y0, y1, depth), ``sky_view`` (top, bottom),
-        ``view`` ("exterior" or "interior"), ``fan`` (x, y, width, drop_k), stratification, and
+        ``view`` ("exterior" or "interior"), ``fan`` (x, y, width, drop_k), ``construction`` (as the
+        timber wall's), stratification, and
         ``solid=True`` for an uninsulated solid brick wall seen from inside (3.0 × 2.4 m) with
         ``damp`` (tide line height, wave, soft band, water fraction, wet surface fraction[, x0, x1], or
         None), ``fan``, stratification, ``relative_humidity``; flat roof: ``insulation``, ``wet`` ((x0, x1, y0, y1, water

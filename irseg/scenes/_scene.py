@@ -76,6 +76,9 @@ class Scene:
         Extra heat flux density through the viewed face caused by the defects, W/m².
     owner : (ny, nx) int ndarray
         Index of the defect each cell's excess is charged to (−1: none); see ``rim_m``.
+    emissivity_map : (ny, nx) ndarray or None
+        Emissivity of the viewed face per cell where a defect sets one (glass); None: the
+        conditions' emissivity everywhere.
     """
 
     name: str
@@ -93,6 +96,7 @@ class Scene:
     settings: dict = field(default_factory=dict)
     excess_w_m2: np.ndarray | None = None
     owner: np.ndarray | None = None
+    emissivity_map: np.ndarray | None = None
 
     @property
     def cell_m(self) -> float:
@@ -283,18 +287,21 @@ def simulate_scene(
     effects = any(d.wet_surface is not None or d.air_change_k is not None for d in defects)
     if effects and (view != "interior" or night is not None):
         raise ConfigError("damp surfaces and cold-air fans act on the inside face of a steady interior scene")
-    for ds in (defects, ()):
+    # construction that is not a defect (windows, radiators: cause "unclassified") stays in the run
+    # without the defects, so each defect's truth is its own change against the same construction
+    built = tuple(d for d in defects if d.cause == "unclassified")
+    for ds in (defects, built):
         k, c = rasterise(element, ds)
         if night is None:
             fc = face_conditions(element, conditions)
             t = _steady(element, k, fc)
-            if effects and ds:
+            if effects and any(d.wet_surface is not None or d.air_change_k is not None for d in ds):
                 air = fc
                 t, fc = _surface_effects(element, k, fc, ds, conditions, t)
         else:
             t, fc = _night(element, k, c, conditions, night)
         ts, q = surface_fields(t, conductivity=k, dz_m=dz, h=fc[f"h_{key}"], ambient=fc[f"amb_{key}"], face=face)
-        if effects and ds:
+        if effects and any(d.wet_surface is not None or d.air_change_k is not None for d in ds):
             # the heat the room gives the face (convection and radiation against the real air): what
             # a camera sees as h·ΔT; it includes the latent heat of the evaporation and the cold air
             q = fc["h_in"] * (ts - air["amb_in"])
@@ -302,6 +309,9 @@ def simulate_scene(
         _, q_out = surface_fields(t, conductivity=k, dz_m=dz, h=fc["h_out"], ambient=fc["amb_out"], face="outside")
         results.append((ts, q, q_in, q_out, fc))
     (ts_d, q_d, qin_d, qout_d, fc), (ts_b, q_b, _, _, _) = results
+    for d in defects:  # objects in front of the face (radiators, pipes) hide it from the camera
+        if d.face_c is not None:
+            ts_d = np.where(np.isfinite(d.face_c), d.face_c, ts_d)
     area = element.cell_m ** 2
     # heat loss counted positive: out of the room (inside face) or out of the element (outside face)
     dq = (q_b - q_d) if face == "inside" else (q_d - q_b)
@@ -344,8 +354,13 @@ def simulate_scene(
         settings["stratification_k_m2"] = conditions.stratification_k_m2
     if effects:
         settings["relative_humidity"] = conditions.relative_humidity
+    emissivity_map = None
+    for d in defects:  # glass: its own emissivity on the viewed face
+        if d.emissivity is not None:
+            base = np.full(ts_d.shape, conditions.emissivity) if emissivity_map is None else emissivity_map
+            emissivity_map = np.where(np.isfinite(d.emissivity), d.emissivity, base)
     return Scene(name, view, element, tuple(defects), conditions, ts_d, ts_b, fc[f"rad_{key}"],
-                 fc[f"h_{key}"], masks, tuple(truth), balance, settings, dq, owner)
+                 fc[f"h_{key}"], masks, tuple(truth), balance, settings, dq, owner, emissivity_map)
 
 
 def truth_in_window(scene: Scene, *, x0_m: float, x1_m: float, y0_m: float, y1_m: float) -> tuple[DefectTruth, ...]:

@@ -210,8 +210,10 @@ def _result(rec: dict, analysis, masks: np.ndarray, seconds: dict) -> dict:
     return out
 
 
-def validate_recipe(recipe: ImageRecipe, directory: str | os.PathLike[str]) -> dict:
+def validate_recipe(recipe: ImageRecipe, directory: str | os.PathLike[str], *, keep: dict | None = None) -> dict:
     """Simulate, write and process one validation recipe; returns figures per defect.
+
+    ``keep``, when given, receives the ``analysis`` and the truth ``record`` (for further checks).
 
     Returns
     -------
@@ -225,6 +227,8 @@ def validate_recipe(recipe: ImageRecipe, directory: str | os.PathLike[str]) -> d
     t1 = time.perf_counter()
     res = process_image(Path(directory) / rec["image"])
     t2 = time.perf_counter()
+    if keep is not None:
+        keep.update(analysis=res.analysis, record=rec)
     return _result(rec, res.analysis, rec["_masks"], {"simulate": t1 - t0, "pipeline": t2 - t1})
 
 

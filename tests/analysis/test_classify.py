@@ -44,22 +44,24 @@ def _at(res, row, col):
     return res.anomalies[k - 1]
 
 
-def test_stud_pattern_is_thermal_bridge_and_the_bay_is_missing_insulation():
+def test_stud_pattern_is_one_framing_anomaly_and_the_bay_is_missing_insulation():
     t, d = _wall()
     _studs(t, d, cols=range(20, 240, 40))  # 50 mm members at 400 mm centres [CP]
     t[20:100, 105:140] -= 3.0  # empty bay between the studs at 100 and 140
     d[20:100, 105:140] = 2
     res = _run(t, d)
-    studs = [a for a in res.anomalies if a.area_px == 120 * 5]
-    assert len(studs) == 6
-    for a in studs:
-        assert a.cause == "thermal_bridge", a.reason
-        assert "parallel" in a.reason and "0.40 m" in a.reason
-        # the crew must read regular framing as normal construction (common practice: normal if regular)
-        assert "expected in framed construction" in a.reason
+    # regular framing is summarised: one anomaly (one id in the label image) for all six members
+    (studs,) = [a for a in res.anomalies if a.cause == "thermal_bridge"]
+    assert studs.area_px == 6 * 120 * 5
+    assert "6 parallel" in studs.reason and "0.40 m" in studs.reason and "summarised" in studs.reason
+    # the crew must read regular framing as normal construction (common practice: normal if regular)
+    assert "expected in framed construction" in studs.reason
+    assert set(np.unique(res.labels[:, [22, 62, 102, 142, 182, 222]])) == {studs.anomaly}
+    # its length is the members' lengths summed: 6 × 120 px × 10 mm
+    assert studs.length_m == pytest.approx(6 * 1.2, rel=0.02)
     bay = _at(res, 60, 120)
     assert bay.cause == "missing_insulation", bay.reason
-    assert bay.excess_w > max(a.excess_w for a in studs)
+    assert bay.length_m is None and bay.psi_w_mk is None  # an area anomaly has no length
     assert bay.severity == 1
 
 
@@ -70,12 +72,34 @@ def test_short_members_count_as_framing_only_when_regularly_spaced():
     t, d = _wall()
     _studs(t, d, cols=(30, 80, 130, 180), width=6, rows=slice(50, 70), delta=-1.0)
     res = _run(t, d, air=no_air)
-    assert len(res.anomalies) == 4
-    assert {a.cause for a in res.anomalies} == {"thermal_bridge"}
+    (framing,) = res.anomalies
+    assert framing.cause == "thermal_bridge" and "4 parallel" in framing.reason
+    assert framing.psi_w_mk is None  # no inside-outside difference: no psi
     t1, d1 = _wall()
     _studs(t1, d1, cols=(80,), width=6, rows=slice(50, 70), delta=-1.0)
     (lone,) = _run(t1, d1, air=no_air).anomalies
     assert lone.cause != "thermal_bridge"
+
+
+def test_two_members_at_a_framing_centre_are_one_set_but_not_at_twice_it():
+    # 600 mm is a usual stud centre (common practice); 1.2 m is not
+    for cols, n in (((60, 120), 1), ((60, 180), 2)):
+        t, d = _wall()
+        _studs(t, d, cols=cols, width=6)
+        res = _run(t, d)
+        assert len(res.anomalies) == n
+        assert all(a.cause == "thermal_bridge" for a in res.anomalies)
+
+
+def test_a_member_clearly_colder_than_its_neighbours_stays_its_own_anomaly():
+    t, d = _wall()
+    _studs(t, d, cols=range(20, 240, 40), width=5, delta=-0.8)
+    t[:, 140:145] -= 1.2  # this one 2 K colder: insulation missing beside it, not regular framing
+    res = _run(t, d)
+    framing = [a for a in res.anomalies if "summarised" in a.reason]
+    assert len(framing) == 1 and "5 parallel" in framing[0].reason
+    lone = _at(res, 60, 142)
+    assert lone is not framing[0] and "expected in framed construction" not in lone.reason
 
 
 def test_short_weak_band_is_a_member_but_a_strong_one_is_a_void():
@@ -207,13 +231,12 @@ def test_stud_interrupted_by_a_defect_stays_a_thermal_bridge():
     d[20:100, 96:140] = 2
     res = _run(t, d)
     assert _at(res, 60, 120).cause == "missing_insulation"
-    # the pieces of the member at columns 100-107 above and below the bay are one anomaly
+    # the pieces of the member at columns 100-107 above and below the bay belong to the framing anomaly
     top, bottom = _at(res, 10, 103), _at(res, 110, 103)
-    assert top is bottom
-    assert top.area_px == 2 * 20 * 8 and top.cause == "thermal_bridge" and "2 pieces" in top.reason
+    assert top is bottom is _at(res, 60, 22)
+    assert top.area_px == 5 * 120 * 8 + 2 * 20 * 8 and top.cause == "thermal_bridge" and "6 parallel" in top.reason
     assert (top.bbox_row0, top.bbox_row1) == (0, 120)
-    assert {a.cause for a in res.anomalies if a.area_px == 120 * 8} == {"thermal_bridge"}
-    assert len(res.anomalies) == 7  # six members and the bay
+    assert len(res.anomalies) == 2  # the framing and the bay
 
 
 def test_lone_member_on_a_stratified_wall_is_still_a_uniform_band():
@@ -227,21 +250,21 @@ def test_lone_member_on_a_stratified_wall_is_still_a_uniform_band():
     assert a.cause == "thermal_bridge", a.reason
 
 
-def test_fragmented_members_are_merged_into_one_anomaly_each():
-    # a segmentation that breaks each member into pieces: one anomaly per member, heat summed
+def test_fragmented_members_are_merged_into_one_anomaly():
+    # a segmentation that breaks each member into pieces: one framing anomaly, heat summed
     t, d = _wall()
     _studs(t, d, cols=(40, 100, 160), width=8, delta=-1.0)
     labels = d.copy()
     for k, gap_row in enumerate((30, 60, 90)):  # cut every member at three rows (1 px of "background" label)
         labels[gap_row, :] = np.where(d[gap_row, :] == 1, 0, labels[gap_row, :])
     res = _run(t, labels)
-    assert len(res.anomalies) == 3
-    for a in res.anomalies:
-        assert a.cause == "thermal_bridge" and "4 pieces" in a.reason
-        assert a.area_px == (120 - 3) * 8
-    single = _run(t, d)
-    for merged, whole in zip(res.anomalies, single.anomalies):
-        assert merged.excess_w == pytest.approx(whole.excess_w, rel=0.03)
+    (merged,) = res.anomalies
+    assert merged.cause == "thermal_bridge" and "3 parallel" in merged.reason
+    assert merged.area_px == 3 * (120 - 3) * 8
+    # the cut rows do not shorten the members: the length is the union of the pieces along each member
+    assert merged.length_m == pytest.approx(3 * 1.2, rel=0.03)
+    (whole,) = _run(t, d).anomalies
+    assert merged.excess_w == pytest.approx(whole.excess_w, rel=0.03)
 
 
 def test_empty_bays_side_by_side_are_not_a_framing_set():
@@ -289,3 +312,28 @@ def test_small_spot_is_not_called_missing_insulation():
     d[50:56, 100:106] = 1
     (a,) = _run(t, d).anomalies
     assert a.cause == "unclassified" and "too small" in a.reason
+
+
+def test_a_set_with_a_member_hidden_by_a_window_is_still_one_framing_anomaly():
+    # studs at 400 mm centres [CP], the one at column 100 missing (cut out for an opening)
+    t, d = _wall()
+    _studs(t, d, cols=(20, 60, 140, 180, 220), width=5)
+    res = _run(t, d)
+    (framing,) = res.anomalies
+    assert "5 parallel" in framing.reason and "0.40 m" in framing.reason
+    # gaps of 0.4 and 0.6 m are not one spacing: no set
+    t2, d2 = _wall()
+    _studs(t2, d2, cols=(20, 60, 120, 160, 220), width=5)
+    assert all("summarised" not in a.reason for a in _run(t2, d2).anomalies)
+
+
+def test_a_member_touching_an_area_of_its_temperature_stays_in_the_framing_anomaly():
+    # a weak cold area (a partly filled bay) touching one member at the same contrast: the member is not
+    # that area's fragment; the six members stay one framing anomaly [CP: regular framing is construction]
+    t, d = _wall()
+    _studs(t, d, cols=range(20, 240, 40), width=5, delta=-0.8)
+    t[10:110, 145:175] -= 0.75
+    d[10:110, 145:175] = 2
+    res = _run(t, d)
+    framing = [a for a in res.anomalies if "summarised" in a.reason]
+    assert len(framing) == 1 and "6 parallel" in framing[0].reason, [a.reason for a in res.anomalies]

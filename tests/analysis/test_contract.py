@@ -27,7 +27,10 @@ CSV_COLUMNS = (
 def test_anomaly_fields_cover_the_csv_columns_in_order():
     names = [f.name for f in dataclasses.fields(Anomaly)]
     assert [n for n in names if n in CSV_COLUMNS] == CSV_COLUMNS
-    assert set(names) - set(CSV_COLUMNS) == {"area_px", "severity_score"}
+    # linear thermal bridges (issue 12): length and psi, appended after the contract's list
+    assert set(names) - set(CSV_COLUMNS) == {"area_px", "severity_score", "length_m", "psi_w_mk", "psi_low_w_mk",
+                                             "psi_high_w_mk"}
+    assert names[-4:] == ["length_m", "psi_w_mk", "psi_low_w_mk", "psi_high_w_mk"]
     assert [f.name for f in dataclasses.fields(Analysis)] == [
         "anomalies", "labels", "pixel_m", "pixel_area_m2", "h_w_m2k", "reference_c", "warnings"
     ]

@@ -53,10 +53,12 @@ def test_clean_run_meets_the_output_contract(tmp_path):
 
     header = (out / "anomalies.csv").read_bytes().split(b"\r\n")[0].decode()
     # uid first (issue 13: the anomaly's survey-wide name), the contract's columns in its order, then the
-    # extra area_px (known even without geometry), then the review and the image's details (issue 13), then
-    # the figures of leaks found by a pair under pressure (issue 16)
+    # extra area_px (known even without geometry), then the review and the image's details (issue 13),
+    # then a linear thermal bridge's length and psi with its band (issue 12), then the figures of leaks
+    # found by a pair under pressure (issue 16)
     assert header.split(",") == ["uid", *CONTRACT_COLUMNS, "area_px", "review", "note", "title",
-                                 "element", "pressure_pa", "cooling_k", "cooling_max_k"] == list(ANOMALY_COLUMNS)
+                                 "element", "length_m", "psi_w_mk", "psi_low_w_mk",
+                                 "psi_high_w_mk", "pressure_pa", "cooling_k", "cooling_max_k"] == list(ANOMALY_COLUMNS)
     rows = _rows(out)
     assert [r["image"] for r in rows] == [p.name for p in paths]  # input order, one patch each
 
