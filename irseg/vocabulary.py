@@ -18,6 +18,7 @@ __all__ = [
     "STAGES",
     "CAUTIONS",
     "CAUTION_LINE",
+    "REPEAT_MARK",
 ]
 
 #: Probable causes of an anomaly, in the order the report lists them (an interface: CSV values).
@@ -90,3 +91,8 @@ CAUTION_LINE = (
     "All figures are estimates: confirm each defect on site before repairs or budgets, follow local "
     "codes and licensed practice, and mind the safety cautions in the report."
 )
+
+#: Words a survey row's reason ends with when the anomaly was found again in the image of a pair taken
+#: under a pressure difference: the ambient image of the same view counts it, so the pressurised image's
+#: own anomalies are neither ranked, nor totalled, nor repair items (irseg.batch, irseg.report, irseg.repairs).
+REPEAT_MARK = "counted with the same view at ambient pressure"

@@ -13,8 +13,8 @@ from typing import Any
 
 from .._version import __version__
 from ..io import normalise_json
-from ..report import ANOMALY_COLUMNS, SurveyAnomaly, anomaly_table, is_expected, rank_anomalies
-from ..vocabulary import CAUSES, CAUTIONS
+from ..report import ANOMALY_COLUMNS, SurveyAnomaly, anomaly_table, is_expected, is_repeat, rank_anomalies
+from ..vocabulary import CAUSES, CAUTIONS, REPEAT_MARK
 from ._inputs import SkippedFile
 from ._records import ImageOutcome, ImageRecord
 
@@ -53,9 +53,32 @@ def survey_records(records: Sequence[ImageRecord]) -> list[SurveyAnomaly]:
         details = record.metadata.get("image")
         details = details if isinstance(details, dict) else {}
         title, element = (_detail(details, key) for key in ("title", "element"))
-        out.extend(replace(a, uid=f"{record.stem}#{a.anomaly}", title=title, element=element)
+        repeat = _repeat_words(record)
+        out.extend(replace(a, uid=f"{record.stem}#{a.anomaly}", title=title, element=element,
+                           reason=_with_repeat(a, repeat))
                    for a in record.anomalies)
     return out
+
+
+def _repeat_words(record: ImageRecord) -> str | None:
+    """The words a pressurised image's own anomalies get when its pair was compared (None otherwise).
+
+    Both images of a pair see the same defects; the pair's reference (the ambient shot) counts them,
+    so the survey counts each defect once. When the pair failed (views that do not overlap), the
+    pressurised image's anomalies count as those of any image.
+    """
+    pair = record.pair
+    if pair is None or record.registration is None or pair.get("status") != "ok":
+        return None
+    pressure = pair.get("pressure_pa")
+    under = f"{float(pressure):g} Pa pressure difference" if isinstance(pressure, (int, float)) else "pressure difference"
+    return f"seen again under a {under}: {REPEAT_MARK} ({pair.get('reference')})"
+
+
+def _with_repeat(anomaly: SurveyAnomaly, words: str | None) -> str | None:
+    if words is None or anomaly.pressure_pa is not None:  # a leak found by the pair counts here
+        return anomaly.reason
+    return f"{anomaly.reason}; {words}" if anomaly.reason else words
 
 
 def _detail(details: dict[str, Any], key: str) -> str | None:
@@ -195,8 +218,9 @@ def build_summary(
         "totals": _totals(counted),
         # the report's first page and the command line's summary: probable defects only, framing members
         # that are expected in the construction left out (report/_ranking.is_expected)
-        "defects": {**_totals([a for a in counted if not is_expected(a)]),
-                    "n_expected": sum(1 for a in counted if is_expected(a))},
+        "defects": {**_totals([a for a in counted if not (is_expected(a) or is_repeat(a))]),
+                    "n_expected": sum(1 for a in counted if is_expected(a)),
+                    "n_repeated": sum(1 for a in counted if is_repeat(a) and not is_expected(a))},
         "anomalies": sorted(table_rows(anomalies), key=lambda row: _rank_key(row["rank"])),
         "failures": failures,
         "skipped": [{"file": s.file, "reason": s.reason} for s in skipped],

@@ -123,9 +123,11 @@ def segment_cmd(ctx: click.Context, inputs: tuple[Path, ...], out_dir: Path, job
         defects = result.summary["defects"]  # the same figures as the report's first page
         heat = _heat_text(defects["excess_w"], defects["excess_kwh_year"], n_anomalies=int(defects["count"]),
                           n_unmeasured=int(defects.get("n_unmeasured") or 0))
-        expected = int(defects.get("n_expected") or 0)
-        found = (f"{result.n_anomalies} anomalies ({defects['count']} probable defects, {expected} expected "
-                 "framing members not counted)" if expected else f"{result.n_anomalies} anomalies")
+        expected, repeated = (int(defects.get(key) or 0) for key in ("n_expected", "n_repeated"))
+        apart = ([f"{expected} framing expected in the construction"] if expected else []) + (
+            [f"{repeated} seen again under pressure"] if repeated else [])
+        found = (f"{result.n_anomalies} anomalies ({defects['count']} probable defects; not counted: "
+                 f"{', '.join(apart)})" if apart else f"{result.n_anomalies} anomalies")
         click.echo(
             f"irseg: {result.n_ok} of {len(result.outcomes)} images ok{resumed}{failed}; "
             f"{found}; {heat}; "

@@ -29,6 +29,7 @@ from dataclasses import dataclass, fields
 from typing import Any
 
 from ..types import Costs
+from ..vocabulary import REPEAT_MARK
 
 __all__ = [
     "REPAIR_COLUMNS",
@@ -177,12 +178,14 @@ def is_repair_item(anomaly: Any) -> bool:
     """True for an anomaly that becomes a repair item.
 
     Not an item: rejected by the review, unclassified (or without a cause), or a framing member of
-    a regular set (its reason says "expected in framed construction").
+    a regular set (its reason says "expected in framed construction"), or an anomaly of a pressurised
+    image that the ambient image of the same view counts (:data:`irseg.vocabulary.REPEAT_MARK`).
     """
     cause = getattr(anomaly, "cause", None)
     if getattr(anomaly, "review", None) == "rejected" or cause not in _PRICE:
         return False
-    return FRAMING_MARK not in str(getattr(anomaly, "reason", "") or "")
+    reason = str(getattr(anomaly, "reason", "") or "")
+    return FRAMING_MARK not in reason and REPEAT_MARK not in reason
 
 
 def survey_rank(anomaly: Any) -> int | None:

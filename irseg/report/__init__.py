@@ -24,11 +24,11 @@ from typing import Any
 from ..errors import ConfigError
 from ..vocabulary import CAUSE_COLOURS, CAUSE_LABELS, CAUSES, CAUTIONS
 from ._first_page import RANKING_RULE, summary_figures, top_actions
-from ._ranking import MAX_BAND_RATIO, is_expected, rank_anomalies, rank_basis, rank_key
+from ._ranking import MAX_BAND_RATIO, is_expected, is_repeat, rank_anomalies, rank_basis, rank_key
 from ._table import ANOMALY_COLUMNS, CSV_DECIMALS, CSV_DIALECTS, SurveyAnomaly, anomaly_table, csv_rows
 
 __all__ = ["render_report", "EMBED_LIMIT", "SurveyAnomaly", "anomaly_table", "ANOMALY_COLUMNS", "CSV_DIALECTS", "CSV_DECIMALS", "csv_rows",
-           "rank_anomalies", "rank_key", "rank_basis", "is_expected", "MAX_BAND_RATIO"]
+           "rank_anomalies", "rank_key", "rank_basis", "is_expected", "is_repeat", "MAX_BAND_RATIO"]
 
 PNG_SIGNATURE = b"\x89PNG\r\n\x1a\n"
 DASH = "—"
@@ -213,7 +213,8 @@ def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes],
     anomalies = [a for a in every if a.review != "rejected"]
     rejected = [a for a in every if a.review == "rejected"]
     expected = [a for a in anomalies if is_expected(a)]
-    defects = [a for a in anomalies if not is_expected(a)]
+    repeated = [a for a in anomalies if is_repeat(a) and not is_expected(a)]
+    defects = [a for a in anomalies if not (is_expected(a) or is_repeat(a))]
     link = len(images) > EMBED_LIMIT
     anchors: dict[str, str] = {}
     for n, img in enumerate(images, start=1):
@@ -249,6 +250,7 @@ def _view_model(summary: Mapping[str, Any], overlays: Mapping[str, bytes],
         "job": _pairs(summary.get("survey"), SURVEY_FIELDS),
         "rejected": rejected,
         "expected": expected,
+        "repeated": repeated,
         "defects": defects,
         "figures": summary_figures(defects),
         "actions": top_actions(defects, titles),

@@ -22,9 +22,10 @@ import math
 from collections.abc import Sequence
 from dataclasses import replace
 
+from ..vocabulary import REPEAT_MARK
 from ._table import SurveyAnomaly
 
-__all__ = ["MAX_BAND_RATIO", "EXPECTED_MARK", "is_expected", "is_ranked", "rank_basis", "rank_key", "rank_anomalies"]
+__all__ = ["MAX_BAND_RATIO", "EXPECTED_MARK", "is_expected", "is_repeat", "is_ranked", "rank_basis", "rank_key", "rank_anomalies"]
 
 #: Widest low-high band (high / low of the heat-flow band, which the kWh band follows) for which the
 #: energy estimate orders anomalies.
@@ -49,9 +50,14 @@ def is_expected(record: SurveyAnomaly) -> bool:
     return EXPECTED_MARK in (record.reason or "")
 
 
+def is_repeat(record: SurveyAnomaly) -> bool:
+    """True for an anomaly of a pressurised image whose pair's ambient image counts the same defect."""
+    return REPEAT_MARK in (record.reason or "")
+
+
 def is_ranked(record: SurveyAnomaly) -> bool:
-    """True unless the review rejected the anomaly or it is expected in the construction."""
-    return record.review != "rejected" and not is_expected(record)
+    """True unless the review rejected the anomaly, it is expected in the construction, or it repeats a view."""
+    return record.review != "rejected" and not is_expected(record) and not is_repeat(record)
 
 
 def energy_is_meaningful(record: SurveyAnomaly) -> bool:
