@@ -12,6 +12,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import cv2
 import numpy as np
 from scipy import ndimage
 
@@ -98,6 +99,15 @@ def _own_member_contrast(excess: np.ndarray, own: np.ndarray, core: np.ndarray, 
     return out
 
 
+def _is_narrow(core: np.ndarray, line_px: float) -> bool:
+    """No part of ``core`` holds a disk ``line_px`` across (a member's width): an opening with it keeps less
+    than a tenth of the core."""
+    r = max(1, int(round(0.5 * line_px)))
+    disk = cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (2 * r + 1, 2 * r + 1))
+    kept = cv2.morphologyEx(core.astype(np.uint8), cv2.MORPH_OPEN, disk, borderType=cv2.BORDER_CONSTANT, borderValue=0)
+    return int(kept.sum()) < 0.1 * max(int(core.sum()), 1)
+
+
 def _box(mask: np.ndarray, margin: int) -> tuple[slice, slice]:
     """Bounding box of ``mask`` widened by ``margin`` (clipped to the array)."""
     rows, cols = np.flatnonzero(mask.any(axis=1)), np.flatnonzero(mask.any(axis=0))
@@ -124,6 +134,7 @@ def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_ar
     taken_all = np.zeros(member.shape, np.int32)  # local anomaly ids
     peaks: dict[int, float] = {}
     rims: dict[int, int] = {}
+    narrow: dict[int, bool] = {}
     queue: list[np.ndarray] = [member]
     passes = 0
     rough_all = sign * fine(2.0)[crop]
@@ -196,7 +207,10 @@ def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_ar
             split_from = int(np.bincount(nb).argmax()) if nb.size else 0
             rim = core & _dilate(claimed, 1)
             dome = rim.any() and float(v[rim].max()) <= (1.0 - SADDLE_DIP) * float(v[core].max())
-            accept = split_plateaus and (dome or _pct(v[core], 50.0) >= PLATEAU_RATIO * peak)
+            # a narrow member (a stud or joist, taken first as the strongest place) has no broad tail: its
+            # flanks fade within its blur; a broad remainder beside it is a defect of its own
+            beside_line = bool(split_from) and narrow.get(split_from, False) and not _is_narrow(core, line_px)
+            accept = split_plateaus and (dome or beside_line or _pct(v[core], 50.0) >= PLATEAU_RATIO * peak)
             if accept and split_from:
                 # the other anomaly's whole outline, on the component's crop
                 a_band = _dilate(taken_all == split_from, rims[split_from])
@@ -222,6 +236,7 @@ def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_ar
             taken[core] = lab
             peaks[lab] = peak
             rims[lab] = rim_px
+            narrow[lab] = _is_narrow(core, line_px)
             rr, cc = np.nonzero(core)
             edge = bool(rr.min() + r0 + oy == 0 or cc.min() + c0 + ox == 0 or rr.max() + r0 + oy == m - 1
                         or cc.max() + c0 + ox == n - 1)

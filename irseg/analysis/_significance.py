@@ -147,6 +147,7 @@ class DetectionInfo:
     regions: tuple[RegionInfo, ...]
     components: np.ndarray  # (M, N) int32: significant components, −k cold, +k warm, 0 none
     members_k: np.ndarray  # (M, N): the own contrast of narrow members in or beside broad anomalies, K (signed)
+    line_px: float = 0.0  # the widest narrow member (stud, joist), px
 
 
 def detect_regions(
@@ -281,7 +282,7 @@ def detect_regions(
                 split_plateaus=split_plateaus, valid=valid,
             )
     info = DetectionInfo(noise, pixel_m, min_area_px, length_px, scales, tuple(sig), tuple(sig_w), k_hi, k_lo,
-                         extent_fraction, surf.scale_k, tuple(regions), components, members)
+                         extent_fraction, surf.scale_k, tuple(regions), components, members, float(line_px))
     return labels, surf.surface, info
 
 
@@ -318,7 +319,7 @@ def _on_reduced(t: np.ndarray, valid: np.ndarray, f: int, *, noise_k: float | No
     info = replace(
         info, noise_k=info.noise_k * f, min_area_px=max(9, info.min_area_px * f * f),
         sound_length_px=info.sound_length_px * f, scales_px=tuple(s * f for s in info.scales_px), regions=regions,
-        components=up(info.components), members_k=up(info.members_k),
+        components=up(info.components), members_k=up(info.members_k), line_px=info.line_px * f,
     )
     return big, surf.astype(float), info
 
