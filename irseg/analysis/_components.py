@@ -81,22 +81,39 @@ def _steady_edge_scale(rough: np.ndarray, piece: np.ndarray, peak: float, noise:
     return max(s_f, min(FINE_SCALES[-1], max(cap, s_f)))
 
 
-def _own_member_contrast(excess: np.ndarray, own: np.ndarray, core: np.ndarray, reach: int) -> np.ndarray:
-    """A member's own contrast: what it adds to the members-removed contrast, at most what it adds away
-    from the anomaly (the 90th percentile over its pixels farther than ``reach`` from the core: its core
-    level, not its flanks), so that a member
-    the defect itself makes colder (a joist exposed by a void) leaves that share to the defect."""
-    out = excess.copy()
-    lab, k = ndimage.label(own, structure=_SQUARE)
-    if k == 0:
-        return out
-    far = own & ~_dilate(core, reach)
+def _defect_share(v: np.ndarray, broad: np.ndarray, lines: np.ndarray, peak: float) -> np.ndarray:
+    """The broad anomaly's own contrast on the members (studs, joists, with their flanks: ``lines``).
+
+    A member's total contrast ``v`` is its own (sound) contrast plus what the anomaly adds to it. Its
+    own contrast is what it shows where the anomaly has faded (the members-removed contrast ``broad``
+    below a quarter of the peak), as a profile across it: the median of ``v`` there at each offset
+    (1 px) from its axis (the principal axis of its pixels), so a flank is compared with the same
+    flank. The anomaly's share is the rest, ``v`` minus that profile: a joist that a partial fill
+    exposes, or a stud beside a bay left at part of its depth, takes about the defect's own level; a
+    member the defect does not change takes nothing. (The members-removed contrast of a grey opening
+    is no measure of it: at a defect's edge the opening carries the plateau's level onto the member
+    and its flank.) A member with fewer than 9 pixels where the anomaly has faded (wholly inside it)
+    keeps the members-removed contrast. Returns the share over the window (``broad`` off the members).
+    """
+    share = broad.copy()
+    lab, k = ndimage.label(lines, structure=_SQUARE)
     for i in range(1, k + 1):
-        piece = lab == i
-        away = excess[piece & far]
-        if away.size >= 9:
-            out[piece] = np.minimum(excess[piece], max(float(np.percentile(away, 90)), 0.0))
-    return out
+        rr, cc = np.nonzero(lab == i)
+        away = broad[rr, cc] < JOIN_FRACTION * peak
+        if int(away.sum()) < 9 or rr.size < 3:
+            continue
+        cov = np.cov(np.vstack([rr, cc]).astype(float))
+        normal = np.linalg.eigh(cov)[1][:, 0]  # the smaller spread: across the member
+        off = np.round((rr - rr.mean()) * normal[0] + (cc - cc.mean()) * normal[1]).astype(int)
+        off -= int(off.min())
+        total = v[rr, cc]
+        prof = np.full(int(off.max()) + 1, np.nan)
+        for o in np.unique(off[away]):
+            prof[o] = float(np.median(total[away & (off == o)]))
+        known = np.flatnonzero(np.isfinite(prof))
+        prof = np.interp(np.arange(prof.size), known, prof[known])  # offsets seen only inside the anomaly
+        share[rr, cc] = v[rr, cc] - np.clip(prof[off], 0.0, None)
+    return share
 
 
 def _is_narrow(core: np.ndarray, line_px: float) -> bool:
@@ -177,8 +194,10 @@ def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_ar
         # contrast decides, so the member neither widens nor cuts its outline (it stays an anomaly of
         # its own); elsewhere, corners included, the contrast itself
         lines = long_lines(v - broad >= 0.5 * level, line_px) if is_broad else np.zeros_like(piece)
+        share = broad
         if lines.any():
             lines = _dilate(lines, int(math.ceil(0.5 * line_px)))  # with their blurred flanks
+            share = _defect_share(v, broad, lines, peak)
         field = np.where(lines, broad, v)
         above = (field >= level) & region_of & ~claimed
         joined = (v >= JOIN_FRACTION * peak) & region_of & ~claimed
@@ -193,6 +212,15 @@ def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_ar
         core = cl == cl.flat[top]
         core = _fill_holes(core)
         core &= ~claimed
+        # the extent itself: on the members, the anomaly's own share of their contrast decides (the
+        # members-removed contrast above carries a defect's plateau onto a member at its edge)
+        extent = core
+        if lines.any():
+            own = (np.where(lines, share, v) >= level) & region_of & ~claimed
+            own &= dome_of(broad, jl == anchor, top, dip_k=SADDLE_DIP * peak, line_px=line_px)
+            ol, _ = ndimage.label(own, structure=_SQUARE)
+            if ol.flat[top]:
+                extent = _fill_holes(ol == ol.flat[top]) & ~claimed
         touching = bool((_dilate(core, 1) & claimed).any())
         rim_px = int(math.ceil(2.5 * math.hypot(1.0, s_f))) + 1
         band = _dilate(core, rim_px)
@@ -207,10 +235,14 @@ def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_ar
             split_from = int(np.bincount(nb).argmax()) if nb.size else 0
             rim = core & _dilate(claimed, 1)
             dome = rim.any() and float(v[rim].max()) <= (1.0 - SADDLE_DIP) * float(v[core].max())
-            # a narrow member (a stud or joist, taken first as the strongest place) has no broad tail: its
-            # flanks fade within its blur; a broad remainder beside it is a defect of its own
-            beside_line = bool(split_from) and narrow.get(split_from, False) and not _is_narrow(core, line_px)
-            accept = split_plateaus and (dome or beside_line or _pct(v[core], 50.0) >= PLATEAU_RATIO * peak)
+            # beside a narrow member (a stud or joist, taken first as the strongest place) a broad remainder is
+            # a defect of its own (a line has no broad tail: its flanks fade within its blur) and a narrow one
+            # is its flank (two members side by side are one: a doubled stud)
+            beside_line = bool(split_from) and narrow.get(split_from, False)
+            if beside_line and _is_narrow(core, line_px):
+                accept = False
+            else:
+                accept = split_plateaus and (dome or beside_line or _pct(v[core], 50.0) >= PLATEAU_RATIO * peak)
             if accept and split_from:
                 # the other anomaly's whole outline, on the component's crop
                 a_band = _dilate(taken_all == split_from, rims[split_from])
@@ -224,11 +256,14 @@ def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_ar
                 mid = 0.5 * (peaks[split_from] + peak)
                 gap = _dilate(core, rim_px + 2) & claimed & (taken == 0) & (v >= level) & (v < mid)
                 core |= gap
+                extent |= gap
         if accept:
-            # the members' own contrast (what they add to the members-removed contrast) is theirs, not
-            # the broad anomaly's heat: recorded so that it is left out of its measurement
+            # the members' own contrast (their total minus the anomaly's share) is theirs, not the broad
+            # anomaly's heat: recorded so that it is left out of its measurement
             own = lines & region_of & ~claimed
-            members[crop][box][own] = sign * _own_member_contrast(v - broad, own, core, rim_px + int(line_px))[own]
+            members[crop][box][own] = sign * np.clip(v - share, 0.0, None)[own]
+            core = extent
+            band = _dilate(core, rim_px) | band
             lab = len(regions) + 1
             sub = labels[crop][box]
             fresh = core & (sub == 0)

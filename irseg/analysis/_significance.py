@@ -250,9 +250,14 @@ def detect_regions(
         zs = [f / (sg * g) for f, sg, g in zip(fields, sig, gains)]
         grown = {sign: _grown(zs, sign, k_hi, k_lo, valid) for sign in (-1, 1)}
         found = (grown[-1][0] > 0) | (grown[1][0] > 0)
-        if not found.any() or exclude.any() or found[valid].mean() > MAX_EXCLUDED_FRACTION:
+        if not found.any() or exclude.any():
             break
         exclude = found
+        if found[valid].mean() > MAX_EXCLUDED_FRACTION:
+            # the most significant pixels first: the second surface keeps at least half of the frame
+            zmax = np.max(np.abs(np.stack(zs)), axis=0)
+            cut = float(np.quantile(zmax[valid], 1.0 - MAX_EXCLUDED_FRACTION))
+            exclude = found & (zmax > cut)
 
     fine_cache: dict[float, np.ndarray] = {}
 

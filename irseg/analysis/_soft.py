@@ -37,7 +37,7 @@ from scipy import ndimage
 
 from .._shared import robust_sigma
 from ._candidates import Candidate
-from ._framing import BAND_ELONGATION, is_band
+from ._framing import BAND_ELONGATION, BAND_MAX_WIDTH_M, is_band
 from ._geometry import MIN_SPOT_PX
 from ._reference import Plane, RingReference
 from ._shape import Shape, shape_features
@@ -197,7 +197,10 @@ def join_detections(
     for m in measured:
         units.setdefault(host_of.get(m.cand.label, m.cand.label), []).append(m)
     ext = {k: np.concatenate([_extent_index(m, n_cols) for m in ms]) for k, ms in units.items()}
-    is_frame = {k: any(m.cand.label in framing for m in ms) for k, ms in units.items()}
+    # a framing member is narrow: a wide area that lines up with other pieces (a damp zone along the base
+    # of a wall and the fragments of its tide line) is not one
+    is_frame = {k: any(m.cand.label in framing for m in ms) and (pixel_m is None or max(
+        m.shape.width_px for m in ms) * pixel_m <= BAND_MAX_WIDTH_M) for k, ms in units.items()}
     d_area = np.bincount(dl, minlength=max(regions, default=0) + 1)
     core_of, tail_of, covers = _assign(units, ext, is_frame, det_labels=det_labels, components=info.components,
                                        d_area=d_area, u=u, surface_c=surface_c, pixel_m=pixel_m)
@@ -260,6 +263,7 @@ def join_detections(
         if r.component in multi:
             own_comp &= nearest.labels() == lab
         thermal = np.flatnonzero(own_comp & ~final)
+        thermal = thermal[_within(idx, thermal, info.sound_length_px, shape)]
         # its soft rim: down to a tenth of its peak (the rest of a wide significant component is the
         # sound surface's own misfit summed over many pixels, not the defect's heat)
         thermal = thermal[r.sign * (u.flat[thermal] - with_members.flat[thermal]) >= RIM_FRACTION * abs(r.peak_k)]
@@ -286,6 +290,19 @@ def join_detections(
             out[pos] = replace(m, rim_index=np.concatenate([m.rim_index, add_i]),
                                rim_loss_k=np.concatenate([m.rim_loss_k, add_l]))
     return out, new_host
+
+
+def _within(idx: np.ndarray, pix: np.ndarray, reach_px: float, shape: tuple[int, int]) -> np.ndarray:
+    """Which of the flat pixels ``pix`` lie within ``reach_px`` of the flat pixels ``idx`` (on their bounding box)."""
+    if pix.size == 0:
+        return np.zeros(0, bool)
+    rows, cols = np.divmod(idx, shape[1])
+    pr, pc = np.divmod(pix, shape[1])
+    r0, c0 = int(min(rows.min(), pr.min())), int(min(cols.min(), pc.min()))
+    r1, c1 = int(max(rows.max(), pr.max())) + 1, int(max(cols.max(), pc.max())) + 1
+    box = np.ones((r1 - r0, c1 - c0), bool)
+    box[rows - r0, cols - c0] = False
+    return ndimage.distance_transform_edt(box)[pr - r0, pc - c0] <= reach_px
 
 
 def _member_shares(
