@@ -19,13 +19,14 @@ from scipy import ndimage
 from ._scales import _dilate, _fill_holes, _pct, dome_of, gaussian_noise_factor, long_lines, without_lines
 
 __all__ = ["RegionInfo", "extract_component", "EXTENT_FRACTION", "JOIN_FRACTION", "PLATEAU_RATIO",
-           "BROAD_FRACTION", "SADDLE_DIP", "WRAP_MAX", "FINE_NOISE_FRACTION", "EDGE_JITTER_PX",
+           "BROAD_FRACTION", "FIRST_BROAD_FRACTION", "SADDLE_DIP", "WRAP_MAX", "FINE_NOISE_FRACTION", "EDGE_JITTER_PX",
            "PEAK_NOISE_FRACTION", "PEAK_PERCENTILE", "FINE_SCALES"]
 
 EXTENT_FRACTION = 0.5
 JOIN_FRACTION = 0.25  # half-peak pieces joined through this fraction of the peak are one anomaly
 PLATEAU_RATIO = 0.85
 BROAD_FRACTION = 0.5  # a broad anomaly keeps this share of its peak with the narrow members taken out
+FIRST_BROAD_FRACTION = 1 / 3  # ... a third, for the first anomaly of a component
 SADDLE_DIP = 0.25  # a dome beside a taken anomaly: its contrast falls by a quarter toward it
 WRAP_MAX = 0.5  # a touching plateau may border at most half of the other anomaly's outline
 FINE_NOISE_FRACTION = 0.04  # the extent is measured where σ_fine ≤ 4 % of the peak
@@ -133,6 +134,64 @@ def _box(mask: np.ndarray, margin: int) -> tuple[slice, slice]:
             slice(max(0, int(cols[0]) - margin), min(n, int(cols[-1]) + margin + 1)))
 
 
+def _read_piece(*, v, vp, piece, near, claimed, peak, sig_f, line_px, min_contrast_k, k_hi, min_area_px,
+                extent_fraction):
+    """One piece's strongest anomaly: ``(is_broad, peak, level, region_of, lines, share, broad, core, extent)``
+    or None when it holds nothing reportable.
+
+    Broad anomalies before narrow members: where taking the members out (studs, joists) keeps at least
+    half of the peak (a third for a component's first anomaly with long members standing out of it: a
+    member's own blurred flanks hold no disk a member wide, so a third of the peak left by the opening
+    is a broad defect beside or under the member; beside a taken anomaly it may be that one's halo),
+    the peak, the strongest place and the domes are read without them. A broad reading that holds no anomaly of the smallest area (a member
+    with wide conducting shoulders, a halo) leaves the piece to be read as it is.
+    """
+    broad = without_lines(vp, line_px)
+    p_broad = float(broad[piece].max())
+    first = p_broad >= BROAD_FRACTION * peak or (
+        not claimed.any() and p_broad >= FIRST_BROAD_FRACTION * peak
+        and bool(long_lines(v - broad >= 0.5 * extent_fraction * p_broad, line_px).any()))  # members there
+    out = None
+    for is_broad in ((True, False) if first else (False,)):
+        pk = p_broad if is_broad else peak
+        if pk < max(min_contrast_k, k_hi * sig_f):
+            return out
+        level = extent_fraction * pk
+        region_of = piece | (near & ~claimed & _dilate(piece, 2))
+        # a broad anomaly's extent is read with its narrow members taken out: on a stud or joist in or
+        # beside it (a long narrow line standing out of the members-removed contrast) the members-removed
+        # contrast decides, so the member neither widens nor cuts its outline (it stays an anomaly of
+        # its own); elsewhere, corners included, the contrast itself
+        lines = long_lines(v - broad >= 0.5 * level, line_px) if is_broad else np.zeros_like(piece)
+        share = broad
+        if lines.any():
+            lines = _dilate(lines, int(math.ceil(0.5 * line_px)))  # with their blurred flanks
+            share = _defect_share(v, broad, lines, pk)
+        field = np.where(lines, broad, v)
+        above = (field >= level) & region_of & ~claimed
+        joined = (v >= JOIN_FRACTION * pk) & region_of & ~claimed
+        jl, _ = ndimage.label(joined, structure=_SQUARE)
+        # the strongest place: the pixel of the piece at the robust peak's level nearest the maximum
+        top = np.argmax(np.where(above, broad if is_broad else v, -np.inf))
+        anchor = jl.flat[top]
+        if anchor == 0 or not above.flat[top]:
+            continue
+        dome = dome_of(broad, jl == anchor, top, dip_k=SADDLE_DIP * pk, line_px=line_px)
+        cl, _ = ndimage.label(above & dome, structure=_SQUARE)
+        core = _fill_holes(cl == cl.flat[top]) & ~claimed
+        # the extent itself: on the members, the anomaly's own share of their contrast decides (the
+        # members-removed contrast above carries a defect's plateau onto a member at its edge)
+        extent = core
+        if lines.any():
+            ol, _ = ndimage.label((np.where(lines, share, v) >= level) & region_of & ~claimed & dome, structure=_SQUARE)
+            if ol.flat[top]:
+                extent = _fill_holes(ol == ol.flat[top]) & ~claimed
+        out = (is_broad, pk, level, region_of, lines, share, broad, core, extent)
+        if int(core.sum()) >= min_area_px:
+            return out
+    return out
+
+
 def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_area_px, min_contrast_k, k_hi, line_px,
              extent_fraction, split_plateaus, valid, members) -> None:
     """Anomalies of one grown component: the strongest first, then separate plateaus and pieces.
@@ -178,49 +237,12 @@ def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_ar
         s_p = max([s for s in FINE_SCALES if s <= s_p] or [FINE_SCALES[0]])  # on the bank (fields are cached)
         vp = sign * fine(s_p)[crop][box]
         peak = float(vp[piece].max())
-        # broad anomalies before narrow members: where taking the members out (studs, joists) keeps
-        # at least half of the peak, the peak, the strongest place and the domes are read without them
-        broad = without_lines(vp, line_px)
-        p_broad = float(broad[piece].max())
-        is_broad = p_broad >= BROAD_FRACTION * peak
-        if is_broad:
-            peak = p_broad
-        if peak < max(min_contrast_k, k_hi * sig_f):
+        read = _read_piece(v=v, vp=vp, piece=piece, near=near, claimed=claimed, peak=peak, sig_f=sig_f,
+                           line_px=line_px, min_contrast_k=min_contrast_k, k_hi=k_hi, min_area_px=min_area_px,
+                           extent_fraction=extent_fraction)
+        if read is None:
             continue
-        level = extent_fraction * peak
-        region_of = piece | (near & ~claimed & _dilate(piece, 2))
-        # a broad anomaly's extent is read with its narrow members taken out: on a stud or joist in or
-        # beside it (a long narrow line standing out of the members-removed contrast) the members-removed
-        # contrast decides, so the member neither widens nor cuts its outline (it stays an anomaly of
-        # its own); elsewhere, corners included, the contrast itself
-        lines = long_lines(v - broad >= 0.5 * level, line_px) if is_broad else np.zeros_like(piece)
-        share = broad
-        if lines.any():
-            lines = _dilate(lines, int(math.ceil(0.5 * line_px)))  # with their blurred flanks
-            share = _defect_share(v, broad, lines, peak)
-        field = np.where(lines, broad, v)
-        above = (field >= level) & region_of & ~claimed
-        joined = (v >= JOIN_FRACTION * peak) & region_of & ~claimed
-        jl, _ = ndimage.label(joined, structure=_SQUARE)
-        # the strongest place: the pixel of the piece at the robust peak's level nearest the maximum
-        top = np.argmax(np.where(above, broad if is_broad else v, -np.inf))
-        anchor = jl.flat[top]
-        if anchor == 0 or not above.flat[top]:
-            continue
-        core = above & dome_of(broad, jl == anchor, top, dip_k=SADDLE_DIP * peak, line_px=line_px)
-        cl, _ = ndimage.label(core, structure=_SQUARE)
-        core = cl == cl.flat[top]
-        core = _fill_holes(core)
-        core &= ~claimed
-        # the extent itself: on the members, the anomaly's own share of their contrast decides (the
-        # members-removed contrast above carries a defect's plateau onto a member at its edge)
-        extent = core
-        if lines.any():
-            own = (np.where(lines, share, v) >= level) & region_of & ~claimed
-            own &= dome_of(broad, jl == anchor, top, dip_k=SADDLE_DIP * peak, line_px=line_px)
-            ol, _ = ndimage.label(own, structure=_SQUARE)
-            if ol.flat[top]:
-                extent = _fill_holes(ol == ol.flat[top]) & ~claimed
+        _, peak, level, region_of, lines, share, broad, core, extent = read
         touching = bool((_dilate(core, 1) & claimed).any())
         rim_px = int(math.ceil(2.5 * math.hypot(1.0, s_f))) + 1
         band = _dilate(core, rim_px)
