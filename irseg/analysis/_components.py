@@ -261,7 +261,10 @@ def extract_component(*, comp, k, sl, sign, fine, noise, labels, regions, min_ar
             # a defect of its own (a line has no broad tail: its flanks fade within its blur) and a narrow one
             # is its flank (two members side by side are one: a doubled stud)
             beside_line = bool(split_from) and narrow.get(split_from, False)
-            if beside_line and _is_narrow(core, line_px):
+            stub = _is_narrow(core, line_px) and not long_lines(core, line_px).any()
+            if beside_line and _is_narrow(core, line_px) or split_from and stub:
+                # ... and a short narrow stub (shorter than three members' widths) touching a broad anomaly
+                # is the stretch of a member the anomaly makes colder (a joist beyond a partial fill): its tail
                 accept = False
             else:
                 accept = split_plateaus and (dome or beside_line or _pct(v[core], 50.0) >= PLATEAU_RATIO * peak)
