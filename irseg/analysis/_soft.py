@@ -24,7 +24,11 @@ joined here, region by region:
 A detected anomaly is measured on the sound surface: reference = the surface under
 its extent, contrast = temperature − surface, excess heat summed over its
 *thermal region*, the pixels of its significant component nearest to it, on no other
-anomaly, where its smooth contrast holds at least a tenth of its peak.
+anomaly, within the sound length of its extent, where its smooth contrast holds at
+least a tenth of its peak; plus what it adds to the members (framing, uniform bands,
+detected lines) beside or across it, taken off theirs (:func:`_member_shares`).
+A framing member is narrow (at most ``BAND_MAX_WIDTH_M``): a wide area lined up with
+small pieces (a damp zone and the fragments of its tide line) is not one.
 """
 
 from __future__ import annotations
@@ -309,7 +313,7 @@ def _member_shares(
     idx: np.ndarray, r, out: list[Measured], is_member: set[int], *, comp: np.ndarray, u: np.ndarray,
     t: np.ndarray, surface_c: np.ndarray, reach_px: float, loss_sign: float, reference: np.ndarray,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """What a detected anomaly adds to the segmented members beside or across it: ``(flat pixels, loss K)``.
+    """What a detected anomaly adds to the members beside or across it: ``(flat pixels, loss K)``.
 
     A stud or joist the defect exposes (insulation left at part of its depth beside a joist) gets
     colder *because of* the defect; that share is the defect's heat. A member's own contrast is
