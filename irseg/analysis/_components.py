@@ -107,10 +107,14 @@ def _defect_share(v: np.ndarray, broad: np.ndarray, lines: np.ndarray, peak: flo
         normal = np.linalg.eigh(cov)[1][:, 0]  # the smaller spread: across the member
         off = np.round((rr - rr.mean()) * normal[0] + (cc - cc.mean()) * normal[1]).astype(int)
         off -= int(off.min())
-        total = v[rr, cc]
+        # the median of v over the faded pixels at each offset (sorted by offset, then value)
+        oa, ta = off[away], v[rr, cc][away]
+        order = np.lexsort((ta, oa))
+        oa, ta = oa[order], ta[order]
+        starts = np.flatnonzero(np.r_[True, oa[1:] != oa[:-1]])
+        ends = np.r_[starts[1:], oa.size]
         prof = np.full(int(off.max()) + 1, np.nan)
-        for o in np.unique(off[away]):
-            prof[o] = float(np.median(total[away & (off == o)]))
+        prof[oa[starts]] = 0.5 * (ta[(starts + ends - 1) // 2] + ta[(starts + ends) // 2])
         known = np.flatnonzero(np.isfinite(prof))
         prof = np.interp(np.arange(prof.size), known, prof[known])  # offsets seen only inside the anomaly
         share[rr, cc] = v[rr, cc] - np.clip(prof[off], 0.0, None)
@@ -120,10 +124,16 @@ def _defect_share(v: np.ndarray, broad: np.ndarray, lines: np.ndarray, peak: flo
 def _is_narrow(core: np.ndarray, line_px: float) -> bool:
     """No part of ``core`` holds a disk ``line_px`` across (a member's width): an opening with it keeps less
     than a tenth of the core."""
-    r = max(1, int(round(0.5 * line_px)))
+    f = max(1, int(line_px // 8))  # on a copy reduced so that the disk keeps about 8 px across
+    m, n = core.shape
+    small = core[: m - m % f or m, : n - n % f or n].astype(np.float32)
+    if f > 1 and small.shape[0] >= f and small.shape[1] >= f:
+        small = cv2.resize(small, (small.shape[1] // f, small.shape[0] // f), interpolation=cv2.INTER_AREA)
+    small = (small >= 0.5).astype(np.uint8)
+    r = max(1, int(round(0.5 * line_px / f)))
     disk = cv2.getStructuringElement(cv2.MORPH_ELLIPSE, (2 * r + 1, 2 * r + 1))
-    kept = cv2.morphologyEx(core.astype(np.uint8), cv2.MORPH_OPEN, disk, borderType=cv2.BORDER_CONSTANT, borderValue=0)
-    return int(kept.sum()) < 0.1 * max(int(core.sum()), 1)
+    kept = cv2.morphologyEx(small, cv2.MORPH_OPEN, disk, borderType=cv2.BORDER_CONSTANT, borderValue=0)
+    return int(kept.sum()) < 0.1 * max(int(small.sum()), 1)
 
 
 def _box(mask: np.ndarray, margin: int) -> tuple[slice, slice]:

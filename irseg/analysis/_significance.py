@@ -255,8 +255,11 @@ def detect_regions(
         exclude = found
         if found[valid].mean() > MAX_EXCLUDED_FRACTION:
             # the most significant pixels first: the second surface keeps at least half of the frame
-            zmax = np.max(np.abs(np.stack(zs)), axis=0)
-            cut = float(np.quantile(zmax[valid], 1.0 - MAX_EXCLUDED_FRACTION))
+            zmax = np.abs(zs[0])
+            for zz in zs[1:]:
+                np.maximum(zmax, np.abs(zz), out=zmax)
+            kept = zmax[valid]
+            cut = float(np.quantile(kept[:: max(1, kept.size // 50_000)], 1.0 - MAX_EXCLUDED_FRACTION))
             exclude = found & (zmax > cut)
 
     fine_cache: dict[float, np.ndarray] = {}
