@@ -121,7 +121,8 @@ def _resolution_table(series: dict[str, list[dict]]) -> str:
                             "anomalies of defect causes", "verdict"], rows)
 
 
-def write_doc(path: Path, results: list[dict], seeds: int, seconds: float, series: dict[str, list[dict]]) -> None:
+def write_doc(path: Path, results: list[dict], seeds: int, seconds: float, series: dict[str, list[dict]],
+              limits: list[dict]) -> None:
     rows = _rows(results)
     checked = [d for r in results for d in r["defects"] if d["checked"]]
     n_pass = sum(all(passes(d).values()) for d in checked)
@@ -205,18 +206,55 @@ Per defect (errors are estimate − truth, relative for area and excess heat; n 
 
 {_resolution_table(series)}
 
+### The smallest contrast found
+
+Measured here by bisection (to 1 mK) on synthetic 640×480 frames across 2.5 m (p = 3.9 mm): a flat
+interior wall at 20 °C with 1 K/m of stratification, white noise of the NETD, a fixed column pattern
+of 0.02 K, and a cold disk of the given area whose edge is blurred as by the optics (σ 0.8 px);
+three noise seeds per case (`smallest_contrast` in `benchmarks/validate_scenes.py`). *Detector alone*:
+`detect_regions` with no contrast floor finds a cold region lying at least half on the disk.
+*Reported*: the whole analysis with its defaults (`process_array`) reports an anomaly there.
+
+{_limit_table(limits)}
+
+The white-noise limit (`1.11·5·NETD·p/√A`, docs/analysis.md §2.5) is what the camera noise alone
+would allow. The detector needs more: the σ it uses at each scale is the measured spread of the
+sound pixels (here the column pattern dominates at large scales), and a disk larger than the sound
+length (0.2 m; 0.5 m² is 0.8 m across) is partly followed by the local sound surface, so a large
+weak defect needs *more* contrast than a small one. What is reported is set by the smallest
+contrast reported, `[analysis] min_contrast_k` (default 0.1 K): a little above it, because the
+peak of a blurred disk is read after smoothing.
+
 ### What does not pass yet, and why
 
-- **Insulation left at part of its depth in a ceiling (val6)**: the removed insulation exposes the
-  joists' sides, so the joists next to the fill get colder *because of* the defect. The analysis
-  gives a member its own contrast (part of the sound state) up to what it shows away from the
-  defect; the rest of the joists' extra heat stays with the joist anomalies, not the defect: the
-  excess heat is 17–31 % low. The weaker fill (half depth, 0.2 K) sits beside a joist and near a
-  frame corner with 1.2 K of lens shading; its outline there is cut by up to 11 % (29 % at
-  1280×1024, where the taller view brings it nearer the corner), so its area differs across the
-  three resolutions.
-- **A bay left at a third of its depth between two studs (val7)**: its extent reaches over the
-  studs' flanks, 10.4 % over the truth region (the limit is 10 %).
+{_misses(results, series)}
+
+- **Insulation left at part of its depth in a ceiling (val6), excess heat**: the truth's excess heat
+  (defect mask + 0.3 m rim) is what the simulated contrast sums to within 0.3 m of the mask (1.71
+  and 1.07 W); a fifth to a quarter of it lies outside the half-peak region, in the soft halo and on
+  the joists the partial fill exposes, and the thermal region takes it in (the joists' share
+  included). What is left is the reference: on the 640×480 frame the sound surface sits 0.05 K into
+  both fills (−0.047 and −0.046 K against the noise-free sound surface as the camera records it),
+  which is 15 % of the deeper fill's 0.33 K and 24 % of the shallower one's 0.19 K. Measured causes:
+  the first pass finds 62 % of the frame significant (two fills, their halos, four joists), so the
+  surface is fitted with the halos in; now the second pass leaves out the most significant half of
+  the frame, but the global part's twist (`xy`) and `r⁴` terms still take up part of two fills lying
+  in opposite quarters of a frame with 1.2 K of lens shading. Without the twist term the excess came
+  to −9 % and −22 %, but a unit test requires a twisted sound surface to be followed (a real wall
+  can have one), and the sample's landing wall gained two false `missing_insulation` areas; fitting
+  the global part on the fully excluded frame, or bridging the local part across the fills from
+  their surroundings, did not move the reference (tried, not kept).
+- **The same ceiling at 1280×1024 (taller view, 5:4)**: the shallower fill's outline is cut on the
+  side of the frame's bottom-right corner, where the sound surface sits 0.13–0.18 K too cold (it
+  shows as warm `unclassified` patches there); its area is 14 % under the median of the three
+  frames (0.289 against 0.335 m²). At 320×240 and 640×480 the two agree within 3 %.
+- **Rising damp at NETD 0.1 K, one seed of three (val8, seed 1208)**: the segmentation's outline of
+  the damp zone agrees with the detected one, so it keeps its local-ring measurement; the ring lies
+  on one side only (the tide line), a plane without a vertical slope, while the sound surface below
+  it carries stratification and lens shading: its reference is 0.37 K too warm (the sound surface
+  there is right within 0.03 K). Which of the two to trust when they disagree is not settled: on a
+  bay touching three frame edges the ring is right and the surface wrong by the same amount
+  (`tests/analysis/test_measure.py`).
 
 ## Simulation settings
 
@@ -291,6 +329,112 @@ def solver_benchmark(repeats: int = 3, *, with_lu: bool = False) -> list[tuple[s
     return out
 
 
+#: Frames of the smallest-contrast measurement: 640×480 px across 2.5 m (45° lens at 3.02 m, p = 3.9 mm).
+LIMIT_WIDTH_M = 2.5
+LIMIT_CASES = ((0.05, 0.05), (0.05, 0.5), (0.1, 0.05), (0.1, 0.5))  # (NETD K, area m²)
+
+
+def _limit_frame(netd_k: float, area_m2: float, delta_k: float, seed: int):
+    """A flat interior wall (20 °C, 1 K/m stratification) with a cold disk of ``area_m2`` and ``delta_k``,
+    its edge blurred as by the optics (σ 0.8 px), white noise of ``netd_k`` and a column pattern of 0.02 K."""
+    import numpy as np
+    from scipy import ndimage
+
+    m, n = 480, 640
+    p = LIMIT_WIDTH_M / n
+    rng = np.random.default_rng(seed)
+    yy, xx = np.mgrid[0:m, 0:n]
+    disk = ((yy - m / 2) ** 2 + (xx - n / 2) ** 2) * p * p <= area_m2 / np.pi
+    t = 20.0 - 1.0 * (yy - m / 2) * p - delta_k * ndimage.gaussian_filter(disk.astype(float), 0.8)
+    t += rng.normal(0.0, netd_k, (m, n)) + rng.normal(0.0, 0.02, (1, n))
+    return t, disk, p
+
+
+def smallest_contrast(seeds: int = 3) -> list[dict]:
+    """The smallest contrast found against NETD and area, measured by bisection on synthetic frames.
+
+    For each (NETD, area) of :data:`LIMIT_CASES` and each seed: the smallest disk contrast (K) that the
+    detector alone finds (``detect_regions`` with no contrast floor: a region of the right sign lying at
+    least half on the disk), and that the whole analysis reports with its defaults (``process_array``:
+    an anomaly of the right sign lying at least half on the disk). Returns one row per case with the
+    medians over the seeds and the white-noise limit of the documented formula.
+    """
+    import math
+
+    import numpy as np
+
+    from irseg.analysis._scales import min_detectable_contrast_k
+    from irseg.analysis._significance import detect_regions
+    from irseg.pipeline import process_array
+
+    hfov = 45.0
+    meta = {"camera": {"hfov_deg": hfov, "distance_m": LIMIT_WIDTH_M / (2 * math.tan(math.radians(hfov / 2)))},
+            "surface": {"view": "interior", "emissivity": 1.0, "reflected_c": 20.0},
+            "air": {"inside_c": 20.0, "outside_c": 0.0}}
+
+    def on_disk(labels, disk, ids) -> bool:
+        return any((disk & (labels == i)).sum() >= 0.5 * (labels == i).sum() for i in ids)
+
+    def detector(netd, area, dt, seed) -> bool:
+        t, disk, p = _limit_frame(netd, area, dt, seed)
+        labels, _, info = detect_regions(t, None, noise_k=netd, pixel_m=p, min_contrast_k=0.0)
+        return on_disk(labels, disk, [r.label for r in info.regions if r.sign < 0])
+
+    def reported(netd, area, dt, seed) -> bool:
+        t, disk, _ = _limit_frame(netd, area, dt, seed)
+        an = process_array(t, dict(meta, camera=dict(meta["camera"], netd_k=netd))).analysis
+        return on_disk(np.asarray(an.labels), disk, [a.anomaly for a in an.anomalies if a.delta_k < 0])
+
+    def bisect(found, netd, area, seed) -> float:
+        lo, hi = 0.0, 0.4
+        if not found(netd, area, hi, seed):
+            return float("inf")
+        for _ in range(9):  # to 0.4/512 ≈ 0.8 mK
+            mid = 0.5 * (lo + hi)
+            lo, hi = (lo, mid) if found(netd, area, mid, seed) else (mid, hi)
+        return hi
+
+    rows = []
+    for netd, area in LIMIT_CASES:
+        det = [bisect(detector, netd, area, 7000 + k) for k in range(seeds)]
+        rep = [bisect(reported, netd, area, 7000 + k) for k in range(seeds)]
+        rows.append({"netd_k": netd, "area_m2": area, "white_k": min_detectable_contrast_k(
+            area_m2=area, netd_k=netd, pixel_m=LIMIT_WIDTH_M / 640), "detector_k": float(np.median(det)),
+            "detector_range_k": (min(det), max(det)), "reported_k": float(np.median(rep)),
+            "reported_range_k": (min(rep), max(rep))})
+        print(f"smallest contrast NETD {netd} K, {area} m²: detector {det}, reported {rep}", file=sys.stderr)
+    return rows
+
+
+def _misses(results: list[dict], series: dict[str, list[dict]]) -> str:
+    """One line per defect and seed that misses a target, and per scene that disagrees across resolutions."""
+    out = []
+    for res in results:
+        for d in res["defects"]:
+            if d["checked"]:
+                bad = [k for k, v in passes(d).items() if not v]
+                if bad:
+                    out.append(f"{res['image']} seed {res['camera']['seed']}, {d['name']}: {', '.join(bad)}")
+    for stem, rs in series.items():
+        cons = resolution_consistency(rs)
+        if not cons["ok"]:
+            out.append(f"{stem} across 320×240 / 640×480 / 1280×1024: " + "; ".join(
+                f"{name} areas {' / '.join('n/a' if a is None else f'{a:.3f}' for a in d['areas_m2'])} m²"
+                for name, d in cons["defects"].items() if not d["ok"])
+                + f" (anomalies of defect causes {' / '.join(map(str, cons['anomaly_counts']))})")
+    return "\n".join(f"- {line}" for line in out) if out else "Every target is met."
+
+
+def _limit_table(rows: list[dict]) -> str:
+    return _markdown_table(
+        ["NETD", "area", "white-noise limit (formula)", "detector alone (no floor), median [range]",
+         "reported with the defaults, median [range]"],
+        [[f"{r['netd_k']:g} K", f"{r['area_m2']:g} m²", f"{r['white_k']:.4f} K",
+          f"{r['detector_k']:.3f} K [{r['detector_range_k'][0]:.3f}–{r['detector_range_k'][1]:.3f}]",
+          f"{r['reported_k']:.3f} K [{r['reported_range_k'][0]:.3f}–{r['reported_range_k'][1]:.3f}]"]
+         for r in rows])
+
+
 def main(argv: list[str] | None = None) -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--seeds", type=int, default=1, help="camera-noise seeds per scene")
@@ -332,7 +476,10 @@ def main(argv: list[str] | None = None) -> int:
     pipe = [r["seconds"]["pipeline"] for r in results]
     sim = [r["seconds"]["simulate"] for r in results]
     print(f"median seconds per scene: simulate {statistics.median(sim):.2f}, pipeline {statistics.median(pipe):.2f}")
-    write_doc(args.doc, results, args.seeds, seconds, series)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        limits = smallest_contrast(seeds=3)
+    write_doc(args.doc, results, args.seeds, seconds, series, limits)
     print(f"wrote {args.doc}")
     return 0
 

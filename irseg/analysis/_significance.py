@@ -148,6 +148,7 @@ class DetectionInfo:
     regions: tuple[RegionInfo, ...]
     components: np.ndarray  # (M, N) int32: significant components, −k cold, +k warm, 0 none
     members_k: np.ndarray  # (M, N): the own contrast of narrow members in or beside broad anomalies, K (signed)
+    line_px: float = 0.0  # the widest narrow member (stud, joist), px
 
 
 def detect_regions(
@@ -253,9 +254,17 @@ def detect_regions(
         zs = [f / (sg * g) for f, sg, g in zip(fields, sig, gains)]
         grown = {sign: _grown(zs, sign, k_hi, k_lo, valid) for sign in (-1, 1)}
         found = (grown[-1][0] > 0) | (grown[1][0] > 0)
-        if not found.any() or exclude.any() or found[valid].mean() > MAX_EXCLUDED_FRACTION:
+        if not found.any() or exclude.any():
             break
         exclude = found
+        if found[valid].mean() > MAX_EXCLUDED_FRACTION:
+            # the most significant pixels first: the second surface keeps at least half of the frame
+            zmax = np.abs(zs[0])
+            for zz in zs[1:]:
+                np.maximum(zmax, np.abs(zz), out=zmax)
+            kept = zmax[valid]
+            cut = float(np.quantile(kept[:: max(1, kept.size // 50_000)], 1.0 - MAX_EXCLUDED_FRACTION))
+            exclude = found & (zmax > cut)
 
     fine_cache: dict[float, np.ndarray] = {}
 
@@ -285,7 +294,7 @@ def detect_regions(
                 split_plateaus=split_plateaus, valid=valid,
             )
     info = DetectionInfo(noise, pixel_m, min_area_px, length_px, scales, tuple(sig), tuple(sig_w), k_hi, k_lo,
-                         extent_fraction, surf.scale_k, tuple(regions), components, members)
+                         extent_fraction, surf.scale_k, tuple(regions), components, members, float(line_px))
     return labels, surf.surface, info
 
 
@@ -329,6 +338,7 @@ def _on_reduced(t: np.ndarray, valid: np.ndarray, f: int, *, noise_k: float | No
         info, noise_k=info.noise_k * f, min_area_px=max(9, info.min_area_px * f * f),
         sound_length_px=info.sound_length_px * f, scales_px=tuple(s * f for s in info.scales_px), regions=regions,
         components=up(_narrow(info.components)), members_k=up(info.members_k.astype(np.float32)),
+        line_px=info.line_px * f,
     )
     return big, surf, info  # float32 fields of the frame's size
 

@@ -24,7 +24,11 @@ joined here, region by region:
 A detected anomaly is measured on the sound surface: reference = the surface under
 its extent, contrast = temperature − surface, excess heat summed over its
 *thermal region*, the pixels of its significant component nearest to it, on no other
-anomaly, where its smooth contrast holds at least a tenth of its peak.
+anomaly, within the sound length of its extent, where its smooth contrast holds at
+least a tenth of its peak; plus what it adds to the members (framing, uniform bands,
+detected lines) beside or across it, taken off theirs (:func:`_member_shares`).
+A framing member is narrow (at most ``BAND_MAX_WIDTH_M``): a wide area lined up with
+small pieces (a damp zone and the fragments of its tide line) is not one.
 """
 
 from __future__ import annotations
@@ -37,7 +41,7 @@ from scipy import ndimage
 
 from .._shared import robust_sigma
 from ._candidates import Candidate
-from ._framing import BAND_ELONGATION, is_band
+from ._framing import BAND_ELONGATION, BAND_MAX_WIDTH_M, is_band
 from ._geometry import MIN_SPOT_PX
 from ._reference import Plane, RingReference
 from ._shape import Shape, shape_features
@@ -203,7 +207,10 @@ def join_detections(
     for m in measured:
         units.setdefault(host_of.get(m.cand.label, m.cand.label), []).append(m)
     ext = {k: np.concatenate([_extent_index(m, n_cols) for m in ms]) for k, ms in units.items()}
-    is_frame = {k: any(m.cand.label in framing for m in ms) for k, ms in units.items()}
+    # a framing member is narrow: a wide area that lines up with other pieces (a damp zone along the base
+    # of a wall and the fragments of its tide line) is not one
+    is_frame = {k: any(m.cand.label in framing for m in ms) and (pixel_m is None or max(
+        m.shape.width_px for m in ms) * pixel_m <= BAND_MAX_WIDTH_M) for k, ms in units.items()}
     d_area = np.zeros(max(max(regions, default=0), int(dl.max(initial=0))) + 1, np.int64)
     for i0 in range(0, dl.size, 1 << 20):  # by pieces: no frame-sized int64 copy of the labels (issue 15)
         d_area += np.bincount(dl[i0 : i0 + (1 << 20)], minlength=d_area.size)
@@ -257,6 +264,8 @@ def join_detections(
     # the smallest anomaly is a physical area (the detector's), for the segmented ones too
     dropped.update(k for k, idx in ext.items() if not is_frame[k] and idx.size < info.min_area_px)
     out = [m for k, ms in units.items() if k not in dropped for m in ms]
+    framing_kept = {m.cand.label for k, ms in units.items() if k not in dropped and is_frame[k] for m in ms}
+    made: list[tuple[int, object, np.ndarray]] = []
     new_host = {f: h for f, h in host_of.items() if h not in dropped}
     nearest = _Nearest(det_labels, info.components)
     # a member crossing a detected anomaly is part of its sound state (summed in place: the members'
@@ -270,6 +279,7 @@ def join_detections(
         if r.component in multi:
             own_comp &= nearest.labels() == lab
         thermal = np.flatnonzero(own_comp & ~final)
+        thermal = thermal[_within(idx, thermal, info.sound_length_px, shape)]
         # its soft rim: down to a tenth of its peak (the rest of a wide significant component is the
         # sound surface's own misfit summed over many pixels, not the defect's heat)
         thermal = thermal[r.sign * (u.flat[thermal] - with_members.flat[thermal]) >= RIM_FRACTION * abs(r.peak_k)]
@@ -278,15 +288,104 @@ def join_detections(
                      n_parts=members[lab])
         if m is not None and abs(m.cand.delta_k) >= min_contrast_k and np.sign(m.cand.delta_k) == r.sign:
             out.append(m)
+            made.append((len(out) - 1, r, np.concatenate([idx, thermal])))
+    # members (framing, uniform bands, narrow detected lines): a broad detected anomaly beside or across
+    # one takes what it adds to it
+    width = lambda m: None if pixel_m is None else m.shape.width_px * pixel_m  # noqa: E731
+    is_member = {m.cand.label for m in out if m.cand.label in framing_kept or (
+        m.shape.uniform and is_band(m.shape, width(m), BAND_ELONGATION)) or (
+        m.cand.ref.source == "detected" and m.shape.elongation >= BAND_ELONGATION
+        and m.shape.width_px <= info.line_px)}
+    for pos, r, pix in made:
+        if out[pos].cand.label in is_member:
+            continue
+        add_i, add_l = _member_shares(pix, r, out, is_member, comp=comp, u=u, t=t, surface_c=surface_c,
+                                      reach_px=info.sound_length_px, loss_sign=loss_sign, reference=reference)
+        if add_i.size:
+            m = out[pos]
+            out[pos] = replace(m, rim_index=np.concatenate([m.rim_index, add_i]),
+                               rim_loss_k=np.concatenate([m.rim_loss_k, add_l]))
     return out, new_host
+
+
+def _within(idx: np.ndarray, pix: np.ndarray, reach_px: float, shape: tuple[int, int]) -> np.ndarray:
+    """Which of the flat pixels ``pix`` lie within ``reach_px`` of the flat pixels ``idx`` (on their bounding box)."""
+    if pix.size == 0:
+        return np.zeros(0, bool)
+    rows, cols = np.divmod(idx, shape[1])
+    pr, pc = np.divmod(pix, shape[1])
+    r0, c0 = int(min(rows.min(), pr.min())), int(min(cols.min(), pc.min()))
+    r1, c1 = int(max(rows.max(), pr.max())) + 1, int(max(cols.max(), pc.max())) + 1
+    box = np.ones((r1 - r0, c1 - c0), bool)
+    box[rows - r0, cols - c0] = False
+    return ndimage.distance_transform_edt(box)[pr - r0, pc - c0] <= reach_px
+
+
+def _member_shares(
+    idx: np.ndarray, r, out: list[Measured], is_member: set[int], *, comp: np.ndarray, u: np.ndarray,
+    t: np.ndarray, surface_c: np.ndarray, reach_px: float, loss_sign: float, reference: np.ndarray,
+) -> tuple[np.ndarray, np.ndarray]:
+    """What a detected anomaly adds to the members beside or across it: ``(flat pixels, loss K)``.
+
+    A stud or joist the defect exposes (insulation left at part of its depth beside a joist) gets
+    colder *because of* the defect; that share is the defect's heat. A member's own contrast is
+    what it shows away from the defect (the median of its contrast against the sound surface over
+    its pixels farther than ``reach_px``, the sound length, from the defect's extent); on its pixels
+    within that reach and in the defect's significant component, what exceeds its own contrast by
+    at least :data:`RIM_FRACTION` of the defect's peak is the defect's (and taken off the member's
+    loss, in place in ``out``). A member with fewer than 9 pixels away from the defect is left as it is.
+    """
+    shape = u.shape
+    mask = np.zeros(u.size, bool)
+    mask[idx] = True
+    rows, cols = np.divmod(idx, shape[1])
+    r0, r1 = max(0, int(rows.min() - reach_px) - 1), min(shape[0], int(rows.max() + reach_px) + 2)
+    c0, c1 = max(0, int(cols.min() - reach_px) - 1), min(shape[1], int(cols.max() + reach_px) + 2)
+    box = mask.reshape(shape)[r0:r1, c0:c1]
+    near_box = ndimage.distance_transform_edt(~box) <= reach_px
+    got_i: list[np.ndarray] = []
+    got_l: list[np.ndarray] = []
+    for j, m in enumerate(out):
+        if m.cand.label not in is_member:
+            continue
+        c = m.cand
+        reg = (c.rr + c.r0) * shape[1] + (c.cc + c.c0)
+        pix = np.concatenate([reg, m.rim_index])
+        pr, pc = np.divmod(pix, shape[1])
+        inside = (pr >= r0) & (pr < r1) & (pc >= c0) & (pc < c1)
+        near = np.zeros(pix.size, bool)
+        near[inside] = near_box[pr[inside] - r0, pc[inside] - c0]
+        away = ~near[: reg.size]
+        if not near.any() or int(away.sum()) < 9:
+            continue
+        own = max(float(np.median(r.sign * (u.flat[reg[away]] - surface_c.flat[reg[away]]))), 0.0)
+        extra_u = r.sign * (u.flat[pix] - surface_c.flat[pix]) - own
+        take = near & (comp[pix] == r.component) & (extra_u >= RIM_FRACTION * abs(r.peak_k)) & ~mask[pix]
+        if not take.any():
+            continue
+        # loss of the taken pixels against the sound surface plus the member's own contrast
+        ref = surface_c.flat[pix] + r.sign * own
+        loss = loss_sign * (t.flat[pix] - ref)
+        in_reg, in_rim = take[: reg.size], take[reg.size:]
+        rim_loss = m.rim_loss_k.copy()
+        rim_loss[in_rim] -= loss[reg.size:][in_rim]
+        out[j] = replace(m, loss_sum_kpx=m.loss_sum_kpx - float(loss[: reg.size][in_reg].sum()), rim_loss_k=rim_loss)
+        first = np.unique(pix[take], return_index=True)[1]
+        got_i.append(pix[take][first])
+        got_l.append(loss[take][first])
+        reference.flat[pix[take]] = ref[take]
+    if not got_i:
+        return np.zeros(0, np.int64), np.zeros(0)
+    return np.concatenate(got_i), np.concatenate(got_l)
 
 
 def _measure(
     label: int, idx: np.ndarray, rim: np.ndarray, peak_k: float, *, shape: tuple[int, int], surface_c: np.ndarray,
     t: np.ndarray, u: np.ndarray, valid: np.ndarray, noise_k: float, loss_sign: float, reference: np.ndarray,
-    n_parts: int,
+    n_parts: int, shares: tuple[np.ndarray, np.ndarray] | None = None,
 ) -> Measured | None:
-    """One detected anomaly (extent ``idx``, the rest of its thermal region ``rim``) measured on the sound surface."""
+    """One detected anomaly (extent ``idx``, the rest of its thermal region ``rim``) measured on the sound surface;
+    ``shares`` (flat pixels, loss K) is what it adds to the members beside it (:func:`_member_shares`)."""
     rows, cols = np.divmod(idx, shape[1])
     allr = np.concatenate([rows, rim // shape[1]])
     allc = np.concatenate([cols, rim % shape[1]])
@@ -322,6 +421,8 @@ def _measure(
                  noise_k=noise_k, offset=(r0, c0))
     loss_in = loss_sign * float((vals - ref_in).sum())
     rim_loss = loss_sign * (t.flat[rim] - surface_c.flat[rim])
+    if shares is not None and shares[0].size:
+        rim, rim_loss = np.concatenate([rim, shares[0]]), np.concatenate([rim_loss, shares[1]])
     bbox = (int(rows.min()), int(cols.min()), int(rows.max()) + 1, int(cols.max()) + 1)
     return Measured(cand, "cold" if delta < 0 else "warm", shp, bbox, loss_in, int(idx.size), rim, rim_loss,
                     np.ones(rr.size, bool), n_parts)
