@@ -290,7 +290,7 @@ def validate_pair(seed: int, *, far: bool = False, n_rows: int = 480, n_cols: in
 
     def frame(t: np.ndarray, name: str) -> ThermalFrame:
         t32 = np.asarray(t, np.float32)
-        return ThermalFrame(path=name, temperature_c=t32, mask=np.zeros(t32.shape, bool), apparent_c=t32)
+        return ThermalFrame(path=name, temperature_c=t32, mask=np.zeros(t32.shape, bool))
 
     out: dict = {"seed": seed, "far": far, "failed": None}
     start = time.perf_counter()
