@@ -257,8 +257,8 @@ def make_pair(seed: int = 0, *, n_rows: int = 480, n_cols: int = 640, far: bool 
     matrix = np.hstack([rot_inv, (centre - rot_inv @ (centre + s_xy))[:, None]])
     q_cols = matrix[0, 0] * cols + matrix[0, 1] * rows + matrix[0, 2]
     q_rows = matrix[1, 0] * cols + matrix[1, 1] * rows + matrix[1, 2]
-    if far:  # another wall: the same build-up, other positions and texture
-        q_rows, q_cols = q_rows * 0.93 + 17.0, np.mod(q_cols, n_cols) * 0.91 + 23.0
+    if far:  # another wall of the same build-up, shot from closer (two thirds of the distance), other texture
+        q_rows, q_cols = q_rows * 0.65 + 0.3 * n_rows, (n_cols - 1 - np.mod(q_cols, n_cols)) * 0.65 + 0.1 * n_cols
     texture_ref = _texture(tex_rng, rows, cols)
     reference, _ = _wall(rows, cols, n_rows, n_cols, texture_ref)
     # the same plaster texture on the same wall; another wall has its own
