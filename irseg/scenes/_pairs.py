@@ -1,9 +1,12 @@
 """Simulated pairs of thermograms under a pressure difference, with their truth.
 
-One inside wall (a room corner of an invented house) is described analytically in its own
-coordinates (pixels of the reference shot): a ceiling junction at the top, a skirting board at
-the bottom, studs, a window with its frame, a socket, a patch of missing insulation and a faint
-plaster texture. The reference shot samples it as it is; the pressurised shot samples it
+One inside wall of the sample house's lounge (timber frame) is described analytically, laid out in
+metres over the sample pair's view (:data:`SAMPLE_DISTANCE_M`, :data:`SAMPLE_HFOV_DEG`) at any
+frame size: the ceiling junction with the top plate at the top, a skirting board and the floor at
+the bottom, studs at 600 mm centres, a double-glazed window (frame, glass edge over the spacer,
+glass centre: surface temperatures from their U-values), a socket, a bay missing its batt over
+0.7 m and a faint plaster texture. The reference shot samples it as it is; the pressurised shot
+samples it
 
 - through a camera moved between the shots: a similarity transform (shift up to 20 px,
   rotation up to 3°, zoom up to 2 %);
@@ -110,29 +113,99 @@ def _box(rows: np.ndarray, cols: np.ndarray, r0: float, r1: float, c0: float, c1
     return fr * fc
 
 
+#: The sample pair's camera (its sidecars): a 45° lens 4.7 m from the wall, so that the view holds the
+#: wall from the ceiling junction to the floor of a room about 2.45 m high (the 320 × 240 frame spans
+#: 3.89 × 2.92 m, 12 mm a pixel). The simulated wall is laid out in metres over this view.
+SAMPLE_HFOV_DEG, SAMPLE_DISTANCE_M = 45.0, 4.7
+SAMPLE_SHAPE = (240, 320)
+_VIEW_WIDTH_M = 2.0 * SAMPLE_DISTANCE_M * math.tan(math.radians(SAMPLE_HFOV_DEG / 2.0))
+
+# Surface temperatures seen from inside at 20 °C inside, 1 °C outside (the sidecars' air), one-dimensional:
+# T_si = T_i - R_si U (T_i - T_e) with R_si = 0.13 m²K/W (ISO 6946:2017 table 7, horizontal heat flow).
+_T_IN, _T_OUT, _R_SI = 20.0, 1.0, 0.13
+#: U-values of the window, W/m²K: the construction scene maker's defaults (irseg.scenes._construction.window):
+#: centre of double glazing with a low-e coating, the frame, and the glass edge over the spacer (the
+#: spacer's linear loss, about 0.06-0.08 W/mK for double glazing in ISO 10077-1 annex tables, from memory,
+#: spread over a 60 mm strip); frame 70 mm, glass edge 60 mm wide (the same defaults).
+WINDOW_U = {"glass": 1.2, "frame": 1.4, "edge": 2.4}
+_FRAME_M, _EDGE_M = 0.07, 0.06
+#: Emissivity of the glass (irseg.scenes._construction.GLASS_EMISSIVITY) and of the wall (the sidecars').
+_GLASS_EPS, _WALL_EPS = 0.84, 0.9
+#: Sound wall, °C: the sample house's timber frame wall (U about 0.28 W/m²K; its lounge wall lf01 shows 19.3 °C).
+_WALL_C = 19.3
+#: Studs: 45 mm softwood at 600 mm centres (irseg.scenes._elements.timber_frame_wall's defaults, as in lf01),
+#: 0.6 K colder on their line and about 70 mm wide at half depth (what the construction scene's 3-D
+#: conduction gives on lf01: the plasterboard spreads the stud's line).
+STUD_SPACING_M, STUD_WIDTH_M, STUD_K = 0.6, 0.045, 0.6
+_STUD_SOFT_M = 0.03  # erf width of a stud's flanks, m
+_FIRST_STUD_M = 0.105  # centre of the first stud from the view's left edge, m
+#: The ceiling junction's inside corner: colder by this much (K), fading over this distance (m) down the wall.
+_JUNCTION = (0.8, 0.05)
+#: A bay without its batt (lf01's simulated empty bay: about 3.3 K below the sound wall).
+_EMPTY_BAY_K = 3.3
+
+
+def surface_c(u_w_m2k: float) -> float:
+    """Inside surface temperature of an element of U-value ``u_w_m2k``, one-dimensional, °C."""
+    return _T_IN - _R_SI * u_w_m2k * (_T_IN - _T_OUT)
+
+
 def _wall(rows: np.ndarray, cols: np.ndarray, n_rows: int, n_cols: int,
           texture: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The wall's surface temperature at reference coordinates, °C, and where its defects are."""
+    """The wall's surface temperature at reference coordinates, °C, and where its defects are.
+
+    Laid out in metres on the sample view (:data:`SAMPLE_DISTANCE_M`, :data:`SAMPLE_HFOV_DEG`):
+    the ceiling above the ceiling junction (row 0.10 of the frame), the wall down to a 120 mm
+    skirting board (its top at row 0.90), the floor below it; studs at :data:`STUD_SPACING_M`; a
+    double-glazed window (frame, colder glass edge, warmer glass centre, :data:`WINDOW_U`); a socket;
+    a batt missing from one bay (between two studs).
+    """
     h, w = float(n_rows), float(n_cols)
-    blur = 1.6
-    t = 18.6 + 0.5 * (rows / h - 0.5) * -1.0  # slightly warmer at the top (room air stratification)
-    ceiling_r = 0.10 * h
-    skirting_r = 0.90 * h
-    t = t - 1.3 * np.exp(-np.maximum(rows - ceiling_r, 0) / 18.0) * (rows >= ceiling_r)  # cold ceiling junction
-    t = t + (18.9 - t) * (1.0 - 0.5 * (1 + erf((rows - ceiling_r) / blur)))  # the ceiling itself
-    t = t + (17.4 - t) * 0.5 * (1 + erf((rows - skirting_r) / blur))  # skirting board, cooler
-    studs = sum(_box(rows, cols, ceiling_r, skirting_r, c - 5, c + 5, 2.5) for c in np.arange(0.08, 1.0, 0.19) * w)
-    t = t - 0.35 * studs
-    window = _box(rows, cols, 0.22 * h, 0.62 * h, 0.55 * w, 0.85 * w, blur)
-    glass = _box(rows, cols, 0.22 * h + 12, 0.62 * h - 12, 0.55 * w + 12, 0.85 * w - 12, blur)
-    t = t + (16.2 - t) * window + (13.5 - 16.2) * glass
-    socket = _box(rows, cols, 0.70 * h, 0.70 * h + 16 * w / 640, 0.14 * w, 0.14 * w + 16 * w / 640, blur)
+    px = _VIEW_WIDTH_M / w  # m per pixel
+    y, x = rows * px, cols * px  # m from the frame's top left corner
+    soft = 0.012  # optics and plaster: sharp edges spread over about a centimetre
+    ceiling_m, skirting_m = 0.10 * h * px, 0.90 * h * px
+    floor_m = skirting_m + 0.12
+    below = np.maximum(y - ceiling_m, 0.0)
+    t = _WALL_C + 0.25 - 0.5 * (y - ceiling_m) / (skirting_m - ceiling_m)  # room air stratification, ±0.25 K
+    # the ceiling junction: the inside corner (less heat reaches it by convection and radiation) is colder,
+    # and the top plate below it (two 45 mm plates laid flat: a 90 mm band) is timber like a stud
+    t = t - _JUNCTION[0] * np.exp(-below / _JUNCTION[1]) * (y >= ceiling_m)
+    t = t - STUD_K * _box(y, x, ceiling_m - 0.01, ceiling_m + 0.09, -1.0, x.max() + 1.0, _STUD_SOFT_M)
+    ceiling = 0.5 * (1 - erf((y - ceiling_m) / soft))
+    t = t + (19.6 - 0.6 * np.exp(-np.maximum(ceiling_m - y, 0.0) / 0.05) - t) * ceiling  # the ceiling
+    # the floor junction: the wall just above it a little colder, the skirting board (wood, 120 mm) about
+    # 1 K below the wall, the floor beyond it
+    skirting = 0.5 * (1 + erf((y - skirting_m) / soft))
+    floor = 0.5 * (1 + erf((y - floor_m) / soft))
+    t = t - 0.3 * np.exp(-np.maximum(skirting_m - y, 0.0) / 0.08) * (1 - skirting)
+    t = t + (18.1 - t) * skirting + (18.7 - 18.1) * floor
+    studs = sum(_box(y, x, ceiling_m, skirting_m, c - STUD_WIDTH_M / 2, c + STUD_WIDTH_M / 2, _STUD_SOFT_M)
+                for c in np.arange(_FIRST_STUD_M, x.max() + STUD_SPACING_M, STUD_SPACING_M))
+    t = t - STUD_K / erf(STUD_WIDTH_M / 2 / _STUD_SOFT_M) * studs
+    # the window, 0.55-0.85 of the width, 0.22-0.62 of the height (1.17 m square, sill 0.94 m above the floor):
+    # the frame, the glass edge strip over the spacer (the coldest), fading into the glass centre
+    x0, x1, y0, y1 = 0.55 * w * px, 0.85 * w * px, 0.22 * h * px, 0.62 * h * px
+    window = _box(y, x, y0, y1, x0, x1, soft)
+    f, e = _FRAME_M, _FRAME_M + _EDGE_M
+    pane = _box(y, x, y0 + f, y1 - f, x0 + f, x1 - f, soft)
+    centre = _box(y, x, y0 + e, y1 - e, x0 + e, x1 - e, 0.025)  # the edge zone fades into the centre
+    frame_c, edge_c, glass_c = (surface_c(WINDOW_U[k]) for k in ("frame", "edge", "glass"))
+    glass = edge_c + (glass_c - edge_c) * centre
+    # read with the wall's emissivity the glass reflects more of the room (20 °C): it reads warmer by about
+    # (1 - 0.84/0.9) of its difference to the room (the radiance law linearised over a few kelvin)
+    glass = glass + (1.0 - _GLASS_EPS / _WALL_EPS) * (_T_IN - glass)
+    t = t + (frame_c - t) * window + (glass - frame_c) * pane
+    socket = _box(rows, cols, 0.70 * h, 0.70 * h + 16 * w / 640, 0.14 * w, 0.14 * w + 16 * w / 640, soft / px)
     t = t - 0.9 * socket
-    missing = _box(rows, cols, 0.30 * h, 0.55 * h, 0.20 * w, 0.36 * w, 4.0)  # a bay without insulation
-    t = t - 2.0 * missing
+    # a batt missing from the bay between the second and third studs, over 0.7 m of its height
+    bay0 = _FIRST_STUD_M + STUD_SPACING_M + STUD_WIDTH_M / 2
+    missing = _box(y, x, 0.30 * h * px, 0.55 * h * px, bay0, bay0 + STUD_SPACING_M - STUD_WIDTH_M, 0.03)
+    t = t - _EMPTY_BAY_K * missing
     t = t + texture
+    near = 4 * w / 640
     defects = (window > 0.2) | (socket > 0.2) | (missing > 0.2) | (studs > 0.2) \
-        | (np.abs(rows - ceiling_r) < 4) | (np.abs(rows - skirting_r) < 4)
+        | (np.abs(rows - 0.10 * h) < near) | (np.abs(rows - 0.90 * h) < near) | (y > floor_m - 4 * px)
     return t, defects
 
 
@@ -184,11 +257,12 @@ def make_pair(seed: int = 0, *, n_rows: int = 480, n_cols: int = 640, far: bool 
     matrix = np.hstack([rot_inv, (centre - rot_inv @ (centre + s_xy))[:, None]])
     q_cols = matrix[0, 0] * cols + matrix[0, 1] * rows + matrix[0, 2]
     q_rows = matrix[1, 0] * cols + matrix[1, 1] * rows + matrix[1, 2]
-    if far:  # another wall: the same build-up, other positions and texture
-        q_rows, q_cols = q_rows * 0.93 + 17.0, np.mod(q_cols, n_cols) * 0.91 + 23.0
+    if far:  # another wall of the same build-up, shot from closer (two thirds of the distance), other texture
+        q_rows, q_cols = q_rows * 0.65 + 0.3 * n_rows, (n_cols - 1 - np.mod(q_cols, n_cols)) * 0.65 + 0.1 * n_cols
     texture_ref = _texture(tex_rng, rows, cols)
     reference, _ = _wall(rows, cols, n_rows, n_cols, texture_ref)
-    texture_p = _texture(np.random.default_rng(seed + 7919), q_rows, q_cols)
+    # the same plaster texture on the same wall; another wall has its own
+    texture_p = _texture(np.random.default_rng(seed + 7919 + (104729 if far else 0)), q_rows, q_cols)
     pressed, defects = _wall(q_rows, q_cols, n_rows, n_cols, texture_p)
     drift = float(rng.uniform(-0.4, -0.15))  # the room cooled a little while the fan ran
     slope = rng.uniform(-0.1, 0.1, 2)
@@ -224,9 +298,9 @@ def export_pair(directory: str | os.PathLike[str], *, pair: tuple = SAMPLE_PAIR)
     from irseg.scenes._export import write_image, write_toml
 
     ref_stem, pressed_stem, seed, pressure_pa, minutes = pair
-    scene = make_pair(seed, n_rows=240, n_cols=320, max_shift_px=10.0)
+    scene = make_pair(seed, n_rows=SAMPLE_SHAPE[0], n_cols=SAMPLE_SHAPE[1], max_shift_px=SAMPLE_SHAPE[1] / 32)
     d = Path(directory)
-    camera = {"hfov_deg": 45.0, "distance_m": 3.0, "units": "celsius", "netd_k": 0.05,
+    camera = {"hfov_deg": SAMPLE_HFOV_DEG, "distance_m": SAMPLE_DISTANCE_M, "units": "celsius", "netd_k": 0.05,
               "export_emissivity": 0.9, "export_reflected_c": 20.0}
     base = {"camera": camera, "surface": {"emissivity": 0.9, "reflected_c": 20.0, "view": "interior"},
             "air": {"inside_c": 20.0, "outside_c": 1.0}}
@@ -290,7 +364,7 @@ def validate_pair(seed: int, *, far: bool = False, n_rows: int = 480, n_cols: in
 
     def frame(t: np.ndarray, name: str) -> ThermalFrame:
         t32 = np.asarray(t, np.float32)
-        return ThermalFrame(path=name, temperature_c=t32, mask=np.zeros(t32.shape, bool), apparent_c=t32)
+        return ThermalFrame(path=name, temperature_c=t32, mask=np.zeros(t32.shape, bool))
 
     out: dict = {"seed": seed, "far": far, "failed": None}
     start = time.perf_counter()

@@ -15,7 +15,7 @@ from irseg.types import ThermalFrame
 
 def _frame(t: np.ndarray, name: str) -> ThermalFrame:
     t = np.asarray(t, np.float32)
-    return ThermalFrame(path=name, temperature_c=t, mask=np.zeros(t.shape, bool), apparent_c=t)
+    return ThermalFrame(path=name, temperature_c=t, mask=np.zeros(t.shape, bool))
 
 
 def _blob(shape, centre, sigma_px, peak_k):
@@ -146,13 +146,11 @@ def test_invalid_pixels_of_either_shot_are_left_out(rng):
     pressed_frame = _frame(pressed, "p.npy")
     mask = np.zeros(pressed.shape, bool)
     mask[150:170, 150:170] = True  # dead or excluded pixels of the pressurised shot
-    pressed_frame = ThermalFrame(path="p.npy", temperature_c=pressed_frame.temperature_c, mask=mask,
-                                 apparent_c=pressed_frame.apparent_c)
+    pressed_frame = ThermalFrame(path="p.npy", temperature_c=pressed_frame.temperature_c, mask=mask)
     reference_frame = _frame(reference, "r.npy")
     ref_mask = np.zeros(reference.shape, bool)
     ref_mask[20:30, 200:230] = True
-    reference_frame = ThermalFrame(path="r.npy", temperature_c=reference_frame.temperature_c, mask=ref_mask,
-                                   apparent_c=reference_frame.apparent_c)
+    reference_frame = ThermalFrame(path="r.npy", temperature_c=reference_frame.temperature_c, mask=ref_mask)
     result = analyse_pair(reference_frame, pressed_frame, pressure_pa=50.0)
     assert np.isnan(result.difference_k[mask]).all()
     assert np.isnan(result.difference_k[22:28, 205:225]).all()  # the reference's invalid pixels, registered
