@@ -21,7 +21,9 @@ leaks cool it locally and the whole wall drifts by a few tenths of a kelvin. The
 The pair fails (:class:`irseg.errors.InputError`) when the views do not overlap by
 :data:`MIN_OVERLAP`, when the correlation stays below :data:`MIN_CORRELATION`, when the
 residual exceeds :data:`MAX_RESIDUAL_PX`, or when the transform is not that of the same view
-(scale outside 0.8-1.25, rotation beyond 15°).
+(scale outside 0.9-1.1, rotation beyond 15°, or a map that stretches one direction more than
+the other by over 4 %: a camera moved on its tripod before a plane wall changes shift, turn and zoom,
+not the aspect).
 """
 
 from __future__ import annotations
@@ -46,7 +48,12 @@ MAX_RESIDUAL_PX = 1.0
 _BAND_PX = 12.0
 _TILE_SHIFT_NOISE_PX = 0.05
 _MAX_ROTATION_DEG = 15.0
-_SCALE_RANGE = (0.8, 1.25)
+#: Zoom between the shots a re-placed tripod gives (a few per cent; common practice): a larger one is
+#: another shot of the wall, or another wall of the same construction that happens to correlate.
+_SCALE_RANGE = (0.9, 1.1)
+#: Largest ratio of the map's two principal stretches (singular values): a moved camera before a plane
+#: wall gives a near-similarity (perspective of a few degrees of turn stretches well under 1 %).
+_MAX_ANISOTROPY = 1.04
 
 
 def _structure(t: np.ndarray) -> np.ndarray:
@@ -215,11 +222,15 @@ def register(reference_c: np.ndarray, pressed_c: np.ndarray, *, noise_k: float,
     shift, rotation, scale = _similarity(warp, pressed_c.shape)
     if overlap < MIN_OVERLAP:
         raise InputError(fail + f"the views overlap by {overlap:.0%}, less than {MIN_OVERLAP:.0%}; " + fix)
+    stretch = np.linalg.svd(warp[:, :2], compute_uv=False)
+    anisotropy = float(stretch[0] / stretch[1]) if stretch[1] > 0 else math.inf
     if cc < MIN_CORRELATION or not (_SCALE_RANGE[0] <= scale <= _SCALE_RANGE[1]) \
-            or abs(rotation) > _MAX_ROTATION_DEG:
+            or abs(rotation) > _MAX_ROTATION_DEG or anisotropy > _MAX_ANISOTROPY:
         raise InputError(
             fail + f"the best match correlates by {cc:.2f} (at least {MIN_CORRELATION} expected) with scale "
-            f"{scale:.3f} and rotation {rotation:.1f}°: the images do not show the same view; " + fix)
+            f"{scale:.3f} (0.9-1.1 expected), rotation {rotation:.1f}° and a stretch of one direction against "
+            f"the other of {anisotropy:.3f} (at most {_MAX_ANISOTROPY} expected): the images do not show the "
+            "same view; " + fix)
     ref_s = warp_reference(b_full, warp, pressed_c.shape)
     valid = covered & np.isfinite(ref_s)
     rms = _tile_residual(a_full, np.nan_to_num(ref_s), valid, float(noise_k))

@@ -13,7 +13,7 @@ import math
 import numpy as np
 import pytest
 from scipy import ndimage
-from skimage.transform import SimilarityTransform, warp
+from skimage.transform import AffineTransform, SimilarityTransform, warp
 
 from irseg.errors import InputError
 from irseg.pairs import MIN_OVERLAP, register
@@ -100,3 +100,22 @@ def test_a_shift_beyond_the_overlap_limit_fails(rng):
     assert MIN_OVERLAP == 0.5
     with pytest.raises(InputError, match="overlap|same view|converge"):
         register(reference, pressed, noise_k=0.05)
+
+
+@pytest.mark.parametrize("matrix", [
+    # another zoom: 20 % closer (a different shot, not a knocked tripod)
+    SimilarityTransform(scale=1.2, translation=(-30.0, -25.0)).params,
+    # unequal stretch of the two directions (8 %), which no camera moved before a plane wall gives
+    AffineTransform(scale=(0.95, 1.03), translation=(6.0, -4.0)).params,
+])
+def test_a_map_a_moved_tripod_cannot_give_fails(rng, matrix):
+    # [CP] common practice: between the two shots of a pair the tripod is re-placed, not the lens
+    # changed; the camera before a plane wall then moves by a near-similarity (scikit-image's
+    # AffineTransform / SimilarityTransform define the maps applied)
+    from irseg.pairs._register import _MAX_ANISOTROPY, _SCALE_RANGE
+
+    assert _SCALE_RANGE == (0.9, 1.1) and _MAX_ANISOTROPY == 1.04
+    reference = _wall(rng)
+    pressed = warp(reference, np.linalg.inv(matrix), order=3, mode="edge", preserve_range=True)
+    with pytest.raises(InputError, match="same view"):
+        register(reference, pressed + rng.normal(0.0, 0.05, reference.shape), noise_k=0.07)
