@@ -139,8 +139,10 @@ def _roof(*, inside_c=20.0, wind_m_s=1.0, insulation="eps", wet=((1.2, 2.4, 0.9,
     return el, ds, cond, "roof", NightSchedule(dt_s=dt_s, end_h=end_h, air_mean_c=air_mean_c)
 
 
-PRESETS = {"timber-wall": _timber_wall, "ceiling": _ceiling, "masonry-wall": _masonry, "flat-roof": _roof,
-           "wall-corner": corner_scene}
+PRESETS = {"timber-wall": _timber_wall, "ceiling": _ceiling, "masonry-wall": _masonry, "flat-roof": _roof}
+# Scenes that are more than one plane element, simulated and projected by their own module; the
+# validation makes them, the command line does not offer them (its camera is square-on to one face).
+VALIDATION_ONLY = {"wall-corner": corner_scene}
 
 
 def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
@@ -168,7 +170,7 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
         ``damp`` (tide line height, wave, soft band, water fraction, wet surface fraction[, x0, x1], or
         None), ``fan``, stratification, ``relative_humidity``; flat roof: ``insulation``, ``wet`` ((x0, x1, y0, y1, water
         fraction), ...), ``tapered`` ((x0, x1, y0, y1, water fraction, rings), ...) wetness
-        tapering to the edge, ``dt_s``, ``end_h``, ``air_mean_c``; wall corner (an external corner
+        tapering to the edge, ``dt_s``, ``end_h``, ``air_mean_c``; wall corner (validation only, not offered by the command line: an external corner
         of the brick + EPS wall seen from inside at 45° to both faces, :mod:`irseg.scenes._corner`):
         ``corner_x_m``, ``patch`` (on the unfolded faces), ``stratification_k_m``, ``width_m``.
 
@@ -182,7 +184,7 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
         Unknown kind or defect specification.
     """
     try:
-        builder = PRESETS[kind]
+        builder = PRESETS[kind] if kind in PRESETS else VALIDATION_ONLY[kind]
     except KeyError:
         raise ConfigError(f"scene kind {kind!r} is unknown; use one of {sorted(PRESETS)}") from None
     allowed = set(inspect.signature(builder).parameters)
