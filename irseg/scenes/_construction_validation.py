@@ -83,9 +83,9 @@ CONSTRUCTION_RECIPES: tuple[ImageRecipe, ...] = (
                 _cam(distance_m=2.6, centre_m=(2.0 * 0.5 ** 0.5, 1.5), seed=406), "tiff-float",
                 extra_meta=_CORNER_META),
     ImageRecipe("con7_corner_cold_air", "external corner from inside with cold air falling from a skirting gap "
-                "1.1 m along one face", "wall-corner", {"inside_c": 21.0, "outside_c": -2.0,
-                                                      "fan": (3.1, 1.7, 0.5, 6.0)},
-                _cam(distance_m=2.6, centre_m=(2.0 * 0.5 ** 0.5 + 0.2, 1.5), seed=407), "tiff-float",
+                "1.6 m along one face", "wall-corner", {"inside_c": 21.0, "outside_c": -2.0, "width_m": 5.0,
+                                                      "fan": (3.6, 1.2, 0.5, 6.0)},
+                _cam(distance_m=2.6, centre_m=(2.0 * 0.5 ** 0.5 + 0.55, 1.5), seed=407), "tiff-float",
                 extra_meta=_CORNER_META),
 )
 
