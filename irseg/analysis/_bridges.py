@@ -11,33 +11,132 @@ area anomaly gets (``h·Σ|T − T_ref|·A_px`` over its thermal region, :mod:`.
 with ``L`` the length of the band seen in the image. Its 5-95 % band comes from the same
 Monte Carlo draws as the heat band (:func:`._confidence.psi_band`). A framing summary adds
 the members' lengths and heats, so its ψ is the length-weighted mean of its members'.
+
+A *geometric* bridge (an external corner, a wall/floor or wall/ceiling junction) is recognised
+by its cross-profile (:func:`geometric_profile`): a straight band across the whole frame whose
+contrast peaks on its line and fades smoothly and evenly to both sides, still holding a share of
+its peak at twice its half-peak distance (conduction round a corner spreads over a few wall
+thicknesses), with no plateau and no edge (a member or a void has both). Its extra heat is that
+profile integrated out to the plane wall on both sides, against the straight line between the
+two far ends, because the local sound surface follows such a long tail; that is ψ against the
+plane elements, ISO 10211's definition [from memory]. A camera looking into a corner sees both
+faces foreshortened *across* the corner line, so the line itself keeps its length: the oblique
+stretch of :func:`band_length_m` is not applied along it.
 """
 
 from __future__ import annotations
 
 import math
 from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from scipy import ndimage
 
 from ._confidence import BandInputs, psi_band
 from ._geometry import tilt_factor
 from ._shape import Shape
 
-__all__ = ["LINEAR_CAUSE", "band_length_m", "linear_figures"]
+__all__ = ["LINEAR_CAUSE", "band_length_m", "linear_figures", "GeometricProfile", "geometric_profile",
+           "GEOMETRIC_SPAN", "GEOMETRIC_REACH_M", "GEOMETRIC_SYMMETRY", "GEOMETRIC_SHOULDER", "GEOMETRIC_TAIL"]
 
 #: The cause whose anomalies are measured per metre (linear thermal bridges and framing).
 LINEAR_CAUSE = "thermal_bridge"
 
 
-def band_length_m(members: Sequence[Sequence[Shape]], *, pixel_m: float, tilt_deg: float = 0.0) -> float:
+GEOMETRIC_SPAN = 0.9  # the band spans at least this share of the frame along its axis
+GEOMETRIC_AXIS_DEG = 10.0  # ... and runs along the image's rows or columns within this
+GEOMETRIC_REACH_M = 0.6  # the profile is read this far to each side (at least half of it inside the frame)
+GEOMETRIC_SYMMETRY = 0.5  # the two sides' half-peak distances within this ratio
+GEOMETRIC_SHOULDER = 0.9  # at half the half-peak distance at most this share of the peak (a member's plateau: ~1)
+GEOMETRIC_TAIL = 0.15  # at twice the half-peak distance at least this share of the peak (a blurred edge: ~0)
+_BUMP = 0.10  # outward from the peak the contrast never rises by more than this share of the peak
+_FAR_PX = 3  # the far ends: mean of this many columns
+
+
+@dataclass(frozen=True)
+class GeometricProfile:
+    """A geometric bridge's cross-profile: half-peak distances (m) and loss sum (K·px) to the plane wall."""
+
+    half_m: tuple[float, float]
+    peak_k: float
+    loss_sum_kpx: float
+
+
+def _side(p: np.ndarray, peak: float, noise: float) -> float | None:
+    """Half-peak distance (px) along one side of a profile starting at its peak, None when it never falls
+    to half, rises again (its 5-px running median by more than a tenth of the peak and three times the
+    profile's noise: a camera's column pattern puts single columns off), keeps a plateau or has no tail."""
+    below = np.flatnonzero(p <= 0.5 * peak)
+    smooth = ndimage.median_filter(p, size=5, mode="nearest")
+    if below.size == 0 or np.any(np.diff(smooth) > max(_BUMP * peak, 3.0 * noise)):
+        return None
+    h = int(below[0])
+    if h < 2 or 2 * h >= p.size:
+        return None
+    if p[h // 2] > GEOMETRIC_SHOULDER * peak or p[2 * h] < GEOMETRIC_TAIL * peak:
+        return None
+    return float(h)
+
+
+def geometric_profile(temperature_c: np.ndarray, shape: Shape, *, loss_sign: float,
+                      pixel_m: float | None) -> GeometricProfile | None:
+    """The cross-profile of a band if it is a geometric bridge (module docstring), else None.
+
+    ``loss_sign`` is +1 when heat loss makes the surface colder (seen from inside), −1 from outside.
+    The profile is the median over the band's middle 90 % of the temperatures at each distance from
+    its line, its loss-signed contrast taken against the straight line between its far ends.
+    """
+    if pixel_m is None:
+        return None
+    o = shape.orientation_deg % 180.0
+    if abs(o - 90.0) <= GEOMETRIC_AXIS_DEG:
+        arr, centre = np.asarray(temperature_c, float), shape.centroid_col
+    elif min(o, 180.0 - o) <= GEOMETRIC_AXIS_DEG:
+        arr, centre = np.asarray(temperature_c, float).T, shape.centroid_row
+    else:
+        return None
+    n_along, n_across = arr.shape
+    if shape.length_px < GEOMETRIC_SPAN * n_along:
+        return None
+    c0 = int(round(centre))
+    reach = int(round(GEOMETRIC_REACH_M / pixel_m))
+    reach = min(reach, c0, n_across - 1 - c0)
+    if reach * pixel_m < 0.5 * GEOMETRIC_REACH_M:
+        return None
+    cut = int(0.05 * n_along)
+    block = arr[cut:n_along - cut, c0 - reach:c0 + reach + 1]
+    if not np.all(np.isfinite(block)):
+        block = np.where(np.isfinite(block), block, np.nanmedian(block))
+    prof = np.median(block, axis=0)
+    # column-to-column noise of the profile (a camera's fixed column pattern survives the median)
+    noise = 1.4826 * float(np.median(np.abs(np.diff(prof) - np.median(np.diff(prof))))) / math.sqrt(2.0)
+    far_l, far_r = prof[:_FAR_PX].mean(), prof[-_FAR_PX:].mean()
+    base = np.linspace(far_l, far_r, prof.size)
+    p = loss_sign * (base - prof)
+    k = int(np.argmax(p))
+    peak = float(p[k])
+    if peak <= 0 or abs(k - reach) > max(3.0, 0.5 * shape.width_px):
+        return None
+    right, left = _side(p[k:], peak, noise), _side(p[k::-1], peak, noise)
+    if right is None or left is None or min(left, right) < GEOMETRIC_SYMMETRY * max(left, right):
+        return None
+    loss = float(np.clip(p, 0.0, None).sum()) * min(shape.length_px, n_along)
+    return GeometricProfile((left * pixel_m, right * pixel_m), peak, loss)
+
+
+def band_length_m(members: Sequence[Sequence[Shape]], *, pixel_m: float, tilt_deg: float = 0.0,
+                  across_tilt: bool = False) -> float:
     """Length of a band, or of the members of a set summed, on the surface, m.
 
     ``members`` holds the pieces of each member. A piece spans the long side of its
     minimum-area rectangle along the member's axis (the longest piece's orientation) about its
     centroid; a member's length is the union of its pieces' spans (overlapping pieces count
     once), in pixels, times the pixel side; along the image's rows (vertical) the oblique view
-    stretches it by ``1/cos θ``.
+    stretches it by ``1/cos θ``, except along a geometric bridge's own line (``across_tilt``: the
+    faces are foreshortened across it).
     """
-    stretch = tilt_factor(tilt_deg)
+    stretch = 1.0 if across_tilt else tilt_factor(tilt_deg)
     total = 0.0
     for pieces in members:
         if not pieces:
@@ -58,7 +157,7 @@ def band_length_m(members: Sequence[Sequence[Shape]], *, pixel_m: float, tilt_de
 
 def linear_figures(
     members: Sequence[Sequence[Shape]], *, cause: str, pixel_m: float | None, tilt_deg: float, excess_w: float | None,
-    delta_air_k: float | None, bands: BandInputs, seed: int, anomaly_id: int,
+    delta_air_k: float | None, bands: BandInputs, seed: int, anomaly_id: int, across_tilt: bool = False,
 ) -> tuple[float | None, float | None, float | None, float | None]:
     """``(length_m, psi_w_mk, psi_low_w_mk, psi_high_w_mk)`` of a linear thermal bridge.
 
@@ -67,7 +166,7 @@ def linear_figures(
     """
     if cause != LINEAR_CAUSE or pixel_m is None or not any(members):
         return None, None, None, None
-    length = band_length_m(members, pixel_m=pixel_m, tilt_deg=tilt_deg)
+    length = band_length_m(members, pixel_m=pixel_m, tilt_deg=tilt_deg, across_tilt=across_tilt)
     if excess_w is None or delta_air_k is None or delta_air_k <= 0 or length <= 0:
         return length, None, None, None
     psi = float(excess_w / (length * delta_air_k))

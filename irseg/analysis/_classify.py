@@ -8,10 +8,11 @@ matching rule wins and returns ``(cause, reason)``.
 
 from __future__ import annotations
 
+from ._bridges import GeometricProfile
 from ._framing import BAND_ELONGATION, BAND_FILL, STUD_SPACING_M, LineInfo, is_band
 from ._shape import FAN_TAPER, Shape
 
-__all__ = ["classify_cause", "framing_summary_reason", "FRAMING_EXPECTED", "GLAZING_REASON", "GLAZING_FILL", "WEAK_BAND_ELONGATION", "SMALL_SPOT_M", "PARTIAL_FRACTION", "STUD_SPACING_M",
+__all__ = ["classify_cause", "GEOMETRIC_REASON", "framing_summary_reason", "FRAMING_EXPECTED", "GLAZING_REASON", "GLAZING_FILL", "WEAK_BAND_ELONGATION", "SMALL_SPOT_M", "PARTIAL_FRACTION", "STUD_SPACING_M",
            "NARROW_LINE_M", "NARROW_ELONGATION", "DAMP_BASE_CONTACT", "DAMP_ROUGHNESS_M", "DAMP_ROUGHNESS_PX", "DAMP_TOP_CONTACT", "DAMP_REASON"]
 
 WEAK_BAND_ELONGATION = 3.0  # a shorter band counts when its contrast is weak (a timber header, not an empty cavity)
@@ -26,6 +27,8 @@ DAMP_ROUGHNESS_PX = 2.0  # ... and by at least this many pixels (a straight edge
 DAMP_REASON = "rising or penetrating damp: confirm with a moisture meter"
 GLAZING_FILL = 0.85  # a pane fills its rectangle
 GLAZING_REASON = "likely glazing: confirm or exclude with a zone"
+#: Words every geometric bridge's reason holds (corners and junctions are never missing insulation).
+GEOMETRIC_REASON = "geometric thermal bridge: external corner or wall/floor/ceiling junction"
 #: Words that mark framing as expected construction (the report's ranking leaves it unranked).
 FRAMING_EXPECTED = "expected in framed construction: repair only a member clearly colder than its neighbours"
 
@@ -58,6 +61,7 @@ def classify_cause(
     contact: dict[str, float] | None = None,
     heat_flow: str = "horizontal",
     detected: bool = False,
+    geometric: GeometricProfile | None = None,
 ) -> tuple[str, str]:
     """Cause and a short reason for one anomaly (rules in docs/analysis.md, in this order).
 
@@ -89,6 +93,9 @@ def classify_cause(
     detected : bool
         The anomaly was found by its contrast alone (no segmented outline): a narrow soft line
         is then a member or a gap (its half-peak outline is the width of a blurred member).
+    geometric : GeometricProfile or None
+        Its cross-profile when it is a straight band across the frame fading smoothly and evenly to
+        both sides (:func:`._bridges.geometric_profile`): a corner or junction.
 
     Returns
     -------
@@ -125,6 +132,15 @@ def classify_cause(
         return "unclassified", (
             "cold seen from outside: sky reflection, shading or evaporative cooling of a damp surface; "
             "not a heat-loss signature"
+        )
+    if geometric is not None:
+        side = "inside" if view == "interior" else "outside"
+        a, b = sorted(geometric.half_m)
+        return "thermal_bridge", (
+            f"straight {kind} band across the frame seen from {side}, its contrast ({geometric.peak_k:.1f} K) fading "
+            f"smoothly and evenly to both sides (half of it at {a:.2f} and {b:.2f} m) with no edge or plateau: "
+            f"{GEOMETRIC_REASON} (or a slab edge or beam behind the line); heat and psi against the plane wall on "
+            "both sides"
         )
     if band:
         return "thermal_bridge", band_reason

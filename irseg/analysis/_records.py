@@ -11,8 +11,8 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ..types import SurveyMeta
-from ._bridges import linear_figures
-from ._classify import GLAZING_REASON, classify_cause, framing_summary_reason
+from ._bridges import GeometricProfile, geometric_profile, linear_figures
+from ._classify import GEOMETRIC_REASON, GLAZING_REASON, classify_cause, framing_summary_reason
 from ._confidence import BandInputs, confidence_bands
 from ._framing import LineInfo
 from ._glazing import is_framed_pane, pane_profile
@@ -134,6 +134,7 @@ def _unit_pixels(unit: list[Measured], main: Measured, t: np.ndarray) -> _UnitPi
 def _cause(
     unit: list[Measured], main: Measured, *, ctx: ImageContext, delta_k: float, mean_c: float,
     sets: dict[int, LineInfo], lines: dict[int, LineInfo], host_of: dict[int, int], contact: dict[str, float],
+    geometric: GeometricProfile | None = None,
 ) -> tuple[str, str]:
     """Cause of the unit's main piece, the reason telling how many pieces were joined.
 
@@ -152,7 +153,7 @@ def _cause(
         main.shape, kind=main.kind, view=ctx.meta.surface.view, delta_k=delta_k, mean_c=mean_c,
         threshold_k=ctx.threshold_k, pixel_m=ctx.pixel_m, regular_set=sets.get(main.cand.label),
         delta_air_k=ctx.delta_air_k, sky_limit_c=ctx.sky_limit_c, line=lines.get(main.cand.label),
-        contact=contact, heat_flow=ctx.heat_flow, detected=main.cand.ref.source == "detected",
+        contact=contact, heat_flow=ctx.heat_flow, detected=main.cand.ref.source == "detected", geometric=geometric,
     )
     n_frag = sum(1 for m in unit if m.cand.label in host_of)
     if len(unit) - n_frag > 1:
@@ -209,6 +210,7 @@ def anomaly_record(
     delta_k = mean_c - reference_c
     n_rows, n_cols = ctx.temperature_c.shape
     pane = _pane(main, px, ctx)
+    geometric = None
     if pane is not None:
         cause, reason = "unclassified", (
             f"{GLAZING_REASON}; straight-edged {main.kind} rectangle whose rim (frame, glass edge) shows "
@@ -217,8 +219,16 @@ def anomaly_record(
             "against the mould limit of opaque elements"
         )
     else:
+        if ctx.meta.surface.view != "roof" and not any(m.cand.label in sets for m in unit):
+            geometric = geometric_profile(ctx.temperature_c, main.shape, pixel_m=ctx.pixel_m,
+                                          loss_sign=1.0 if ctx.meta.surface.view == "interior" else -1.0)
         cause, reason = _cause(unit, main, ctx=ctx, delta_k=delta_k, mean_c=mean_c, sets=sets, lines=lines,
-                               host_of=host_of, contact=_frame_contact(px.rows, px.cols, n_rows))
+                               host_of=host_of, contact=_frame_contact(px.rows, px.cols, n_rows), geometric=geometric)
+        if cause == "thermal_bridge" and geometric is not None and GEOMETRIC_REASON in reason:
+            # its heat against the plane wall on both sides (the local sound surface follows its tail)
+            px = replace(px, loss_sum_kpx=geometric.loss_sum_kpx)
+        else:
+            geometric = None
     if px.rows.min() == 0 or px.cols.min() == 0 or px.rows.max() == n_rows - 1 or px.cols.max() == n_cols - 1:
         reason += f"; {EDGE_NOTE}"
     px_area = ctx.pixel_area_m2
@@ -252,6 +262,7 @@ def anomaly_record(
     length, psi, psi_lo, psi_hi = linear_figures(
         list(members.values()) or [[main.shape]], cause=cause, pixel_m=ctx.pixel_m, tilt_deg=cam.tilt_deg, excess_w=excess_w,
         delta_air_k=ctx.delta_air_k, bands=bands, seed=an.seed, anomaly_id=anomaly_id,
+        across_tilt=geometric is not None,
     )
     return Anomaly(
         anomaly=anomaly_id, kind=main.kind, cause=cause, reason=reason, area_px=area_px,

@@ -14,7 +14,14 @@ Each scene combines construction with real defects and goes through the full pip
   bridge charged to it, per metre seen and per kelvin);
 - framing one anomaly per image (every thermal bridge that is not on a truth bridge counts);
 - a scene with a radiator or a pipe is also run without it: the defect beside it keeps its ΔT and
-  excess heat within 5 %.
+  excess heat within 5 %;
+- an external wall corner seen from inside (:mod:`irseg.scenes._corner`: 2-D conduction of its
+  section, a camera on its bisector at 45° to both faces) is a ``thermal_bridge`` whose reason names
+  a geometric bridge (corner or junction), found over at least 80 % of its length, with ψ within
+  25 % of the section's ψ_i. The corner line is vertical in the image and not foreshortened, so its
+  length is rows × pixel side; the sidecar gives ``tilt_deg = 45`` (the angle between the line of
+  sight and both faces' normals), so a pixel's area ``p²/cos 45°`` is the surface it sees (exact
+  for the orthographic projection the scene is) and the heat is counted over the surface.
 """
 
 from __future__ import annotations
@@ -26,17 +33,22 @@ import numpy as np
 
 from irseg.scenes._camera import CameraModel
 from irseg.scenes._construction import truth_psi
+from irseg.scenes._corner import CORNER_NAME, CORNER_VIEW_DEG
 from irseg.scenes._survey import ImageRecipe
 from irseg.scenes._validation import TARGETS, passes, validate_recipe
 
 __all__ = ["CONSTRUCTION_RECIPES", "CONSTRUCTION_TARGETS", "validate_construction", "construction_passes",
-           "bridge_rows"]
+           "bridge_rows", "GEOMETRIC_WORDS"]
 
 #: Issue 12 targets: bridge length found, ψ against the simulation, the defect beside a radiator.
 CONSTRUCTION_TARGETS = {"bridge_length_min": 0.80, "psi_rel": 0.25, "beside_emitter_rel": 0.05,
                         "framing_summaries_max": 1}
 
 _DEFECT_CAUSES = ("missing_insulation", "moisture", "air_leakage")
+#: A geometric bridge's reason names it so (checked for the corner truth items; the words of
+#: irseg.analysis._classify.GEOMETRIC_REASON, repeated: the truth side does not import the analysis).
+GEOMETRIC_WORDS = ("geometric thermal bridge",)
+_CORNER_META = {"camera": {"tilt_deg": CORNER_VIEW_DEG}}  # the camera sees both faces at 45° to their normal
 _BRIDGE_REACH_M = 0.10  # a bridge's anomaly may reach this far beyond its changed cells (the rim)
 
 
@@ -66,6 +78,15 @@ CONSTRUCTION_RECIPES: tuple[ImageRecipe, ...] = (
                 "masonry-wall", {"view": "interior", "slab_y": 2.2, "fan": (1.2, 0.75, 0.5, 6.0), "inside_c": 20.0,
                                  "outside_c": -1.0, "stratification_k_m2": 0.3},
                 _cam(distance_m=4.4, centre_m=(2.0, 1.5), seed=404), "tiff-float"),
+    ImageRecipe("con6_external_corner", "brick + EPS external corner from inside, camera at 45° to both faces",
+                "wall-corner", {"inside_c": 20.0, "outside_c": 0.0},
+                _cam(distance_m=2.6, centre_m=(2.0 * 0.5 ** 0.5, 1.5), seed=406), "tiff-float",
+                extra_meta=_CORNER_META),
+    ImageRecipe("con7_corner_cold_air", "external corner from inside with cold air falling from a skirting gap "
+                "1.6 m along one face", "wall-corner", {"inside_c": 21.0, "outside_c": -2.0, "width_m": 5.0,
+                                                      "fan": (3.6, 1.2, 0.5, 6.0)},
+                _cam(distance_m=2.6, centre_m=(2.0 * 0.5 ** 0.5 + 0.55, 1.5), seed=407), "tiff-float",
+                extra_meta=_CORNER_META),
 )
 
 
@@ -108,6 +129,8 @@ def bridge_rows(analysis, rec: dict) -> list[dict]:
             "psi_band": [(a.psi_low_w_mk, a.psi_high_w_mk) for a in hits],
             "psi_rel": None if psi is None or not psi_true else (psi - psi_true) / psi_true,
             "anomalies": sorted(ids),
+            "geometric": d["name"] == CORNER_NAME,
+            "named": bool(ids) and all(any(w in by_id[i].reason for w in GEOMETRIC_WORDS) for i in ids),
         })
     return out
 
@@ -178,6 +201,8 @@ def construction_passes(result: dict) -> dict[str, bool]:
     for b in result["bridges"]:
         out[f"{b['name']} length"] = b["length_found"] >= t["bridge_length_min"]
         out[f"{b['name']} psi"] = b["psi_rel"] is not None and abs(b["psi_rel"]) <= t["psi_rel"]
+        if b.get("geometric"):
+            out[f"{b['name']} named geometric"] = b["named"]
     for b in result["beside"]:
         for key in ("delta_k", "excess_w"):
             rel = _rel(b[key], b[f"{key}_plain"])

@@ -10,6 +10,7 @@ import inspect
 
 from irseg.errors import ConfigError
 from irseg.scenes._construction import construction_items
+from irseg.scenes._corner import corner_scene
 from irseg.scenes._defects import (
     Defect,
     cold_air_fan,
@@ -139,6 +140,9 @@ def _roof(*, inside_c=20.0, wind_m_s=1.0, insulation="eps", wet=((1.2, 2.4, 0.9,
 
 
 PRESETS = {"timber-wall": _timber_wall, "ceiling": _ceiling, "masonry-wall": _masonry, "flat-roof": _roof}
+# Scenes that are more than one plane element, simulated and projected by their own module; the
+# validation makes them, the command line does not offer them (its camera is square-on to one face).
+VALIDATION_ONLY = {"wall-corner": corner_scene}
 
 
 def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
@@ -146,7 +150,7 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
 
     Parameters
     ----------
-    kind : {"timber-wall", "ceiling", "masonry-wall", "flat-roof"}
+    kind : {"timber-wall", "ceiling", "masonry-wall", "flat-roof", "wall-corner"}
     name : str
         Scene name carried into the truth.
     **options
@@ -166,7 +170,9 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
         ``damp`` (tide line height, wave, soft band, water fraction, wet surface fraction[, x0, x1], or
         None), ``fan``, stratification, ``relative_humidity``; flat roof: ``insulation``, ``wet`` ((x0, x1, y0, y1, water
         fraction), ...), ``tapered`` ((x0, x1, y0, y1, water fraction, rings), ...) wetness
-        tapering to the edge, ``dt_s``, ``end_h``, ``air_mean_c``.
+        tapering to the edge, ``dt_s``, ``end_h``, ``air_mean_c``; wall corner (validation only, not offered by the command line: an external corner
+        of the brick + EPS wall seen from inside at 45° to both faces, :mod:`irseg.scenes._corner`):
+        ``corner_x_m``, ``patch`` (on the unfolded faces), ``stratification_k_m``, ``width_m``.
 
     Returns
     -------
@@ -178,12 +184,14 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
         Unknown kind or defect specification.
     """
     try:
-        builder = PRESETS[kind]
+        builder = PRESETS[kind] if kind in PRESETS else VALIDATION_ONLY[kind]
     except KeyError:
         raise ConfigError(f"scene kind {kind!r} is unknown; use one of {sorted(PRESETS)}") from None
     allowed = set(inspect.signature(builder).parameters)
     unknown = sorted(set(options) - allowed)
     if unknown:
         raise ConfigError(f"scene kind {kind!r} has no option(s) {unknown}; valid: {sorted(allowed)}")
+    if builder is corner_scene:  # simulated in 2-D and 3-D and projected by its own module
+        return corner_scene(name=name, **options)
     el, ds, cond, view, night = builder(**options)
     return simulate_scene(el, ds, cond, view=view, name=name, night=night)

@@ -79,6 +79,9 @@ class Scene:
     emissivity_map : (ny, nx) ndarray or None
         Emissivity of the viewed face per cell where a defect sets one (glass); None: the
         conditions' emissivity everywhere.
+    area_scale : float
+        Surface area per m² of the grid: 1 for a plane element; ``1/cos θ`` where the grid is the
+        projection of faces seen at θ across one direction (:mod:`irseg.scenes._corner`).
     """
 
     name: str
@@ -97,6 +100,7 @@ class Scene:
     excess_w_m2: np.ndarray | None = None
     owner: np.ndarray | None = None
     emissivity_map: np.ndarray | None = None
+    area_scale: float = 1.0
 
     @property
     def cell_m(self) -> float:
@@ -380,7 +384,7 @@ def truth_in_window(scene: Scene, *, x0_m: float, x1_m: float, y0_m: float, y1_m
             continue
         own = (scene.owner == i) & win
         out.append(DefectTruth(
-            t.name, t.cause, t.description, float(fp.sum() * c * c),
+            t.name, t.cause, t.description, float(fp.sum() * c * c * scene.area_scale),
             float(scene.excess_w_m2[own].sum() * c * c), float(scene.excess_w_m2[fp].sum() * c * c),
             float(scene.baseline_c[fp].mean()), float(scene.surface_c[fp].mean()),
         ))

