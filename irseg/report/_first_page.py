@@ -35,7 +35,8 @@ RANKING_RULE = (
     f"and any anomaly whose low–high energy band spans more than a factor of {MAX_BAND_RATIO:g} (or that has "
     "no energy figure), is ranked after them by area, largest first: for these the energy figure is an order "
     "of magnitude at best. The column “by” says which rule placed each row. Framing members expected in "
-    "the construction and anomalies rejected by the review are not ranked; they are listed apart."
+    "the construction, anomalies seen again in the image of a pair taken under a pressure difference, and "
+    "anomalies rejected by the review are not ranked; they are listed apart."
 )
 
 

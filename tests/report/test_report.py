@@ -418,3 +418,15 @@ def test_report_opens_in_a_headless_browser(tmp_path):
     rgb = img[..., :3].reshape(-1, 3)
     assert rgb.std() > 20  # not a blank page
     assert len(np.unique(rgb[::7], axis=0)) > 200  # text plus the embedded thermograms
+
+
+def test_sentences_of_the_first_page_are_spaced():
+    # a sentence ends with ". " before the next: a template block that ate the space ran two sentences
+    # together ("...without an estimate.No location shows a mould risk")
+    import re
+
+    summary, overlays = make_summary()
+    summary["anomalies"][1]["mould_risk"] = False  # the "No location" branch
+    text = re.sub(r"<[^>]+>", "", render_report(summary, overlays))  # the words as a reader sees them run
+    assert "No location" in text
+    assert not re.search(r"[a-z)]\.[A-Z]", text), re.findall(r".{30}[a-z)]\.[A-Z].{20}", text)
