@@ -333,7 +333,24 @@ def _readme(records: list[dict]) -> str:
             rows.append(f"| {r['image']} | {r['format']} | {r['view']} | {d['description']} | {d['cause']} | "
                         f"{d['area_m2']:.3f} | {d['excess_w']:.1f} | {d['reference_c']:.2f} | {d['delta_k']:+.2f} |")
     titles = "\n".join(f"- `{r['image']}`: {r['title']}." for r in records)
-    return _README_HEAD + "\n".join(rows) + "\n\nImages:\n\n" + titles + "\n"
+    return _README_HEAD + "\n".join(rows) + "\n\nImages:\n\n" + titles + "\n" + _README_PAIR
+
+
+_README_PAIR = """
+A pair under a pressure difference (an airtightness test; see docs/pairs.md):
+
+- `lf10_lounge_east_wall_0pa.tiff`: Lounge, east wall from inside at ambient pressure: studs at
+  600 mm, a double-glazed window, a bay without its batt, ceiling junction and skirting.
+- `lf11_lounge_east_wall_50pa.tiff`: the same view after 15 minutes with the house depressurised
+  by 50 Pa, the tripod moved a little; its sidecar's `[pressure]` section names lf10 as the
+  reference. Cold air enters at the skirting board, the window frame, a socket and the ceiling
+  junction. `pair_truth.json` holds the true camera move and leaks, `pair_truth_masks.npz` each
+  leak's cooled footprint (where its own cooling holds 30 % of its peak).
+
+The analysis reports the leaks as air_leakage rows of lf11 (with `pressure_pa`, `cooling_k`,
+`cooling_max_k`), writes `lf11_lounge_east_wall_50pa/difference.png` and `pair_labels.png`, and
+counts the defects both shots show once, with lf10.
+"""
 
 
 def write_truth_json(path: str | os.PathLike[str], record: dict) -> Path:
