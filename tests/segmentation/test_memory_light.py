@@ -1,7 +1,7 @@
 """The solver's memory-light forms give the whole-frame bits (issue 15, memory).
 
-The edge weights ``v**2 + eta`` and the data weights ``beta * w`` of a 0/1 mask are formed a
-block of rows at a time instead of being held as frame-sized arrays. Each check compares with
+The edge weights ``v**2 + eta``, the data weights ``beta * w`` of a 0/1 mask and the v-step's
+inverse diagonal are formed a block of rows at a time instead of being held as frame-sized arrays. Each check compares with
 the whole-frame NumPy expression of the same discretisation, written here independently of
 irseg (forward differences owned by the pixel at their start, ``docs/method.md``) [C], for
 block sizes that put block edges everywhere. No memory figure is asserted here: the peak per
@@ -18,8 +18,11 @@ from irseg.segmentation._at import solve_level
 from irseg.segmentation._operators import (
     DataWeights,
     PhaseWeights,
+    ScreenedInverse,
     Workspace,
+    apply_screened_laplacian,
     apply_weighted_laplacian,
+    pcg,
     phase_diagonal,
     times_data_weights,
 )
@@ -61,6 +64,59 @@ def test_edge_and_data_weights_formed_by_blocks_give_the_whole_frame_bits(monkey
     whole[1:, :] += c[:-1, :]
     np.testing.assert_array_equal(diag, whole)
     np.testing.assert_array_equal(times_data_weights(DataWeights(w, beta), x, out, ws), bw * x)
+
+
+def _whole_screened_inverse(diag, k, free):
+    """Inverse diagonal of ``diag + k L``, ``L`` the 5-point Neumann graph Laplacian: a pixel's
+    degree is 4 inside, one less per border side it lies on (graph Laplacian, common practice);
+    zero on fixed entries."""
+    inv = diag + np.float32(4.0) * k
+    inv[0, :] -= k
+    inv[-1, :] -= k
+    inv[:, 0] -= k
+    inv[:, -1] -= k
+    inv = np.float32(1.0) / inv
+    return inv if free is None else inv * free
+
+
+@pytest.mark.parametrize("chunk", [1, 2, 7, 64])
+@pytest.mark.parametrize("shape", [(23, 17), (1, 9), (6, 1)])
+def test_v_step_preconditioner_formed_by_blocks_gives_the_whole_frame_bits(monkeypatch, chunk, shape):
+    monkeypatch.setattr(_operators, "_CHUNK_ROWS", chunk)
+    rng = np.random.default_rng(chunk)
+    diag = rng.random(shape).astype(np.float32) + np.float32(0.5)
+    k = np.float32(0.3)
+    for free in (None, rng.random(shape) > 0.2):
+        inv = ScreenedInverse.for_level(diag, k, free)
+        whole = _whole_screened_inverse(diag, k, free)
+        np.testing.assert_array_equal(inv.into(np.empty_like(diag)), whole)
+        r = rng.normal(size=shape).astype(np.float32)
+        np.testing.assert_array_equal(inv(r, np.empty_like(r)), r * whole)
+
+
+@pytest.mark.parametrize("chunk", [3, 64])
+def test_v_step_solved_with_the_block_preconditioner_as_with_the_whole_one(monkeypatch, chunk):
+    # the same conjugate-gradient iterates, bit for bit, whether the inverse diagonal is held or formed
+    monkeypatch.setattr(_operators, "_CHUNK_ROWS", chunk)
+    rng = np.random.default_rng(7)
+    m, n = 31, 26
+    diag = (rng.random((m, n)) * 3.0 + 0.2).astype(np.float32)
+    free = rng.random((m, n)) > 0.1
+    k_lap, k_pot = np.float32(0.4), np.float32(0.05)
+    ws = Workspace.for_shape((m, n), np.dtype(np.float32))
+
+    def apply(x, out):
+        return apply_screened_laplacian(x, float(k_lap), diag, out, ws)
+
+    start = rng.random((m, n)).astype(np.float32)
+    whole = _whole_screened_inverse(diag, k_lap, free)
+    held, formed = start.copy(), start.copy()
+    a = pcg(apply, k_pot, held, whole, ws, rtol=1e-6, max_iter=9, free=free)
+    inv = ScreenedInverse.for_level(diag, k_lap, free)
+    b = pcg(apply, k_pot, formed, inv, ws, rtol=1e-6, max_iter=9, free=free,
+            inv_sum=float(np.sum(whole, dtype=np.float64)))
+    assert a == b
+    np.testing.assert_array_equal(held, formed)
 
 
 def test_a_bool_data_weight_solves_exactly_as_its_float_form(rng):
