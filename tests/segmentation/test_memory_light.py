@@ -13,7 +13,7 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from irseg.segmentation import _operators, _regions
+from irseg.segmentation import _operators, _regions, segment
 from irseg.segmentation._at import solve_level
 from irseg.segmentation._operators import (
     DataWeights,
@@ -155,3 +155,17 @@ def test_adjacent_region_pairs_by_row_blocks(monkeypatch, rng, block):
                         expected.add((min(a, b), max(a, b)))
     got = _regions._adjacent_pairs(labels, involved)
     assert sorted(map(tuple, got.tolist())) == sorted(expected)
+
+
+def test_without_the_phase_field_the_result_is_the_same(rng):
+    # keep_v=False (the pipeline's call) frees v once the jump set and regions are formed: the rest is identical
+    g = (rng.normal(0.0, 0.05, (48, 64)) + np.where(np.arange(64) < 30, 18.0, 20.0)).astype(np.float32)
+    mask = np.zeros(g.shape, bool)
+    mask[3, 5] = mask[40, 60] = True
+    full = segment(g, mask=mask)
+    light = segment(g, mask=mask, keep_v=False)
+    assert light.v is None and full.v is not None
+    for name in ("u", "edges", "labels"):
+        np.testing.assert_array_equal(getattr(light, name), getattr(full, name))
+    assert (light.n_regions, light.energy, light.message) == (full.n_regions, full.energy, full.message)
+    assert full.n_regions >= 2  # the 2 K step (well above the noise) is cut
