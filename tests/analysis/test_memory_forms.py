@@ -79,3 +79,28 @@ def test_emitters_told_in_float64_by_bands_as_from_a_float64_copy(monkeypatch, b
     want = emitter_mask(t.astype(np.float64), valid, view="interior", inside_c=inside_c)
     np.testing.assert_array_equal(got, want)
     assert got[10, 12] and got[20, 4]
+
+
+def test_a_candidate_forms_its_pixels_distances_and_reference_as_the_held_arrays_were():
+    # the arrays a candidate used to hold: np.nonzero of its region, scipy's exact Euclidean distance
+    # transform of the rest of its crop, the ring plane evaluated on its pixels
+    from scipy import ndimage
+
+    from irseg.analysis._candidates import Candidate
+    from irseg.analysis._reference import Plane, RingReference
+
+    region = np.zeros((9, 12), bool)
+    region[2:6, 3:9] = True
+    region[6, 4] = True
+    plane = Plane(20.0, 0.01, -0.02, 15.0, 40.0, 0.05, 30)
+    ref = RingReference(plane, 0.05, 30, "ring")
+    lazy = Candidate(7, 11, 33, (slice(11, 20), slice(33, 45)), region, None, ref, 18.0, 20.0, -2.0, 2.0)
+    rr, cc = np.nonzero(region)
+    np.testing.assert_array_equal(lazy.rr, rr)
+    np.testing.assert_array_equal(lazy.cc, cc)
+    np.testing.assert_array_equal(lazy.dist, ndimage.distance_transform_edt(~region))
+    np.testing.assert_array_equal(lazy.ref_in, plane.evaluate(rr + 11.0, cc + 33.0))
+    assert lazy.n_px == 25 and lazy.rim_reach_px == 3.0
+    held = Candidate(7, 11, 33, lazy.crop, region, np.zeros(region.shape), ref, 18.0, 20.0, -2.0, 2.0,
+                     rr[:3], cc[:3], np.ones(3))
+    assert held.n_px == 3 and held.dist.sum() == 0.0 and held.ref_in.tolist() == [1.0, 1.0, 1.0]  # kept as given
