@@ -84,7 +84,7 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     cam, surf, air, an = meta.camera, meta.surface, meta.air, meta.analysis
     t = _float_field(frame.temperature_c)  # float32 stays float32: no float64 copy of the frame (issue 15)
     shape = t.shape
-    labels = np.asarray(seg.labels, dtype=np.int32)  # copied below only when it must change
+    labels = _int_labels(seg.labels)  # copied below only when it must change
     u = _float_field(getattr(seg, "u", t))
     edges = np.asarray(getattr(seg, "edges", np.zeros(shape, bool)), dtype=bool)
     mask = np.asarray(frame.mask, dtype=bool)
@@ -225,6 +225,13 @@ def _surface_reference(surface_c: np.ndarray, valid: np.ndarray, dtype: np.dtype
     reference[...] = surface_c
     reference[~valid] = np.nan
     return reference
+
+
+def _int_labels(values) -> np.ndarray:
+    """Region labels as given when they are signed integers of at most 32 bits (the segmentation's
+    int16 is not widened: memory, issue 15), else as int32."""
+    arr = np.asarray(values)
+    return arr if arr.dtype in (np.int16, np.int32) else arr.astype(np.int32)
 
 
 def _float_field(values) -> np.ndarray:
