@@ -157,7 +157,7 @@ def solve_level(
             bw = DataWeights(w, np.float32(beta))
         else:
             bw = np.multiply(w, np.float32(beta), dtype=dtype)
-        free_v = w > 0
+        free_v = w if w.dtype == bool else w > 0  # a bool weight is its own 0/1 mask: no second copy (issue 15)
         v[~free_v] = 1.0
         # 1 on unknowns, 0 on fixed entries: a bool multiplies like 1.0/0.0 at a quarter of the memory
         free = None if bool(free_v.all()) else free_v
