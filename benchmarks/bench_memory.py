@@ -21,7 +21,11 @@ Printed per size: both maxima, ``(run - baseline) / pixels`` (the working memory
 computation per pixel, the figure issue 15 bounds) and ``run / pixels``, with the size of
 the overlay PNG (bytes and pixels) and of report.html (which embeds the overlay). ``--stages`` adds an in-process breakdown: the peak of
 traced allocations (``tracemalloc``, NumPy's buffers included) within each stage, above what
-was held when the stage started, in bytes per pixel.
+was held when the stage started, in bytes per pixel (the stages called as the pipeline calls
+them: the segmentation without keeping ``v``). ``held + peak`` of a stage, less the 4 B/px of the
+read image that the baseline holds, is that stage's share of ``(run-base)/px``; the rest is the
+interpreter's and the libraries' own growth while computing (about 50 MB whatever the size) and
+the allocator's unreturned free memory.
 
 The default worker count (:func:`irseg.batch._pool.default_jobs`) plans with
 ``PEAK_BYTES_PER_PIXEL``; update it from the ``(run-base)/px`` column (plus the stored image,
@@ -126,7 +130,7 @@ frame = stage("calibrate", lambda: calibrate(raw, meta))
 del raw
 k = meta.segment
 seg = stage("segment", lambda: segment(frame.temperature_c, mask=frame.mask, noise_k=k.noise_k,
-                                       min_step_k=k.min_step_k, min_feature_px=k.min_feature_px))
+                                       min_step_k=k.min_step_k, min_feature_px=k.min_feature_px, keep_v=False))
 analysis = stage("analyse", lambda: analyse(frame, seg, meta))
 stage("render", lambda: (encode_png(render_overlay(frame, seg, analysis, meta)), encode_png(label_image(analysis))))
 """

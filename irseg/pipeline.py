@@ -244,6 +244,7 @@ def _from_metadata(image: str, handed: list[RawFrame], meta: SurveyMeta, timings
             noise_k=knobs.noise_k,
             min_step_k=knobs.min_step_k,
             min_feature_px=knobs.min_feature_px,
+            keep_v=False,  # read by no later stage: its 4 bytes per pixel are freed at once (issue 15)
         ),
     )
     analysis = _run_stage("analyse", timings, caught, lambda: mark_zones(analyse(frame, seg, meta), zones, meta))

@@ -30,7 +30,7 @@ from ._glazing import mark_panes
 from ._framing import find_lines, find_regular_sets
 from ._geometry import MIN_SPOT_PX, pixel_area_m2, pixel_size_m
 from ._records import ImageContext, anomaly_record, group_units, rank_by_severity
-from ._reference import SurfaceReference, find_sound_regions
+from ._reference import FieldWrites, SurfaceReference, find_sound_regions
 from ._significance import MIN_CONTRAST_K, detect_regions
 from ._soft import OWN_FRACTION, join_detections
 from ._surface import CONVENTIONAL_WIND_M_S, h_convective_exterior, h_convective_interior, h_radiative, resolve_heat_flow
@@ -84,7 +84,7 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     cam, surf, air, an = meta.camera, meta.surface, meta.air, meta.analysis
     t = _float_field(frame.temperature_c)  # float32 stays float32: no float64 copy of the frame (issue 15)
     shape = t.shape
-    labels = np.asarray(seg.labels, dtype=np.int32)  # copied below only when it must change
+    labels = _int_labels(seg.labels)  # copied below only when it must change
     u = _float_field(getattr(seg, "u", t))
     edges = np.asarray(getattr(seg, "edges", np.zeros(shape, bool)), dtype=bool)
     mask = np.asarray(frame.mask, dtype=bool)
@@ -119,9 +119,8 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     thr = significance_threshold_k(noise_k=noise, netd_k=cam.netd_k, min_step_k=min_step, min_contrast_k=an.min_contrast_k)
 
     n = int(labels.max()) if labels.size else 0
-    reference = np.full(shape, np.nan, dtype=t.dtype)
     if n == 0 or not valid.any():
-        return Analysis((), np.zeros(shape, np.int32), pixel_m, px_area, None, reference, warn)
+        return Analysis((), np.zeros(shape, np.int32), pixel_m, px_area, None, np.full(shape, np.nan, t.dtype), warn)
 
     # significant contrast against the local sound surface, at the scale of each defect
     floor_k = float(an.min_contrast_k) if an.min_contrast_k is not None else MIN_CONTRAST_K
@@ -143,8 +142,10 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     sound &= in_core < OWN_FRACTION
     sound |= (share[-1] + share[1] < OWN_FRACTION) & (in_core < OWN_FRACTION)
     sound[0] = False
-    reference[:] = surface_c
-    reference[~valid] = np.nan
+    # the reference field: the sound surface on valid pixels, each anomaly's own reference over its thermal
+    # region; the measuring steps only write it, so their writes are kept and the field is formed once
+    # the detector's fields are done with (FieldWrites: not held beside them; memory, issue 15)
+    reference = FieldWrites(shape, t.dtype)
     allowed = usable & sound[labels]  # pixels that may serve as a sound reference
 
     t_surface = trend.a if math.isfinite(trend.a) else float(np.median(t[valid]))
@@ -180,6 +181,10 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
         surface_c=surface_c, t=t, u=u, valid=valid, noise_k=noise, loss_sign=loss_sign, reference=reference,
         first_label=n + 1, min_contrast_k=floor_k, pixel_m=pixel_m,
     )
+    reference = reference.apply(_surface_reference(surface_c, valid, t.dtype))
+    # the detector's frame-sized fields, the region masks and the labels' copy are not read any more
+    # (memory, issue 15: the records and the glazing step below run without them)
+    del det_labels, surface_c, det, valid, labels, edges, u, is_anomaly, last_resort
     if not measured:
         return Analysis((), np.zeros(shape, np.int32), pixel_m, px_area, h, reference, warn)
     sets, lines = _framing(measured, pixel_m)
@@ -212,6 +217,21 @@ def _region_sums(labels: np.ndarray, weights, n: int) -> np.ndarray:
         w = None if weights is None else np.ravel(weights(rows))
         out += np.bincount(labels[rows].ravel(), weights=w, minlength=n + 1)
     return out
+
+
+def _surface_reference(surface_c: np.ndarray, valid: np.ndarray, dtype: np.dtype) -> np.ndarray:
+    """The sound surface as the reference field (``dtype``), NaN on invalid pixels."""
+    reference = np.empty(surface_c.shape, dtype)
+    reference[...] = surface_c
+    reference[~valid] = np.nan
+    return reference
+
+
+def _int_labels(values) -> np.ndarray:
+    """Region labels as given when they are signed integers of at most 32 bits (the segmentation's
+    int16 is not widened: memory, issue 15), else as int32."""
+    arr = np.asarray(values)
+    return arr if arr.dtype in (np.int16, np.int32) else arr.astype(np.int32)
 
 
 def _float_field(values) -> np.ndarray:

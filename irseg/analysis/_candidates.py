@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
 
 import numpy as np
 from scipy import ndimage
@@ -29,28 +28,61 @@ MAX_RIM_PX = 30.0  # ... but not beyond 30 px
 RING_SIGMA_FACTOR = 2.0  # contrast must also exceed this many ring spreads
 
 
-@dataclass
 class Candidate:
     """A region whose contrast against its local ring is significant.
 
     Crop coordinates: the region's pixels ``rr, cc`` are relative to ``(r0, c0)``,
     the top-left corner of ``crop`` in the image.
+
+    Only ``region`` is held of the per-pixel data unless more is given: ``rr, cc`` (its pixels
+    in raster order, ``np.nonzero(region)``), ``dist`` (each crop pixel's distance to the region,
+    ``distance_transform_edt(~region)``) and ``ref_in`` (the reference plane on its pixels) are
+    formed again whenever they are read. A large defect's crop would otherwise hold 8 bytes a
+    pixel of distances and 24 a region pixel of indices and references through the whole
+    analysis (memory, issue 15). What is given (``dist``, ``rr``, ``cc``, ``ref_in`` not None) is
+    kept and returned as given.
     """
 
-    label: int
-    r0: int
-    c0: int
-    crop: tuple[slice, slice]
-    region: np.ndarray  # bool mask of the region in the crop
-    dist: np.ndarray  # distance of each crop pixel to the region, px
-    ref: RingReference
-    mean_c: float
-    reference_c: float
-    delta_k: float
-    gap_px: float  # where the ring starts: the soft rim has faded there
-    rr: np.ndarray  # region pixels in the crop
-    cc: np.ndarray
-    ref_in: np.ndarray  # the reference plane on them, °C
+    def __init__(
+        self, label: int, r0: int, c0: int, crop: tuple[slice, slice], region: np.ndarray, dist: np.ndarray | None,
+        ref: RingReference, mean_c: float, reference_c: float, delta_k: float, gap_px: float,
+        rr: np.ndarray | None = None, cc: np.ndarray | None = None, ref_in: np.ndarray | None = None,
+    ) -> None:
+        self.label = label
+        self.r0 = r0
+        self.c0 = c0
+        self.crop = crop
+        self.region = region  # bool mask of the region in the crop
+        self.ref = ref
+        self.mean_c = mean_c
+        self.reference_c = reference_c
+        self.delta_k = delta_k
+        self.gap_px = gap_px  # where the ring starts: the soft rim has faded there
+        self.n_px = int(rr.size) if rr is not None else int(np.count_nonzero(region))  # pixels of the region
+        self._dist, self._rr, self._cc, self._ref_in = dist, rr, cc, ref_in
+
+    @property
+    def rr(self) -> np.ndarray:
+        """Rows of the region's pixels in the crop (raster order)."""
+        return self._rr if self._rr is not None else np.nonzero(self.region)[0]
+
+    @property
+    def cc(self) -> np.ndarray:
+        """Columns of the region's pixels in the crop (raster order)."""
+        return self._cc if self._cc is not None else np.nonzero(self.region)[1]
+
+    @property
+    def dist(self) -> np.ndarray:
+        """Distance of each crop pixel to the region, px."""
+        return self._dist if self._dist is not None else ndimage.distance_transform_edt(~self.region)
+
+    @property
+    def ref_in(self) -> np.ndarray:
+        """The reference plane on the region's pixels (``rr, cc`` order), °C."""
+        if self._ref_in is not None:
+            return self._ref_in
+        rr, cc = np.nonzero(self.region)
+        return self.ref.plane.evaluate(rr + float(self.r0), cc + float(self.c0))
 
     @property
     def rim_reach_px(self) -> float:
@@ -144,4 +176,4 @@ def _local_contrast(
     # the median contrast must agree: a sound region pulled by a neighbour's rim is not an anomaly
     if abs(delta) < needed or abs(float(np.median(t_reg - ref_vals))) < needed:
         return None
-    return Candidate(lab, r0, c0, crop, region, dist, ref, mean_c, reference_c, delta, gap, rr, cc, ref_vals)
+    return Candidate(lab, r0, c0, crop, region, None, ref, mean_c, reference_c, delta, gap)  # the rest formed on reading

@@ -36,6 +36,7 @@ EMITTER_GROW_PX = 3  # the camera's blur around a hot surface
 EMITTER_MAX_FRACTION = 0.25  # warmer than the air over more of the frame: the inside air is wrong, not emitters
 EMITTER_REASON = "heat source"
 _RING_PX = 8  # width of the ring whose median is an emitter's reference
+_BAND_ROWS = 256  # rows compared at a time in float64 (memory, issue 15)
 
 
 def emitter_mask(t: np.ndarray, valid: np.ndarray, *, view: str, inside_c: float | None) -> np.ndarray:
@@ -43,7 +44,8 @@ def emitter_mask(t: np.ndarray, valid: np.ndarray, *, view: str, inside_c: float
     out = np.zeros(t.shape, bool)
     if view != "interior" or inside_c is None:
         return out
-    core = valid & (t > inside_c + EMITTER_MARGIN_K)
+    core = _warmer(t, float(inside_c) + EMITTER_MARGIN_K)
+    core &= valid
     if not core.any():
         return out
     lab, n = ndimage.label(core)
@@ -54,6 +56,14 @@ def emitter_mask(t: np.ndarray, valid: np.ndarray, *, view: str, inside_c: float
     if not core.any():
         return out
     return ndimage.binary_dilation(core, iterations=EMITTER_GROW_PX) & valid
+
+
+def _warmer(t: np.ndarray, limit_c: float) -> np.ndarray:
+    """``t > limit_c`` compared in float64, a band of rows at a time (no float64 copy of the frame)."""
+    out = np.empty(t.shape, bool)
+    for r0 in range(0, t.shape[0], _BAND_ROWS):
+        np.greater(np.asarray(t[r0 : r0 + _BAND_ROWS], dtype=float), limit_c, out=out[r0 : r0 + _BAND_ROWS])
+    return out
 
 
 def emitter_warning(emitters: np.ndarray, valid: np.ndarray, *, inside_c: float) -> str | None:
@@ -132,8 +142,8 @@ def emitter_records(
             continue
         own = lab == i
         ring = ndimage.binary_dilation(own, iterations=_RING_PX) & ~emitters & valid
-        vals = t[own]
-        ref = float(np.median(t[ring])) if ring.any() else float(inside_c)
+        vals = np.asarray(t[own], dtype=float)
+        ref = float(np.median(np.asarray(t[ring], dtype=float))) if ring.any() else float(inside_c)
         rows, cols = np.nonzero(own)
         peak = float(vals.max())
         reason = (f"{EMITTER_REASON}: up to {peak:.1f} °C, warmer than the inside air ({inside_c:.1f} °C): radiator, "
@@ -188,22 +198,33 @@ def with_emitters(frame, seg, meta, run):
     """
     from ._records import rank_by_severity
 
-    t = np.asarray(frame.temperature_c, dtype=float)
+    t = np.asarray(frame.temperature_c)
+    if t.dtype.kind != "f":
+        t = t.astype(float)
     if getattr(frame.mask, "shape", None) != t.shape:
         return run(frame, seg, meta)  # the analysis names the shape mismatch
+    if meta.surface.view != "interior" or meta.air.inside_c is None:
+        return run(frame, seg, meta)  # no emitter is looked for: no mask is held through the analysis
+    # float32 temperatures stay float32 here: no float64 copy of the frame is held through the analysis
+    # (the emitters are told in float64, band by band; memory, issue 15)
     ok = ~np.asarray(frame.mask, dtype=bool) & np.isfinite(t)
     emit = emitter_mask(t, ok, view=meta.surface.view, inside_c=meta.air.inside_c)
     if not emit.any():
+        del ok, emit
         return run(frame, seg, meta)
     too_much = emitter_warning(emit, ok, inside_c=meta.air.inside_c)
     if too_much is not None:
+        del ok, emit
         res = run(frame, seg, meta)
         return replace(res, warnings=res.warnings + (too_much,))
-    u = np.asarray(getattr(seg, "u", t), dtype=float)
+    del ok  # formed again for the records
     edges = getattr(seg, "edges", None)
     edges = np.zeros(t.shape, bool) if edges is None else np.asarray(edges, dtype=bool) & ~emit
-    filled = FilledSegmentation(fill_emitters(u, emit), edges, np.asarray(seg.labels), getattr(seg, "params", None))
+    filled = FilledSegmentation(fill_emitters(getattr(seg, "u", t), emit), edges, np.asarray(seg.labels),
+                                getattr(seg, "params", None))
     res = run(replace(frame, temperature_c=fill_emitters(t, emit)), filled, meta)
+    del filled
+    ok = ~np.asarray(frame.mask, dtype=bool) & np.isfinite(t)
     extra = emitter_records(t, emit, ok, inside_c=float(meta.air.inside_c), pixel_area_m2=res.pixel_area_m2)
     records, labels = merge_records(res.anomalies, res.labels, extra)
     return replace(res, anomalies=rank_by_severity(records), labels=labels,

@@ -36,20 +36,20 @@ def group_fragments(
     if len(accepted) < 2:
         return accepted, {}
     by_label = {c.label: c for c in accepted}
-    order = sorted(accepted, key=lambda c: (c.rr.size, c.label))
+    order = sorted(accepted, key=lambda c: (c.n_px, c.label))
     dropped: set[int] = set()
     host_of: dict[int, int] = {}
     for c in order:
         ring = ndimage.binary_dilation(c.region, structure=_CROSS) & ~c.region
         hosts = [by_label[int(h)] for h in np.unique(labels[c.crop][ring]) if int(h) in by_label and int(h) != c.label]
-        hosts = [h for h in hosts if h.rr.size > c.rr.size and np.sign(h.delta_k) == np.sign(c.delta_k)
+        hosts = [h for h in hosts if h.n_px > c.n_px and np.sign(h.delta_k) == np.sign(c.delta_k)
                  and h.label not in dropped]
         if not hosts:
             continue
-        host = max(hosts, key=lambda h: (h.rr.size, -h.label))
+        host = max(hosts, key=lambda h: (h.n_px, -h.label))
         similar = [h for h in hosts if abs(h.mean_c - c.mean_c) < min_step_k]
         if similar:
-            host_of[c.label] = max(similar, key=lambda h: (h.rr.size, -h.label)).label
+            host_of[c.label] = max(similar, key=lambda h: (h.n_px, -h.label)).label
             continue
         if _is_rim_sliver(c, host):
             dropped.add(c.label)
@@ -66,9 +66,10 @@ def group_fragments(
 
 def _is_rim_sliver(c: Candidate, host: Candidate) -> bool:
     """``c`` is a small, weaker piece lying wholly within ``host``'s soft rim."""
-    if c.rr.size > SLIVER_FRACTION * host.rr.size or abs(c.delta_k) >= abs(host.delta_k):
+    if c.n_px > SLIVER_FRACTION * host.n_px or abs(c.delta_k) >= abs(host.delta_k):
         return False
     rows = c.rr + (c.r0 - host.r0)
     cols = c.cc + (c.c0 - host.c0)
-    within = (rows >= 0) & (rows < host.dist.shape[0]) & (cols >= 0) & (cols < host.dist.shape[1])
+    reach = host.region.shape  # the host's crop, where its distances are known
+    within = (rows >= 0) & (rows < reach[0]) & (cols >= 0) & (cols < reach[1])
     return bool(within.all() and float(host.dist[rows, cols].max()) <= host.rim_reach_px)

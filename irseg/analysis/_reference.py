@@ -27,6 +27,7 @@ import numpy as np
 from .._shared import MAD_TO_SIGMA, robust_sigma
 
 __all__ = [
+    "FieldWrites",
     "Plane",
     "RingReference",
     "SurfaceReference",
@@ -39,6 +40,7 @@ __all__ = [
 _MAX_TREND_SAMPLES = 8_000
 _MAX_RING_SAMPLES = 4_000
 _MIN_RING_PX = 24
+_BAND_ROWS = 256  # rows of a mask searched at a time for sample pixels
 
 
 @dataclass(frozen=True)
@@ -84,6 +86,52 @@ class RingReference:
     sigma_k: float  # robust spread of the measured temperature about the plane in the ring
     n_ring: int
     source: str  # "ring", "wide ring", "surface" (last resort) or "detected" (a detected anomaly)
+
+
+class FieldWrites:
+    """Writes into a frame-sized field that is only written until it is formed (memory, issue 15).
+
+    Stands in for an (M, N) array that the measuring steps write into and never read:
+    ``f[rows, cols] = values`` and ``f.flat[index] = values``. Each write keeps its flat indices
+    and its values cast to the field's dtype (as an assignment casts them); :meth:`apply`
+    replays them in order onto the formed field, which then holds what direct writes would have
+    left. The reference field of an image is formed this way after the measurements, so it is
+    not held beside the detector's fields while they are used. Reading is refused (TypeError).
+    """
+
+    def __init__(self, shape: tuple[int, int], dtype: np.dtype) -> None:
+        self.shape = (int(shape[0]), int(shape[1]))
+        self.dtype = np.dtype(dtype)
+        self._index_dtype = np.int32 if self.shape[0] * self.shape[1] < 2**31 else np.intp
+        self._writes: list[tuple[np.ndarray, np.ndarray]] = []
+        self.flat = _FlatWrites(self)
+
+    def __setitem__(self, key: tuple[np.ndarray, np.ndarray], values) -> None:
+        rows, cols = key
+        self._keep(np.ravel_multi_index((np.asarray(rows), np.asarray(cols)), self.shape), values)
+
+    def _keep(self, index, values) -> None:
+        index = np.asarray(index)
+        if index.dtype == bool or index.ndim != 1:
+            raise TypeError("FieldWrites takes 1-D integer indices (rows and columns, or flat indices)")
+        self._writes.append((index.astype(self._index_dtype), np.array(values, dtype=self.dtype)))
+
+    def apply(self, field: np.ndarray) -> np.ndarray:
+        """``field`` with every write replayed in order (in place); the writes are dropped."""
+        for index, values in self._writes:
+            field.flat[index] = values
+        self._writes.clear()
+        return field
+
+
+class _FlatWrites:
+    """``FieldWrites.flat``: ``flat[index] = values``."""
+
+    def __init__(self, owner: FieldWrites) -> None:
+        self._owner = owner
+
+    def __setitem__(self, index, values) -> None:
+        self._owner._keep(index, values)
 
 
 def fit_plane(
@@ -166,10 +214,23 @@ def rim_extent_px(
 
 
 def _sample_pixels(mask: np.ndarray, max_samples: int = _MAX_TREND_SAMPLES) -> tuple[np.ndarray, np.ndarray]:
-    idx = np.flatnonzero(mask)
-    step = max(1, idx.size // max_samples)
-    idx = idx[::step]
-    return np.divmod(idx, mask.shape[1])
+    """Rows and columns of every ``step``-th pixel of ``mask`` in raster order, at most about ``max_samples``.
+
+    The flat indices are formed a band of rows at a time: no frame-sized int64 index array
+    (8 B/px; memory, issue 15); the same pixels as ``np.flatnonzero(mask)[::step]``.
+    """
+    m, n = mask.shape
+    step = max(1, int(np.count_nonzero(mask)) // max_samples)
+    rows, cols = [np.zeros(0, np.intp)], [np.zeros(0, np.intp)]
+    seen = 0
+    for r0 in range(0, m, _BAND_ROWS):
+        idx = np.flatnonzero(mask[r0 : r0 + _BAND_ROWS])
+        take = idx[(-seen) % step :: step]  # the next sampled rank falls this far into the band
+        seen += idx.size
+        r, c = np.divmod(take, n)
+        rows.append(r + r0)
+        cols.append(c)
+    return np.concatenate(rows), np.concatenate(cols)
 
 
 def find_sound_regions(

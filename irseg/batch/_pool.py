@@ -47,10 +47,11 @@ _PRELOAD = ["irseg.pipeline", "irseg.io", "irseg.metadata", "irseg.radiometry", 
 
 #: Peak memory of one image in a worker, bytes per pixel of the image, above the worker's
 #: own start-up memory: measured with ``benchmarks/bench_memory.py`` (maximum RSS of a
-#: 4000 x 3000 and a 8000 x 6000 run minus an import-and-read baseline: 51.5 and 50.2 B/px,
+#: 4000 x 3000 and a 8000 x 6000 run minus an import-and-read baseline: 38.9 and 38.2 B/px,
 #: issue 15), plus the stored image, which that baseline holds (up to 8 B/px, float64 NPY),
-#: rounded up. The analysis stage sets it today.
-PEAK_BYTES_PER_PIXEL = 60
+#: rounded up. The segmentation's solve and the analysis' joining of detections set it today
+#: (about 39 and 40-42 B/px of traced allocations, the read image's 4 included).
+PEAK_BYTES_PER_PIXEL = 50
 #: Memory of a worker before its first image (interpreter, NumPy, SciPy, OpenCV), bytes.
 WORKER_BASE_BYTES = 160 * 2**20
 #: Share of the available memory the default worker count may plan to use.

@@ -109,7 +109,9 @@ class ZoneLayer:
                 f"{frame.path}: the exclude zone(s) {labels} cover every valid pixel, so nothing is left to "
                 "analyse; make the zones smaller"
             )
-        temperature = fill_masked(np.asarray(frame.temperature_c, dtype=np.float64), mask)
+        # in the frame's own float type (float32 from calibrate): a float64 copy would double the frame and
+        # every field segmented and analysed from it (memory, issue 15)
+        temperature = fill_masked(np.asarray(frame.temperature_c), mask)
         layer = replace(self, excluded=new, excluded_c=np.asarray(frame.temperature_c)[new].astype(np.float64))
         return layer, replace(frame, temperature_c=temperature, mask=mask)
 
@@ -117,7 +119,7 @@ class ZoneLayer:
         """The frame as the overlay shows it: excluded pixels back with the temperatures the camera saw."""
         if self.excluded is None or self.excluded_c is None or not self.excluded.any():
             return frame
-        temperature = np.array(frame.temperature_c, dtype=np.float64, copy=True)
+        temperature = np.array(frame.temperature_c, copy=True)  # the frame's float type: the values it held
         temperature[self.excluded] = self.excluded_c
         return replace(frame, temperature_c=temperature, mask=frame.mask & ~self.excluded)
 

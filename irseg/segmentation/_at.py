@@ -32,6 +32,7 @@ import numpy as np
 from ._operators import (
     DataWeights,
     PhaseWeights,
+    ScreenedInverse,
     Workspace,
     apply_screened_laplacian,
     apply_weighted_laplacian,
@@ -156,7 +157,7 @@ def solve_level(
             bw = DataWeights(w, np.float32(beta))
         else:
             bw = np.multiply(w, np.float32(beta), dtype=dtype)
-        free_v = w > 0
+        free_v = w if w.dtype == bool else w > 0  # a bool weight is its own 0/1 mask: no second copy (issue 15)
         v[~free_v] = 1.0
         # 1 on unknowns, 0 on fixed entries: a bool multiplies like 1.0/0.0 at a quarter of the memory
         free = None if bool(free_v.all()) else free_v
@@ -166,10 +167,10 @@ def solve_level(
         return times_data_weights(bw, g, out, ws)
 
     # The u-step's edge weights v**2 + eta are formed from v a block of rows at a time
-    # (PhaseWeights), never held whole; the v-step needs its diagonal (and the energy the
-    # squared gradient). One inverse diagonal serves both steps in turn.
-    diag_v = np.empty(shape, dtype)
-    inv = np.empty(shape, dtype)
+    # (PhaseWeights), never held whole. One frame-sized buffer serves both steps in turn: the
+    # u-step's inverse diagonal, then the v-step's diagonal (and the energy's squared gradient),
+    # whose inverse is formed a block of rows at a time (ScreenedInverse; memory, issue 15).
+    diag = np.empty(shape, dtype)
     v_old = np.empty(shape, dtype) if (not record_energy and v_tol > 0) else None
     k_pot = np.float32(alpha / (4.0 * epsilon))
     k_lap = np.float32(alpha * epsilon)
@@ -180,7 +181,9 @@ def solve_level(
         return apply_weighted_laplacian(x, edge_weights, None, bw, out, ws)
 
     def apply_v(x: np.ndarray, out: np.ndarray) -> np.ndarray:
-        return apply_screened_laplacian(x, float(k_lap), diag_v, out, ws)
+        return apply_screened_laplacian(x, float(k_lap), diag, out, ws)
+
+    inv_v = ScreenedInverse.for_level(diag, k_lap, free)
 
     energies: list[float] = []
     prev = np.inf
@@ -190,24 +193,17 @@ def solve_level(
     while it < max_alternations:
         it += 1
         # u-step: weights from the current edge field
-        phase_diagonal(bw, edge_weights, inv, ws)
-        np.reciprocal(inv, out=inv)
-        n_u, _ = pcg(apply_u, rhs_u, u, inv, ws, rtol=cg_rtol, max_iter=cg_max_iter)
-        # v-step
-        gradient_sq(u, diag_v, ws)
-        diag_v += k_pot
-        # diagonal of alpha eps L: 4 alpha eps inside, one neighbour less per border side
-        np.add(diag_v, 4.0 * k_lap, out=inv)
-        inv[0, :] -= k_lap
-        inv[-1, :] -= k_lap
-        inv[:, 0] -= k_lap
-        inv[:, -1] -= k_lap
-        np.reciprocal(inv, out=inv)
-        if free is not None:
-            inv *= free
+        phase_diagonal(bw, edge_weights, diag, ws)
+        np.reciprocal(diag, out=diag)
+        n_u, _ = pcg(apply_u, rhs_u, u, diag, ws, rtol=cg_rtol, max_iter=cg_max_iter)
+        # v-step: diagonal G + alpha/(4 eps); its preconditioner adds that of alpha eps L (4 alpha eps
+        # inside, one neighbour less per border side), zero on fixed entries
+        gradient_sq(u, diag, ws)
+        diag += k_pot
+        inv_sum = float(np.sum(inv_v.into(ws.p), dtype=np.float64))  # p is free until the solve starts
         if v_old is not None:
             v_old[...] = v
-        n_v, _ = pcg(apply_v, k_pot, v, inv, ws, rtol=cg_rtol, max_iter=cg_max_iter, free=free)
+        n_v, _ = pcg(apply_v, k_pot, v, inv_v, ws, rtol=cg_rtol, max_iter=cg_max_iter, free=free, inv_sum=inv_sum)
         np.clip(v, 0.0, 1.0, out=v)
         cg_total += n_u + n_v
         scratch = ws.ap  # the CG buffers are free between solves
@@ -221,7 +217,7 @@ def solve_level(
             np.square(v, out=scratch)
             sum_v2 = _sum64(scratch)
             scratch += eta32
-            scratch *= gradient_sq(u, diag_v, ws)
+            scratch *= gradient_sq(u, diag, ws)
             smooth = _sum64(scratch)
             # sum |Dv|^2 = v . (L v) with the Neumann graph Laplacian; (1-v)^2 expanded
             apply_screened_laplacian(v, 1.0, 0.0, scratch, ws)

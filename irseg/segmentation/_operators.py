@@ -27,6 +27,7 @@ __all__ = [
     "Workspace",
     "PhaseWeights",
     "DataWeights",
+    "ScreenedInverse",
     "phase_diagonal",
     "times_data_weights",
     "gradient_sq",
@@ -138,6 +139,55 @@ class PhaseWeights:
         np.square(self.v[a:b], out=c)
         c += self.eta
         return c
+
+
+@dataclass(frozen=True)
+class ScreenedInverse:
+    """Jacobi preconditioner of the v-step, ``free / (diag + 4 k - k per border side)``, formed by blocks of rows.
+
+    The inverse of the diagonal of ``diag + k L`` (``L`` the Neumann graph Laplacian), zero on
+    fixed entries: the same float32 operations in the same order at every pixel as the
+    whole-frame ``inv = diag + 4k; inv[0] -= k; inv[-1] -= k; inv[:, 0] -= k; inv[:, -1] -= k;
+    1 / inv; inv *= free``, so results are bit-identical, while no frame-sized inverse is held
+    beside ``diag`` (memory, issue 15). Called as ``(r, out) -> out = r * inverse``.
+    """
+
+    diag: np.ndarray  # (M, N) the operator's own diagonal term
+    k_lap: np.floating  # weight of the Laplacian, in diag's dtype
+    free: np.ndarray | None  # (M, N) bool: 1 on unknowns, 0 on fixed entries; None: all free
+    scratch: np.ndarray  # (rows, N) block scratch
+
+    @classmethod
+    def for_level(cls, diag: np.ndarray, k_lap: np.floating, free: np.ndarray | None) -> ScreenedInverse:
+        rows = max(1, min(_CHUNK_ROWS, diag.shape[0]))
+        return cls(diag, k_lap, free, np.empty((rows, diag.shape[1]), diag.dtype))
+
+    def rows(self, a: int, b: int) -> np.ndarray:
+        """The inverse of rows ``a .. b-1`` (in the scratch)."""
+        m = self.diag.shape[0]
+        inv = self.scratch[: b - a]
+        np.add(self.diag[a:b], 4.0 * self.k_lap, out=inv)
+        if a == 0:
+            inv[0, :] -= self.k_lap
+        if b == m:
+            inv[-1, :] -= self.k_lap
+        inv[:, 0] -= self.k_lap
+        inv[:, -1] -= self.k_lap
+        np.reciprocal(inv, out=inv)
+        if self.free is not None:
+            inv *= self.free[a:b]
+        return inv
+
+    def into(self, out: np.ndarray) -> np.ndarray:
+        """The whole inverse written into ``out`` (a buffer free at the time)."""
+        for a, b in _blocks(self.diag.shape[0], self.scratch.shape[0]):
+            out[a:b] = self.rows(a, b)
+        return out
+
+    def __call__(self, r: np.ndarray, out: np.ndarray) -> np.ndarray:
+        for a, b in _blocks(self.diag.shape[0], self.scratch.shape[0]):
+            np.multiply(r[a:b], self.rows(a, b), out=out[a:b])
+        return out
 
 
 def phase_diagonal(diag: np.ndarray | float, weights: PhaseWeights, out: np.ndarray, ws: Workspace) -> np.ndarray:
@@ -302,6 +352,7 @@ def pcg(
     rtol: float,
     max_iter: int,
     free: np.ndarray | None = None,
+    inv_sum: float | None = None,
 ) -> tuple[int, float]:
     """Jacobi-preconditioned conjugate gradients for ``A x = b``, warm-started, in place.
 
@@ -317,8 +368,9 @@ def pcg(
         buffer it is given, so no frame-sized right-hand side is held between solves).
     x : (M, N) ndarray, C-contiguous
         Initial guess, overwritten by the solution.
-    inv_diag : (M, N) ndarray
-        Inverse of the operator's diagonal (zero on fixed entries).
+    inv_diag : (M, N) ndarray or callable ``(r, out) -> out``
+        Inverse of the operator's diagonal (zero on fixed entries), or its product with a
+        residual (e.g. :class:`ScreenedInverse`, formed block by block).
     ws : Workspace
         Scratch buffers.
     rtol : float
@@ -327,6 +379,8 @@ def pcg(
         Iteration cap.
     free : (M, N) ndarray, optional
         1 on unknowns, 0 on entries that keep their value in ``x`` (Dirichlet data).
+    inv_sum : float, optional
+        ``np.sum(inverse, dtype=float64)``: needed with a scalar ``b`` and a callable ``inv_diag``.
 
     Returns
     -------
@@ -335,6 +389,11 @@ def pcg(
     """
     r, z, p, ap = ws.r, ws.z, ws.p, ws.ap
     rf, zf, pf, apf, xf = r.ravel(), z.ravel(), p.ravel(), ap.ravel(), x.ravel()
+    if callable(inv_diag):
+        precondition = inv_diag
+    else:
+        def precondition(res: np.ndarray, out: np.ndarray) -> np.ndarray:
+            return np.multiply(res, inv_diag, out=out)
     if callable(b):
         b = b(ap)  # written into ap, which is free until the iterations start
     apply(x, r)  # may use z as scratch; leaves ap alone
@@ -342,11 +401,12 @@ def pcg(
     if free is not None:
         r *= free
     if np.ndim(b) == 0:
-        bnorm = np.sqrt(max(float(b) ** 2 * float(np.sum(inv_diag, dtype=np.float64)), 0.0))
+        total = float(np.sum(inv_diag, dtype=np.float64)) if inv_sum is None else float(inv_sum)
+        bnorm = np.sqrt(max(float(b) ** 2 * total, 0.0))
     else:
-        np.multiply(b, inv_diag, out=z)
+        precondition(b, z)
         bnorm = np.sqrt(max(_dot(b.ravel(), zf), 0.0))
-    np.multiply(r, inv_diag, out=z)
+    precondition(r, z)
     rz = _dot(rf, zf)
     if bnorm == 0.0:
         bnorm = 1.0
@@ -366,7 +426,7 @@ def pcg(
         step = rz / pap
         _axpy(step, pf, xf)
         _axpy(-step, apf, rf)
-        np.multiply(r, inv_diag, out=z)
+        precondition(r, z)
         rz_new = _dot(rf, zf)
         if rz_new <= target:
             rz = rz_new

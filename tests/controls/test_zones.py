@@ -144,6 +144,23 @@ def test_exclusion_masks_fills_and_keeps_what_the_camera_saw():
     assert np.array_equal(shown.temperature_c, t) and not shown.mask.any()
 
 
+def test_exclusion_keeps_a_float32_frame_float32_and_its_values():
+    # no float64 copy of the frame (memory, issue 15): every pixel outside the zone keeps its float32 bits,
+    # the zone's fill lies within its valid neighbours' range, and the overlay gets the camera's values back
+    rng = np.random.default_rng(3)
+    t = rng.normal(20.0, 0.3, (16, 18)).astype(np.float32)
+    t[4:8, 5:9] = np.float32(4.7)  # a cold window
+    frame = ThermalFrame("x.npy", t, np.zeros(t.shape, bool))
+    layer, excluded = zone_layer((Zone("window", "exclude", box=(4, 5, 8, 9)),), t.shape).exclude(frame)
+    out = excluded.temperature_c
+    assert out.dtype == np.float32
+    np.testing.assert_array_equal(out[~excluded.mask], t[~excluded.mask])
+    ring = ndimage.binary_dilation(excluded.mask, iterations=2) & ~excluded.mask
+    assert t[ring].min() <= out[4:8, 5:9].min() and out[4:8, 5:9].max() <= t[ring].max()
+    shown = layer.display_frame(excluded)
+    assert shown.temperature_c.dtype == np.float32 and np.array_equal(shown.temperature_c, t)
+
+
 # --------------------------------------------------------------------------- material zones
 
 

@@ -1,7 +1,7 @@
 """The solver's memory-light forms give the whole-frame bits (issue 15, memory).
 
-The edge weights ``v**2 + eta`` and the data weights ``beta * w`` of a 0/1 mask are formed a
-block of rows at a time instead of being held as frame-sized arrays. Each check compares with
+The edge weights ``v**2 + eta``, the data weights ``beta * w`` of a 0/1 mask and the v-step's
+inverse diagonal are formed a block of rows at a time instead of being held as frame-sized arrays. Each check compares with
 the whole-frame NumPy expression of the same discretisation, written here independently of
 irseg (forward differences owned by the pixel at their start, ``docs/method.md``) [C], for
 block sizes that put block edges everywhere. No memory figure is asserted here: the peak per
@@ -13,13 +13,16 @@ from __future__ import annotations
 import numpy as np
 import pytest
 
-from irseg.segmentation import _operators, _regions
+from irseg.segmentation import _operators, _regions, segment
 from irseg.segmentation._at import solve_level
 from irseg.segmentation._operators import (
     DataWeights,
     PhaseWeights,
+    ScreenedInverse,
     Workspace,
+    apply_screened_laplacian,
     apply_weighted_laplacian,
+    pcg,
     phase_diagonal,
     times_data_weights,
 )
@@ -63,6 +66,59 @@ def test_edge_and_data_weights_formed_by_blocks_give_the_whole_frame_bits(monkey
     np.testing.assert_array_equal(times_data_weights(DataWeights(w, beta), x, out, ws), bw * x)
 
 
+def _whole_screened_inverse(diag, k, free):
+    """Inverse diagonal of ``diag + k L``, ``L`` the 5-point Neumann graph Laplacian: a pixel's
+    degree is 4 inside, one less per border side it lies on (graph Laplacian, common practice);
+    zero on fixed entries."""
+    inv = diag + np.float32(4.0) * k
+    inv[0, :] -= k
+    inv[-1, :] -= k
+    inv[:, 0] -= k
+    inv[:, -1] -= k
+    inv = np.float32(1.0) / inv
+    return inv if free is None else inv * free
+
+
+@pytest.mark.parametrize("chunk", [1, 2, 7, 64])
+@pytest.mark.parametrize("shape", [(23, 17), (1, 9), (6, 1)])
+def test_v_step_preconditioner_formed_by_blocks_gives_the_whole_frame_bits(monkeypatch, chunk, shape):
+    monkeypatch.setattr(_operators, "_CHUNK_ROWS", chunk)
+    rng = np.random.default_rng(chunk)
+    diag = rng.random(shape).astype(np.float32) + np.float32(0.5)
+    k = np.float32(0.3)
+    for free in (None, rng.random(shape) > 0.2):
+        inv = ScreenedInverse.for_level(diag, k, free)
+        whole = _whole_screened_inverse(diag, k, free)
+        np.testing.assert_array_equal(inv.into(np.empty_like(diag)), whole)
+        r = rng.normal(size=shape).astype(np.float32)
+        np.testing.assert_array_equal(inv(r, np.empty_like(r)), r * whole)
+
+
+@pytest.mark.parametrize("chunk", [3, 64])
+def test_v_step_solved_with_the_block_preconditioner_as_with_the_whole_one(monkeypatch, chunk):
+    # the same conjugate-gradient iterates, bit for bit, whether the inverse diagonal is held or formed
+    monkeypatch.setattr(_operators, "_CHUNK_ROWS", chunk)
+    rng = np.random.default_rng(7)
+    m, n = 31, 26
+    diag = (rng.random((m, n)) * 3.0 + 0.2).astype(np.float32)
+    free = rng.random((m, n)) > 0.1
+    k_lap, k_pot = np.float32(0.4), np.float32(0.05)
+    ws = Workspace.for_shape((m, n), np.dtype(np.float32))
+
+    def apply(x, out):
+        return apply_screened_laplacian(x, float(k_lap), diag, out, ws)
+
+    start = rng.random((m, n)).astype(np.float32)
+    whole = _whole_screened_inverse(diag, k_lap, free)
+    held, formed = start.copy(), start.copy()
+    a = pcg(apply, k_pot, held, whole, ws, rtol=1e-6, max_iter=9, free=free)
+    inv = ScreenedInverse.for_level(diag, k_lap, free)
+    b = pcg(apply, k_pot, formed, inv, ws, rtol=1e-6, max_iter=9, free=free,
+            inv_sum=float(np.sum(whole, dtype=np.float64)))
+    assert a == b
+    np.testing.assert_array_equal(held, formed)
+
+
 def test_a_bool_data_weight_solves_exactly_as_its_float_form(rng):
     # the finest grid passes its 0/1 weight as bool (a quarter of the memory): same iterates, same bits
     m, n = 40, 52
@@ -99,3 +155,17 @@ def test_adjacent_region_pairs_by_row_blocks(monkeypatch, rng, block):
                         expected.add((min(a, b), max(a, b)))
     got = _regions._adjacent_pairs(labels, involved)
     assert sorted(map(tuple, got.tolist())) == sorted(expected)
+
+
+def test_without_the_phase_field_the_result_is_the_same(rng):
+    # keep_v=False (the pipeline's call) frees v once the jump set and regions are formed: the rest is identical
+    g = (rng.normal(0.0, 0.05, (48, 64)) + np.where(np.arange(64) < 30, 18.0, 20.0)).astype(np.float32)
+    mask = np.zeros(g.shape, bool)
+    mask[3, 5] = mask[40, 60] = True
+    full = segment(g, mask=mask)
+    light = segment(g, mask=mask, keep_v=False)
+    assert light.v is None and full.v is not None
+    for name in ("u", "edges", "labels"):
+        np.testing.assert_array_equal(getattr(light, name), getattr(full, name))
+    assert (light.n_regions, light.energy, light.message) == (full.n_regions, full.energy, full.message)
+    assert full.n_regions >= 2  # the 2 K step (well above the noise) is cut
