@@ -247,11 +247,11 @@ def detect_regions(
         sig, sig_w = [], []
         for s, f, g in zip(scales, fields, gains):
             sw = noise * gaussian_noise_factor(s)
-            vals = (f / g)[sound].ravel()[::step]
+            vals = (f[sound] / g[sound]).ravel()[::step]  # g > 0 on valid pixels; 0 deep inside a masked area
             emp = MAD_TO_SIGMA * float(np.median(np.abs(vals - np.median(vals))))
             sig.append(max(sw, emp))
             sig_w.append(sw)
-        zs = [f / (sg * g) for f, sg, g in zip(fields, sig, gains)]
+        zs = [_ratio(f, sg * g) for f, sg, g in zip(fields, sig, gains)]
         grown = {sign: _grown(zs, sign, k_hi, k_lo, valid) for sign in (-1, 1)}
         found = (grown[-1][0] > 0) | (grown[1][0] > 0)
         if not found.any() or exclude.any():
@@ -366,3 +366,10 @@ def _grown(zs, sign, k_hi, k_lo, valid) -> tuple[np.ndarray, np.ndarray]:
     has_seed[0] = False
     comp[~has_seed[comp]] = 0
     return comp, has_seed
+
+
+def _ratio(f: np.ndarray, g: np.ndarray) -> np.ndarray:
+    """``f / g``, 0 where ``g`` is 0 (pixels deep inside a masked area that no valid pixel reaches)."""
+    out = np.zeros_like(f)
+    np.divide(f, g, out=out, where=g > 0)
+    return out

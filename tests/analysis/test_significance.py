@@ -149,3 +149,24 @@ def test_matched_gain_constant_of_the_stated_contrast_limit():
     gain = math.sqrt(2.0) * -res.fun  # sqrt(2π)·0.638/sqrt(π)
     expected = 5.0 * 0.05 * 0.0039 / (gain * math.sqrt(0.05))
     assert min_detectable_contrast_k(area_m2=0.05, netd_k=0.05, pixel_m=0.0039) == pytest.approx(expected, rel=1e-3)
+
+
+def test_a_large_masked_area_leaves_the_defect_beside_it_found_without_warnings():
+    # A third of the frame is masked (NaN: an excluded window or heat source). Deep inside it no valid
+    # pixel reaches the Gaussian weights of the coarse scales (their sum is 0); the detection must not
+    # divide by that (RuntimeWarning, an error under the suite's filterwarnings) and must still find a
+    # 3.5 K cold bay on the valid part. Check value: the bay's area is its pixel count times the pixel
+    # footprint of a pinhole camera, (2 d tan(hfov/2) / N)^2 [physics: pinhole geometry].
+    import irseg
+
+    rng = np.random.default_rng(11)
+    t = 19.0 + rng.normal(0.0, 0.05, (240, 320))
+    t[:, 200:] = np.nan  # 37.5 % of the frame masked
+    t[80:160, 40:120] -= 3.5  # a cold bay, 80 x 80 pixels
+    meta = {"surface": {"view": "interior", "emissivity": 0.93, "reflected_c": 20.0},
+            "air": {"inside_c": 20.0, "outside_c": 0.0}, "camera": {"distance_m": 3.0, "hfov_deg": 45.0}}
+    res = irseg.process_array(t, meta, name="masked.npy")
+    cold = [a for a in res.analysis.anomalies if a.delta_k < -1.0]
+    assert len(cold) == 1
+    pixel_m = 2 * 3.0 * np.tan(np.radians(45.0) / 2) / 320
+    assert cold[0].area_m2 == pytest.approx(80 * 80 * pixel_m**2, rel=0.15)
