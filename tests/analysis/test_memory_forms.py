@@ -104,3 +104,27 @@ def test_a_candidate_forms_its_pixels_distances_and_reference_as_the_held_arrays
     held = Candidate(7, 11, 33, lazy.crop, region, np.zeros(region.shape), ref, 18.0, 20.0, -2.0, 2.0,
                      rr[:3], cc[:3], np.ones(3))
     assert held.n_px == 3 and held.dist.sum() == 0.0 and held.ref_in.tolist() == [1.0, 1.0, 1.0]  # kept as given
+
+
+def test_near_sources_agrees_with_scipys_exact_distance_transform():
+    # [C] scipy.ndimage.distance_transform_edt is the reference exact Euclidean distance transform;
+    # OpenCV's DIST_MASK_PRECISE must give the same pixels within reach (radii chosen off the
+    # square roots of integers, where float32 rounding could tip a pixel)
+    from scipy import ndimage
+
+    from irseg.analysis._soft import _within, near_sources
+
+    rng = np.random.default_rng(5)
+    far = (rng.random((90, 130)) > 0.003).astype(np.uint8)
+    far[40:50, 60:75] = 0
+    for reach in (0.5, 2.3, 7.7, 25.4, 300.2):
+        expected = ndimage.distance_transform_edt(far.astype(bool)) <= reach
+        assert np.array_equal(near_sources(far, reach), expected)
+    assert near_sources(np.ones((4, 5), np.uint8), 3.0).sum() == 0  # no source: nothing near
+    assert near_sources(np.zeros((4, 5), np.uint8), 3.0).all()
+    # _within on flat indices, cropped to the pixels' box, against the whole-frame transform
+    shape = (90, 130)
+    idx = np.flatnonzero(far == 0)
+    pix = rng.choice(shape[0] * shape[1], 2000, replace=False)
+    whole = ndimage.distance_transform_edt(far.astype(bool)).ravel()[pix] <= 11.6
+    assert np.array_equal(_within(idx, pix, 11.6, shape), whole)
