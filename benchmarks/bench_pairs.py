@@ -37,7 +37,7 @@ def _frame(t: np.ndarray, name: str):
     from irseg.types import ThermalFrame
 
     t32 = np.asarray(t, np.float32)
-    return ThermalFrame(path=name, temperature_c=t32, mask=np.zeros(t32.shape, bool), apparent_c=t32)
+    return ThermalFrame(path=name, temperature_c=t32, mask=np.zeros(t32.shape, bool))
 
 
 def _ours(scene) -> np.ndarray:

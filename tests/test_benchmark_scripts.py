@@ -27,3 +27,13 @@ def test_benchmark_script_prints_its_help(script):
     proc = subprocess.run([sys.executable, str(script), "--help"], capture_output=True, text=True, timeout=120)
     assert proc.returncode == 0, proc.stderr
     assert "usage:" in proc.stdout
+
+
+@pytest.mark.slow
+def test_the_pair_benchmark_runs_one_small_round():
+    # a run, not only --help: a field removed from ThermalFrame broke this script while its help still printed
+    script = next(p for p in BENCHMARKS if p.name == "bench_pairs.py")
+    proc = subprocess.run([sys.executable, str(script), "--pairs", "1", "--repeats", "1"],
+                          capture_output=True, text=True, timeout=300)
+    assert proc.returncode == 0, proc.stderr
+    assert "IoU" in proc.stdout or "iou" in proc.stdout.lower()
