@@ -124,7 +124,8 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
 
     # significant contrast against the local sound surface, at the scale of each defect
     floor_k = float(an.min_contrast_k) if an.min_contrast_k is not None else MIN_CONTRAST_K
-    det_labels, surface_c, det = detect_regions(t, ~valid, noise_k=noise, pixel_m=pixel_m, min_contrast_k=floor_k)
+    det_labels, surface_c, det = detect_regions(t, ~valid, noise_k=noise, pixel_m=pixel_m, min_contrast_k=floor_k,
+                                                filled=getattr(seg, "filled", None))
     areas = _region_sums(labels, None, n)
     per = np.maximum(areas, 1.0)
     share = {sign: _region_sums(labels, lambda rows, s=sign: np.sign(det.components[rows]) == s, n) / per

@@ -9,7 +9,9 @@ reason :data:`EMITTER_REASON`. For the analysis of everything else their tempera
 segmentation's smooth field) are replaced by the harmonic fill of the wall around them
 (:func:`fill_emitters`: Laplace's equation with the surrounding pixels as boundary values): they
 carry no value of their own, so they can neither pull the sound surface nor join a defect, and
-the sound surface stays continuous (a large hole would weaken it around the emitter). Their
+the sound surface stays continuous (a large hole would weaken it around the emitter); the filled
+pixels are therefore never left out of the second sound surface either (a fill taking the warmth of
+the plume above it is significant, yet no measurement). Their
 reference is reported as NaN. The fainter warm plume above a radiator is not filled: the analysis
 finds it as a warm area seen from inside, which is never a heat-loss defect, and keeps it out of
 the sound reference as it does every significant area.
@@ -125,6 +127,7 @@ class FilledSegmentation:
     edges: np.ndarray
     labels: np.ndarray
     params: Any = None
+    filled: np.ndarray | None = None  # (M, N) bool: the emitters' pixels, filled rather than measured
 
 
 def emitter_records(
@@ -221,7 +224,7 @@ def with_emitters(frame, seg, meta, run):
     edges = getattr(seg, "edges", None)
     edges = np.zeros(t.shape, bool) if edges is None else np.asarray(edges, dtype=bool) & ~emit
     filled = FilledSegmentation(fill_emitters(getattr(seg, "u", t), emit), edges, np.asarray(seg.labels),
-                                getattr(seg, "params", None))
+                                getattr(seg, "params", None), emit)
     res = run(replace(frame, temperature_c=fill_emitters(t, emit)), filled, meta)
     del filled
     ok = ~np.asarray(frame.mask, dtype=bool) & np.isfinite(t)

@@ -164,6 +164,7 @@ def detect_regions(
     k_lo: float = K_LO,
     extent_fraction: float = EXTENT_FRACTION,
     split_plateaus: bool = True,
+    filled: np.ndarray | None = None,
 ) -> tuple[np.ndarray, np.ndarray, DetectionInfo]:
     """Find anomalies as significant contrast against a robust local sound surface.
 
@@ -192,6 +193,10 @@ def detect_regions(
         The extent ends where the contrast falls to this fraction of the anomaly's peak.
     split_plateaus : bool
         Keep touching defects with their own plateaus apart.
+    filled : (M, N) bool ndarray or None
+        Pixels whose values are filled in from their surroundings, not measured (heat emitters,
+        :mod:`._emitters`): they are never left out of the second sound surface, which would open
+        the hole their fill closes.
 
     Returns
     -------
@@ -210,8 +215,10 @@ def detect_regions(
     if f > 1:  # a float32 frame is summed into block means in float64, a band of rows at a time
         return _on_reduced(t, valid, f, noise_k=noise_k, pixel_m=pixel_m, min_area_m2=min_area_m2,
                            sound_length_m=sound_length_m, min_contrast_k=min_contrast_k, k_hi=k_hi, k_lo=k_lo,
-                           extent_fraction=extent_fraction, split_plateaus=split_plateaus)
+                           extent_fraction=extent_fraction, split_plateaus=split_plateaus, filled=filled)
     t = t.astype(float, copy=False)
+    if filled is not None:
+        filled = np.asarray(filled, bool) & valid
     t = np.where(valid, t, np.nanmedian(t[valid]) if valid.any() else 0.0)
     if pixel_m is not None and pixel_m > 0:
         line_px = LINE_WIDTH_M / pixel_m
@@ -254,6 +261,8 @@ def detect_regions(
         zs = [_ratio(f, sg * g) for f, sg, g in zip(fields, sig, gains)]
         grown = {sign: _grown(zs, sign, k_hi, k_lo, valid) for sign in (-1, 1)}
         found = (grown[-1][0] > 0) | (grown[1][0] > 0)
+        if filled is not None:
+            found &= ~filled  # a filled area carries no value of its own: it stays in the surface
         if not found.any() or exclude.any():
             break
         exclude = found
@@ -322,9 +331,14 @@ def _on_reduced(t: np.ndarray, valid: np.ndarray, f: int, *, noise_k: float | No
         sums[b0 : b0 + k] = tv.reshape(k, f, nb, f).sum(axis=(1, 3))
     small = sums / np.maximum(cnt, 1.0)
     small_invalid = cnt < 0.5 * f * f
+    filled = settings.pop("filled", None)
+    if filled is not None:  # a block mostly filled is filled
+        fb = np.zeros((mb * f, nb * f))
+        fb[:m, :n] = np.asarray(filled, bool) & valid
+        filled = fb.reshape(mb, f, nb, f).sum(axis=(1, 3)) > 0.5 * np.maximum(cnt, 1.0)
     labels, surface, info = detect_regions(
         small, small_invalid, noise_k=None if noise_k is None else float(noise_k) / f,
-        pixel_m=None if pixel_m is None else pixel_m * f, **settings)
+        pixel_m=None if pixel_m is None else pixel_m * f, filled=filled, **settings)
 
     def up(a: np.ndarray) -> np.ndarray:
         return np.repeat(np.repeat(a, f, axis=0), f, axis=1)[:m, :n]

@@ -23,9 +23,11 @@ pytestmark = pytest.mark.slow
 # What this version does not reach, each explained in docs/validation.md; kept exact: a fix must take its
 # entry out, a regression fails.
 KNOWN_MISSES = {
-    # a stud running behind the radiator: its piece beside the radiator is widened by the filled
-    # emitter and stays a thermal-bridge row of its own beside the framing summary
-    ("con1_timber600_radiator", "framing one anomaly"),
+    # the header over the radiator's warm plume: more than half of the frame is significant, so the
+    # second sound surface leaves out the most significant half (the bay, the header, the plume's
+    # core) and follows the plume's warm fringe below the header into the hole: its reference is
+    # 0.07 K high and its psi about 33 % high (19 % with the first surface)
+    ("con1_timber600_radiator", "lintel psi"),
     # the lintel directly over the window head is taken into the window's warm area (its 0.3 K is
     # the window's rim to the detection) and is not found
     ("con3_facade_bridges", "lintel length"),
