@@ -133,10 +133,14 @@ def main(argv: list[str] | None = None) -> int:
                            "ψ simulated W/(m·K)", "ψ measured", "ψ error"], _sample_rows(args.sample)), ""]
     lines += [
         "### What this version does not reach yet", "",
-        "- **A stud behind a radiator (con1)**: the radiator is filled from the wall around it; the stud",
-        "  running behind it comes out beside the radiator as a piece about 140 mm wide (the member and the",
-        "  fill's edge), more than twice the members' width, so it stays a thermal-bridge row of its own",
-        "  beside the framing summary (two framing rows in that image).",
+        "- **ψ of a header crossed by studs (con1)**: the two studs crossing the timber header belong to",
+        "  the simulated sound wall (its reference over the header is 0.07 K below the wall between the",
+        "  studs), which a smooth sound surface cannot follow; the header's heat takes the studs' share",
+        "  over its height and its ψ reads about a third high (the reference between the studs is within",
+        "  0.01 K).",
+        "- **The stud at the radiator's edge (con1)** comes out beside the radiator as a piece about",
+        "  200 mm wide (the member and the radiator's blurred edge) read as air leakage; below the",
+        "  radiator the two studs are the image's one framing summary.",
         "- **A lintel directly over a window head (con3)**: its 0.3 K lies on the window's rim, and the",
         "  detection takes it into the window's warm area; it is not found (the window itself is reported",
         "  as likely glazing). A lintel with wall between it and the opening is found (con1, sample lf06).",
