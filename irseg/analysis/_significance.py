@@ -194,9 +194,8 @@ def detect_regions(
     split_plateaus : bool
         Keep touching defects with their own plateaus apart.
     filled : (M, N) bool ndarray or None
-        Pixels whose values are filled in from their surroundings, not measured (heat emitters,
-        :mod:`._emitters`): they are never left out of the second sound surface, which would open
-        the hole their fill closes.
+        Pixels filled from their surroundings, not measured (heat emitters, :mod:`._emitters`): never
+        left out of the second sound surface (that would open the hole their fill closes).
 
     Returns
     -------
@@ -217,8 +216,6 @@ def detect_regions(
                            sound_length_m=sound_length_m, min_contrast_k=min_contrast_k, k_hi=k_hi, k_lo=k_lo,
                            extent_fraction=extent_fraction, split_plateaus=split_plateaus, filled=filled)
     t = t.astype(float, copy=False)
-    if filled is not None:
-        filled = np.asarray(filled, bool) & valid
     t = np.where(valid, t, np.nanmedian(t[valid]) if valid.any() else 0.0)
     if pixel_m is not None and pixel_m > 0:
         line_px = LINE_WIDTH_M / pixel_m
@@ -261,8 +258,7 @@ def detect_regions(
         zs = [_ratio(f, sg * g) for f, sg, g in zip(fields, sig, gains)]
         grown = {sign: _grown(zs, sign, k_hi, k_lo, valid) for sign in (-1, 1)}
         found = (grown[-1][0] > 0) | (grown[1][0] > 0)
-        if filled is not None:
-            found &= ~filled  # a filled area carries no value of its own: it stays in the surface
+        found &= True if filled is None else ~np.asarray(filled, bool)  # a fill is no measurement: kept
         if not found.any() or exclude.any():
             break
         exclude = found
