@@ -36,7 +36,6 @@ from __future__ import annotations
 import math
 from dataclasses import replace
 
-import cv2
 import numpy as np
 from scipy import ndimage
 
@@ -44,6 +43,7 @@ from .._shared import robust_sigma
 from ._candidates import Candidate
 from ._framing import BAND_ELONGATION, BAND_MAX_WIDTH_M, is_band
 from ._geometry import MIN_SPOT_PX
+from ._reach import near_sources, within_reach
 from ._reference import Plane, RingReference
 from ._shape import Shape, shape_features
 from ._significance import DetectionInfo
@@ -280,7 +280,7 @@ def join_detections(
         if r.component in multi:
             own_comp &= nearest.labels() == lab
         thermal = np.flatnonzero(own_comp & ~final)
-        thermal = thermal[_within(idx, thermal, info.sound_length_px, shape)]
+        thermal = thermal[within_reach(idx, thermal, info.sound_length_px, shape)]
         # its soft rim: down to a tenth of its peak (the rest of a wide significant component is the
         # sound surface's own misfit summed over many pixels, not the defect's heat)
         thermal = thermal[r.sign * (u.flat[thermal] - with_members.flat[thermal]) >= RIM_FRACTION * abs(r.peak_k)]
@@ -307,40 +307,6 @@ def join_detections(
             out[pos] = replace(m, rim_index=np.concatenate([m.rim_index, add_i]),
                                rim_loss_k=np.concatenate([m.rim_loss_k, add_l]))
     return out, new_host
-
-
-def _within(idx: np.ndarray, pix: np.ndarray, reach_px: float, shape: tuple[int, int]) -> np.ndarray:
-    """Which of the flat pixels ``pix`` lie within ``reach_px`` of the flat pixels ``idx`` (on their bounding box)."""
-    if pix.size == 0:
-        return np.zeros(0, bool)
-    rows, cols = np.divmod(idx, shape[1])
-    pr, pc = np.divmod(pix, shape[1])
-    r0, c0 = int(min(rows.min(), pr.min())), int(min(cols.min(), pc.min()))
-    r1, c1 = int(max(rows.max(), pr.max())) + 1, int(max(cols.max(), pc.max())) + 1
-    # only sources within reach of the pixels' box matter: crop to it (exact; less memory, issue 15)
-    pad = int(math.ceil(reach_px)) + 1
-    r0, c0 = max(r0, int(pr.min()) - pad), max(c0, int(pc.min()) - pad)
-    r1, c1 = min(r1, int(pr.max()) + pad + 1), min(c1, int(pc.max()) + pad + 1)
-    keep = (rows >= r0) & (rows < r1) & (cols >= c0) & (cols < c1)
-    if not keep.any():
-        return np.zeros(pix.size, bool)
-    box = np.ones((r1 - r0, c1 - c0), np.uint8)
-    box[rows[keep] - r0, cols[keep] - c0] = 0
-    return near_sources(box, reach_px)[pr - r0, pc - c0]
-
-
-def near_sources(far: np.ndarray, reach_px: float) -> np.ndarray:
-    """Pixels within ``reach_px`` (Euclidean) of the 0-pixels of the uint8 array ``far``.
-
-    OpenCV's exact Euclidean distance transform (``DIST_MASK_PRECISE``) in float32: 5 bytes a pixel
-    where scipy's transform holds 16 (float64 distances and the nearest pixels' indices; issue 15).
-    A pixel whose distance equals ``reach_px`` to float32 precision may fall either way.
-    """
-    if not far.any():
-        return np.ones(far.shape, bool)
-    if far.all():
-        return np.zeros(far.shape, bool)
-    return cv2.distanceTransform(far, cv2.DIST_L2, cv2.DIST_MASK_PRECISE) <= reach_px
 
 
 def _member_shares(

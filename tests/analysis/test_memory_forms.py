@@ -112,7 +112,7 @@ def test_near_sources_agrees_with_scipys_exact_distance_transform():
     # square roots of integers, where float32 rounding could tip a pixel)
     from scipy import ndimage
 
-    from irseg.analysis._soft import _within, near_sources
+    from irseg.analysis._reach import near_sources, within_reach
 
     rng = np.random.default_rng(5)
     far = (rng.random((90, 130)) > 0.003).astype(np.uint8)
@@ -122,9 +122,9 @@ def test_near_sources_agrees_with_scipys_exact_distance_transform():
         assert np.array_equal(near_sources(far, reach), expected)
     assert near_sources(np.ones((4, 5), np.uint8), 3.0).sum() == 0  # no source: nothing near
     assert near_sources(np.zeros((4, 5), np.uint8), 3.0).all()
-    # _within on flat indices, cropped to the pixels' box, against the whole-frame transform
+    # within_reach on flat indices, cropped to the pixels' box, against the whole-frame transform
     shape = (90, 130)
     idx = np.flatnonzero(far == 0)
     pix = rng.choice(shape[0] * shape[1], 2000, replace=False)
     whole = ndimage.distance_transform_edt(far.astype(bool)).ravel()[pix] <= 11.6
-    assert np.array_equal(_within(idx, pix, 11.6, shape), whole)
+    assert np.array_equal(within_reach(idx, pix, 11.6, shape), whole)
