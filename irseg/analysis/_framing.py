@@ -125,6 +125,8 @@ def find_regular_sets(
             continue
         if width > SET_MAX_WIDTH_FRACTION * mean_gap:  # bays side by side, not members between bays
             continue
+        if not _side_by_side(group, centres, shapes, th, offset):
+            continue
         n_sets += 1
         for j in group:
             line = int(np.argmin(np.abs(centres - offset(shapes[j]))))
@@ -140,6 +142,22 @@ def find_regular_sets(
         if deltas is not None and len(lines) >= 3:
             _drop_colder(found, n_sets, shapes, deltas)
     return found
+
+
+def _side_by_side(group: list[int], centres: np.ndarray, shapes: dict[int, Shape], th: float, offset) -> bool:
+    """Members of a set stand side by side: each line's reach along the common direction overlaps
+    another line's (fragments strung out along one ragged edge, a damp zone's tide line, are no set)."""
+    reach = np.full((centres.size, 2), [np.inf, -np.inf])
+    for j in group:
+        sh = shapes[j]
+        line = int(np.argmin(np.abs(centres - offset(sh))))
+        along = math.cos(th) * sh.centroid_col + math.sin(th) * sh.centroid_row
+        reach[line] = min(reach[line, 0], along - 0.5 * sh.length_px), max(reach[line, 1], along + 0.5 * sh.length_px)
+    for i in range(centres.size):
+        others = np.delete(reach, i, axis=0)
+        if not np.any((others[:, 0] < reach[i, 1]) & (others[:, 1] > reach[i, 0])):
+            return False
+    return True
 
 
 def _regular_spacing(gaps: np.ndarray) -> float | None:
@@ -228,6 +246,10 @@ def find_lines(
             across = sj.length_px * math.sin(tilt) + sj.width_px * math.cos(tilt)
             length = sj.length_px * math.cos(tilt) + sj.width_px * math.sin(tilt)
             if across > WIDTH_RATIO * w:
+                continue
+            # a piece long enough to have its own direction runs along a member's line (two fragments
+            # of a tide line meeting at an angle are no member)
+            if sj.elongation >= LINE_MIN_ELONGATION and math.degrees(tilt) > 2 * PARALLEL_DEG:
                 continue
             if abs(-sin_t * sj.centroid_col + cos_t * sj.centroid_row - off_k) > max(0.5 * w, 1.5):
                 continue
