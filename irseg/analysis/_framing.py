@@ -247,9 +247,10 @@ def find_lines(
             length = sj.length_px * math.cos(tilt) + sj.width_px * math.sin(tilt)
             if across > WIDTH_RATIO * w:
                 continue
-            # a piece long enough to have its own direction runs along a member's line (two fragments
-            # of a tide line meeting at an angle are no member)
-            if sj.elongation >= LINE_MIN_ELONGATION and math.degrees(tilt) > 2 * PARALLEL_DEG:
+            # a piece with a direction of its own (elongated, longer than twice the member's width) runs
+            # along the member's line: two fragments of a tide line meeting at an angle are no member
+            if (sj.elongation >= LINE_MIN_ELONGATION and sj.length_px > WIDTH_RATIO * w
+                    and math.degrees(tilt) > 2 * PARALLEL_DEG):
                 continue
             if abs(-sin_t * sj.centroid_col + cos_t * sj.centroid_row - off_k) > max(0.5 * w, 1.5):
                 continue
