@@ -249,12 +249,13 @@ peak of a blurred disk is read after smoothing.
   shows as warm `unclassified` patches there); its area is 14 % under the median of the three
   frames (0.289 against 0.335 m²). At 320×240 and 640×480 the two agree within 3 %.
 - **Rising damp at NETD 0.1 K, one seed of three (val8, seed 1208)**: the segmentation's outline of
-  the damp zone agrees with the detected one, so it keeps its local-ring measurement; the ring lies
-  on one side only (the tide line), a plane without a vertical slope, while the sound surface below
-  it carries stratification and lens shading: its reference is 0.37 K too warm (the sound surface
-  there is right within 0.03 K). Which of the two to trust when they disagree is not settled: on a
-  bay touching three frame edges the ring is right and the surface wrong by the same amount
-  (`tests/analysis/test_measure.py`).
+  the damp zone (one piece and a fragment of its tide line) agrees with the detected one, so it keeps
+  its local-ring measurement. The ring's sides run down toward the frame's bottom corners, where the
+  lens shading makes the sound wall 0.5–0.6 K warmer than below the middle of the zone; a plane
+  cannot follow that curve, and its level and its downward slope (+0.009 K/px) put the reference
+  0.37 K too warm (the sound surface, which carries the shading, is right there within 0.03 K). Which
+  of the two to trust when they disagree is not settled: on a bay touching three frame edges the ring
+  is right and the surface wrong by the same amount (`tests/analysis/test_measure.py`).
 
 ## Simulation settings
 
