@@ -181,6 +181,7 @@ def linear_figures(
 
 
 STRAIGHT_REACH_M = 0.6  # a straight band's cross-profile is read at most this far to each side
+STRAIGHT_CUT = 0.10  # ... unless the frame cuts the nearer side while it falls by more than this share of the peak over the band's half-width
 _SMOOTH_PX = 5  # running median of the cross-profile when looking for where it meets the sound level
 
 
@@ -214,7 +215,8 @@ def straight_band_loss(temperature_c: np.ndarray, shape: Shape, span: tuple[int,
     excess is taken against the straight line between the temperatures there at both ends (the
     mean of :data:`_FAR_PX` pixels each), so a member crossing the band (a stud through a header)
     is its own plane there and adds nothing, and a wall's linear gradient cancels. None when the
-    band is oblique, too short or the profile too narrow.
+    band is oblique, too short, the profile too narrow, or the frame cuts a side before the profile
+    met the sound level there (no plane wall in view on that side).
     """
     if pixel_m is None:
         return None
@@ -239,7 +241,14 @@ def straight_band_loss(temperature_c: np.ndarray, shape: Shape, span: tuple[int,
     window = prof[max(k - half, 0):k + half + 1]
     peak_at = max(k - half, 0) + int(np.argmax(window))
     amp = float(prof[peak_at] - prof.min())
-    d = min(_side_end(prof[peak_at:], half, noise, amp), _side_end(prof[peak_at::-1], half, noise, amp))
+    d_right, d_left = _side_end(prof[peak_at:], half, noise, amp), _side_end(prof[peak_at::-1], half, noise, amp)
+    d = min(d_right, d_left)
+    cut_right, cut_left = d_right == prof.size - 1 - peak_at and hi_c < c0 + reach, d_left == peak_at and lo_c > c0 - reach
+    if (cut_right and d == d_right) or (cut_left and d == d_left):
+        side = prof[peak_at:] if d == d_right else prof[peak_at::-1]
+        smooth = ndimage.median_filter(side, size=_SMOOTH_PX, mode="nearest")
+        if smooth[-1 - half] - smooth[-1] > STRAIGHT_CUT * (smooth[0] - smooth[-1]):
+            return None  # the frame cuts the nearer side while it still falls: no plane wall in view there
     right, left = peak_at + d, peak_at - d
     if right - left < 2 * _FAR_PX + 2:
         return None

@@ -318,3 +318,16 @@ def test_psi_of_a_slab_edge_counts_its_tails():
     res = _run(t, d, surface={"view": "exterior"})
     (a,) = [x for x in res.anomalies if x.cause == "thermal_bridge"]
     assert a.psi_w_mk == pytest.approx(res.h_w_m2k * 2 * 1.0 * 0.04 / 20.0, rel=0.10)
+
+
+def test_a_band_whose_profile_the_frame_cuts_is_not_read_against_a_plane_wall():
+    from dataclasses import replace
+
+    from irseg.analysis._bridges import straight_band_loss
+
+    # the band 0.10 m from the frame's top edge, its tail (λ = 0.05 m) still falling there: no plane
+    # wall in view on that side, so no cross-profile figure (common practice: a reference needs sound
+    # surface on both sides)
+    t = np.roll(_slab_edge(), -70, axis=0)
+    assert straight_band_loss(t, replace(_band_shape(), centroid_row=10.0), (0, 239), loss_sign=-1.0,
+                              pixel_m=PIXEL_M) is None
