@@ -8,7 +8,11 @@ area anomaly gets (``h·Σ|T − T_ref|·A_px`` over its thermal region, :mod:`.
 
     ψ = Q_extra / (L · (T_i − T_e)),
 
-with ``L`` the length of the band seen in the image. Its 5-95 % band comes from the same
+with ``L`` the length of the band seen in the image. A straight band (a slab edge, a lintel, a
+header, a junction along the rows or columns) spreads its extra heat beyond its half-peak rim,
+where the local sound surface follows it, so its extra heat is its whole cross-profile against
+the plane wall on both sides, read position by position along it (:func:`straight_band_loss`).
+Its 5-95 % band comes from the same
 Monte Carlo draws as the heat band (:func:`._confidence.psi_band`). A framing summary adds
 the members' lengths and heats, so its ψ is the length-weighted mean of its members'.
 
@@ -38,7 +42,8 @@ from ._geometry import tilt_factor
 from ._shape import Shape
 
 __all__ = ["LINEAR_CAUSE", "band_length_m", "linear_figures", "GeometricProfile", "geometric_profile",
-           "GEOMETRIC_SPAN", "GEOMETRIC_REACH_M", "GEOMETRIC_SYMMETRY", "GEOMETRIC_SHOULDER", "GEOMETRIC_TAIL"]
+           "GEOMETRIC_SPAN", "GEOMETRIC_REACH_M",
+           "straight_band_loss", "STRAIGHT_REACH_M", "GEOMETRIC_SYMMETRY", "GEOMETRIC_SHOULDER", "GEOMETRIC_TAIL"]
 
 #: The cause whose anomalies are measured per metre (linear thermal bridges and framing).
 LINEAR_CAUSE = "thermal_bridge"
@@ -173,3 +178,84 @@ def linear_figures(
     lo, hi = psi_band(bands, seed=seed, anomaly_id=anomaly_id, psi_w_mk=psi, length_m=length,
                       delta_air_k=delta_air_k)
     return length, psi, lo, hi
+
+
+STRAIGHT_REACH_M = 0.6  # a straight band's cross-profile is read at most this far to each side
+STRAIGHT_CUT = 0.10  # ... unless the frame cuts the nearer side while it falls by more than this share of the peak over the band's half-width
+_SMOOTH_PX = 5  # running median of the cross-profile when looking for where it meets the sound level
+
+
+def _side_end(p: np.ndarray, start: int, noise: float, peak: float) -> int:
+    """Index (from the peak, along ``p``) where one side of a loss profile meets the sound level.
+
+    Beyond ``start``, the low point of the smoothed profile before it rises again by more than a
+    tenth of the peak and three times the noise (the next feature begins); else the far end.
+    """
+    smooth = ndimage.median_filter(p, size=_SMOOTH_PX, mode="nearest")
+    tol = max(_BUMP * peak, 3.0 * noise)
+    low, end = math.inf, p.size - 1
+    for i in range(start, p.size):
+        if smooth[i] < low:
+            low, end = smooth[i], i
+        elif smooth[i] > low + tol:
+            return end
+    return p.size - 1
+
+
+def straight_band_loss(temperature_c: np.ndarray, shape: Shape, span: tuple[int, int], *, loss_sign: float,
+                       pixel_m: float | None) -> float | None:
+    """Loss sum (K·px) of a straight band over its whole cross-profile, against the plane wall on both sides.
+
+    The band runs along the image's rows or columns (within 10°) over ``span`` (first and last
+    index along it). Its cross-profile (the median over the band's length, peak within half its
+    width of its line) is read out to where it meets the sound level (:func:`_side_end`), as far on
+    both sides as on the nearer one: a bridge in a uniform wall conducts about alike to both sides,
+    and a one-sided trend (a heater's warmth, the next feature, the frame) stays out of the
+    baseline. At most :data:`STRAIGHT_REACH_M` to each side. At every position along the band the
+    excess is taken against the straight line between the temperatures there at both ends (the
+    mean of :data:`_FAR_PX` pixels each), so a member crossing the band (a stud through a header)
+    is its own plane there and adds nothing, and a wall's linear gradient cancels. None when the
+    band is oblique, too short, the profile too narrow, or the frame cuts a side before the profile
+    met the sound level there (no plane wall in view on that side).
+    """
+    if pixel_m is None:
+        return None
+    o = shape.orientation_deg % 180.0
+    if abs(o - 90.0) <= GEOMETRIC_AXIS_DEG:
+        arr, centre = np.asarray(temperature_c, float), shape.centroid_col
+    elif min(o, 180.0 - o) <= GEOMETRIC_AXIS_DEG:
+        arr, centre = np.asarray(temperature_c, float).T, shape.centroid_row
+    else:
+        return None
+    n_across = arr.shape[1]
+    c0 = int(round(centre))
+    reach = int(round(STRAIGHT_REACH_M / pixel_m))
+    lo_c, hi_c = max(c0 - reach, 0), min(c0 + reach, n_across - 1)
+    block = arr[span[0]:span[1] + 1, lo_c:hi_c + 1]
+    if block.shape[0] < 3 or not np.all(np.isfinite(block)):
+        return None
+    prof = loss_sign * -np.median(block, axis=0)
+    noise = 1.4826 * float(np.median(np.abs(np.diff(prof) - np.median(np.diff(prof))))) / math.sqrt(2.0)
+    k = c0 - lo_c
+    half = max(1, int(round(0.5 * shape.width_px)))
+    window = prof[max(k - half, 0):k + half + 1]
+    peak_at = max(k - half, 0) + int(np.argmax(window))
+    amp = float(prof[peak_at] - prof.min())
+    d_right, d_left = _side_end(prof[peak_at:], half, noise, amp), _side_end(prof[peak_at::-1], half, noise, amp)
+    d = min(d_right, d_left)
+    cut_right, cut_left = d_right == prof.size - 1 - peak_at and hi_c < c0 + reach, d_left == peak_at and lo_c > c0 - reach
+    if (cut_right and d == d_right) or (cut_left and d == d_left):
+        side = prof[peak_at:] if d == d_right else prof[peak_at::-1]
+        smooth = ndimage.median_filter(side, size=_SMOOTH_PX, mode="nearest")
+        if smooth[-1 - half] - smooth[-1] > STRAIGHT_CUT * (smooth[0] - smooth[-1]):
+            return None  # the frame cuts the nearer side while it still falls: no plane wall in view there
+    right, left = peak_at + d, peak_at - d
+    if right - left < 2 * _FAR_PX + 2:
+        return None
+    sub = block[:, left:right + 1]
+    a = sub[:, :_FAR_PX].mean(axis=1, keepdims=True)
+    b = sub[:, -_FAR_PX:].mean(axis=1, keepdims=True)
+    x_a, x_b = 0.5 * (_FAR_PX - 1), sub.shape[1] - 1 - 0.5 * (_FAR_PX - 1)  # the far ends' centres
+    t = (np.arange(sub.shape[1])[None, :] - x_a) / (x_b - x_a)
+    base = a + (b - a) * t
+    return float(loss_sign * (base - sub)[:, _FAR_PX:-_FAR_PX].sum())

@@ -11,7 +11,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ..types import SurveyMeta
-from ._bridges import GeometricProfile, geometric_profile, linear_figures
+from ._bridges import GeometricProfile, geometric_profile, linear_figures, straight_band_loss
 from ._classify import GEOMETRIC_REASON, GLAZING_REASON, classify_cause, framing_summary_reason
 from ._confidence import BandInputs, confidence_bands
 from ._framing import LineInfo
@@ -182,6 +182,15 @@ def _pane(main: Measured, px: _UnitPixels, ctx: ImageContext) -> tuple[float, fl
     return profile if is_framed_pane(profile, rect_fill=main.shape.rect_fill) else None
 
 
+def _straight_band(px: _UnitPixels, main: Measured, ctx: ImageContext) -> _UnitPixels:
+    """``px`` with the loss sum of a straight band's whole cross-profile (:func:`._bridges.straight_band_loss`)."""
+    horizontal = abs(main.shape.orientation_deg % 180.0 - 90.0) > 45.0
+    along = px.cols if horizontal else px.rows
+    loss = straight_band_loss(ctx.temperature_c, main.shape, (int(along.min()), int(along.max())),
+                              loss_sign=1.0 if ctx.meta.surface.view == "interior" else -1.0, pixel_m=ctx.pixel_m)
+    return px if loss is None or loss <= 0 else replace(px, loss_sum_kpx=loss)
+
+
 def _frame_contact(rows: np.ndarray, cols: np.ndarray, n_rows: int) -> dict[str, float]:
     """Share of the anomaly's columns in which it reaches the frame's top and bottom rows."""
     width = int(np.unique(cols).size)
@@ -229,6 +238,8 @@ def anomaly_record(
             px = replace(px, loss_sum_kpx=geometric.loss_sum_kpx)
         else:
             geometric = None
+            if cause == "thermal_bridge" and not any(m.cand.label in sets for m in unit):
+                px = _straight_band(px, main, ctx)
     if px.rows.min() == 0 or px.cols.min() == 0 or px.rows.max() == n_rows - 1 or px.cols.max() == n_cols - 1:
         reason += f"; {EDGE_NOTE}"
     px_area = ctx.pixel_area_m2

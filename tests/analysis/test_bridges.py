@@ -244,3 +244,90 @@ def test_a_geometric_profile_wins_over_the_missing_insulation_rule():
     assert classify_cause(wide, **kw)[0] == "missing_insulation"
     cause, reason = classify_cause(wide, geometric=GeometricProfile((0.25, 0.3), 0.8, 1000.0), **kw)
     assert cause == "thermal_bridge" and GEOMETRIC_REASON in reason
+
+
+def _band_shape(width_px=10):
+    from irseg.analysis._shape import Shape
+
+    return Shape(area_px=240 * width_px, perimeter_px=500, length_px=240.0, width_px=float(width_px),
+                 elongation=240.0 / width_px, rect_fill=0.95, solidity=0.95, orientation_deg=0.0,
+                 centroid_row=80.0, centroid_col=119.5, transition_px=6.0, nonuniformity=0.1, taper=1.0)
+
+
+def _slab_edge(lam_m=0.05, peak_k=1.0, gradient_k_px=0.0):
+    # a horizontal bridge from outside (warm) with exponential tails A·exp(−|y|/λ) on a wall with a
+    # linear gradient up the frame
+    rows = np.arange(160, dtype=float)[:, None]
+    t = 2.0 + gradient_k_px * rows + peak_k * np.exp(-np.abs(rows - 80.0) * PIXEL_M / lam_m)
+    return np.tile(t, (1, 240))
+
+
+def test_a_straight_band_counts_its_whole_cross_profile_against_the_plane_wall():
+    from irseg.analysis._bridges import straight_band_loss
+
+    # Σ_y A·exp(−|y|·p/λ) over the read, the far ends as the plane wall (their excess, e^{-0.6/0.05}, is
+    # nil): the extra heat of the bridge over the 1-D flow of the wall, ISO 14683 / ISO 10211's
+    # meaning of ψ [from memory]; the sum is exact [C: geometric series]
+    y = np.arange(-56, 57)
+    exact = 240 * float(np.exp(-np.abs(y) * PIXEL_M / 0.05).sum())
+    got = straight_band_loss(_slab_edge(), _band_shape(), (0, 239), loss_sign=-1.0, pixel_m=PIXEL_M)
+    assert got == pytest.approx(exact, rel=0.01)
+    # a wall's linear gradient (0.3 K/m, a room's stratification: common practice) is the plane
+    # wall's own: the straight baseline cancels it [C: physics]
+    tilted = straight_band_loss(_slab_edge(gradient_k_px=0.003), _band_shape(), (0, 239), loss_sign=-1.0,
+                                pixel_m=PIXEL_M)
+    assert tilted == pytest.approx(exact, rel=0.01)
+    # the half-peak band alone holds far less: A·2·λ·ln2 of the 2·A·λ (ln 2 ≈ 0.69) [C: physics]
+    half = 240 * float(np.exp(-np.abs(np.arange(-3, 4)) * PIXEL_M / 0.05).sum())
+    assert half < 0.75 * got
+    assert straight_band_loss(_slab_edge(), _band_shape(), (0, 239), loss_sign=-1.0, pixel_m=None) is None
+
+
+def test_a_member_crossing_the_band_is_its_own_plane_and_adds_nothing():
+    from irseg.analysis._bridges import straight_band_loss
+
+    # a timber header crossed by a stud: where the stud runs, the header is no colder than the stud
+    # (same timber), so the extra heat over the stud's columns is nil [C: physics]
+    t = 18.5 - _slab_edge() + 2.0  # from inside: a cold band
+    stud = np.zeros(t.shape, bool)
+    stud[:, 100:110] = True
+    t[stud] = 18.5 - 1.0
+    whole = straight_band_loss(18.5 - _slab_edge() + 2.0, _band_shape(), (0, 239), loss_sign=1.0, pixel_m=PIXEL_M)
+    crossed = straight_band_loss(t, _band_shape(), (0, 239), loss_sign=1.0, pixel_m=PIXEL_M)
+    assert crossed == pytest.approx(whole * 230 / 240, rel=0.01)
+
+
+def test_the_cross_profile_stops_where_the_next_feature_begins():
+    from irseg.analysis._bridges import straight_band_loss
+
+    # a second warm band 0.30 m below the bridge (a window head): the read stops at the wall between
+    # the two, as far on both sides, so the neighbour's heat is not the bridge's [C: physics]
+    t = _slab_edge()
+    rows = np.arange(160, dtype=float)[:, None]
+    t = t + 1.0 * np.exp(-np.abs(rows - 110.0) * PIXEL_M / 0.03)
+    got = straight_band_loss(t, _band_shape(), (0, 239), loss_sign=-1.0, pixel_m=PIXEL_M)
+    alone = straight_band_loss(_slab_edge(), _band_shape(), (0, 239), loss_sign=-1.0, pixel_m=PIXEL_M)
+    assert 0.8 * alone < got < 1.05 * alone
+
+
+def test_psi_of_a_slab_edge_counts_its_tails():
+    # end to end from outside: ψ = h·∫ΔT dy / (T_i − T_e) = h·2·A·λ / ΔT_air, the whole tail [C: physics]
+    t = _slab_edge(lam_m=0.04, peak_k=1.0)
+    d = np.zeros(t.shape, int)
+    d[77:84, :] = 1
+    res = _run(t, d, surface={"view": "exterior"})
+    (a,) = [x for x in res.anomalies if x.cause == "thermal_bridge"]
+    assert a.psi_w_mk == pytest.approx(res.h_w_m2k * 2 * 1.0 * 0.04 / 20.0, rel=0.10)
+
+
+def test_a_band_whose_profile_the_frame_cuts_is_not_read_against_a_plane_wall():
+    from dataclasses import replace
+
+    from irseg.analysis._bridges import straight_band_loss
+
+    # the band 0.10 m from the frame's top edge, its tail (λ = 0.05 m) still falling there: no plane
+    # wall in view on that side, so no cross-profile figure (common practice: a reference needs sound
+    # surface on both sides)
+    t = np.roll(_slab_edge(), -70, axis=0)
+    assert straight_band_loss(t, replace(_band_shape(), centroid_row=10.0), (0, 239), loss_sign=-1.0,
+                              pixel_m=PIXEL_M) is None
