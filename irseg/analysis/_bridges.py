@@ -246,6 +246,8 @@ def straight_band_loss(temperature_c: np.ndarray, shape: Shape, span: tuple[int,
     cut_right, cut_left = d_right == prof.size - 1 - peak_at and hi_c < c0 + reach, d_left == peak_at and lo_c > c0 - reach
     if (cut_right and d == d_right) or (cut_left and d == d_left):
         side = prof[peak_at:] if d == d_right else prof[peak_at::-1]
+        if side.size <= half + 1:
+            return None  # the band lies on the frame's edge: no plane wall in view on that side
         smooth = ndimage.median_filter(side, size=_SMOOTH_PX, mode="nearest")
         if smooth[-1 - half] - smooth[-1] > STRAIGHT_CUT * (smooth[0] - smooth[-1]):
             return None  # the frame cuts the nearer side while it still falls: no plane wall in view there

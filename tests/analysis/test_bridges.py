@@ -331,3 +331,17 @@ def test_a_band_whose_profile_the_frame_cuts_is_not_read_against_a_plane_wall():
     t = np.roll(_slab_edge(), -70, axis=0)
     assert straight_band_loss(t, replace(_band_shape(), centroid_row=10.0), (0, 239), loss_sign=-1.0,
                               pixel_m=PIXEL_M) is None
+
+
+
+@pytest.mark.parametrize("row", [0.0, 1.0, 2.0, 158.0, 159.0])
+def test_a_band_on_the_frame_edge_has_no_cross_profile_figure(row):
+    # the band's centre within its half width of the frame's edge: nothing beyond it is in view (an
+    # IndexError on a registration test's image before the fix); no plane wall on that side, no figure
+    from dataclasses import replace
+
+    from irseg.analysis._bridges import straight_band_loss
+
+    t = np.roll(_slab_edge(), int(row) - 80, axis=0)
+    assert straight_band_loss(t, replace(_band_shape(), centroid_row=row), (0, 239), loss_sign=-1.0,
+                              pixel_m=PIXEL_M) is None
