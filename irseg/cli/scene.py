@@ -46,8 +46,16 @@ def sample_cmd(out: Path) -> None:
     truth.json, truth_masks.npz) into OUT. Seeded: the files are identical every time."""
     from irseg.scenes import make_sample_survey
 
-    records = make_sample_survey(out, on_image=lambda stem: click.echo(f"wrote {stem}", err=True))
-    click.echo(f"{len(records)} images with survey.toml and truth.json in {out}")
+    written: list[str] = []
+
+    def _wrote(stem: str) -> None:
+        written.append(stem)
+        click.echo(f"wrote {stem}", err=True)
+
+    records = make_sample_survey(out, on_image=_wrote)
+    pair = len(written) - len(records)  # the pair under a pressure difference, with its own truth file
+    extra = f", {pair} of them a pair under pressure with pair_truth.json" if pair > 0 else ""
+    click.echo(f"{len(written)} images with survey.toml and truth.json{extra} in {out}")
 
 
 @scene_cmd.command("make", short_help="Simulate one scene and write it with its sidecar and truth.")

@@ -288,7 +288,10 @@ def make_sample_survey(directory: str | os.PathLike[str], *, recipes: tuple[Imag
     if recipes is SAMPLE_RECIPES:  # the pair under a pressure difference (irseg.scenes._pairs; issue 16)
         from irseg.scenes._pairs import export_sample_pair
 
-        export_sample_pair(d)
+        pair = export_sample_pair(d)
+        if on_image is not None:
+            on_image(str(pair["reference"]))
+            on_image(Path(str(pair["image"])).stem)
     return records
 
 

@@ -94,8 +94,12 @@ def test_module_entry_point_reports_an_error_in_one_line(tmp_path):
 
 @pytest.mark.slow
 def test_whole_sample_survey_remakes_byte_identical(tmp_path):
-    make_sample_survey(tmp_path)
+    reported: list[str] = []
+    make_sample_survey(tmp_path, on_image=reported.append)
     made = sorted(p.name for p in tmp_path.iterdir())
+    # every image written is reported once (the pair under pressure included): the command's count
+    images = sorted(p.stem for p in tmp_path.iterdir() if p.suffix in {".tiff", ".tif", ".png", ".csv", ".npy"})
+    assert sorted(reported) == images and len(images) == 10
     bundled = sorted(p.name for p in BUNDLED.iterdir())
     assert made == bundled
     for name in made:
