@@ -84,6 +84,19 @@ def _side(p: np.ndarray, peak: float, noise: float) -> float | None:
     return float(h)
 
 
+def _along_rows(temperature_c: np.ndarray, shape: Shape) -> tuple[np.ndarray, float] | None:
+    """The frame oriented so that the band runs down its rows (a view, no copy), and the band's line.
+
+    None when the band is oblique (more than :data:`GEOMETRIC_AXIS_DEG` off the image's axes).
+    """
+    o = shape.orientation_deg % 180.0
+    if abs(o - 90.0) <= GEOMETRIC_AXIS_DEG:
+        return np.asarray(temperature_c), shape.centroid_col
+    if min(o, 180.0 - o) <= GEOMETRIC_AXIS_DEG:
+        return np.asarray(temperature_c).T, shape.centroid_row
+    return None
+
+
 def geometric_profile(temperature_c: np.ndarray, shape: Shape, *, loss_sign: float,
                       pixel_m: float | None) -> GeometricProfile | None:
     """The cross-profile of a band if it is a geometric bridge (module docstring), else None.
@@ -92,15 +105,10 @@ def geometric_profile(temperature_c: np.ndarray, shape: Shape, *, loss_sign: flo
     The profile is the median over the band's middle 90 % of the temperatures at each distance from
     its line, its loss-signed contrast taken against the straight line between its far ends.
     """
-    if pixel_m is None:
+    oriented = None if pixel_m is None else _along_rows(temperature_c, shape)
+    if oriented is None:
         return None
-    o = shape.orientation_deg % 180.0
-    if abs(o - 90.0) <= GEOMETRIC_AXIS_DEG:
-        arr, centre = np.asarray(temperature_c, float), shape.centroid_col
-    elif min(o, 180.0 - o) <= GEOMETRIC_AXIS_DEG:
-        arr, centre = np.asarray(temperature_c, float).T, shape.centroid_row
-    else:
-        return None
+    arr, centre = oriented
     n_along, n_across = arr.shape
     if shape.length_px < GEOMETRIC_SPAN * n_along:
         return None
@@ -110,7 +118,7 @@ def geometric_profile(temperature_c: np.ndarray, shape: Shape, *, loss_sign: flo
     if reach * pixel_m < 0.5 * GEOMETRIC_REACH_M:
         return None
     cut = int(0.05 * n_along)
-    block = arr[cut:n_along - cut, c0 - reach:c0 + reach + 1]
+    block = np.asarray(arr[cut:n_along - cut, c0 - reach:c0 + reach + 1], float)
     if not np.all(np.isfinite(block)):
         block = np.where(np.isfinite(block), block, np.nanmedian(block))
     prof = np.median(block, axis=0)
@@ -218,20 +226,15 @@ def straight_band_loss(temperature_c: np.ndarray, shape: Shape, span: tuple[int,
     band is oblique, too short, the profile too narrow, or the frame cuts a side before the profile
     met the sound level there (no plane wall in view on that side).
     """
-    if pixel_m is None:
+    oriented = None if pixel_m is None else _along_rows(temperature_c, shape)
+    if oriented is None:
         return None
-    o = shape.orientation_deg % 180.0
-    if abs(o - 90.0) <= GEOMETRIC_AXIS_DEG:
-        arr, centre = np.asarray(temperature_c, float), shape.centroid_col
-    elif min(o, 180.0 - o) <= GEOMETRIC_AXIS_DEG:
-        arr, centre = np.asarray(temperature_c, float).T, shape.centroid_row
-    else:
-        return None
+    arr, centre = oriented
     n_across = arr.shape[1]
     c0 = int(round(centre))
     reach = int(round(STRAIGHT_REACH_M / pixel_m))
     lo_c, hi_c = max(c0 - reach, 0), min(c0 + reach, n_across - 1)
-    block = arr[span[0]:span[1] + 1, lo_c:hi_c + 1]
+    block = np.asarray(arr[span[0]:span[1] + 1, lo_c:hi_c + 1], float)
     if block.shape[0] < 3 or not np.all(np.isfinite(block)):
         return None
     prof = loss_sign * -np.median(block, axis=0)

@@ -28,7 +28,7 @@ from __future__ import annotations
 import numpy as np
 
 from irseg.errors import ConfigError
-from irseg.scenes._defects import Defect
+from irseg.scenes._defects import Defect, _grid, _smoothstep
 from irseg.scenes._elements import Block, Element
 from irseg.scenes._materials import Material
 
@@ -41,16 +41,6 @@ _R_SI, _R_SE = 0.13, 0.04  # m²K/W, ISO 6946:2017 table 7 (horizontal heat flow
 #: Cause the analysis must give an emitter (the vocabulary's "not judged").
 EMITTER_CAUSE = "unclassified"
 _PLUME_REGION_K = 0.5  # the plume belongs to the emitter's region where it warms the air this much
-
-
-def _grid(element: Element) -> tuple[np.ndarray, np.ndarray]:
-    c = element.cell_m
-    return (np.arange(element.ny) + 0.5)[:, None] * c, (np.arange(element.nx) + 0.5)[None, :] * c
-
-
-def _smoothstep(v):
-    v = np.clip(v, 0.0, 1.0)
-    return v * v * (3.0 - 2.0 * v)
 
 
 def _check_box(element: Element, x0: float, x1: float, y0: float, y1: float, what: str) -> None:

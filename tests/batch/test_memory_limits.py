@@ -26,6 +26,7 @@ from irseg.render import MAX_DISPLAY_SIDE, overlay_layout, render_overlay
 from irseg.segmentation import segment
 from irseg.segmentation._operators import Workspace, apply_weighted_laplacian, gradient_sq
 from irseg.segmentation._regions import _valley
+from tests.support.at_images import whole_weighted_laplacian
 
 # ----------------------------------------------------------------------------- item 15
 
@@ -167,17 +168,6 @@ def test_image_pixels_reads_headers(tmp_path):
 # ----------------------------------------------------------------------------- item 20: same bits
 
 
-def _weighted_laplacian_whole(x, cx, cy, diag):
-    out = x * diag
-    dx = (x[:, 1:] - x[:, :-1]) * cx
-    out[:, :-1] -= dx
-    out[:, 1:] += dx
-    dy = (x[1:, :] - x[:-1, :]) * cy
-    out[:-1, :] -= dy
-    out[1:, :] += dy
-    return out
-
-
 @pytest.mark.parametrize("rows", [2, 63, 64, 65, 128, 129, 200])
 def test_blockwise_operators_give_the_whole_frame_bits(rows):
     rng = np.random.default_rng(rows)
@@ -189,9 +179,9 @@ def test_blockwise_operators_give_the_whole_frame_bits(rows):
     ws = Workspace.for_shape((rows, n), np.dtype(np.float32))
     out = np.empty_like(x)
     apply_weighted_laplacian(x, cx, cy, diag, out, ws)
-    np.testing.assert_array_equal(out, _weighted_laplacian_whole(x, cx, cy, diag))
+    np.testing.assert_array_equal(out, whole_weighted_laplacian(x, cx, cy, diag))
     apply_weighted_laplacian(x, cx, cy, np.float32(0.25), out, ws)  # a scalar diagonal
-    np.testing.assert_array_equal(out, _weighted_laplacian_whole(x, cx, cy, np.float32(0.25)))
+    np.testing.assert_array_equal(out, whole_weighted_laplacian(x, cx, cy, np.float32(0.25)))
     g2 = np.empty_like(x)
     gradient_sq(x, g2, ws)
     whole = np.zeros_like(x)

@@ -26,18 +26,7 @@ from irseg.segmentation._operators import (
     phase_diagonal,
     times_data_weights,
 )
-
-
-def _whole_operator(x, cx, cy, diag):
-    """``diag x + Dx^T (cx Dx x) + Dy^T (cy Dy x)``, whole frame."""
-    out = x * diag
-    dx = (x[:, 1:] - x[:, :-1]) * cx
-    out[:, :-1] -= dx
-    out[:, 1:] += dx
-    dy = (x[1:, :] - x[:-1, :]) * cy
-    out[:-1, :] -= dy
-    out[1:, :] += dy
-    return out
+from tests.support.at_images import whole_weighted_laplacian
 
 
 @pytest.mark.parametrize("chunk", [1, 2, 7, 64])
@@ -54,7 +43,7 @@ def test_edge_and_data_weights_formed_by_blocks_give_the_whole_frame_bits(monkey
     ws = Workspace.for_shape((m, n), np.dtype(np.float32))
     out = np.empty_like(x)
     apply_weighted_laplacian(x, PhaseWeights(v, eta), None, DataWeights(w, beta), out, ws)
-    np.testing.assert_array_equal(out, _whole_operator(x, c[:, :-1], c[:-1, :], bw))
+    np.testing.assert_array_equal(out, whole_weighted_laplacian(x, c[:, :-1], c[:-1, :], bw))
     diag = np.empty_like(x)
     phase_diagonal(DataWeights(w, beta), PhaseWeights(v, eta), diag, ws)
     whole = bw.copy()

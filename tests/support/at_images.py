@@ -21,3 +21,16 @@ def region_of(labels: np.ndarray, truth: np.ndarray) -> np.ndarray:
     """The segmented region holding most of ``truth``."""
     k = np.bincount(labels[truth].ravel()).argmax()
     return labels == k
+
+
+def whole_weighted_laplacian(x, cx, cy, diag):
+    """``diag x + Dx^T (cx Dx x) + Dy^T (cy Dy x)`` on the whole frame at once: the plain form that the
+    block-wise solver operators must reproduce bit for bit (forward differences, their transposes)."""
+    out = x * diag
+    dx = (x[:, 1:] - x[:, :-1]) * cx
+    out[:, :-1] -= dx
+    out[:, 1:] += dx
+    dy = (x[1:, :] - x[:-1, :]) * cy
+    out[:-1, :] -= dy
+    out[1:, :] += dy
+    return out
