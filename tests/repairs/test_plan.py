@@ -147,3 +147,55 @@ def test_rows_have_the_interface_columns():
     assert all(tuple(row) == REPAIR_COLUMNS for row in rows)
     assert REPAIR_COLUMNS[:8] == ("rank", "uid", "image", "title", "element", "cause", "quantity", "unit")
     assert {row["unit"] for row in rows} <= {"m2", "m", "item"}
+
+
+def test_the_reports_element_table_shows_metres_and_items_beside_square_metres():
+    """Bridges count by length and air leaks by item: the report's totals per element show all three."""
+    from html.parser import HTMLParser
+
+    from irseg.repairs import plan_to_json
+    from irseg.report import render_report
+
+    bridge = WithLength(image="wall.tif", anomaly=7, uid="wall#7", cause="thermal_bridge", rank=5, area_m2=0.3,
+                        excess_kwh_year=12.0, length_m=2.35, element="north wall",
+                        reason="straight warm band: slab edge")
+    plan = repair_plan([*_survey(), bridge], COSTS)
+    summary = {"irseg_version": "0.1.0", "images": [], "totals_by_cause": {}, "anomalies": [],
+               "repairs": plan_to_json(plan)}
+
+    class Cells(HTMLParser):
+        def __init__(self):
+            super().__init__()
+            self.rows, self.inside, self.cell = [], False, None
+
+        def handle_starttag(self, tag, attrs):
+            if tag == "table":
+                self.inside = dict(attrs).get("id") == "repair-totals"
+            elif self.inside and tag == "tr":
+                self.rows.append([])
+            elif self.inside and tag in ("td", "th"):
+                self.cell = []
+
+        def handle_endtag(self, tag):
+            if tag == "table":
+                self.inside = False
+            elif self.inside and tag in ("td", "th") and self.cell is not None:
+                self.rows[-1].append(" ".join("".join(self.cell).split()))
+                self.cell = None
+
+        def handle_data(self, data):
+            if self.cell is not None:
+                self.cell.append(data)
+
+    parser = Cells()
+    parser.feed(render_report(summary, {}))
+    header, *body = parser.rows
+    col = {name: k for k, name in enumerate(header)}
+    assert "Length (m)" in col and "Area (m²)" in col
+    north = next(r for r in body if r[0] == "north wall")
+    # [C] issue 17: a bridge with a measured length counts its length; wall#3 has none (area, unpriced)
+    assert north[col["Length (m)"]] == "2.35"
+    assert north[col["Area (m²)"]] == f"{2.0 * 1.2 + 0.25 * 1.2:.2f}"
+    assert north[col["Counted (each)"]] == "1"  # wall#2, the air leak
+    survey = next(r for r in body if r[0] == "Survey")
+    assert survey[col["Length (m)"]] == "2.35"
