@@ -180,7 +180,7 @@ def test_the_reports_element_table_shows_metres_and_items_beside_square_metres()
             if tag == "table":
                 self.inside = False
             elif self.inside and tag in ("td", "th") and self.cell is not None:
-                self.rows[-1].append(" ".join("".join(self.cell).split()))
+                self.rows[-1].append(" ".join(" ".join(self.cell).split()))
                 self.cell = None
 
         def handle_data(self, data):
@@ -196,6 +196,6 @@ def test_the_reports_element_table_shows_metres_and_items_beside_square_metres()
     # [C] issue 17: a bridge with a measured length counts its length; wall#3 has none (area, unpriced)
     assert north[col["Length (m)"]] == "2.35"
     assert north[col["Area (m²)"]] == f"{2.0 * 1.2 + 0.25 * 1.2:.2f}"
-    assert north[col["Leaksitems"]] == "1"  # wall#2, the air leak
+    assert north[col["Leaks items"]] == "1"  # wall#2, the air leak
     survey = next(r for r in body if r[0] == "Survey")
     assert survey[col["Length (m)"]] == "2.35"
