@@ -34,6 +34,7 @@ import numpy as np
 from irseg.scenes._camera import CameraModel
 from irseg.scenes._construction import truth_psi
 from irseg.scenes._corner import CORNER_NAME, CORNER_VIEW_DEG
+from irseg.scenes._junction import JUNCTION_NAME
 from irseg.scenes._survey import ImageRecipe
 from irseg.scenes._validation import TARGETS, passes, validate_recipe
 
@@ -87,6 +88,10 @@ CONSTRUCTION_RECIPES: tuple[ImageRecipe, ...] = (
                                                       "fan": (3.6, 1.2, 0.5, 6.0)},
                 _cam(distance_m=2.6, centre_m=(2.0 * 0.5 ** 0.5 + 0.55, 1.5), seed=407), "tiff-float",
                 extra_meta=_CORNER_META),
+    ImageRecipe("con8_wall_roof_junction", "brick + EPS wall under a warm flat roof from inside, camera at 45° to "
+                "the wall and the ceiling", "wall-roof-junction", {"inside_c": 21.0, "outside_c": -1.0, "wind_m_s": 2.0},
+                _cam(distance_m=2.6, centre_m=(1.7, 1.8 * 0.5 ** 0.5 + 0.1), seed=408), "tiff-float",
+                extra_meta=_CORNER_META),
 )
 
 
@@ -129,7 +134,7 @@ def bridge_rows(analysis, rec: dict) -> list[dict]:
             "psi_band": [(a.psi_low_w_mk, a.psi_high_w_mk) for a in hits],
             "psi_rel": None if psi is None or not psi_true else (psi - psi_true) / psi_true,
             "anomalies": sorted(ids),
-            "geometric": d["name"] == CORNER_NAME,
+            "geometric": d["name"] in (CORNER_NAME, JUNCTION_NAME),
             "named": bool(ids) and all(any(w in by_id[i].reason for w in GEOMETRIC_WORDS) for i in ids),
         })
     return out
