@@ -28,10 +28,12 @@ perturbations do not overlap, so a defect keeps a few decimetres from the corner
 the corner's bisector sees both faces at 45°: each face is foreshortened across the corner line
 by cos 45°, the same on both sides, so the unfolded surface maps to the image by
 ``u = x·cos 45°`` and the corner line keeps its length (rows are not foreshortened). The scene
-is that projection (orthographic). A pinhole camera 2.6 m from the corner with a 45° field
-also sees the faces at the frame's sides at 1.84 m depth instead of 2.6 m: a pixel there spans
-0.71 of the length it spans at the corner (0.81 at 0.6 m from it in the image) [C: pinhole
-geometry]; this is not modelled. Its ``area_scale`` (1/cos 45°) turns
+is that projection (orthographic). A pinhole camera on the bisector 2.6 m from the corner with a
+45° field sees a point ``a`` along a face at ``u = a·sin 45°·D/(D − a·cos 45°)`` in the picture
+plane through the corner: at the frame's sides (u = ±1.08 m, 1.08 m along each face instead of
+1.52 m) a pixel covers 0.50 of the surface length across the line and 0.71 along it that it covers
+at the corner (0.35 of the area; at 0.6 m from the line in the image 0.54) [C: pinhole geometry];
+this is not modelled (docs/analysis.md §3.4 gives what it does to ψ and areas). Its ``area_scale`` (1/cos 45°) turns
 projected areas back into surface areas for the truth. Two further simplifications: the inside
 surface coefficient is the plane wall's up to the corner (the corner's smaller share of
 convection and of radiation to the room, why ISO 13788 uses R_si 0.25 for mould checks, makes a
