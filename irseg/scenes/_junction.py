@@ -24,8 +24,8 @@ above the junction line, horizontal, the wall below); each face's surface temper
 value plus the section's contrast, per kelvin of the difference between the inside air next to it
 and the outside (the wall's air stratified, the ceiling's at the air's top value). The camera on
 the junction's bisector sees both faces at 45°: rows are foreshortened by cos 45° (``v = y·cos 45°``),
-the junction line keeps its length. The projection is orthographic, as for the corner (its
-perspective is not modelled). A plane of uniform faces, no defect: the validation asks that the
+the junction line keeps its length. The projection is orthographic (the corner's pinhole
+rendering, :func:`irseg.scenes._corner.corner_scene` with ``perspective_m``, is not offered here). A plane of uniform faces, no defect: the validation asks that the
 junction is a ``thermal_bridge`` named geometric, found over its length, with ψ against ψ_i.
 """
 
