@@ -202,7 +202,8 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
         anomaly_record(i, unit, ctx=ctx, sets=sets, lines=lines, host_of=host_of, labels_out=out_labels)
         for i, unit in enumerate(group_units(measured, host_of=host_of, sets=sets, lines=lines), start=1)
     ]
-    drafts = mark_panes(drafts, out_labels, t, reference, pixel_m=pixel_m, view=surf.view, reason=GLAZING_REASON)
+    drafts = mark_panes(drafts, out_labels, t, reference, pixel_m=pixel_m, view=surf.view, reason=GLAZING_REASON,
+                        ctx=ctx)
     return Analysis(rank_by_severity(drafts), out_labels, pixel_m, px_area, h, reference, warn)
 
 

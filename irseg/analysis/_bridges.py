@@ -21,9 +21,11 @@ by its cross-profile (:func:`geometric_profile`): a straight band across the who
 contrast peaks on its line and fades smoothly and evenly to both sides, still holding a share of
 its peak at twice its half-peak distance (conduction round a corner spreads over a few wall
 thicknesses), with no plateau and no edge (a member or a void has both). Its extra heat is that
-profile integrated out to the plane wall on both sides, against the straight line between the
-two far ends, because the local sound surface follows such a long tail; that is ψ against the
-plane elements, ISO 10211's definition [from memory]. A camera looking into a corner sees both
+profile integrated out to the plane elements on both sides, because the local sound surface
+follows such a long tail; that is ψ against the plane elements, ISO 10211's definition [from
+memory]. The two sides are read against their own planes (:func:`_side_loss`): a wall and a
+ceiling meet at different temperatures, and down a wall the air's stratification makes a
+gradient across a horizontal junction that a ceiling does not have. A camera looking into a corner sees both
 faces foreshortened *across* the corner line, so the line itself keeps its length: the oblique
 stretch of :func:`band_length_m` is not applied along it.
 """
@@ -134,8 +136,35 @@ def geometric_profile(temperature_c: np.ndarray, shape: Shape, *, loss_sign: flo
     right, left = _side(p[k:], peak, noise), _side(p[k::-1], peak, noise)
     if right is None or left is None or min(left, right) < GEOMETRIC_SYMMETRY * max(left, right):
         return None
-    loss = float(np.clip(p, 0.0, None).sum()) * min(shape.length_px, n_along)
+    loss = float(_side_loss(-loss_sign * prof, k).sum()) * min(shape.length_px, n_along)
     return GeometricProfile((left * pixel_m, right * pixel_m), peak, loss)
+
+
+def _side_loss(q: np.ndarray, k: int) -> np.ndarray:
+    """Loss-signed contrast (K, ≥ 0) of a geometric bridge's profile ``q`` (larger = more loss, its line
+    at index ``k``) against the plane element on each side.
+
+    The two sides are different planes (a wall and a ceiling meet at different temperatures), each
+    read on its own: a line fitted over the outer half of the side. A loss that *grows* outward
+    cannot be the bridge's tail (conduction round a junction fades away from it), so such a slope is
+    the plane's own gradient (stratification down a wall, the sky view of a facade) and the fitted
+    line, carried in to the bridge's line, is that side's plane; otherwise the slope may be the tail,
+    and the side's plane is the level at its far end (what is left of the tail beyond the read is
+    not counted).
+    """
+    base = np.empty(q.size)
+    at_line = []
+    for idx in (np.arange(k, -1, -1), np.arange(k, q.size)):
+        x = (idx - k).astype(float) * (1.0 if idx[-1] >= k else -1.0)
+        outer = x >= 0.5 * x[-1]
+        if idx.size >= 2 * _FAR_PX and outer.sum() >= _FAR_PX:
+            slope, level = np.polyfit(x[outer], q[idx][outer], 1)
+        else:
+            slope, level = 0.0, 0.0
+        base[idx] = level + slope * x if slope > 0 else q[idx][-_FAR_PX:].mean()
+        at_line.append(base[k])
+    base[k] = 0.5 * (at_line[0] + at_line[1])  # the line itself lies on both planes
+    return np.clip(q - base, 0.0, None)
 
 
 def band_length_m(members: Sequence[Sequence[Shape]], *, pixel_m: float, tilt_deg: float = 0.0,

@@ -104,6 +104,9 @@ class Shot:
         What the lens shading adds to the apparent temperature of the no-defect surface, K
         (noise-free; None without shading): the sound surface as this camera records it is
         ``baseline_c`` plus this over the emissivity.
+    area_map : (M, N) ndarray or None
+        Surface area per m² of the scene's grid under each pixel where the scene varies it (a corner
+        in perspective: ``Scene.area_map``), None otherwise.
     """
 
     apparent_c: np.ndarray
@@ -115,6 +118,7 @@ class Shot:
     reflected_c: float
     camera: CameraModel
     shading_k: np.ndarray | None = None
+    area_map: np.ndarray | None = None
 
 
 # The camera is the truth side of the validation: it keeps its own pixel-footprint formula on purpose
@@ -242,4 +246,5 @@ def shoot(scene, camera: CameraModel) -> Shot:
     obj = _pixel_mean(ts, s)
     base = _resample(scene.baseline_c, ys, xs, cell, 1, s)
     masks = np.stack([_resample(f, ys, xs, cell, 0, s) >= 0.5 for f in scene.defect_masks])
-    return Shot(apparent, obj, base, masks, dead, p, reflected, camera, shading_k)
+    area = None if getattr(scene, "area_map", None) is None else _resample(scene.area_map, ys, xs, cell, 1, s)
+    return Shot(apparent, obj, base, masks, dead, p, reflected, camera, shading_k, area)

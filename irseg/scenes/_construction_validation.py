@@ -20,8 +20,10 @@ Each scene combines construction with real defects and goes through the full pip
   a geometric bridge (corner or junction), found over at least 80 % of its length, with ψ within
   25 % of the section's ψ_i. The corner line is vertical in the image and not foreshortened, so its
   length is rows × pixel side; the sidecar gives ``tilt_deg = 45`` (the angle between the line of
-  sight and both faces' normals), so a pixel's area ``p²/cos 45°`` is the surface it sees (exact
-  for the orthographic projection the scene is) and the heat is counted over the surface.
+  sight and both faces' normals), so a pixel's area ``p²/cos 45°`` is the surface it sees at the
+  corner line (everywhere in an orthographic projection: con7, and the wall/roof junction con8;
+  con6 is rendered by a pinhole on the bisector, where the faces toward the frame's sides are
+  nearer and seen more squarely, which the analysis is not told).
 """
 
 from __future__ import annotations
@@ -33,7 +35,8 @@ import numpy as np
 
 from irseg.scenes._camera import CameraModel
 from irseg.scenes._construction import truth_psi
-from irseg.scenes._corner import CORNER_NAME, CORNER_VIEW_DEG
+from irseg.scenes._corner import CORNER_NAME, CORNER_VIEW_DEG, picture_u_m
+from irseg.scenes._junction import JUNCTION_NAME
 from irseg.scenes._survey import ImageRecipe
 from irseg.scenes._validation import TARGETS, passes, validate_recipe
 
@@ -78,14 +81,19 @@ CONSTRUCTION_RECIPES: tuple[ImageRecipe, ...] = (
                 "masonry-wall", {"view": "interior", "slab_y": 2.2, "fan": (1.2, 0.75, 0.5, 6.0), "inside_c": 20.0,
                                  "outside_c": -1.0, "stratification_k_m2": 0.3},
                 _cam(distance_m=4.4, centre_m=(2.0, 1.5), seed=404), "tiff-float"),
-    ImageRecipe("con6_external_corner", "brick + EPS external corner from inside, camera at 45° to both faces",
-                "wall-corner", {"inside_c": 20.0, "outside_c": 0.0},
-                _cam(distance_m=2.6, centre_m=(2.0 * 0.5 ** 0.5, 1.5), seed=406), "tiff-float",
+    ImageRecipe("con6_external_corner", "brick + EPS external corner from inside, camera at 45° to both faces, "
+                "in perspective", "wall-corner", {"inside_c": 20.0, "outside_c": 0.0, "perspective_m": 2.6,
+                                                 "view_y_m": 1.5},
+                _cam(distance_m=2.6, centre_m=(picture_u_m(2.0, 2.6), 1.5), seed=406), "tiff-float",
                 extra_meta=_CORNER_META),
     ImageRecipe("con7_corner_cold_air", "external corner from inside with cold air falling from a skirting gap "
                 "1.6 m along one face", "wall-corner", {"inside_c": 21.0, "outside_c": -2.0, "width_m": 5.0,
                                                       "fan": (3.6, 1.2, 0.5, 6.0)},
                 _cam(distance_m=2.6, centre_m=(2.0 * 0.5 ** 0.5 + 0.55, 1.5), seed=407), "tiff-float",
+                extra_meta=_CORNER_META),
+    ImageRecipe("con8_wall_roof_junction", "brick + EPS wall under a warm flat roof from inside, camera at 45° to "
+                "the wall and the ceiling", "wall-roof-junction", {"inside_c": 21.0, "outside_c": -1.0, "wind_m_s": 2.0},
+                _cam(distance_m=2.6, centre_m=(1.7, 1.8 * 0.5 ** 0.5 + 0.1), seed=408), "tiff-float",
                 extra_meta=_CORNER_META),
 )
 
@@ -129,7 +137,7 @@ def bridge_rows(analysis, rec: dict) -> list[dict]:
             "psi_band": [(a.psi_low_w_mk, a.psi_high_w_mk) for a in hits],
             "psi_rel": None if psi is None or not psi_true else (psi - psi_true) / psi_true,
             "anomalies": sorted(ids),
-            "geometric": d["name"] == CORNER_NAME,
+            "geometric": d["name"] in (CORNER_NAME, JUNCTION_NAME),
             "named": bool(ids) and all(any(w in by_id[i].reason for w in GEOMETRIC_WORDS) for i in ids),
         })
     return out

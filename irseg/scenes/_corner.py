@@ -27,12 +27,18 @@ every row: linear steady conduction superposes exactly where the corner's and a 
 perturbations do not overlap, so a defect keeps a few decimetres from the corner. A camera on
 the corner's bisector sees both faces at 45°: each face is foreshortened across the corner line
 by cos 45°, the same on both sides, so the unfolded surface maps to the image by
-``u = x·cos 45°`` and the corner line keeps its length (rows are not foreshortened). The scene
-is that projection (orthographic). A pinhole camera 2.6 m from the corner with a 45° field
-also sees the faces at the frame's sides at 1.84 m depth instead of 2.6 m: a pixel there spans
-0.71 of the length it spans at the corner (0.81 at 0.6 m from it in the image) [C: pinhole
-geometry]; this is not modelled. Its ``area_scale`` (1/cos 45°) turns
-projected areas back into surface areas for the truth. Two further simplifications: the inside
+``u = x·cos 45°`` and the corner line keeps its length (rows are not foreshortened): the
+orthographic projection, with ``area_scale`` (1/cos 45°) turning projected areas back into surface
+areas for the truth. A pinhole camera on the bisector ``D`` from the corner sees a point ``a``
+along a face at ``u = a·sin 45°·D/(D − a·cos 45°)`` in the picture plane through the corner, and a
+point at height ``y`` at ``v = y_axis + (y − y_axis)·D/z``, ``z = D − a·cos 45°`` its depth: at 2.6 m with a 45°
+field the frame's sides (u = ±1.08 m) show 1.08 m of each face instead of 1.52 m, and a pixel there
+covers 0.50 of the surface length across the line and 0.71 along it that it covers at the corner
+(0.35 of the area; at 0.6 m from the line in the image 0.54) [C: pinhole geometry]. With
+``perspective_m`` the scene is that picture plane (:func:`_perspective`), each cell sampled from the
+unfolded faces where the pinhole sees it and ``Scene.area_map`` holding the surface it covers, so
+the truth's areas and heat are counted over the surface while irseg's analysis, with one pixel
+size per image, is not told. Two further simplifications: the inside
 surface coefficient is the plane wall's up to the corner (the corner's smaller share of
 convection and of radiation to the room, why ISO 13788 uses R_si 0.25 for mould checks, makes a
 real corner colder still), and the faces' emissivity at 45° is taken as at normal incidence
@@ -54,7 +60,7 @@ from irseg.scenes._physics import Conditions
 from irseg.scenes._scene import DefectTruth, Scene, face_conditions, simulate_scene
 from irseg.scenes._section import Section, solve_section
 
-__all__ = ["CornerSection", "corner_section", "corner_scene", "CORNER_VIEW_DEG", "CORNER_NAME"]
+__all__ = ["CornerSection", "corner_section", "corner_scene", "picture_u_m", "CORNER_VIEW_DEG", "CORNER_NAME"]
 
 #: The camera on the corner's bisector sees both faces at this angle to their normal.
 CORNER_VIEW_DEG = 45.0
@@ -172,14 +178,71 @@ def _project(a: np.ndarray, x_src: np.ndarray, cell: float, *, nearest: bool) ->
     return a[..., j0] * (1.0 - w) + a[..., j0 + 1] * w
 
 
+def picture_u_m(a_m: np.ndarray | float, distance_m: float) -> np.ndarray | float:
+    """Where a point ``a_m`` along a face appears in the picture plane through the corner line, m
+    from the line, for a pinhole on the bisector ``distance_m`` from the corner [C: pinhole geometry]:
+    ``u = a·sin θ·D/(D − a·cos θ)``."""
+    t = math.radians(CORNER_VIEW_DEG)
+    return a_m * math.sin(t) * distance_m / (distance_m - a_m * math.cos(t))
+
+
+def _perspective(el: Element, corner_x_m: float, distance_m: float, view_y_m: float):
+    """The picture plane of a pinhole on the bisector ``distance_m`` from the corner, its optical axis at
+    height ``view_y_m``: ``(element, sample rows, sample columns, area map)``.
+
+    Each cell of the picture plane (the corner line at ``u = 0``) sees the face point ``a`` along its
+    face with ``a = |u|·D/(D·sin θ + |u|·cos θ)`` at depth ``z = D − a·cos θ`` and height
+    ``y = y_axis + (v − y_axis)·z/D``; the surface it covers per m² of the picture plane is
+    ``(da/du)·(z/D)``, ``da/du = D²·sin θ/(D·sin θ + |u|·cos θ)²`` [C: pinhole geometry].
+    """
+    t = math.radians(CORNER_VIEW_DEG)
+    sin_t, cos_t = math.sin(t), math.cos(t)
+    far = max(corner_x_m, el.width_m - corner_x_m)
+    if far * cos_t >= 0.9 * distance_m:
+        raise ConfigError(f"a corner seen from {distance_m} m: the faces ({far} m) reach behind the camera; "
+                          "use shorter faces or a longer distance")
+    u_l, u_r = picture_u_m(corner_x_m, distance_m), picture_u_m(el.width_m - corner_x_m, distance_m)
+    proj = replace(el, width_m=float(u_l + u_r),
+                   description=el.description + f"; external corner seen at {CORNER_VIEW_DEG:.0f}° to both faces "
+                   f"by a pinhole {distance_m} m from it")
+    c = el.cell_m
+    u = (np.arange(proj.nx) + 0.5) * c - u_l
+    a = np.abs(u) * distance_m / (distance_m * sin_t + np.abs(u) * cos_t)
+    z = distance_m - a * cos_t
+    x_src = np.clip(corner_x_m + np.sign(u) * a, 0.0, el.width_m)
+    v = (np.arange(proj.ny) + 0.5) * c
+    y_src = np.clip(view_y_m + (v[:, None] - view_y_m) * (z / distance_m)[None, :], 0.0, el.height_m)
+    dadu = distance_m ** 2 * sin_t / (distance_m * sin_t + np.abs(u) * cos_t) ** 2
+    area = np.broadcast_to((dadu * z / distance_m)[None, :], (proj.ny, proj.nx)).copy()
+    rows = y_src / c - 0.5
+    cols = np.broadcast_to((x_src / c - 0.5)[None, :], rows.shape)
+    return proj, rows, cols, area
+
+
+def _sample(a: np.ndarray, rows: np.ndarray, cols: np.ndarray, *, nearest: bool) -> np.ndarray:
+    """A cell-centred (…, ny, nx) array at fractional (rows, cols) of its grid."""
+    from scipy import ndimage
+
+    if a.ndim == 3:
+        return np.stack([_sample(x, rows, cols, nearest=nearest) for x in a]) if a.shape[0] else \
+            np.zeros((0,) + rows.shape, a.dtype)
+    out = ndimage.map_coordinates(np.asarray(a, float), [rows, cols], order=0 if nearest else 1, mode="nearest")
+    return out.astype(a.dtype) if nearest else out
+
+
 def corner_scene(*, inside_c: float = 20.0, outside_c: float = 0.0, wind_m_s: float = 1.0,
                  corner_x_m: float = 2.0, patch=None, fan=None, stratification_k_m: float = 0.5,
-                 width_m: float = 4.0, name: str = "scene") -> Scene:
+                 width_m: float = 4.0, perspective_m: float | None = None, view_y_m: float = 1.5,
+                 name: str = "scene") -> Scene:
     """An external corner of the brick + EPS wall seen from inside at 45° to both faces.
 
     ``patch`` (x0, x1, y0, y1) adds missing insulation boards and ``fan`` (x, y, width, drop_k) cold
     air falling from a gap on the unfolded wall (x in m along the unfolded inside faces, the corner at
-    ``corner_x_m``; y down from the element's top).
+    ``corner_x_m``; y down from the element's top). With ``perspective_m`` the faces are seen by a
+    pinhole on the bisector that far from the corner, its optical axis at height ``view_y_m``
+    (:func:`_perspective`: the element is the picture plane through the corner line, the corner at
+    ``picture_u_m(corner_x_m, perspective_m)`` from its left edge, the surface per cell in
+    ``Scene.area_map``); without it the projection is orthographic.
     """
     if not 1.0 <= corner_x_m <= width_m - 1.0:
         raise ConfigError(f"corner_x_m = {corner_x_m} must leave 1 m of wall on each side of the corner "
@@ -219,18 +282,27 @@ def corner_scene(*, inside_c: float = 20.0, outside_c: float = 0.0, wind_m_s: fl
     corner = Defect(CORNER_NAME, "thermal_bridge", (),
                     f"external wall corner, psi_i {sec.psi_i_w_mk:.3f} W/(m·K) (2-D conduction of the section)")
     defects = defects + (corner,)
-    # the camera on the bisector: u = x·cos 45°
     cos_v = math.cos(math.radians(CORNER_VIEW_DEG))
-    proj = replace(el, width_m=width_m * cos_v,
-                   description=el.description + f"; external corner seen at {CORNER_VIEW_DEG:.0f}° to both faces")
-    x_src = (np.arange(proj.nx) + 0.5) * c / cos_v
-    surface_p = _project(surface, x_src, c, nearest=False)
-    baseline_p = _project(baseline, x_src, c, nearest=False)
-    masks_p = _project(masks, x_src, c, nearest=True)
-    owner_p = _project(owner, x_src, c, nearest=True)
-    excess_p = _project(excess, x_src, c, nearest=False) / cos_v  # per projected m²
-    area = c * c / cos_v
-    truth = tuple(DefectTruth(d.name, d.cause, d.description, float(masks_p[i].sum() * area),
+    if perspective_m is None:
+        # the camera on the bisector, orthographic: u = x·cos 45°
+        proj = replace(el, width_m=width_m * cos_v,
+                       description=el.description + f"; external corner seen at {CORNER_VIEW_DEG:.0f}° to both faces")
+        x_src = (np.arange(proj.nx) + 0.5) * c / cos_v
+        surface_p = _project(surface, x_src, c, nearest=False)
+        baseline_p = _project(baseline, x_src, c, nearest=False)
+        masks_p = _project(masks, x_src, c, nearest=True)
+        owner_p = _project(owner, x_src, c, nearest=True)
+        h_p = _project(fc["h_in"], x_src, c, nearest=False)
+        area_map = None
+        excess_p = _project(excess, x_src, c, nearest=False) / cos_v  # per projected m²
+    else:
+        proj, rows, cols, area_map = _perspective(el, corner_x_m, float(perspective_m), float(view_y_m))
+        surface_p, baseline_p = _sample(surface, rows, cols, nearest=False), _sample(baseline, rows, cols, nearest=False)
+        masks_p, owner_p = _sample(masks, rows, cols, nearest=True), _sample(owner, rows, cols, nearest=True)
+        h_p = _sample(fc["h_in"], rows, cols, nearest=False)
+        excess_p = _sample(excess, rows, cols, nearest=False) * area_map  # per m² of the picture plane
+    cell_area = np.full(surface_p.shape, c * c / cos_v) if area_map is None else area_map * c * c
+    truth = tuple(DefectTruth(d.name, d.cause, d.description, float(cell_area[masks_p[i]].sum()),
                               float(excess_p[owner_p == i].sum() * c * c),
                               float(excess_p[masks_p[i]].sum() * c * c), float(baseline_p[masks_p[i]].mean()),
                               float(surface_p[masks_p[i]].mean())) for i, d in enumerate(defects))
@@ -244,10 +316,12 @@ def corner_scene(*, inside_c: float = 20.0, outside_c: float = 0.0, wind_m_s: fl
         "inside_c": inside_c, "outside_c": outside_c, "wind_m_s": wind_m_s,
         "stratification_k_m": stratification_k_m, "emissivity": cond.emissivity,
         "outside_exposure": cond.outside_exposure, "h_view_w_m2k": h_in,
+        "projection": "orthographic" if perspective_m is None else {"pinhole_distance_m": perspective_m,
+                                                                    "axis_height_m": view_y_m},
         "corner": {"x_m": corner_x_m, "view_deg": CORNER_VIEW_DEG, "psi_i_w_mk": round(sec.psi_i_w_mk, 5),
                    "psi_e_w_mk": round(sec.psi_e_w_mk, 5), "u_w_m2k": round(sec.u_w_m2k, 5),
                    "l2d_w_mk": round(sec.l2d_w_mk, 5), "leg_m": sec.leg_m, "section_cell_m": 0.005},
     }
     return Scene(name, "interior", proj, defects, cond, surface_p, baseline_p,
-                 np.full(surface_p.shape, inside_c), _project(fc["h_in"], x_src, c, nearest=False), masks_p, truth,
-                 balance, settings, excess_p, owner_p, None, area_scale=1.0 / cos_v)
+                 np.full(surface_p.shape, inside_c), h_p, masks_p, truth,
+                 balance, settings, excess_p, owner_p, None, area_scale=1.0 / cos_v, area_map=area_map)

@@ -11,6 +11,7 @@ import inspect
 from irseg.errors import ConfigError
 from irseg.scenes._construction import construction_items
 from irseg.scenes._corner import corner_scene
+from irseg.scenes._junction import junction_scene
 from irseg.scenes._defects import (
     Defect,
     cold_air_fan,
@@ -142,7 +143,7 @@ def _roof(*, inside_c=20.0, wind_m_s=1.0, insulation="eps", wet=((1.2, 2.4, 0.9,
 PRESETS = {"timber-wall": _timber_wall, "ceiling": _ceiling, "masonry-wall": _masonry, "flat-roof": _roof}
 # Scenes that are more than one plane element, simulated and projected by their own module; the
 # validation makes them, the command line does not offer them (its camera is square-on to one face).
-VALIDATION_ONLY = {"wall-corner": corner_scene}
+VALIDATION_ONLY = {"wall-corner": corner_scene, "wall-roof-junction": junction_scene}
 
 
 def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
@@ -150,7 +151,7 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
 
     Parameters
     ----------
-    kind : {"timber-wall", "ceiling", "masonry-wall", "flat-roof", "wall-corner"}
+    kind : {"timber-wall", "ceiling", "masonry-wall", "flat-roof", "wall-corner", "wall-roof-junction"}
     name : str
         Scene name carried into the truth.
     **options
@@ -172,7 +173,10 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
         fraction), ...), ``tapered`` ((x0, x1, y0, y1, water fraction, rings), ...) wetness
         tapering to the edge, ``dt_s``, ``end_h``, ``air_mean_c``; wall corner (validation only, not offered by the command line: an external corner
         of the brick + EPS wall seen from inside at 45° to both faces, :mod:`irseg.scenes._corner`):
-        ``corner_x_m``, ``patch`` (on the unfolded faces), ``stratification_k_m``, ``width_m``.
+        ``corner_x_m``, ``patch`` (on the unfolded faces), ``stratification_k_m``, ``width_m``; wall/roof
+        junction (validation only: the brick + EPS wall under a warm flat roof seen from inside at 45° to
+        the wall and the ceiling, :mod:`irseg.scenes._junction`): ``junction_y_m``, ``room_height_m``,
+        ``stratification_k_m``, ``width_m``, ``height_m``.
 
     Returns
     -------
@@ -191,7 +195,7 @@ def make_preset(kind: str, *, name: str = "scene", **options) -> Scene:
     unknown = sorted(set(options) - allowed)
     if unknown:
         raise ConfigError(f"scene kind {kind!r} has no option(s) {unknown}; valid: {sorted(allowed)}")
-    if builder is corner_scene:  # simulated in 2-D and 3-D and projected by its own module
-        return corner_scene(name=name, **options)
+    if kind in VALIDATION_ONLY:  # simulated in 2-D (and 3-D) and projected by its own module
+        return builder(name=name, **options)
     el, ds, cond, view, night = builder(**options)
     return simulate_scene(el, ds, cond, view=view, name=name, night=night)

@@ -82,6 +82,9 @@ class Scene:
     area_scale : float
         Surface area per m² of the grid: 1 for a plane element; ``1/cos θ`` where the grid is the
         projection of faces seen at θ across one direction (:mod:`irseg.scenes._corner`).
+    area_map : (ny, nx) ndarray or None
+        Surface area per m² of the grid, cell by cell, where it varies (a corner seen in perspective,
+        :mod:`irseg.scenes._corner`); None: ``area_scale`` everywhere.
     """
 
     name: str
@@ -101,6 +104,7 @@ class Scene:
     owner: np.ndarray | None = None
     emissivity_map: np.ndarray | None = None
     area_scale: float = 1.0
+    area_map: np.ndarray | None = None
 
     @property
     def cell_m(self) -> float:
@@ -384,7 +388,8 @@ def truth_in_window(scene: Scene, *, x0_m: float, x1_m: float, y0_m: float, y1_m
             continue
         own = (scene.owner == i) & win
         out.append(DefectTruth(
-            t.name, t.cause, t.description, float(fp.sum() * c * c * scene.area_scale),
+            t.name, t.cause, t.description,
+            float((fp.sum() * scene.area_scale if scene.area_map is None else scene.area_map[fp].sum()) * c * c),
             float(scene.excess_w_m2[own].sum() * c * c), float(scene.excess_w_m2[fp].sum() * c * c),
             float(scene.baseline_c[fp].mean()), float(scene.surface_c[fp].mean()),
         ))

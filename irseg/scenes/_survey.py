@@ -174,7 +174,8 @@ def export_image(recipe: ImageRecipe, directory: str | os.PathLike[str], *, side
         if kind != "sharp":
             # graded or diffuse: the truth region is where its own simulated contrast holds half its peak
             masks[k] = graded_region(shot.object_c - shot.baseline_c, shot.defect_masks[k], shot.pixel_m)
-            area = float(masks[k].sum()) * px_area
+            area = float(masks[k].sum()) * px_area if shot.area_map is None else \
+                float(shot.area_map[masks[k]].sum()) * px_area / scene.area_scale
             # the sound surface as this camera records it: the lens shading is the frame's, not the defect's
             shade = 0.0 if shot.shading_k is None else shot.shading_k[masks[k]] / scene.conditions.emissivity
             reference = float((shot.baseline_c[masks[k]] + shade).mean())

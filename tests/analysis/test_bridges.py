@@ -345,3 +345,75 @@ def test_a_band_on_the_frame_edge_has_no_cross_profile_figure(row):
     t = np.roll(_slab_edge(), int(row) - 80, axis=0)
     assert straight_band_loss(t, replace(_band_shape(), centroid_row=row), (0, 239), loss_sign=-1.0,
                               pixel_m=PIXEL_M) is None
+
+
+# --------------------------------------------------------------------------- a lintel over a window head
+
+
+def _facade_with_window(*, lintel: str | None):
+    """A wall seen from outside (3 °C) with a window: frame 70 mm, 2.4 K warmer, the glass 1.2 K less warm
+    than the frame (it reflects the sky: emissivity about 0.84, common practice) [C: radiometry]; over its
+    head, 30 mm above the frame, a concrete lintel 200 mm deep 0.3 K warmer than the wall ("bearing": on
+    0.15 m beyond both jambs, as lintels bear on the wall, at least 100-150 mm [CP]; "head": over the frame
+    only). Blurred by a lens of σ 1 px."""
+    from scipy import ndimage
+
+    t = np.full((200, 300), 3.0)
+    d = np.zeros(t.shape, int)
+    t[70:170, 90:210] += 2.4
+    t[77:163, 97:203] -= 1.2
+    d[70:77, 90:210], d[163:170, 90:210] = 1, 2
+    d[77:163, 90:97], d[77:163, 203:210] = 3, 4
+    d[77:163, 97:203] = 5
+    if lintel == "bearing":
+        t[47:67, 75:225] += 0.3
+    elif lintel == "head":
+        t[47:67, 90:210] += 0.3
+    return ndimage.gaussian_filter(t, 1.0), d
+
+
+def test_a_lintel_over_a_window_head_is_a_thermal_bridge_with_its_length_and_psi():
+    t, d = _facade_with_window(lintel="bearing")
+    res = _run(t, d, surface={"view": "exterior"}, noise=0.02)
+    bridges = [a for a in res.anomalies if a.cause == "thermal_bridge"]
+    assert len(bridges) == 1, [(a.cause, a.reason) for a in res.anomalies]
+    (b,) = bridges
+    assert "lintel over an opening" in b.reason
+    # its length: 1.5 m, the window's 1.2 m and 0.15 m of bearing each side [C: the geometry drawn]
+    assert b.length_m == pytest.approx(1.5, rel=0.05)
+    # it lies over the head: its rows are the band's, 47-66 (half-peak of a blurred step: ±1 px)
+    assert 45 <= b.bbox_row0 <= 49 and 65 <= b.bbox_row1 <= 69
+    # ψ of a uniform band = h·ΔT_s·depth / (T_i − T_e) (the incidence-factor integral over its
+    # cross-profile, the blur moving none of it) [C: physics]
+    assert b.psi_w_mk == pytest.approx(res.h_w_m2k * 0.3 * 0.20 / 20.0, rel=0.15)
+    # the window stays likely glazing, never a defect
+    assert all(a.cause == "unclassified" for a in res.anomalies if a is not b)
+
+
+@pytest.mark.parametrize("lintel", [None, "head"])
+def test_no_lintel_where_no_band_bears_beyond_both_jambs(lintel):
+    # a window alone, or a warm band ending at the jambs (a frame head, a blind box): no lintel is made up
+    t, d = _facade_with_window(lintel=lintel)
+    res = _run(t, d, surface={"view": "exterior"}, noise=0.02)
+    assert not [a for a in res.anomalies if "lintel over an opening" in a.reason]
+    assert any("likely glazing" in a.reason for a in res.anomalies)
+
+
+def test_side_loss_reads_each_side_against_its_own_plane():
+    # a junction's cross-profile: an exponential fall-off A·exp(−|x|/λ) on a ceiling (flat) and a wall
+    # whose loss grows outward by stratification (0.25 K/m), the wall 0.4 K colder than the ceiling: the
+    # excess against both planes is 2·A·λ/p (in K·px) [C: ∫ of the exponential]; a straight line between
+    # the far ends would cut the wall's gradient away. Within 5 %: the line's own pixel lies on both planes
+    # (half the step is taken off it) and the tail's last hundredths stay in the wall's fitted plane
+    from irseg.analysis._bridges import _side_loss
+
+    p, lam, amp = 0.01, 0.06, 0.8
+    x = np.arange(-60, 61) * p
+    q = amp * np.exp(-np.abs(x) / lam) + np.where(x > 0, 0.4 + 0.25 * x, 0.0)
+    assert _side_loss(q, 60).sum() == pytest.approx(2 * amp * lam / p, rel=0.05)
+    # stratification alone (0.5 K/m down the wall, no step): a straight line between the far ends lies above
+    # both planes near the junction and cuts the fall-off by more than a fifth; each side on its own plane does not
+    q2 = amp * np.exp(-np.abs(x) / lam) + np.where(x > 0, 0.5 * x, 0.0)
+    line = np.linspace(q2[:3].mean(), q2[-3:].mean(), q2.size)
+    assert np.clip(q2 - line, 0, None).sum() < 0.8 * 2 * amp * lam / p
+    assert _side_loss(q2, 60).sum() == pytest.approx(2 * amp * lam / p, rel=0.05)

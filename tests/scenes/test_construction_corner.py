@@ -174,3 +174,34 @@ def test_corner_scene_truth_is_psi_i_over_the_projected_faces():
     assert np.allclose(sc.surface_c[:, :5], sc.baseline_c[:, :5], atol=0.01)
     with pytest.raises(ConfigError, match="1 m of wall"):
         corner_scene(corner_x_m=0.5)
+
+
+def test_corner_in_perspective_maps_the_faces_by_the_pinhole():
+    from irseg.scenes._corner import picture_u_m
+
+    d = 2.6
+    sc = corner_scene(inside_c=20.0, outside_c=0.0, stratification_k_m=0.0, perspective_m=d, view_y_m=1.5)
+    c = sc.cell_m
+    u0 = picture_u_m(2.0, d)
+    # a pinhole on the bisector sees a point a along a face at u = a·sin θ·D/(D − a·cos θ) [C: pinhole
+    # geometry]: 1.0 m along a face lies 0.9713 m from the corner line in the picture plane at 2.6 m
+    assert picture_u_m(1.0, d) == pytest.approx(0.5 ** 0.5 * d / (d - 0.5 ** 0.5), rel=1e-12)
+    assert picture_u_m(1.0, d) == pytest.approx(0.9713, abs=1e-4)
+    # the coldest column is the corner line, at u0 from the picture plane's left edge
+    col = int(np.argmin(sc.surface_c[sc.element.ny // 2]))
+    assert abs((col + 0.5) * c - u0) <= c
+    # the surface a cell covers: √2 (1/cos 45°) on the corner line, and at the frame's side of a 45° view
+    # (u = D·tan 22.5°) half of it across the line and z/D = 0.707 of it along: 0.354 of the area [C]
+    cols_u = (np.arange(sc.element.nx) + 0.5) * c - u0
+    mid = sc.area_map[sc.element.ny // 2]
+    assert np.interp(0.0, cols_u, mid) == pytest.approx(2 ** 0.5, rel=0.02)  # cell centres 12.5 mm off the line
+    side = d * math.tan(math.radians(22.5))
+    assert np.interp(side, cols_u, mid) == pytest.approx(0.3536 * 2 ** 0.5, rel=0.01)
+    assert np.interp(-side, cols_u, mid) == pytest.approx(0.3536 * 2 ** 0.5, rel=0.01)
+    # the heat is counted over the surface: the truth is still ψ_i per metre of corner (its 3 m height) and
+    # kelvin, the outside ambient (sky included) a little colder than the air, as in the orthographic scene
+    (truth,) = [t for t in sc.truth if t.name == CORNER_NAME]
+    per_m = truth.excess_w / 3.0 / 20.0
+    assert sc.settings["corner"]["psi_i_w_mk"] < per_m < 1.25 * sc.settings["corner"]["psi_i_w_mk"]
+    with pytest.raises(ConfigError, match="behind the camera"):
+        corner_scene(perspective_m=1.5)

@@ -23,13 +23,14 @@ pytestmark = pytest.mark.slow
 # What this version does not reach, each explained in docs/validation.md; kept exact: a fix must take its
 # entry out, a regression fails.
 KNOWN_MISSES = {
-    # the lintel directly over the window head (+0.3 K, 0.05 m above the window's outline, beside its
-    # 2.5 K rim) is not given as a candidate by the detection and is not found
-    ("con3_facade_bridges", "lintel length"),
-    ("con3_facade_bridges", "lintel psi"),
     # the cold-air fan beside the corner, seen at 45°: found as air leakage with IoU 0.84 but 16 % too
-    # small (the area target is 10 %; 14 % without the corner's field); the corner meets its own targets
+    # small (the area target is 10 %; 14 % without the corner's field, 2 % with the frame 0.14 m further
+    # on: the fan's side lies 0.3 m from the frame's edge); the corner meets its own targets
     ("con7_corner_cold_air", "defects"),
+    # the wall/roof junction: found over its length and named geometric, ψ 31.5 % low: the analysis reads
+    # both faces with the wall's surface coefficient (the soffit's, upward heat flow, is 30 % larger) and
+    # the ceiling's long tail beyond its 0.6 m read
+    ("con8_wall_roof_junction", "wall_roof_junction psi"),
 }
 
 
@@ -54,6 +55,6 @@ def test_construction_scene_meets_targets(results, stem):
 def test_every_scene_checks_something_of_issue_12(results):
     # the checks exist: windows, emitters, bridges with psi and a defect beside a radiator
     items = {row["name"].split("_")[0] for res in results.values() for row in res["defects"]}
-    assert {"window", "radiator", "pipe", "slab", "lintel", "external"} <= items
+    assert {"window", "radiator", "pipe", "slab", "lintel", "external", "wall"} <= items
     assert sum(len(res["beside"]) for res in results.values()) >= 1
     assert sum(1 for res in results.values() for b in res["bridges"] if b["psi_w_mk"] is not None) >= 3
