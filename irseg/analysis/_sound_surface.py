@@ -42,6 +42,15 @@ lengths, so a large anomaly is excluded by the stiff fits before a flexible one
 could follow it. Blocks whose weight falls to zero are excluded:
 those are the anomaly candidates, and the surface passes under them.
 
+Soft tails: an anomaly's contrast fades into the noise over a tail (lateral
+conduction) whose blocks keep most of their weight and pull the frame-tied terms
+toward it (two cold fills in opposite quarters look like a twist). So the fit
+ends with a refit at the final sound length on the confidently sound blocks: the
+rejected blocks, every block connected to them whose residual has their sign and
+exceeds one scale, and a margin of a quarter of the sound length around them are
+held out of it (``HOLD_K``, ``HOLD_MARGIN``), as long as a fifth of the blocks
+stays (``HOLD_MAX``).
+
 Scale choice: the sound length is a physical length (``length_px`` comes from
 ``sound_length_m`` and the pixel footprint when the geometry is known, else a
 fraction of the frame), so the same surface is modelled the same way at any
@@ -63,6 +72,7 @@ from dataclasses import dataclass
 
 import cv2
 import numpy as np
+from scipy import ndimage
 
 
 __all__ = ["SoundSurface", "fit_sound_surface", "TUKEY_C", "EDGE_CONFIRM"]
@@ -84,6 +94,9 @@ _LTS_CSTEPS = 3
 _LTS_SEED = 20240611
 _MEDIAN_HALF_NORMAL = 0.6744897501960817  # Φ⁻¹(0.75) [C]
 EDGE_CONFIRM = 0.5  # an edge decay needs half of its energy on blocks kept as sound
+HOLD_K = 1.0  # an anomaly's soft tail: blocks connected to it whose residual of its sign exceeds this many scales
+HOLD_MARGIN = 0.25  # ... and a margin of this many sound lengths (0.05 m) around it, held out of the refit
+HOLD_MAX = 0.8  # at most this share of the fitted blocks is held out (the frame-tied terms need sound data)
 
 
 @dataclass(frozen=True)
@@ -290,8 +303,10 @@ def _one_sided_scale(r: np.ndarray) -> float:
 
 def _backfit(*, x_design: np.ndarray, y: np.ndarray, ok: np.ndarray, base: np.ndarray, lengths: list[float],
              gy: np.ndarray, gx: np.ndarray, floor: float, w0: np.ndarray,
-             ridge: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, float]:
-    """Backfitting of the global and the local part with Tukey reweighting: ``(beta, local, weights, scale)``."""
+             ridge: np.ndarray, keep: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray, float]:
+    """Backfitting of the global and the local part with Tukey reweighting: ``(beta, local, weights, scale)``.
+
+    ``keep`` (0/1 per block) holds blocks out of every fit whatever their residual."""
     yv = y[ok]
     w = w0
     local = np.zeros_like(y)
@@ -306,7 +321,30 @@ def _backfit(*, x_design: np.ndarray, y: np.ndarray, ok: np.ndarray, base: np.nd
         scale = max(_one_sided_scale(r), floor)
         w = np.zeros_like(y)
         w[ok] = base[ok] * _tukey(r, TUKEY_C * scale)
+        if keep is not None:
+            w *= keep
     return beta, local, w, scale
+
+
+def _held_out(resid: np.ndarray, w: np.ndarray, ok: np.ndarray, scale: float, margin_blocks: float) -> np.ndarray:
+    """Blocks held out of a refit: the anomalies, their soft tails and a margin around them.
+
+    An anomaly's contrast does not stop where the biweight rejects it (``w`` = 0): lateral conduction
+    spreads it into a soft tail that fades into the noise, and tail blocks that keep their weight pull
+    the surface toward the anomaly. The tail is every block connected (8-neighbours) to a rejected
+    block whose residual has that block's sign and exceeds :data:`HOLD_K` scales; a margin of
+    ``margin_blocks`` around the whole covers the part of the tail below that.
+    """
+    conn = np.ones((3, 3), bool)
+    held = np.zeros(ok.shape, bool)
+    big = ok & (np.abs(resid) > HOLD_K * scale)
+    for sgn in (-1.0, 1.0):
+        seed = ok & (w <= 0) & (sgn * resid > 0)
+        if seed.any():
+            held |= ndimage.binary_propagation(seed, structure=conn, mask=seed | (big & (sgn * resid > 0)))
+    if margin_blocks >= 0.5 and held.any():
+        held |= ndimage.distance_transform_edt(~held) <= margin_blocks
+    return held & ok
 
 
 def fit_sound_surface(
@@ -376,7 +414,8 @@ def fit_sound_surface(
     # graduated: from the robust start, the local part at 4, 2 and 1 sound lengths, so a large anomaly
     # is excluded by the stiff fits before a flexible one could follow it
     steps = _LENGTH_STEPS[-1:] if start is not None else _LENGTH_STEPS
-    lengths = [f * lb for f in steps for _ in range(_PER_STEP)]
+    # (from a start, one pass: the refit below is the second)
+    lengths = [f * lb for f in steps for _ in range(1 if start is not None else _PER_STEP)]
     fit = dict(x_design=x_design, y=y, ok=ok, base=base, lengths=lengths, gy=gy, gx=gx, floor=floor)
     ridge = np.zeros(x_design.shape[1])
     beta, local, w, scale = _backfit(w0=w, ridge=ridge, **fit)
@@ -390,6 +429,15 @@ def fit_sound_surface(
         if off.any():
             ridge[7:][off] = 1e9 * max(float(base.sum()), 1.0)
             beta, local, w, scale = _backfit(w0=w0, ridge=ridge, **fit)
+
+    # the anomalies with their soft tails and a margin held out, the surface refitted at the final length
+    resid = np.zeros_like(y)
+    resid[ok] = yv - x_design @ beta - local[ok]
+    held = _held_out(resid, w, ok, scale, HOLD_MARGIN * lb)
+    keep = (~held).astype(float) if held.any() and (ok & ~held).sum() >= (1.0 - HOLD_MAX) * ok.sum() else None
+    if keep is not None or start is not None:  # (from a start, the second pass at the final length in any case)
+        beta, local, w, scale = _backfit(w0=w if keep is None else w * keep, ridge=ridge, keep=keep,
+                                         **dict(fit, lengths=[lengths[-1]]))
 
     # back to full resolution: the global part exactly, the local part bilinear between block centres
     surf = _evaluate_global(beta, m, n, edge_length_px)
