@@ -414,8 +414,8 @@ def fit_sound_surface(
     # graduated: from the robust start, the local part at 4, 2 and 1 sound lengths, so a large anomaly
     # is excluded by the stiff fits before a flexible one could follow it
     steps = _LENGTH_STEPS[-1:] if start is not None else _LENGTH_STEPS
-    # (from a start, one pass: the refit below is the second)
-    lengths = [f * lb for f in steps for _ in range(1 if start is not None else _PER_STEP)]
+    # the last pass at the final length is the refit below, with the anomalies' tails held out
+    lengths = [f * lb for f in steps for _ in range(_PER_STEP)][:-1]
     fit = dict(x_design=x_design, y=y, ok=ok, base=base, lengths=lengths, gy=gy, gx=gx, floor=floor)
     ridge = np.zeros(x_design.shape[1])
     beta, local, w, scale = _backfit(w0=w, ridge=ridge, **fit)
@@ -435,9 +435,8 @@ def fit_sound_surface(
     resid[ok] = yv - x_design @ beta - local[ok]
     held = _held_out(resid, w, ok, scale, HOLD_MARGIN * lb)
     keep = (~held).astype(float) if held.any() and (ok & ~held).sum() >= (1.0 - HOLD_MAX) * ok.sum() else None
-    if keep is not None or start is not None:  # (from a start, the second pass at the final length in any case)
-        beta, local, w, scale = _backfit(w0=w if keep is None else w * keep, ridge=ridge, keep=keep,
-                                         **dict(fit, lengths=[lengths[-1]]))
+    beta, local, w, scale = _backfit(w0=w if keep is None else w * keep, ridge=ridge, keep=keep,
+                                     **dict(fit, lengths=[steps[-1] * lb]))
 
     # back to full resolution: the global part exactly, the local part bilinear between block centres
     surf = _evaluate_global(beta, m, n, edge_length_px)
