@@ -108,7 +108,8 @@ class SoundSurface:
     surface : (M, N) float ndarray
         The sound surface, same units as the input (°C).
     weight : (M, N) float ndarray
-        Final robust weight of each pixel's block (0: excluded as anomalous, 1: sound).
+        Final robust weight of each pixel's block (0: excluded as anomalous or held out as an
+        anomaly's soft tail or margin, 1: sound).
     scale_k : float
         Robust scale of the block residuals, K (the Tukey scale ``s``).
     block_px : int
