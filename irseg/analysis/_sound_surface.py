@@ -49,7 +49,10 @@ ends with a refit at the final sound length on the confidently sound blocks: the
 rejected blocks, every block connected to them whose residual has their sign and
 exceeds one scale, and a margin of a quarter of the sound length around them are
 held out of it (``HOLD_K``, ``HOLD_MARGIN``), as long as a fifth of the blocks
-stays (``HOLD_MAX``).
+stays (``HOLD_MAX``). A fit started from this one holds them out from its first
+pass. Only the surface changes: the robust scale and the weights returned are
+those of every block (what the detector measures the noise on), so the tails are
+left out of the fit without being declared anomalous.
 
 Scale choice: the sound length is a physical length (``length_px`` comes from
 ``sound_length_m`` and the pixel footprint when the geometry is known, else a
@@ -108,8 +111,8 @@ class SoundSurface:
     surface : (M, N) float ndarray
         The sound surface, same units as the input (°C).
     weight : (M, N) float ndarray
-        Final robust weight of each pixel's block (0: excluded as anomalous or held out as an
-        anomaly's soft tail or margin, 1: sound).
+        Final robust weight of each pixel's block (0: excluded as anomalous, 1: sound), by the
+        residual of every block (the held-out blocks, ``held``, are not zeroed here).
     scale_k : float
         Robust scale of the block residuals, K (the Tukey scale ``s``).
     block_px : int
@@ -119,6 +122,9 @@ class SoundSurface:
     coefficients : (7,) or (11,) ndarray
         Global part: ``1, x, y, x², xy, y², r⁴`` in normalised frame coordinates, then
         the edge decays (left, right, top, bottom) when they are modelled.
+    held : (mb, nb) bool ndarray or None
+        Blocks held out of the last pass (anomalies, their soft tails and a margin); a fit
+        started from this one holds them out of its first pass too.
     """
 
     surface: np.ndarray
@@ -127,6 +133,7 @@ class SoundSurface:
     block_px: int
     length_px: float
     coefficients: np.ndarray
+    held: np.ndarray | None = None
 
 
 def _block_means(t: np.ndarray, valid: np.ndarray, b: int) -> tuple[np.ndarray, np.ndarray, tuple[int, int]]:
@@ -409,6 +416,8 @@ def fit_sound_surface(
     gy, gx = np.meshgrid(np.arange(mb, dtype=float) - mb / 2.0, np.arange(nb, dtype=float) - nb / 2.0, indexing="ij")
     if start is not None and start.block_px == b and start.weight.shape == t.shape:
         w0 = base * _block_means(start.weight, np.ones(t.shape, bool), b)[0]
+        if start.held is not None and start.held.shape == w0.shape:
+            w0 = w0 * ~start.held
     else:
         w0 = base * _lts_start(x_design[:, :7], yv, y.shape, ok, base)  # the frame-tied part alone
     w = w0
@@ -436,12 +445,19 @@ def fit_sound_surface(
     resid[ok] = yv - x_design @ beta - local[ok]
     held = _held_out(resid, w, ok, scale, HOLD_MARGIN * lb)
     keep = (~held).astype(float) if held.any() and (ok & ~held).sum() >= (1.0 - HOLD_MAX) * ok.sum() else None
-    beta, local, w, scale = _backfit(w0=w if keep is None else w * keep, ridge=ridge, keep=keep,
-                                     **dict(fit, lengths=[steps[-1] * lb]))
+    beta, local, w, scale_held = _backfit(w0=w if keep is None else w * keep, ridge=ridge, keep=keep,
+                                          **dict(fit, lengths=[steps[-1] * lb]))
+    if keep is None:
+        scale = scale_held
+    else:
+        # the surface is the held-out fit's; the scale and the weights stay those of every block (what the
+        # detector measures the noise on): the tails are held out of the fit, not declared anomalous
+        w = np.zeros_like(y)
+        w[ok] = base[ok] * _tukey(yv - x_design @ beta - local[ok], TUKEY_C * scale)
 
     # back to full resolution: the global part exactly, the local part bilinear between block centres
     surf = _evaluate_global(beta, m, n, edge_length_px)
     up = cv2.resize(local.astype(np.float32), (nb * b, mb * b), interpolation=cv2.INTER_LINEAR)[:m, :n]
     surf = surf + up.astype(float)
     wfull = np.repeat(np.repeat(np.where(ok, w / np.maximum(base, 1e-12), 0.0), b, axis=0), b, axis=1)[:m, :n]
-    return SoundSurface(surf, wfull, float(scale), b, float(length_px), beta)
+    return SoundSurface(surf, wfull, float(scale), b, float(length_px), beta, None if keep is None else held)
