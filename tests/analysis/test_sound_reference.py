@@ -51,7 +51,7 @@ def test_soft_fills_in_opposite_quarters_leave_the_sound_surface_where_it_was(se
     fit = fit_sound_surface(t, length_px=0.2 / pixel_m, noise_k=0.05, edge_length_px=0.2 / pixel_m)
     for f in fills:
         core = f < 0.5 * f.min()  # where the fill holds half its contrast
-        # the tails would tilt the surface into both fills (0.008–0.012 K before they were held out)
+        # the tails would tilt the surface into both fills (0.008–0.009 K before they were held out)
         assert abs(float((fit.surface - sound)[core].mean())) < 0.005  # [C] truth, [CP] tolerance
 
 
