@@ -14,7 +14,12 @@ Two steps:
    every non-sound region, is fitted with a robust plane in ``u``; the plane
    evaluated over the region is the local sound reference. A plane follows the
    linear part of stratification, corner and sky-view gradients, which a median
-   of the ring would not.
+   of the ring would not. Where the ring surrounds the region on both axes and
+   the local sound surface follows the ring's shape clearly better than a plane
+   (a ring running down into the lens shading of the frame's corners), the
+   reference is the sound surface itself: it carries the shading and passes
+   under the region between sound data on all sides, with the anomalies' soft
+   tails held out, which the ring, just beyond the soft rim, is not.
 """
 
 from __future__ import annotations
@@ -41,6 +46,7 @@ _MAX_TREND_SAMPLES = 8_000
 _MAX_RING_SAMPLES = 4_000
 _MIN_RING_PX = 24
 _BAND_ROWS = 256  # rows of a mask searched at a time for sample pixels
+SURFACE_PREFERENCE = 0.8  # the sound surface is a ring's reference when the ring's spread about it is this much smaller
 
 
 @dataclass(frozen=True)
@@ -395,10 +401,18 @@ def ring_reference(
             step = max(1, n_ring // _MAX_RING_SAMPLES)
             rr, cc = rr[::step], cc[::step]
             axes = _straddled_axes(rr, cc, extent)
-            local = fit_plane(rr.astype(float), cc.astype(float), u_crop[rr, cc], axes=axes)
+            frf, fcf = rr.astype(float), cc.astype(float)
+            local = fit_plane(frf, fcf, u_crop[rr, cc], axes=axes)
+            if isinstance(trend, SurfaceReference) and all(axes):
+                s_ring = trend.surface_c[rr + row_offset, cc + col_offset]
+                if fit_plane(frf, fcf, u_crop[rr, cc] - s_ring, axes=(False, False)).sigma < \
+                        SURFACE_PREFERENCE * local.sigma:
+                    # the local sound surface follows the ring's shape clearly better than a plane
+                    sigma = robust_sigma(t_crop[rr, cc] - s_ring)
+                    return RingReference(SurfaceReference(trend.surface_c, sigma, n_ring), sigma, n_ring, source)
             plane = Plane(
                 local.a, local.b, local.c, local.row0 + row_offset, local.col0 + col_offset, local.sigma, local.n
             )
-            resid_t = t_crop[rr, cc] - local.evaluate(rr.astype(float), cc.astype(float))
+            resid_t = t_crop[rr, cc] - local.evaluate(frf, fcf)
             return RingReference(plane, robust_sigma(resid_t), n_ring, source)
     return RingReference(trend, float(trend.sigma), int(trend.n), "surface")

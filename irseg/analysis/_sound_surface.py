@@ -42,6 +42,18 @@ lengths, so a large anomaly is excluded by the stiff fits before a flexible one
 could follow it. Blocks whose weight falls to zero are excluded:
 those are the anomaly candidates, and the surface passes under them.
 
+Soft tails: an anomaly's contrast fades into the noise over a tail (lateral
+conduction) whose blocks keep most of their weight and pull the frame-tied terms
+toward it (two cold fills in opposite quarters look like a twist). So the fit
+ends with a refit at the final sound length on the confidently sound blocks: the
+rejected blocks, every block connected to them whose residual has their sign and
+exceeds one scale, and a margin of a quarter of the sound length around them are
+held out of it (``HOLD_K``, ``HOLD_MARGIN``), as long as a fifth of the blocks
+stays (``HOLD_MAX``). A fit started from this one holds them out from its first
+pass. Only the surface changes: the robust scale and the weights returned are
+those of every block (what the detector measures the noise on), so the tails are
+left out of the fit without being declared anomalous.
+
 Scale choice: the sound length is a physical length (``length_px`` comes from
 ``sound_length_m`` and the pixel footprint when the geometry is known, else a
 fraction of the frame), so the same surface is modelled the same way at any
@@ -63,6 +75,7 @@ from dataclasses import dataclass
 
 import cv2
 import numpy as np
+from scipy import ndimage
 
 
 __all__ = ["SoundSurface", "fit_sound_surface", "TUKEY_C", "EDGE_CONFIRM"]
@@ -84,6 +97,9 @@ _LTS_CSTEPS = 3
 _LTS_SEED = 20240611
 _MEDIAN_HALF_NORMAL = 0.6744897501960817  # Φ⁻¹(0.75) [C]
 EDGE_CONFIRM = 0.5  # an edge decay needs half of its energy on blocks kept as sound
+HOLD_K = 1.0  # an anomaly's soft tail: blocks connected to it whose residual of its sign exceeds this many scales
+HOLD_MARGIN = 0.25  # ... and a margin of this many sound lengths (0.05 m) around it, held out of the refit
+HOLD_MAX = 0.8  # at most this share of the fitted blocks is held out (the frame-tied terms need sound data)
 
 
 @dataclass(frozen=True)
@@ -95,7 +111,8 @@ class SoundSurface:
     surface : (M, N) float ndarray
         The sound surface, same units as the input (°C).
     weight : (M, N) float ndarray
-        Final robust weight of each pixel's block (0: excluded as anomalous, 1: sound).
+        Final robust weight of each pixel's block (0: excluded as anomalous, 1: sound), by the
+        residual of every block (the held-out blocks, ``held``, are not zeroed here).
     scale_k : float
         Robust scale of the block residuals, K (the Tukey scale ``s``).
     block_px : int
@@ -105,6 +122,9 @@ class SoundSurface:
     coefficients : (7,) or (11,) ndarray
         Global part: ``1, x, y, x², xy, y², r⁴`` in normalised frame coordinates, then
         the edge decays (left, right, top, bottom) when they are modelled.
+    held : (mb, nb) bool ndarray or None
+        Blocks held out of the last pass (anomalies, their soft tails and a margin); a fit
+        started from this one holds them out of its first pass too.
     """
 
     surface: np.ndarray
@@ -113,6 +133,7 @@ class SoundSurface:
     block_px: int
     length_px: float
     coefficients: np.ndarray
+    held: np.ndarray | None = None
 
 
 def _block_means(t: np.ndarray, valid: np.ndarray, b: int) -> tuple[np.ndarray, np.ndarray, tuple[int, int]]:
@@ -290,8 +311,10 @@ def _one_sided_scale(r: np.ndarray) -> float:
 
 def _backfit(*, x_design: np.ndarray, y: np.ndarray, ok: np.ndarray, base: np.ndarray, lengths: list[float],
              gy: np.ndarray, gx: np.ndarray, floor: float, w0: np.ndarray,
-             ridge: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, float]:
-    """Backfitting of the global and the local part with Tukey reweighting: ``(beta, local, weights, scale)``."""
+             ridge: np.ndarray, keep: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray, np.ndarray, float]:
+    """Backfitting of the global and the local part with Tukey reweighting: ``(beta, local, weights, scale)``.
+
+    ``keep`` (0/1 per block) holds blocks out of every fit whatever their residual."""
     yv = y[ok]
     w = w0
     local = np.zeros_like(y)
@@ -306,7 +329,30 @@ def _backfit(*, x_design: np.ndarray, y: np.ndarray, ok: np.ndarray, base: np.nd
         scale = max(_one_sided_scale(r), floor)
         w = np.zeros_like(y)
         w[ok] = base[ok] * _tukey(r, TUKEY_C * scale)
+        if keep is not None:
+            w *= keep
     return beta, local, w, scale
+
+
+def _held_out(resid: np.ndarray, w: np.ndarray, ok: np.ndarray, scale: float, margin_blocks: float) -> np.ndarray:
+    """Blocks held out of a refit: the anomalies, their soft tails and a margin around them.
+
+    An anomaly's contrast does not stop where the biweight rejects it (``w`` = 0): lateral conduction
+    spreads it into a soft tail that fades into the noise, and tail blocks that keep their weight pull
+    the surface toward the anomaly. The tail is every block connected (8-neighbours) to a rejected
+    block whose residual has that block's sign and exceeds :data:`HOLD_K` scales; a margin of
+    ``margin_blocks`` around the whole covers the part of the tail below that.
+    """
+    conn = np.ones((3, 3), bool)
+    held = np.zeros(ok.shape, bool)
+    big = ok & (np.abs(resid) > HOLD_K * scale)
+    for sgn in (-1.0, 1.0):
+        seed = ok & (w <= 0) & (sgn * resid > 0)
+        if seed.any():
+            held |= ndimage.binary_propagation(seed, structure=conn, mask=seed | (big & (sgn * resid > 0)))
+    if margin_blocks >= 0.5 and held.any():
+        held |= ndimage.distance_transform_edt(~held) <= margin_blocks
+    return held & ok
 
 
 def fit_sound_surface(
@@ -370,13 +416,16 @@ def fit_sound_surface(
     gy, gx = np.meshgrid(np.arange(mb, dtype=float) - mb / 2.0, np.arange(nb, dtype=float) - nb / 2.0, indexing="ij")
     if start is not None and start.block_px == b and start.weight.shape == t.shape:
         w0 = base * _block_means(start.weight, np.ones(t.shape, bool), b)[0]
+        if start.held is not None and start.held.shape == w0.shape:
+            w0 = w0 * ~start.held
     else:
         w0 = base * _lts_start(x_design[:, :7], yv, y.shape, ok, base)  # the frame-tied part alone
     w = w0
     # graduated: from the robust start, the local part at 4, 2 and 1 sound lengths, so a large anomaly
     # is excluded by the stiff fits before a flexible one could follow it
     steps = _LENGTH_STEPS[-1:] if start is not None else _LENGTH_STEPS
-    lengths = [f * lb for f in steps for _ in range(_PER_STEP)]
+    # the last pass at the final length is the refit below, with the anomalies' tails held out
+    lengths = [f * lb for f in steps for _ in range(_PER_STEP)][:-1]
     fit = dict(x_design=x_design, y=y, ok=ok, base=base, lengths=lengths, gy=gy, gx=gx, floor=floor)
     ridge = np.zeros(x_design.shape[1])
     beta, local, w, scale = _backfit(w0=w, ridge=ridge, **fit)
@@ -391,9 +440,24 @@ def fit_sound_surface(
             ridge[7:][off] = 1e9 * max(float(base.sum()), 1.0)
             beta, local, w, scale = _backfit(w0=w0, ridge=ridge, **fit)
 
+    # the anomalies with their soft tails and a margin held out, the surface refitted at the final length
+    resid = np.zeros_like(y)
+    resid[ok] = yv - x_design @ beta - local[ok]
+    held = _held_out(resid, w, ok, scale, HOLD_MARGIN * lb)
+    keep = (~held).astype(float) if held.any() and (ok & ~held).sum() >= (1.0 - HOLD_MAX) * ok.sum() else None
+    beta, local, w, scale_held = _backfit(w0=w if keep is None else w * keep, ridge=ridge, keep=keep,
+                                          **dict(fit, lengths=[steps[-1] * lb]))
+    if keep is None:
+        scale = scale_held
+    else:
+        # the surface is the held-out fit's; the scale and the weights stay those of every block (what the
+        # detector measures the noise on): the tails are held out of the fit, not declared anomalous
+        w = np.zeros_like(y)
+        w[ok] = base[ok] * _tukey(yv - x_design @ beta - local[ok], TUKEY_C * scale)
+
     # back to full resolution: the global part exactly, the local part bilinear between block centres
     surf = _evaluate_global(beta, m, n, edge_length_px)
     up = cv2.resize(local.astype(np.float32), (nb * b, mb * b), interpolation=cv2.INTER_LINEAR)[:m, :n]
     surf = surf + up.astype(float)
     wfull = np.repeat(np.repeat(np.where(ok, w / np.maximum(base, 1e-12), 0.0), b, axis=0), b, axis=1)[:m, :n]
-    return SoundSurface(surf, wfull, float(scale), b, float(length_px), beta)
+    return SoundSurface(surf, wfull, float(scale), b, float(length_px), beta, None if keep is None else held)
