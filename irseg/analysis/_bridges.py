@@ -25,7 +25,11 @@ profile integrated out to the plane elements on both sides, because the local so
 follows such a long tail; that is ψ against the plane elements, ISO 10211's definition [from
 memory]. The two sides are read against their own planes (:func:`_side_loss`): a wall and a
 ceiling meet at different temperatures, and down a wall the air's stratification makes a
-gradient across a horizontal junction that a ceiling does not have. A camera looking into a corner sees both
+gradient across a horizontal junction that a ceiling does not have. The two faces of a horizontal
+junction seen obliquely from inside may also have different surface coefficients (a ceiling's for
+upward heat flow, a wall's for horizontal): :func:`side_coefficients` gives them where the view's
+declared heat flow makes it unambiguous, and :func:`geometric_profile` weights each side's loss by
+its own. A camera looking into a corner sees both
 faces foreshortened *across* the corner line, so the line itself keeps its length: the oblique
 stretch of :func:`band_length_m` is not applied along it.
 """
@@ -42,9 +46,10 @@ from scipy import ndimage
 from ._confidence import BandInputs, psi_band
 from ._geometry import tilt_factor
 from ._shape import Shape
+from ._surface import h_convective_interior
 
 __all__ = ["LINEAR_CAUSE", "band_length_m", "linear_figures", "GeometricProfile", "geometric_profile",
-           "GEOMETRIC_SPAN", "GEOMETRIC_REACH_M",
+           "side_coefficients", "side_note", "GEOMETRIC_SPAN", "GEOMETRIC_REACH_M",
            "straight_band_loss", "STRAIGHT_REACH_M", "GEOMETRIC_SYMMETRY", "GEOMETRIC_SHOULDER", "GEOMETRIC_TAIL"]
 
 #: The cause whose anomalies are measured per metre (linear thermal bridges and framing).
@@ -63,11 +68,16 @@ _FAR_PX = 3  # the far ends: mean of this many columns
 
 @dataclass(frozen=True)
 class GeometricProfile:
-    """A geometric bridge's cross-profile: half-peak distances (m) and loss sum (K·px) to the plane wall."""
+    """A geometric bridge's cross-profile: half-peak distances (m) and loss sum (K·px) to the plane wall.
+
+    ``side_h_w_m2k``: the surface coefficients (above, below its line) its sides' losses were weighted
+    by (:func:`side_coefficients`), None when read with the image's one coefficient.
+    """
 
     half_m: tuple[float, float]
     peak_k: float
     loss_sum_kpx: float
+    side_h_w_m2k: tuple[float, float] | None = None
 
 
 def _side(p: np.ndarray, peak: float, noise: float) -> float | None:
@@ -99,13 +109,18 @@ def _along_rows(temperature_c: np.ndarray, shape: Shape) -> tuple[np.ndarray, fl
     return None
 
 
-def geometric_profile(temperature_c: np.ndarray, shape: Shape, *, loss_sign: float,
-                      pixel_m: float | None) -> GeometricProfile | None:
+def geometric_profile(temperature_c: np.ndarray, shape: Shape, *, loss_sign: float, pixel_m: float | None,
+                      side_h_w_m2k: tuple[float, float] | None = None,
+                      h_w_m2k: float | None = None) -> GeometricProfile | None:
     """The cross-profile of a band if it is a geometric bridge (module docstring), else None.
 
     ``loss_sign`` is +1 when heat loss makes the surface colder (seen from inside), −1 from outside.
     The profile is the median over the band's middle 90 % of the temperatures at each distance from
     its line, its loss-signed contrast taken against the straight line between its far ends.
+    With ``side_h_w_m2k`` (the surface coefficients above and below a horizontal line,
+    :func:`side_coefficients`) and the image's ``h_w_m2k``, each side's loss is weighted by its own
+    coefficient over the image's, so that ``h_w_m2k × loss_sum_kpx`` is the sum of each side's
+    ``h × loss``; a vertical line is read with the image's coefficient.
     """
     oriented = None if pixel_m is None else _along_rows(temperature_c, shape)
     if oriented is None:
@@ -136,8 +151,51 @@ def geometric_profile(temperature_c: np.ndarray, shape: Shape, *, loss_sign: flo
     right, left = _side(p[k:], peak, noise), _side(p[k::-1], peak, noise)
     if right is None or left is None or min(left, right) < GEOMETRIC_SYMMETRY * max(left, right):
         return None
-    loss = float(_side_loss(-loss_sign * prof, k).sum()) * min(shape.length_px, n_along)
-    return GeometricProfile((left * pixel_m, right * pixel_m), peak, loss)
+    side = _side_loss(-loss_sign * prof, k)
+    loss, used = float(side.sum()), None
+    if side_h_w_m2k is not None and h_w_m2k is not None and h_w_m2k > 0 and _horizontal(shape):
+        used = (float(side_h_w_m2k[0]), float(side_h_w_m2k[1]))
+        w_above, w_below = used[0] / h_w_m2k, used[1] / h_w_m2k  # rows before the line: above it
+        loss = w_above * float(side[:k].sum()) + w_below * float(side[k + 1:].sum()) + 0.5 * (w_above + w_below) * side[k]
+    return GeometricProfile((left * pixel_m, right * pixel_m), peak, float(loss) * min(shape.length_px, n_along), used)
+
+
+def side_note(profile: GeometricProfile | None) -> str:
+    """The reason's words for a geometric bridge read with a coefficient per face ("" when it was not)."""
+    if profile is None or profile.side_h_w_m2k is None:
+        return ""
+    a, b = profile.side_h_w_m2k
+    return (f"its two faces read with their own surface coefficients, {a:.1f} W/m²K above the line and {b:.1f} "
+            f"below (R_si {1 / a:.2f} and {1 / b:.2f} m²K/W: by the view's declared heat flow a ceiling above a "
+            "wall or a wall above a floor)")
+
+
+def _horizontal(shape: Shape) -> bool:
+    """The band runs along the image's rows within :data:`GEOMETRIC_AXIS_DEG`."""
+    o = shape.orientation_deg % 180.0
+    return min(o, 180.0 - o) <= GEOMETRIC_AXIS_DEG
+
+
+def side_coefficients(*, view: str, heat_flow: str | None, tilt_deg: float,
+                      h_radiative_w_m2k: float) -> tuple[float, float] | None:
+    """Interior surface coefficients ``(above, below)`` of the two faces of a horizontal geometric bridge, W/m²K.
+
+    Seen obliquely from inside (``tilt_deg`` > 0), a horizontal junction line across the frame is
+    where a wall meets a ceiling or a floor, and an upright camera (the image's rows horizontal on
+    the surface, as the oblique stretch of :func:`band_length_m` assumes) sees a ceiling above the
+    wall it meets and a floor below it. ``tilt_deg`` has no sign (the angle to the surface's
+    normal), so it cannot tell looking up from looking down: the sidecar's declared heat flow of the
+    view does. Declared ``"upward"`` (the view is of a ceiling): the face above the line is that
+    ceiling (upward heat flow) and the face below a wall (horizontal). Declared ``"downward"`` (a
+    floor): the face below is the floor (downward), the face above a wall. Otherwise (a wall
+    declared, or nothing: horizontal) which face is the wall is unknown, and None (one coefficient
+    for the image). Each side's coefficient is ``h_c + h_r`` with the convective part of the
+    direction (:func:`._surface.h_convective_interior`) and the image's radiative part.
+    """
+    if view != "interior" or not tilt_deg > 0.0 or heat_flow not in ("upward", "downward"):
+        return None
+    flows = ("upward", "horizontal") if heat_flow == "upward" else ("horizontal", "downward")
+    return tuple(h_convective_interior(f) + float(h_radiative_w_m2k) for f in flows)  # type: ignore[return-value]
 
 
 def _side_loss(q: np.ndarray, k: int) -> np.ndarray:

@@ -417,3 +417,61 @@ def test_side_loss_reads_each_side_against_its_own_plane():
     line = np.linspace(q2[:3].mean(), q2[-3:].mean(), q2.size)
     assert np.clip(q2 - line, 0, None).sum() < 0.8 * 2 * amp * lam / p
     assert _side_loss(q2, 60).sum() == pytest.approx(2 * amp * lam / p, rel=0.05)
+
+
+def test_the_two_faces_of_a_junction_seen_from_inside_get_their_own_surface_coefficients():
+    from irseg.analysis._bridges import side_coefficients
+    from irseg.analysis._surface import h_radiative
+
+    h_r = h_radiative(20.0, 0.9)  # the convention's ε 0.9 at 20 °C (ISO 6946:2017 annex) [from memory]
+    # looking up into a wall/ceiling junction (the view declared a ceiling): the ceiling above the line,
+    # the wall below; R_si 0.10 m²K/W upward and 0.13 horizontal (ISO 6946:2017 Table 7) [from memory]
+    above, below = side_coefficients(view="interior", heat_flow="upward", tilt_deg=45.0, h_radiative_w_m2k=h_r)
+    assert 1.0 / above == pytest.approx(0.10, abs=0.005)
+    assert 1.0 / below == pytest.approx(0.13, abs=0.005)
+    # looking down into a wall/floor junction: the wall above, the floor below; R_si 0.17 downward (same table)
+    above, below = side_coefficients(view="interior", heat_flow="downward", tilt_deg=45.0, h_radiative_w_m2k=h_r)
+    assert 1.0 / above == pytest.approx(0.13, abs=0.005)
+    assert 1.0 / below == pytest.approx(0.17, abs=0.005)
+    # ambiguous: a wall declared (which face is the wall?), the junction face-on (one face seen), or
+    # outside (R_se 0.04 whatever the direction, same table [from memory]): one coefficient
+    for kw in ({"heat_flow": "horizontal", "tilt_deg": 45.0}, {"heat_flow": None, "tilt_deg": 45.0},
+               {"heat_flow": "upward", "tilt_deg": 0.0}):
+        assert side_coefficients(view="interior", h_radiative_w_m2k=h_r, **kw) is None
+    assert side_coefficients(view="exterior", heat_flow="upward", tilt_deg=45.0, h_radiative_w_m2k=h_r) is None
+
+
+def test_each_side_of_a_horizontal_junction_is_weighted_by_its_own_coefficient():
+    from dataclasses import replace
+
+    from irseg.analysis._bridges import geometric_profile, side_note
+
+    # the surface balance per side (ISO 6946 annex: q = h·ΔT [C: physics]): Σ h_side·loss_side, read in
+    # units of the image's coefficient, so a symmetric junction (the same fall-off both ways) comes out
+    # (h_above + h_below) / (2·h_image) times its one-coefficient figure [C: arithmetic]
+    rows = np.arange(160, dtype=float)
+    t = np.tile((18.5 - _cusp(rows, 80.0, 0.08, 0.08, 1.0))[:, None], (1, 240))
+    shape = replace(_band_shape(12), centroid_row=80.0)
+    plain = geometric_profile(t, shape, loss_sign=1.0, pixel_m=PIXEL_M)
+    h_up, h_wall = 10.1, 7.6
+    sided = geometric_profile(t, shape, loss_sign=1.0, pixel_m=PIXEL_M, side_h_w_m2k=(h_up, h_wall), h_w_m2k=h_wall)
+    assert plain is not None and sided is not None
+    assert sided.loss_sum_kpx == pytest.approx(plain.loss_sum_kpx * (h_up + h_wall) / (2 * h_wall), rel=0.02)
+    assert plain.side_h_w_m2k is None and sided.side_h_w_m2k == (h_up, h_wall)
+    assert side_note(plain) == "" and "R_si 0.10 and 0.13" in side_note(sided)  # 1/10.1, 1/7.6 [C: arithmetic]
+    # the weights follow the rows: the ceiling's side above the line (a longer tail there weighs more)
+    lop = np.tile((18.5 - _cusp(rows, 80.0, 0.10, 0.07, 1.0))[:, None], (1, 240))
+    up = geometric_profile(lop, shape, loss_sign=1.0, pixel_m=PIXEL_M, side_h_w_m2k=(h_up, h_wall), h_w_m2k=h_wall)
+    down = geometric_profile(lop, shape, loss_sign=1.0, pixel_m=PIXEL_M, side_h_w_m2k=(h_wall, h_up), h_w_m2k=h_wall)
+    n = np.arange(1, 61)  # the 0.6 m read, in pixels
+    s_above, s_below = np.exp(-n * PIXEL_M / 0.10).sum(), np.exp(-n * PIXEL_M / 0.07).sum()
+    mid = 0.5 * (h_up + h_wall)  # the line itself lies on both faces
+    expect = (h_up * s_above + h_wall * s_below + mid) / (h_wall * s_above + h_up * s_below + mid)
+    assert up.loss_sum_kpx / down.loss_sum_kpx == pytest.approx(expect, rel=0.01)
+    # a vertical line (a wall corner) keeps the image's one coefficient
+    cols = np.arange(240, dtype=float)
+    corner = np.tile(18.5 - _cusp(cols, 120.0, 0.08, 0.08, 1.0), (160, 1))
+    vertical = replace(shape, orientation_deg=90.0, centroid_row=79.5, centroid_col=120.0, length_px=160.0)
+    a = geometric_profile(corner, vertical, loss_sign=1.0, pixel_m=PIXEL_M)
+    b = geometric_profile(corner, vertical, loss_sign=1.0, pixel_m=PIXEL_M, side_h_w_m2k=(h_up, h_wall), h_w_m2k=h_wall)
+    assert a is not None and b.loss_sum_kpx == pytest.approx(a.loss_sum_kpx, rel=1e-12) and b.side_h_w_m2k is None
