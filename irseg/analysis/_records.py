@@ -11,7 +11,8 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from ..types import SurveyMeta
-from ._bridges import GeometricProfile, geometric_profile, linear_figures, straight_band_loss
+from ._bridges import (GeometricProfile, geometric_profile, linear_figures, side_coefficients, side_note,
+                       straight_band_loss)
 from ._classify import GEOMETRIC_REASON, GLAZING_REASON, classify_cause, framing_summary_reason
 from ._confidence import BandInputs, confidence_bands
 from ._framing import LineInfo
@@ -229,13 +230,18 @@ def anomaly_record(
         )
     else:
         if ctx.meta.surface.view != "roof" and not any(m.cand.label in sets for m in unit):
+            side_h = side_coefficients(view=surf.view, heat_flow=ctx.heat_flow, tilt_deg=cam.tilt_deg,
+                                       h_radiative_w_m2k=ctx.h_radiative_w_m2k)
             geometric = geometric_profile(ctx.temperature_c, main.shape, pixel_m=ctx.pixel_m,
-                                          loss_sign=1.0 if ctx.meta.surface.view == "interior" else -1.0)
+                                          loss_sign=1.0 if ctx.meta.surface.view == "interior" else -1.0,
+                                          side_h_w_m2k=side_h, h_w_m2k=ctx.h_w_m2k)
         cause, reason = _cause(unit, main, ctx=ctx, delta_k=delta_k, mean_c=mean_c, sets=sets, lines=lines,
                                host_of=host_of, contact=_frame_contact(px.rows, px.cols, n_rows), geometric=geometric)
         if cause == "thermal_bridge" and geometric is not None and GEOMETRIC_REASON in reason:
             # its heat against the plane wall on both sides (the local sound surface follows its tail)
             px = replace(px, loss_sum_kpx=geometric.loss_sum_kpx)
+            if side_note(geometric):
+                reason += f"; {side_note(geometric)}"
         else:
             geometric = None
             if cause == "thermal_bridge" and not any(m.cand.label in sets for m in unit):

@@ -25,7 +25,10 @@ value plus the section's contrast, per kelvin of the difference between the insi
 and the outside (the wall's air stratified, the ceiling's at the air's top value). The camera on
 the junction's bisector sees both faces at 45°: rows are foreshortened by cos 45° (``v = y·cos 45°``),
 the junction line keeps its length. The projection is orthographic (the corner's pinhole
-rendering, :func:`irseg.scenes._corner.corner_scene` with ``perspective_m``, is not offered here). A plane of uniform faces, no defect: the validation asks that the
+rendering, :func:`irseg.scenes._corner.corner_scene` with ``perspective_m``, is not offered here). The sidecar
+declares the view's heat flow upward (the thermographer looks up at a ceiling junction), which is what
+tells the analysis that the face above the line is a ceiling and the one below a wall
+(:func:`irseg.analysis._bridges.side_coefficients`). A plane of uniform faces, no defect: the validation asks that the
 junction is a ``thermal_bridge`` named geometric, found over its length, with ψ against ψ_i.
 """
 
@@ -190,7 +193,9 @@ def junction_scene(*, inside_c: float = 20.0, outside_c: float = 0.0, wind_m_s: 
                       f"wall/flat-roof junction, psi_i {sec.psi_i_w_mk:.3f} W/(m·K) (2-D conduction of the section)")
     # the camera on the bisector: v = y·cos 45° along the rows
     cos_v = math.cos(math.radians(JUNCTION_VIEW_DEG))
-    proj = replace(el, height_m=height_m * cos_v,
+    # the sidecar declares the view a ceiling's (upward heat flow): looking up into the junction, the face above
+    # the line is the ceiling and the analysis reads the wall below with a wall's coefficient
+    proj = replace(el, height_m=height_m * cos_v, heat_flow="upward",
                    description="wall/flat-roof junction seen from inside at 45° to the wall and the ceiling: "
                    + el.description + "; roof: " + ", ".join(f"{1000 * t:.0f} mm {m}" for m, t in ROOF_LAYERS))
     j = np.clip(np.round((np.arange(proj.ny) + 0.5) / cos_v - 0.5).astype(int), 0, el.ny - 1)

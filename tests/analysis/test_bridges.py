@@ -475,3 +475,24 @@ def test_each_side_of_a_horizontal_junction_is_weighted_by_its_own_coefficient()
     a = geometric_profile(corner, vertical, loss_sign=1.0, pixel_m=PIXEL_M)
     b = geometric_profile(corner, vertical, loss_sign=1.0, pixel_m=PIXEL_M, side_h_w_m2k=(h_up, h_wall), h_w_m2k=h_wall)
     assert a is not None and b.loss_sum_kpx == pytest.approx(a.loss_sum_kpx, rel=1e-12) and b.side_h_w_m2k is None
+
+
+def test_a_ceiling_junction_seen_from_inside_reads_the_wall_below_with_a_wall_s_coefficient():
+    # a horizontal junction across the frame, the same fall-off both ways, seen at 45° from inside
+    rows = np.arange(160, dtype=float)
+    t = np.tile((18.5 - _cusp(rows, 80.0, 0.08, 0.08, 1.0))[:, None], (1, 240))
+    d = np.zeros(t.shape, int)
+    d[74:87, :] = 1
+    cam = {"pixel_m": PIXEL_M, "tilt_deg": 45.0}
+
+    def bridge(heat_flow):
+        res = _run(t, d, camera=cam, surface={"view": "interior", "heat_flow": heat_flow})
+        (a,) = [x for x in res.anomalies if x.cause == "thermal_bridge"]
+        return a
+
+    wall, ceiling = bridge("horizontal"), bridge("upward")
+    # declared a ceiling: above the line upward heat flow, below it a wall; ψ ∝ Σ h_side·loss_side, so
+    # (h_up + h_wall)/2 over the wall's h for a symmetric fall-off; R_si 0.10 and 0.13 m²K/W (ISO 6946:2017
+    # Table 7 [from memory]) make that about (1/0.10 + 1/0.13)/2·0.13 ≈ 1.15 [C: arithmetic]
+    assert ceiling.psi_w_mk / wall.psi_w_mk == pytest.approx(0.5 * (1 / 0.10 + 1 / 0.13) * 0.13, rel=0.03)
+    assert "R_si 0.10 and 0.13" in ceiling.reason and "R_si" not in wall.reason
