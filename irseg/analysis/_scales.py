@@ -97,52 +97,57 @@ def scale_bank(min_area_px: float, max_area_px: float, max_s_px: float) -> tuple
 
 def contrast_at_scales(
     residual: np.ndarray, valid: np.ndarray, scales_px: tuple[float, ...], gains: list | None = None,
-    pyramid: dict | None = None,
+    pyramid: dict | None = None, weights: dict | None = None,
 ) -> list[np.ndarray]:
     """``R_s`` for each scale (normalized convolution, so invalid pixels do not pull it to zero).
 
     Scales above 3 px are computed on a block-reduced copy (factor ``⌊s/2⌋`` rounded down to a
     power of two) and brought back bilinearly; the reduction adds ``f²/12`` px² of variance to
     the window, which is taken off the reduced std. ``pyramid`` (a dict the caller keeps for one
-    residual) holds the reduced copies between calls.
+    residual) holds the reduced copies between calls; ``weights`` (a dict the caller keeps for one
+    ``valid``) holds what depends on the valid pixels only (their reduced copies, the smoothed
+    weights and the edge gains), so further residuals on the same pixels reuse it.
     """
     m, n = residual.shape
-    r32 = np.where(valid, residual, 0.0).astype(np.float32)
-    v32 = valid.astype(np.float32)
-    out = []
     if pyramid is None:
         pyramid = {}
-    if 1 not in pyramid:  # (Σ r·v, Σ v) per block, as means; kept by the caller for further scales
-        pyramid[1] = (r32 * v32, v32)
+    if weights is None:
+        weights = {}
+    if 1 not in weights:
+        weights[1] = valid.astype(np.float32)
+    if 1 not in pyramid:  # Σ r·v per block, as means (r is 0 off the valid pixels); kept for further scales
+        pyramid[1] = np.where(valid, residual, 0.0).astype(np.float32)
+    out = []
 
-    def level(f: int) -> tuple[np.ndarray, np.ndarray]:
-        if f not in pyramid:
-            a, c = level(f // 2)
-            mb, nb = -(-a.shape[0] // 2), -(-a.shape[1] // 2)
-            aa = np.zeros((2 * mb, 2 * nb), np.float32)
-            cc = np.zeros((2 * mb, 2 * nb), np.float32)
-            aa[: a.shape[0], : a.shape[1]] = a
-            cc[: c.shape[0], : c.shape[1]] = c
-            pyramid[f] = (0.25 * aa.reshape(mb, 2, nb, 2).sum(axis=(1, 3)),
-                          0.25 * cc.reshape(mb, 2, nb, 2).sum(axis=(1, 3)))
-        return pyramid[f]
+    def level(store: dict, f: int) -> np.ndarray:
+        if f not in store:
+            a = level(store, f // 2)
+            if a.shape[0] % 2 or a.shape[1] % 2:  # an odd side: padded with a zero row or column
+                aa = np.zeros((a.shape[0] + a.shape[0] % 2, a.shape[1] + a.shape[1] % 2), np.float32)
+                aa[: a.shape[0], : a.shape[1]] = a
+                a = aa
+            # the mean of each 2×2 block, summed as (top pair) + (bottom pair)
+            store[f] = 0.25 * ((a[0::2, 0::2] + a[0::2, 1::2]) + (a[1::2, 0::2] + a[1::2, 1::2]))
+        return store[f]
 
     for s in scales_px:
-        if s <= FULL_RES_MAX_S:
-            num, den = _gblur(r32 * v32, s), _gblur(v32, s)
-            out.append(num / np.maximum(den, 1e-6))
-            if gains is not None:
-                gains.append(_edge_gain(v32, s))
-            continue
-        f = 1 << max(0, int(math.floor(math.log2(s / 2.0))))
-        rv, vv = level(f)
-        sc = math.sqrt(max(s * s - f * f / 12.0, 0.25)) / f
-        small = _gblur(rv, sc) / np.maximum(_gblur(vv, sc), 1e-6)
-        up = cv2.resize(small, (small.shape[1] * f, small.shape[0] * f), interpolation=cv2.INTER_LINEAR)
-        out.append(up[:m, :n])
+        full = s <= FULL_RES_MAX_S
+        f = 1 if full else 1 << max(0, int(math.floor(math.log2(s / 2.0))))
+        sc = s if full else math.sqrt(max(s * s - f * f / 12.0, 0.25)) / f
+        vv = level(weights, f)
+        if ("den", s) not in weights:
+            weights[("den", s)] = np.maximum(_gblur(vv, sc), 1e-6)
+        field = _gblur(level(pyramid, f), sc) / weights[("den", s)]
+        if not full:
+            field = cv2.resize(field, (field.shape[1] * f, field.shape[0] * f), interpolation=cv2.INTER_LINEAR)[:m, :n]
+        out.append(field)
         if gains is not None:
-            gs = _edge_gain(vv, sc)
-            gains.append(cv2.resize(gs, (gs.shape[1] * f, gs.shape[0] * f), interpolation=cv2.INTER_LINEAR)[:m, :n])
+            if ("gain", s) not in weights:
+                gs = _edge_gain(vv, sc)
+                if not full:
+                    gs = cv2.resize(gs, (gs.shape[1] * f, gs.shape[0] * f), interpolation=cv2.INTER_LINEAR)[:m, :n]
+                weights[("gain", s)] = gs
+            gains.append(weights[("gain", s)])
     return out
 
 
