@@ -213,6 +213,26 @@ def long_lines(mask: np.ndarray, line_px: float) -> np.ndarray:
     return keep[lab]
 
 
+_SQUARE_3 = np.ones((3, 3), np.uint8)
+
+
+def _reconstruct(seed: np.ndarray, mask: np.ndarray) -> np.ndarray:
+    """Grey reconstruction by dilation of ``seed`` under ``mask`` (``seed <= mask``), 8-neighbourhood.
+
+    Geodesic dilations (a 3×3 dilation, then the minimum with ``mask``) repeated until nothing
+    changes: the same fixed point as :func:`skimage.morphology.reconstruction` (``method="dilation"``),
+    value for value (only maxima and minima of the given values are formed), and faster on the
+    small reduced copies :func:`dome_of` works on.
+    """
+    out = np.minimum(seed, mask)
+    while True:
+        grown = cv2.dilate(out, _SQUARE_3, borderType=cv2.BORDER_CONSTANT, borderValue=-np.inf)
+        np.minimum(grown, mask, out=grown)
+        if np.array_equal(grown, out, equal_nan=True):
+            return grown
+        out = grown
+
+
 def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, line_px: float) -> np.ndarray:
     """The part of ``region`` in the same dome of ``field`` as the pixel ``top`` (flat index).
 
@@ -222,7 +242,6 @@ def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, li
     running between two defects is not a ridge joining them. Computed on a copy reduced by
     ``⌊line_px/4⌋`` (a member is about 4 px across there: domes are broad).
     """
-    from skimage.morphology import reconstruction
     from skimage.segmentation import watershed
 
     m, n = field.shape
@@ -237,7 +256,7 @@ def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, li
     # h-domes: f − reconstruction(f − h) is positive on every dome; a dome standing h above its
     # saddle reaches h (equal maxima joined above the saddle are one dome, not several markers)
     f64 = small.astype(np.float64)
-    domes = f64 - reconstruction(f64 - dip_k, f64, method="dilation")
+    domes = f64 - _reconstruct(f64 - dip_k, f64)
     comp, k = ndimage.label(domes > 1e-9 * max(dip_k, 1e-12))
     if k <= 1:
         return region

@@ -170,3 +170,39 @@ def test_a_large_masked_area_leaves_the_defect_beside_it_found_without_warnings(
     assert len(cold) == 1
     pixel_m = 2 * 3.0 * np.tan(np.radians(45.0) / 2) / 320
     assert cold[0].area_m2 == pytest.approx(80 * 80 * pixel_m**2, rel=0.15)
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_grey_reconstruction_agrees_with_scikit_image(seed):
+    # reference library: skimage.morphology.reconstruction (method "dilation", 3×3 footprint); the
+    # domes of the extent rule are f − reconstruction(f − h, f), so they must agree value for value
+    from skimage.morphology import reconstruction
+
+    from irseg.analysis._scales import _reconstruct
+
+    rng = np.random.default_rng(seed)
+    m, n = 37 + 11 * seed, 53 - 7 * seed
+    yy, xx = np.mgrid[:m, :n]
+    field = np.sin(yy / 5.0) * np.cos(xx / 7.0) + 0.3 * rng.normal(size=(m, n))
+    field[::9, :] = field.min()  # flat valleys cutting the domes apart
+    for h in (0.05, 0.3, 1.0):
+        expected = reconstruction(field - h, field, method="dilation")
+        assert np.array_equal(_reconstruct(field - h, field), expected)
+
+
+def test_contrast_fields_reuse_their_valid_weights_unchanged():
+    # the weights kept for one set of valid pixels (second pass, fine fields) give the fields a fresh call gives
+    rng = np.random.default_rng(3)
+    valid = np.ones((120, 170), bool)
+    valid[30:60, 40:90] = False
+    scales = (1.0, 2.8, 4.5, 9.0)
+    weights: dict = {}
+    first = rng.normal(0.0, 0.1, valid.shape)
+    contrast_at_scales(first, valid, scales, [], weights=weights)
+    second = rng.normal(0.0, 0.1, valid.shape)
+    gains_kept: list = []
+    kept = contrast_at_scales(second, valid, scales, gains_kept, weights=weights)
+    gains_fresh: list = []
+    fresh = contrast_at_scales(second, valid, scales, gains_fresh)
+    for a, b in zip(kept + gains_kept, fresh + gains_fresh):
+        assert np.array_equal(a, b)
