@@ -356,7 +356,7 @@ def _sigmas(fields: list[np.ndarray], gains: list[np.ndarray], scales: tuple[flo
     """σ_s used at each scale (the larger of the white-noise value and the robust spread of ``R_s`` over a regular
     subsample of the sound pixels, at most about 40 000) and the white-noise values."""
     step = max(1, int(sound.sum() // 40_000))
-    sr, sc = (i[::step] for i in np.nonzero(sound))  # raster order
+    sr, sc = np.divmod(np.flatnonzero(sound)[::step], sound.shape[1])  # raster order
     sig, sig_w = [], []
     for s, f, g in zip(scales, fields, gains):
         sw = noise * gaussian_noise_factor(s)
