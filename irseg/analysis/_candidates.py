@@ -5,9 +5,9 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import ndimage
 
 from ._geometry import MIN_SPOT_PX
+from ._reach import distance_to_zeros
 from ._reference import RingReference, SurfaceReference, rim_extent_px, ring_reference
 
 __all__ = [
@@ -74,7 +74,7 @@ class Candidate:
     @property
     def dist(self) -> np.ndarray:
         """Distance of each crop pixel to the region, px."""
-        return self._dist if self._dist is not None else ndimage.distance_transform_edt(~self.region)
+        return self._dist if self._dist is not None else distance_to_zeros(~self.region)
 
     @property
     def ref_in(self) -> np.ndarray:
@@ -152,7 +152,7 @@ def _local_contrast(
         c0, c1 = max(0, sl[1].start - pad), min(shape[1], sl[1].stop + pad)
         crop = (slice(r0, r1), slice(c0, c1))
         region = labels[crop] == lab
-        dist = ndimage.distance_transform_edt(~region)
+        dist = distance_to_zeros(~region)
         extent = (sl[0].start - r0, sl[1].start - c0, sl[0].stop - 1 - r0, sl[1].stop - 1 - c0)
         if factor == 1.0:
             gap = rim_extent_px(

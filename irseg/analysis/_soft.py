@@ -43,7 +43,7 @@ from .._shared import robust_sigma
 from ._candidates import Candidate
 from ._framing import BAND_ELONGATION, BAND_MAX_WIDTH_M, is_band
 from ._geometry import MIN_SPOT_PX
-from ._reach import near_sources, within_reach
+from ._reach import distance_to_zeros, near_sources, within_reach
 from ._reference import Plane, RingReference
 from ._shape import Shape, shape_features
 from ._significance import DetectionInfo
@@ -102,7 +102,7 @@ def _fades_from(idx: np.ndarray, core: np.ndarray, *, sign: int, u: np.ndarray, 
     cr, cc = np.nonzero(core)
     r0, r1 = min(int(rows.min()), int(cr.min())), max(int(rows.max()), int(cr.max())) + 1
     c0, c1 = min(int(cols.min()), int(cc.min())), max(int(cols.max()), int(cc.max())) + 1
-    dist = ndimage.distance_transform_edt(~core[r0:r1, c0:c1])[rows - r0, cols - c0]
+    dist = distance_to_zeros(~core[r0:r1, c0:c1])[rows - r0, cols - c0]
     contrast = sign * (u.flat[idx] - surface_c.flat[idx])
     far = dist > float(np.median(dist))
     if far.all() or not far.any():
@@ -384,7 +384,7 @@ def _measure(
     rr, cc = rows - r0, cols - c0
     region[rr, cc] = True
     rr, cc = np.nonzero(region)  # raster order
-    dist = ndimage.distance_transform_edt(~region)
+    dist = distance_to_zeros(~region)
     s_crop = surface_c[crop]
     t_crop = t[crop]
     ref_in = s_crop[rr, cc]

@@ -106,6 +106,26 @@ def test_a_candidate_forms_its_pixels_distances_and_reference_as_the_held_arrays
     assert held.n_px == 3 and held.dist.sum() == 0.0 and held.ref_in.tolist() == [1.0, 1.0, 1.0]  # kept as given
 
 
+@pytest.mark.parametrize("shape", [(1, 1), (1, 17), (23, 1), (61, 97), (700, 900)])
+def test_distance_to_zeros_is_scipys_exact_distance_transform_value_for_value(shape):
+    # [C] scipy.ndimage.distance_transform_edt is the reference exact Euclidean distance transform
+    # (float64 square roots of integer squared distances); the OpenCV-based form must equal it bit for bit
+    from scipy import ndimage
+
+    from irseg.analysis._reach import distance_to_zeros
+
+    rng = np.random.default_rng(sum(shape))
+    for density in (0.0005, 0.02, 0.6):
+        mask = rng.random(shape) > density
+        mask.flat[rng.integers(0, mask.size)] = False  # at least one zero
+        assert np.array_equal(distance_to_zeros(mask), ndimage.distance_transform_edt(mask))
+    yy, xx = np.mgrid[: shape[0], : shape[1]]
+    disk = (yy - shape[0] / 3) ** 2 + (xx - shape[1] / 2) ** 2 > (0.2 * min(shape)) ** 2
+    assert np.array_equal(distance_to_zeros(disk), ndimage.distance_transform_edt(disk))
+    ones = np.ones(shape, bool)  # no zero at all: scipy's own answer
+    assert np.array_equal(distance_to_zeros(ones), ndimage.distance_transform_edt(ones))
+
+
 def test_near_sources_agrees_with_scipys_exact_distance_transform():
     # [C] scipy.ndimage.distance_transform_edt is the reference exact Euclidean distance transform;
     # OpenCV's DIST_MASK_PRECISE must give the same pixels within reach (radii chosen off the
