@@ -126,12 +126,13 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     floor_k = float(an.min_contrast_k) if an.min_contrast_k is not None else MIN_CONTRAST_K
     det_labels, surface_c, det = detect_regions(t, ~valid, noise_k=noise, pixel_m=pixel_m, min_contrast_k=floor_k,
                                                 filled=getattr(seg, "filled", None))
-    areas = _region_sums(labels, None, n)
+    areas, cold, warm, core, sum_u = _region_sums(labels, (
+        None, lambda rows: det.components[rows] < 0, lambda rows: det.components[rows] > 0,
+        lambda rows: det_labels[rows] > 0, lambda rows: u[rows]), n)
     per = np.maximum(areas, 1.0)
-    share = {sign: _region_sums(labels, lambda rows, s=sign: np.sign(det.components[rows]) == s, n) / per
-             for sign in (-1, 1)}
-    in_core = _region_sums(labels, lambda rows: det_labels[rows] > 0, n) / per
-    means_u = _region_sums(labels, lambda rows: u[rows], n) / per
+    share = {-1: cold / per, 1: warm / per}
+    in_core = core / per
+    means_u = sum_u / per
     slices = ndimage.find_objects(labels)
     sound, trend = find_sound_regions(
         u=u, labels=labels, usable=usable, areas=areas, means_u=means_u, threshold_k=thr, min_area_px=MIN_SPOT_PX,
@@ -206,17 +207,19 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     return Analysis(rank_by_severity(drafts), out_labels, pixel_m, px_area, h, reference, warn)
 
 
-def _region_sums(labels: np.ndarray, weights, n: int) -> np.ndarray:
-    """Per-label sums of ``weights(rows)`` (pixel counts when None), float64, ``n + 1`` entries.
+def _region_sums(labels: np.ndarray, weights: tuple, n: int) -> list[np.ndarray]:
+    """Per-label sums of each ``weights[i](rows)`` (pixel counts when None), float64, ``n + 1`` entries each.
 
     ``np.bincount`` over a band of rows at a time: no frame-sized int64 labels or float64
-    weights (each 8 B/px; memory, issue 15).
+    weights (each 8 B/px; memory, issue 15); the band's labels are widened once for all the sums.
     """
-    out = np.zeros(n + 1)
+    out = [np.zeros(n + 1) for _ in weights]
     for r0 in range(0, labels.shape[0], _BLOCK_ROWS):
         rows = slice(r0, r0 + _BLOCK_ROWS)
-        w = None if weights is None else np.ravel(weights(rows))
-        out += np.bincount(labels[rows].ravel(), weights=w, minlength=n + 1)
+        lab = labels[rows].ravel().astype(np.intp)
+        for acc, weight in zip(out, weights):
+            w = None if weight is None else np.ravel(weight(rows))
+            acc += np.bincount(lab, weights=w, minlength=n + 1)
     return out
 
 

@@ -11,6 +11,7 @@ import numpy as np
 from scipy import ndimage
 
 from ._reach import distance_to_zeros
+from ._scales import _dilate
 
 __all__ = ["inside_edge_line", "EDGE_SIGMA_PX"]
 
@@ -97,7 +98,7 @@ def _inner_distance(region: np.ndarray, *, band: np.ndarray, win: tuple[slice, s
         room = np.minimum(room, cols + 1.0)
     if win[1].stop < region.shape[1]:
         room = np.minimum(room, n - cols + 0.0)
-    read = ndimage.binary_dilation(band, structure=np.ones((3, 3), bool))
+    read = _dilate(band, 1)  # 3×3 binary dilation
     if region[win].all() or bool(np.any(d[read] >= room[read])):
         return distance_to_zeros(region)[win]
     return d

@@ -44,6 +44,7 @@ from ._candidates import Candidate
 from ._framing import BAND_ELONGATION, BAND_MAX_WIDTH_M, is_band
 from ._geometry import MIN_SPOT_PX
 from ._reach import distance_to_zeros, near_sources, within_reach
+from ._scales import _dilate
 from ._reference import Plane, RingReference
 from ._shape import Shape, shape_features
 from ._significance import DetectionInfo
@@ -243,7 +244,7 @@ def join_detections(
     for k, idx in ext.items():
         if k not in dropped:
             taken[idx] = True
-    blocked = ndimage.binary_dilation(taken.reshape(shape), structure=np.ones((3, 3), bool))
+    blocked = _dilate(taken.reshape(shape), 1)  # 3×3 binary dilation
     extents: dict[int, np.ndarray] = {}
     mine = x = None
     for lab in soft:
@@ -447,8 +448,7 @@ def _shape(region: np.ndarray, dist: np.ndarray, rim_crop: np.ndarray, *, delta:
     axis = evecs[:, int(np.argmax(evals))]
     along = np.round((cc - cc.mean()) * axis[0] + (rr - rr.mean()) * axis[1]).astype(int)
     along -= int(along.min())
-    profile = np.full(int(along.max()) + 1, -np.inf)
-    np.maximum.at(profile, along, contrast[rr, cc])
+    profile = _group_max(along, contrast[rr, cc], int(along.max()) + 1)
     profile = profile[np.isfinite(profile)]
     mean = float(profile.mean())
     spread = robust_sigma(profile) if profile.size > 1 else 0.0
@@ -469,8 +469,7 @@ def _fades_from_end(contrast: np.ndarray, rr: np.ndarray, cc: np.ndarray) -> boo
         n = int(a.max()) + 1
         if n < 8:
             continue
-        profile = np.full(n, -np.inf)
-        np.maximum.at(profile, a, contrast[rr, cc])
+        profile = _group_max(a, contrast[rr, cc], n)
         profile = np.where(np.isfinite(profile), profile, np.nan)
         top = float(np.nanmax(profile))
         i = int(np.nanargmax(profile))
@@ -480,3 +479,15 @@ def _fades_from_end(contrast: np.ndarray, rr: np.ndarray, cc: np.ndarray) -> boo
         if i >= n - n // 4 and float(np.nanmean(profile[:tail])) <= 0.5 * top:
             return True
     return False
+
+
+def _group_max(keys: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
+    """The largest of ``values`` at each key ``0 .. n-1`` (−inf where a key has none): ``np.maximum.at`` on a
+    −inf array, by one stable sort and a reduction per run of equal keys."""
+    out = np.full(n, -np.inf)
+    if keys.size:
+        order = np.argsort(keys, kind="stable")
+        k = keys[order]
+        starts = np.flatnonzero(np.r_[True, k[1:] != k[:-1]])
+        out[k[starts]] = np.maximum.reduceat(values[order], starts)
+    return out

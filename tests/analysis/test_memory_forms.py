@@ -148,3 +148,34 @@ def test_near_sources_agrees_with_scipys_exact_distance_transform():
     pix = rng.choice(shape[0] * shape[1], 2000, replace=False)
     whole = ndimage.distance_transform_edt(far.astype(bool)).ravel()[pix] <= 11.6
     assert np.array_equal(within_reach(idx, pix, 11.6, shape), whole)
+
+
+def test_group_max_is_numpys_maximum_at(rng):
+    # the per-slice profiles of a detected anomaly's shape: NumPy's unbuffered np.maximum.at into a −inf
+    # array is the reference (its semantics, NaN propagation included, common practice)
+    from irseg.analysis._soft import _group_max
+
+    for k in range(60):
+        n = int(rng.integers(1, 40))
+        size = int(rng.integers(0, 250))
+        keys = rng.integers(0, n, size)
+        values = rng.normal(0.0, 1.0, size).astype(np.float32 if k % 2 else np.float64)
+        if k % 5 == 0 and size:
+            values[rng.integers(0, size)] = np.nan
+        expected = np.full(n, -np.inf)
+        with np.errstate(invalid="ignore"):
+            np.maximum.at(expected, keys, values)
+            got = _group_max(keys, values, n)
+        assert np.array_equal(got, expected, equal_nan=True)
+
+
+def test_shape_outline_erosion_is_scipys_binary_erosion(rng):
+    # reference library: scipy.ndimage.binary_erosion with its defaults (cross, border_value=0)
+    from scipy import ndimage
+
+    from irseg.analysis._shape import _eroded
+
+    for shape in ((1, 1), (1, 9), (7, 1), (2, 2), (31, 47)):
+        for density in (0.3, 0.8, 1.0):
+            region = rng.random(shape) < density
+            assert np.array_equal(_eroded(region), ndimage.binary_erosion(region))
