@@ -216,7 +216,7 @@ def detect_regions(
                            sound_length_m=sound_length_m, min_contrast_k=min_contrast_k, k_hi=k_hi, k_lo=k_lo,
                            extent_fraction=extent_fraction, split_plateaus=split_plateaus, filled=filled)
     t = t.astype(float, copy=False)
-    t = np.where(valid, t, np.nanmedian(t[valid]) if valid.any() else 0.0)
+    t = np.where(valid, t, np.median(t[valid], overwrite_input=True) if valid.any() else 0.0)  # finite: no NaN
     if pixel_m is not None and pixel_m > 0:
         line_px = LINE_WIDTH_M / pixel_m
         min_area_px = max(9, int(round(min_area_m2 / pixel_m**2)))

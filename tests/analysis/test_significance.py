@@ -206,3 +206,26 @@ def test_contrast_fields_reuse_their_valid_weights_unchanged():
     fresh = contrast_at_scales(second, valid, scales, gains_fresh)
     for a, b in zip(kept + gains_kept, fresh + gains_fresh):
         assert np.array_equal(a, b)
+
+
+def test_opencv_components_are_scipys():
+    # reference library: scipy.ndimage.label (8-connectivity for label8, its default 4-connectivity for
+    # long_lines, whose rule is the components' bounding boxes from scipy.ndimage.find_objects)
+    from scipy import ndimage
+
+    from irseg.analysis._scales import label8, long_lines
+
+    rng = np.random.default_rng(12)
+    for shape, density in (((1, 1), 0.5), ((1, 40), 0.5), ((33, 1), 0.5), ((64, 90), 0.45), ((120, 80), 0.6)):
+        mask = rng.random(shape) < density
+        ours = label8(mask)
+        ref, k = ndimage.label(mask, structure=np.ones((3, 3), bool))
+        assert ((ours > 0) == mask).all()
+        pairs = set(zip(ours[mask].tolist(), ref[mask].tolist()))  # a one-to-one map between the labellings
+        assert len(pairs) == k == len({a for a, _ in pairs}) == len({b for _, b in pairs})
+        for line_px in (0.5, 2.0, 7.0):
+            lab, _ = ndimage.label(mask)
+            keep = np.zeros(lab.max() + 1, bool)
+            for i, sl in enumerate(ndimage.find_objects(lab), start=1):
+                keep[i] = max(sl[0].stop - sl[0].start, sl[1].stop - sl[1].start) >= 3.0 * line_px
+            assert np.array_equal(long_lines(mask, line_px), keep[lab] if lab.max() else mask)
