@@ -69,8 +69,8 @@ def _steady_edge_scale(rough: np.ndarray, piece: np.ndarray, peak: float, noise:
     near = piece & (np.abs(rough - 0.5 * peak) <= 0.05 * peak)
     if near.sum() < 8:
         return s_f
-    gr, gc = np.gradient(rough)
-    grad = float(np.percentile(np.hypot(gr, gc)[near], 75))  # on the edge, not on a plateau near half the peak
+    gr, gc = _gradient_at(rough, *np.nonzero(near))
+    grad = float(np.percentile(np.hypot(gr, gc), 75))  # on the edge, not on a plateau near half the peak
     if grad <= 0:
         return s_f
     cap = 0.25 * peak / grad
@@ -80,6 +80,21 @@ def _steady_edge_scale(rough: np.ndarray, piece: np.ndarray, peak: float, noise:
         if noise * gaussian_noise_factor(s) <= EDGE_JITTER_PX * grad or s >= cap:
             return max(s_f, min(s, max(cap, s_f)))
     return max(s_f, min(FINE_SCALES[-1], max(cap, s_f)))
+
+
+def _gradient_at(f: np.ndarray, rr: np.ndarray, cc: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``np.gradient(f)`` (both axes) at the pixels ``rr, cc`` only: central differences inside, one-sided at
+    the border, formed as NumPy forms them (the same values, in ``f``'s dtype)."""
+    m, n = f.shape
+    if m < 2 or n < 2:
+        gr, gc = np.gradient(f)
+        return gr[rr, cc], gc[rr, cc]
+
+    def along(i: np.ndarray, size: int, pick) -> np.ndarray:
+        d = pick(np.minimum(i + 1, size - 1)) - pick(np.maximum(i - 1, 0))
+        return np.where((i > 0) & (i < size - 1), d / 2.0, d / 1.0)
+
+    return along(rr, m, lambda r: f[r, cc]), along(cc, n, lambda c: f[rr, c])
 
 
 def _defect_share(v: np.ndarray, broad: np.ndarray, lines: np.ndarray, peak: float) -> np.ndarray:

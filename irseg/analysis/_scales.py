@@ -251,6 +251,18 @@ def _reconstruct(seed: np.ndarray, mask: np.ndarray) -> np.ndarray:
             return out
 
 
+def _group_max(keys: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
+    """The largest of ``values`` at each key ``0 .. n-1`` (−inf where a key has none): ``np.maximum.at`` on a
+    −inf array, by one stable sort and a reduction per run of equal keys."""
+    out = np.full(n, -np.inf)
+    if keys.size:
+        order = np.argsort(keys, kind="stable")
+        k = keys[order]
+        starts = np.flatnonzero(np.r_[True, k[1:] != k[:-1]])
+        out[k[starts]] = np.maximum.reduceat(values[order], starts)
+    return out
+
+
 def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, line_px: float) -> np.ndarray:
     """The part of ``region`` in the same dome of ``field`` as the pixel ``top`` (flat index).
 
@@ -278,7 +290,8 @@ def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, li
     comp, k = ndimage.label(domes > 1e-9 * max(dip_k, 1e-12))
     if k <= 1:
         return region
-    tall = np.flatnonzero(ndimage.maximum(domes, comp, index=np.arange(1, k + 1)) >= 0.999 * dip_k) + 1
+    at = np.flatnonzero(comp)  # the highest point of each dome (scipy.ndimage.maximum of its labels)
+    tall = np.flatnonzero(_group_max(comp.ravel()[at], domes.ravel()[at], k + 1)[1:] >= 0.999 * dip_k) + 1
     markers, k = ndimage.label(np.isin(comp, tall) & inside)
     if k <= 1:
         return region

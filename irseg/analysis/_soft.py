@@ -44,7 +44,7 @@ from ._candidates import Candidate
 from ._framing import BAND_ELONGATION, BAND_MAX_WIDTH_M, is_band
 from ._geometry import MIN_SPOT_PX
 from ._reach import distance_to_zeros, near_sources, within_reach
-from ._scales import _dilate
+from ._scales import _dilate, _group_max
 from ._reference import Plane, RingReference
 from ._shape import Shape, shape_features
 from ._significance import DetectionInfo
@@ -480,14 +480,3 @@ def _fades_from_end(contrast: np.ndarray, rr: np.ndarray, cc: np.ndarray) -> boo
             return True
     return False
 
-
-def _group_max(keys: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
-    """The largest of ``values`` at each key ``0 .. n-1`` (−inf where a key has none): ``np.maximum.at`` on a
-    −inf array, by one stable sort and a reduction per run of equal keys."""
-    out = np.full(n, -np.inf)
-    if keys.size:
-        order = np.argsort(keys, kind="stable")
-        k = keys[order]
-        starts = np.flatnonzero(np.r_[True, k[1:] != k[:-1]])
-        out[k[starts]] = np.maximum.reduceat(values[order], starts)
-    return out

@@ -153,7 +153,7 @@ def test_near_sources_agrees_with_scipys_exact_distance_transform():
 def test_group_max_is_numpys_maximum_at(rng):
     # the per-slice profiles of a detected anomaly's shape: NumPy's unbuffered np.maximum.at into a −inf
     # array is the reference (its semantics, NaN propagation included, common practice)
-    from irseg.analysis._soft import _group_max
+    from irseg.analysis._scales import _group_max
 
     for k in range(60):
         n = int(rng.integers(1, 40))
@@ -179,3 +179,16 @@ def test_shape_outline_erosion_is_scipys_binary_erosion(rng):
         for density in (0.3, 0.8, 1.0):
             region = rng.random(shape) < density
             assert np.array_equal(_eroded(region), ndimage.binary_erosion(region))
+
+
+def test_gradient_at_some_pixels_is_numpys_gradient_there(rng):
+    # NumPy's np.gradient (central differences inside, one-sided at the border) is the reference
+    from irseg.analysis._components import _gradient_at
+
+    for shape in ((2, 2), (2, 9), (9, 2), (17, 23), (64, 48)):
+        for dtype in (np.float32, np.float64):
+            f = rng.normal(0.0, 3.0, shape).astype(dtype)
+            rr, cc = np.nonzero(rng.random(shape) < 0.4)
+            gr, gc = np.gradient(f)
+            got_r, got_c = _gradient_at(f, rr, cc)
+            assert got_r.dtype == dtype and np.array_equal(got_r, gr[rr, cc]) and np.array_equal(got_c, gc[rr, cc])
