@@ -219,7 +219,10 @@ def _region_sums(labels: np.ndarray, weights: tuple, n: int) -> list[np.ndarray]
         lab = labels[rows].ravel().astype(np.intp)
         for acc, weight in zip(out, weights):
             w = None if weight is None else np.ravel(weight(rows))
-            acc += np.bincount(lab, weights=w, minlength=n + 1)
+            if w is not None and w.dtype == bool:  # a count where the mask holds (the same whole numbers)
+                acc += np.bincount(lab[w], minlength=n + 1)
+            else:
+                acc += np.bincount(lab, weights=w, minlength=n + 1)
     return out
 
 

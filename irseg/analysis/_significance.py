@@ -356,11 +356,16 @@ def _sigmas(fields: list[np.ndarray], gains: list[np.ndarray], scales: tuple[flo
     """σ_s used at each scale (the larger of the white-noise value and the robust spread of ``R_s`` over a regular
     subsample of the sound pixels, at most about 40 000) and the white-noise values."""
     step = max(1, int(sound.sum() // 40_000))
-    sr, sc = np.divmod(np.flatnonzero(sound)[::step], sound.shape[1])  # raster order
+    flat = np.flatnonzero(sound)[::step]  # raster order
+    sr, sc = np.divmod(flat, sound.shape[1])
+
+    def at(a: np.ndarray) -> np.ndarray:
+        return np.take(a.reshape(-1), flat) if a.flags.c_contiguous else a[sr, sc]
+
     sig, sig_w = [], []
     for s, f, g in zip(scales, fields, gains):
         sw = noise * gaussian_noise_factor(s)
-        vals = f[sr, sc] / g[sr, sc]  # g > 0 on valid pixels; 0 deep inside a masked area
+        vals = at(f) / at(g)  # g > 0 on valid pixels; 0 deep inside a masked area
         emp = MAD_TO_SIGMA * float(np.median(np.abs(vals - np.median(vals))))
         sig.append(max(sw, emp))
         sig_w.append(sw)
