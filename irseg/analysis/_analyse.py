@@ -21,7 +21,7 @@ from .._shared import robust_sigma
 from ..errors import ConfigError
 from ..segmentation import estimate_noise_k
 from ..types import Air, Surface, SurveyMeta, ThermalFrame
-from ._candidates import select_candidates, significance_threshold_k
+from ._candidates import forget_last_read, select_candidates, significance_threshold_k
 from ._conditions import check_conditions
 from ._emitters import with_emitters
 from ._classify import GLAZING_REASON
@@ -76,7 +76,10 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     EN 13187 and ASTM C1060 (conditions and signatures), ASTM C1153 (roofs).
     """
     # heat emitters seen from inside: filled from the wall around them, then reported (._emitters)
-    return with_emitters(frame, seg, meta, _analyse)
+    try:
+        return with_emitters(frame, seg, meta, _analyse)
+    finally:
+        forget_last_read()  # the candidates' last kept crop is not held past the analysis
 
 
 def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:

@@ -115,6 +115,11 @@ def _set_last_read(value: tuple) -> None:
     _LAST_READ = value
 
 
+def forget_last_read() -> None:
+    """Drop what the candidate read last keeps (at the end of an analysis)."""
+    _set_last_read((None, {}))
+
+
 def significance_threshold_k(*, noise_k: float, netd_k: float, min_step_k: float, min_contrast_k: float | None) -> float:
     """Smallest |contrast| kept: ``min_contrast_k`` if set, else ``max(3·noise, ½·min_step_k)``."""
     if min_contrast_k is not None:

@@ -104,6 +104,17 @@ def test_a_candidate_forms_its_pixels_distances_and_reference_as_the_held_arrays
     held = Candidate(7, 11, 33, lazy.crop, region, np.zeros(region.shape), ref, 18.0, 20.0, -2.0, 2.0,
                      rr[:3], cc[:3], np.ones(3))
     assert held.n_px == 3 and held.dist.sum() == 0.0 and held.ref_in.tolist() == [1.0, 1.0, 1.0]  # kept as given
+    # reads of two candidates in turn (the last one read keeps what it formed) give each its own arrays
+    other_region = np.zeros((5, 6), bool)
+    other_region[1:4, 2] = True
+    other = Candidate(8, 0, 0, (slice(0, 5), slice(0, 6)), other_region, None, ref, 18.0, 20.0, -2.0, 2.0)
+    for _ in range(2):
+        np.testing.assert_array_equal(other.dist, ndimage.distance_transform_edt(~other_region))
+        np.testing.assert_array_equal(lazy.dist, ndimage.distance_transform_edt(~region))
+        np.testing.assert_array_equal(other.rr, np.nonzero(other_region)[0])
+        np.testing.assert_array_equal(lazy.ref_in, plane.evaluate(rr + 11.0, cc + 33.0))
+        np.testing.assert_array_equal(other.ref_in, plane.evaluate(np.nonzero(other_region)[0] + 0.0,
+                                                                   np.nonzero(other_region)[1] + 0.0))
 
 
 @pytest.mark.parametrize("shape", [(1, 1), (1, 17), (23, 1), (61, 97), (700, 900)])
