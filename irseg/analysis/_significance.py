@@ -392,12 +392,14 @@ def _grown(seed: np.ndarray, grow: np.ndarray, valid: np.ndarray) -> tuple[np.nd
     if nc:
         has_seed[comp[seed]] = True
     has_seed[0] = False
-    comp[~has_seed[comp]] = 0
+    np.multiply(comp, np.take(has_seed, comp), out=comp)  # components without a seed set to 0
     return comp, has_seed
 
 
 def _ratio(f: np.ndarray, g: np.ndarray) -> np.ndarray:
     """``f / g``, 0 where ``g`` is 0 (pixels deep inside a masked area that no valid pixel reaches)."""
+    if g.min() > 0:  # no such pixel: the plain division gives the same values
+        return f / g
     out = np.zeros_like(f)
     np.divide(f, g, out=out, where=g > 0)
     return out

@@ -44,7 +44,7 @@ from ._candidates import Candidate
 from ._framing import BAND_ELONGATION, BAND_MAX_WIDTH_M, is_band
 from ._geometry import MIN_SPOT_PX
 from ._reach import distance_to_zeros, near_sources, within_reach
-from ._scales import _dilate, _group_max
+from ._scales import _dilate, _fill_holes, _group_max, label8
 from ._reference import Plane, RingReference
 from ._shape import Shape, shape_features
 from ._significance import DetectionInfo
@@ -434,9 +434,11 @@ def _shape(region: np.ndarray, dist: np.ndarray, rim_crop: np.ndarray, *, delta:
     sgn = 1.0 if delta >= 0 else -1.0
     contrast = sgn * (u_crop - s_crop)
     low = (region | rim_crop) & (contrast >= QUARTER * peak_k)
-    lab, _ = ndimage.label(low | region, structure=np.ones((3, 3), bool))
-    keep = np.unique(lab[region])
-    reg = ndimage.binary_fill_holes(np.isin(lab, keep[keep > 0]) | region)
+    lab = label8(low | region)  # its 8-connected components that hold the extent, holes filled
+    keep = np.zeros(int(lab.max()) + 1, bool)
+    keep[lab[region]] = True
+    keep[0] = False
+    reg = _fill_holes(keep[lab] | region)
     shp = shape_features(region, u_crop=u_crop, reference_crop=s_crop, dist_crop=dist, delta_k=delta,
                          noise_k=noise_k, row_offset=offset[0], col_offset=offset[1])
     rr, cc = np.nonzero(reg)

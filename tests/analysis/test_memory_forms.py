@@ -203,3 +203,15 @@ def test_gradient_at_some_pixels_is_numpys_gradient_there(rng):
             gr, gc = np.gradient(f)
             got_r, got_c = _gradient_at(f, rr, cc)
             assert got_r.dtype == dtype and np.array_equal(got_r, gr[rr, cc]) and np.array_equal(got_c, gc[rr, cc])
+
+
+def test_fill_holes_is_scipys(rng):
+    # reference library: scipy.ndimage.binary_fill_holes with its defaults (background 4-connected to the border)
+    from scipy import ndimage
+
+    from irseg.analysis._scales import _fill_holes
+
+    for shape in ((1, 1), (3, 1), (1, 5), (25, 31), (80, 60)):
+        for density in (0.3, 0.55, 0.7):
+            mask = rng.random(shape) < density
+            assert np.array_equal(_fill_holes(mask), ndimage.binary_fill_holes(mask))
