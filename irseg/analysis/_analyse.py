@@ -151,7 +151,7 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     # region; the measuring steps only write it, so their writes are kept and the field is formed once
     # the detector's fields are done with (FieldWrites: not held beside them; memory, issue 15)
     reference = FieldWrites(shape, t.dtype)
-    allowed = usable & sound[labels]  # pixels that may serve as a sound reference
+    allowed = usable & np.take(sound, labels)  # pixels that may serve as a sound reference
 
     t_surface = trend.a if math.isfinite(trend.a) else float(np.median(t[valid]))
     h_c, h_r, sky_limit_c = _coefficients(
@@ -162,7 +162,8 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
 
     sound_px = valid & (det.components == 0)
     step = max(1, int(sound_px.sum()) // 40_000)
-    spread = robust_sigma((t - surface_c)[sound_px][::step]) if sound_px.any() else noise
+    at = np.flatnonzero(sound_px)[::step]  # a regular subsample of the sound pixels
+    spread = robust_sigma(t.ravel()[at] - surface_c.ravel()[at]) if at.size else noise
     last_resort = SurfaceReference(surface_c, float(spread), int(sound_px.sum()))
     accepted = select_candidates(
         labels=labels, t=t, u=u, allowed=allowed, sound=sound, areas=areas, means_u=means_u, slices=slices,
