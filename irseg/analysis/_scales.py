@@ -272,8 +272,6 @@ def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, li
     running between two defects is not a ridge joining them. Computed on a copy reduced by
     ``⌊line_px/4⌋`` (a member is about 4 px across there: domes are broad).
     """
-    from skimage.segmentation import watershed
-
     m, n = field.shape
     f = max(1, int(line_px // 4))
     if m // f < 3 or n // f < 3:
@@ -295,6 +293,8 @@ def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, li
     markers, k = ndimage.label(np.isin(comp, tall) & inside)
     if k <= 1:
         return region
+    from skimage.segmentation import watershed  # only here: scikit-image is loaded when two domes are split
+
     basins = watershed(-small, markers, mask=inside)
     tr, tc = divmod(int(top), n)
     own = basins[min(tr // f, basins.shape[0] - 1), min(tc // f, basins.shape[1] - 1)]
