@@ -21,7 +21,7 @@ from .._shared import robust_sigma
 from ..errors import ConfigError
 from ..segmentation import estimate_noise_k
 from ..types import Air, Surface, SurveyMeta, ThermalFrame
-from ._candidates import select_candidates, significance_threshold_k
+from ._candidates import forget_last_read, select_candidates, significance_threshold_k
 from ._conditions import check_conditions
 from ._emitters import with_emitters
 from ._classify import GLAZING_REASON
@@ -76,7 +76,10 @@ def analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     EN 13187 and ASTM C1060 (conditions and signatures), ASTM C1153 (roofs).
     """
     # heat emitters seen from inside: filled from the wall around them, then reported (._emitters)
-    return with_emitters(frame, seg, meta, _analyse)
+    try:
+        return with_emitters(frame, seg, meta, _analyse)
+    finally:
+        forget_last_read()  # the candidates' last kept crop is not held past the analysis
 
 
 def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
@@ -126,12 +129,13 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     floor_k = float(an.min_contrast_k) if an.min_contrast_k is not None else MIN_CONTRAST_K
     det_labels, surface_c, det = detect_regions(t, ~valid, noise_k=noise, pixel_m=pixel_m, min_contrast_k=floor_k,
                                                 filled=getattr(seg, "filled", None))
-    areas = _region_sums(labels, None, n)
+    areas, cold, warm, core, sum_u = _region_sums(labels, (
+        None, lambda rows: det.components[rows] < 0, lambda rows: det.components[rows] > 0,
+        lambda rows: det_labels[rows] > 0, lambda rows: u[rows]), n)
     per = np.maximum(areas, 1.0)
-    share = {sign: _region_sums(labels, lambda rows, s=sign: np.sign(det.components[rows]) == s, n) / per
-             for sign in (-1, 1)}
-    in_core = _region_sums(labels, lambda rows: det_labels[rows] > 0, n) / per
-    means_u = _region_sums(labels, lambda rows: u[rows], n) / per
+    share = {-1: cold / per, 1: warm / per}
+    in_core = core / per
+    means_u = sum_u / per
     slices = ndimage.find_objects(labels)
     sound, trend = find_sound_regions(
         u=u, labels=labels, usable=usable, areas=areas, means_u=means_u, threshold_k=thr, min_area_px=MIN_SPOT_PX,
@@ -147,7 +151,7 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     # region; the measuring steps only write it, so their writes are kept and the field is formed once
     # the detector's fields are done with (FieldWrites: not held beside them; memory, issue 15)
     reference = FieldWrites(shape, t.dtype)
-    allowed = usable & sound[labels]  # pixels that may serve as a sound reference
+    allowed = usable & np.take(sound, labels)  # pixels that may serve as a sound reference
 
     t_surface = trend.a if math.isfinite(trend.a) else float(np.median(t[valid]))
     h_c, h_r, sky_limit_c = _coefficients(
@@ -158,7 +162,8 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
 
     sound_px = valid & (det.components == 0)
     step = max(1, int(sound_px.sum()) // 40_000)
-    spread = robust_sigma((t - surface_c)[sound_px][::step]) if sound_px.any() else noise
+    at = np.flatnonzero(sound_px)[::step]  # a regular subsample of the sound pixels
+    spread = robust_sigma(t.ravel()[at] - surface_c.ravel()[at]) if at.size else noise
     last_resort = SurfaceReference(surface_c, float(spread), int(sound_px.sum()))
     accepted = select_candidates(
         labels=labels, t=t, u=u, allowed=allowed, sound=sound, areas=areas, means_u=means_u, slices=slices,
@@ -207,17 +212,22 @@ def _analyse(frame: ThermalFrame, seg, meta: SurveyMeta) -> Analysis:
     return Analysis(rank_by_severity(drafts), out_labels, pixel_m, px_area, h, reference, warn)
 
 
-def _region_sums(labels: np.ndarray, weights, n: int) -> np.ndarray:
-    """Per-label sums of ``weights(rows)`` (pixel counts when None), float64, ``n + 1`` entries.
+def _region_sums(labels: np.ndarray, weights: tuple, n: int) -> list[np.ndarray]:
+    """Per-label sums of each ``weights[i](rows)`` (pixel counts when None), float64, ``n + 1`` entries each.
 
     ``np.bincount`` over a band of rows at a time: no frame-sized int64 labels or float64
-    weights (each 8 B/px; memory, issue 15).
+    weights (each 8 B/px; memory, issue 15); the band's labels are widened once for all the sums.
     """
-    out = np.zeros(n + 1)
+    out = [np.zeros(n + 1) for _ in weights]
     for r0 in range(0, labels.shape[0], _BLOCK_ROWS):
         rows = slice(r0, r0 + _BLOCK_ROWS)
-        w = None if weights is None else np.ravel(weights(rows))
-        out += np.bincount(labels[rows].ravel(), weights=w, minlength=n + 1)
+        lab = labels[rows].ravel().astype(np.intp)
+        for acc, weight in zip(out, weights):
+            w = None if weight is None else np.ravel(weight(rows))
+            if w is not None and w.dtype == bool:  # a count where the mask holds (the same whole numbers)
+                acc += np.bincount(lab[w], minlength=n + 1)
+            else:
+                acc += np.bincount(lab, weights=w, minlength=n + 1)
     return out
 
 

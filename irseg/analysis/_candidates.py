@@ -5,9 +5,9 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import ndimage
 
 from ._geometry import MIN_SPOT_PX
+from ._reach import distance_to_zeros
 from ._reference import RingReference, SurfaceReference, rim_extent_px, ring_reference
 
 __all__ = [
@@ -37,10 +37,12 @@ class Candidate:
     Only ``region`` is held of the per-pixel data unless more is given: ``rr, cc`` (its pixels
     in raster order, ``np.nonzero(region)``), ``dist`` (each crop pixel's distance to the region,
     ``distance_transform_edt(~region)``) and ``ref_in`` (the reference plane on its pixels) are
-    formed again whenever they are read. A large defect's crop would otherwise hold 8 bytes a
+    formed again when they are read. A large defect's crop would otherwise hold 8 bytes a
     pixel of distances and 24 a region pixel of indices and references through the whole
-    analysis (memory, issue 15). What is given (``dist``, ``rr``, ``cc``, ``ref_in`` not None) is
-    kept and returned as given.
+    analysis (memory, issue 15); only the candidate read last keeps what was formed for it (one
+    crop's worth, module-wide), so the several reads while one candidate is measured form each
+    once. The arrays returned are not to be changed in place. What is given (``dist``, ``rr``,
+    ``cc``, ``ref_in`` not None) is kept and returned as given.
     """
 
     def __init__(
@@ -61,33 +63,61 @@ class Candidate:
         self.n_px = int(rr.size) if rr is not None else int(np.count_nonzero(region))  # pixels of the region
         self._dist, self._rr, self._cc, self._ref_in = dist, rr, cc, ref_in
 
+    def _formed(self, key: str, make):
+        """What ``make()`` forms for this candidate, kept while it is the candidate read last."""
+        last = _LAST_READ
+        if last[0] is not self:
+            last = (self, {})
+            _set_last_read(last)
+        values = last[1]
+        if key not in values:
+            values[key] = make()
+        return values[key]
+
     @property
     def rr(self) -> np.ndarray:
         """Rows of the region's pixels in the crop (raster order)."""
-        return self._rr if self._rr is not None else np.nonzero(self.region)[0]
+        return self._rr if self._rr is not None else self._formed("nz", lambda: np.nonzero(self.region))[0]
 
     @property
     def cc(self) -> np.ndarray:
         """Columns of the region's pixels in the crop (raster order)."""
-        return self._cc if self._cc is not None else np.nonzero(self.region)[1]
+        return self._cc if self._cc is not None else self._formed("nz", lambda: np.nonzero(self.region))[1]
 
     @property
     def dist(self) -> np.ndarray:
         """Distance of each crop pixel to the region, px."""
-        return self._dist if self._dist is not None else ndimage.distance_transform_edt(~self.region)
+        return self._dist if self._dist is not None else self._formed("dist", lambda: distance_to_zeros(~self.region))
 
     @property
     def ref_in(self) -> np.ndarray:
         """The reference plane on the region's pixels (``rr, cc`` order), °C."""
         if self._ref_in is not None:
             return self._ref_in
-        rr, cc = np.nonzero(self.region)
-        return self.ref.plane.evaluate(rr + float(self.r0), cc + float(self.c0))
+
+        def make() -> np.ndarray:
+            rr, cc = self._formed("nz", lambda: np.nonzero(self.region))
+            return self.ref.plane.evaluate(rr + float(self.r0), cc + float(self.c0))
+
+        return self._formed("ref_in", make)
 
     @property
     def rim_reach_px(self) -> float:
         """How far from the region its soft rim belongs to it, px."""
         return max(RIM_PX, self.gap_px)
+
+
+_LAST_READ: tuple = (None, {})  # (the candidate read last, what was formed for it): see Candidate
+
+
+def _set_last_read(value: tuple) -> None:
+    global _LAST_READ
+    _LAST_READ = value
+
+
+def forget_last_read() -> None:
+    """Drop what the candidate read last keeps (at the end of an analysis)."""
+    _set_last_read((None, {}))
 
 
 def significance_threshold_k(*, noise_k: float, netd_k: float, min_step_k: float, min_contrast_k: float | None) -> float:
@@ -152,7 +182,7 @@ def _local_contrast(
         c0, c1 = max(0, sl[1].start - pad), min(shape[1], sl[1].stop + pad)
         crop = (slice(r0, r1), slice(c0, c1))
         region = labels[crop] == lab
-        dist = ndimage.distance_transform_edt(~region)
+        dist = distance_to_zeros(~region)
         extent = (sl[0].start - r0, sl[1].start - c0, sl[0].stop - 1 - r0, sl[1].stop - 1 - c0)
         if factor == 1.0:
             gap = rim_extent_px(

@@ -16,7 +16,7 @@ import cv2
 import numpy as np
 from scipy import ndimage
 
-from ._scales import _dilate, _fill_holes, _pct, dome_of, gaussian_noise_factor, long_lines, without_lines
+from ._scales import _dilate, _fill_holes, _pct, dome_of, gaussian_noise_factor, label8, long_lines, without_lines
 
 __all__ = ["RegionInfo", "extract_component", "EXTENT_FRACTION", "JOIN_FRACTION", "PLATEAU_RATIO",
            "BROAD_FRACTION", "FIRST_BROAD_FRACTION", "SADDLE_DIP", "WRAP_MAX", "FINE_NOISE_FRACTION", "EDGE_JITTER_PX",
@@ -69,8 +69,8 @@ def _steady_edge_scale(rough: np.ndarray, piece: np.ndarray, peak: float, noise:
     near = piece & (np.abs(rough - 0.5 * peak) <= 0.05 * peak)
     if near.sum() < 8:
         return s_f
-    gr, gc = np.gradient(rough)
-    grad = float(np.percentile(np.hypot(gr, gc)[near], 75))  # on the edge, not on a plateau near half the peak
+    gr, gc = _gradient_at(rough, *np.nonzero(near))
+    grad = float(np.percentile(np.hypot(gr, gc), 75))  # on the edge, not on a plateau near half the peak
     if grad <= 0:
         return s_f
     cap = 0.25 * peak / grad
@@ -80,6 +80,21 @@ def _steady_edge_scale(rough: np.ndarray, piece: np.ndarray, peak: float, noise:
         if noise * gaussian_noise_factor(s) <= EDGE_JITTER_PX * grad or s >= cap:
             return max(s_f, min(s, max(cap, s_f)))
     return max(s_f, min(FINE_SCALES[-1], max(cap, s_f)))
+
+
+def _gradient_at(f: np.ndarray, rr: np.ndarray, cc: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """``np.gradient(f)`` (both axes) at the pixels ``rr, cc`` only: central differences inside, one-sided at
+    the border, formed as NumPy forms them (the same values, in ``f``'s dtype)."""
+    m, n = f.shape
+    if m < 2 or n < 2:
+        gr, gc = np.gradient(f)
+        return gr[rr, cc], gc[rr, cc]
+
+    def along(i: np.ndarray, size: int, pick) -> np.ndarray:
+        d = pick(np.minimum(i + 1, size - 1)) - pick(np.maximum(i - 1, 0))
+        return np.where((i > 0) & (i < size - 1), d / 2.0, d / 1.0)
+
+    return along(rr, m, lambda r: f[r, cc]), along(cc, n, lambda c: f[rr, c])
 
 
 def _defect_share(v: np.ndarray, broad: np.ndarray, lines: np.ndarray, peak: float) -> np.ndarray:
@@ -97,9 +112,13 @@ def _defect_share(v: np.ndarray, broad: np.ndarray, lines: np.ndarray, peak: flo
     keeps the members-removed contrast. Returns the share over the window (``broad`` off the members).
     """
     share = broad.copy()
-    lab, k = ndimage.label(lines, structure=_SQUARE)
-    for i in range(1, k + 1):
-        rr, cc = np.nonzero(lab == i)
+    # each member on its own (they are disjoint and write only their own pixels: any order gives the same)
+    k, lab, stats, _ = cv2.connectedComponentsWithStats(np.ascontiguousarray(lines, dtype=bool).view(np.uint8),
+                                                        connectivity=8, ltype=cv2.CV_32S)
+    for i in range(1, k):
+        x0, y0, w, h = (int(v_) for v_ in stats[i, :4])
+        rr, cc = np.nonzero(lab[y0 : y0 + h, x0 : x0 + w] == i)
+        rr, cc = rr + y0, cc + x0
         away = broad[rr, cc] < JOIN_FRACTION * peak
         if int(away.sum()) < 9 or rr.size < 3:
             continue
@@ -180,20 +199,20 @@ def _read_piece(*, v, vp, piece, near, claimed, peak, sig_f, line_px, min_contra
         field = np.where(lines, broad, v)
         above = (field >= level) & region_of & ~claimed
         joined = (v >= JOIN_FRACTION * pk) & region_of & ~claimed
-        jl, _ = ndimage.label(joined, structure=_SQUARE)
+        jl = label8(joined)  # only compared with the label at the top
         # the strongest place: the pixel of the piece at the robust peak's level nearest the maximum
         top = np.argmax(np.where(above, broad if is_broad else v, -np.inf))
         anchor = jl.flat[top]
         if anchor == 0 or not above.flat[top]:
             continue
         dome = dome_of(broad, jl == anchor, top, dip_k=SADDLE_DIP * pk, line_px=line_px)
-        cl, _ = ndimage.label(above & dome, structure=_SQUARE)
+        cl = label8(above & dome)
         core = _fill_holes(cl == cl.flat[top]) & ~claimed
         # the extent itself: on the members, the anomaly's own share of their contrast decides (the
         # members-removed contrast above carries a defect's plateau onto a member at its edge)
         extent = core
         if lines.any():
-            ol, _ = ndimage.label((np.where(lines, share, v) >= level) & region_of & ~claimed & dome, structure=_SQUARE)
+            ol = label8((np.where(lines, share, v) >= level) & region_of & ~claimed & dome)
             if ol.flat[top]:
                 extent = _fill_holes(ol == ol.flat[top]) & ~claimed
         out = (is_broad, pk, level, region_of, lines, share, broad, core, extent)

@@ -10,6 +10,9 @@ from __future__ import annotations
 import numpy as np
 from scipy import ndimage
 
+from ._reach import distance_to_zeros
+from ._scales import _dilate
+
 __all__ = ["inside_edge_line", "EDGE_SIGMA_PX"]
 
 EDGE_SIGMA_PX = 1.0  # Gaussian derivative scale of the edge-line gradient (Canny 1986), px
@@ -83,7 +86,7 @@ def _inner_distance(region: np.ndarray, *, band: np.ndarray, win: tuple[slice, s
     shorter than the way to every side where the window cuts the region cannot have
     been lengthened by the cut. Otherwise the whole region's transform is cropped.
     """
-    d = ndimage.distance_transform_edt(region[win])
+    d = distance_to_zeros(region[win])
     m, n = d.shape
     rows, cols = np.arange(m)[:, None], np.arange(n)[None, :]
     room = np.full(d.shape, np.inf)
@@ -95,9 +98,9 @@ def _inner_distance(region: np.ndarray, *, band: np.ndarray, win: tuple[slice, s
         room = np.minimum(room, cols + 1.0)
     if win[1].stop < region.shape[1]:
         room = np.minimum(room, n - cols + 0.0)
-    read = ndimage.binary_dilation(band, structure=np.ones((3, 3), bool))
+    read = _dilate(band, 1)  # 3×3 binary dilation
     if region[win].all() or bool(np.any(d[read] >= room[read])):
-        return ndimage.distance_transform_edt(region)[win]
+        return distance_to_zeros(region)[win]
     return d
 
 

@@ -7,6 +7,7 @@ scale with its measured spread, and the smallest contrast a given area and NETD 
 
 from __future__ import annotations
 
+import functools
 import math
 
 import cv2
@@ -21,6 +22,7 @@ __all__ = ["gaussian_noise_factor", "scale_bank", "contrast_at_scales", "pixel_n
 K_HI = 5.0  # seeds: |contrast at scale| > K_HI·σ at that scale
 FULL_RES_MAX_S = 3.0  # scales up to this many pixels are smoothed at full resolution
 
+@functools.lru_cache(maxsize=256)
 def gaussian_noise_factor(s_px: float) -> float:
     """√(Σh²) of irseg's discrete Gaussian of std ``s_px``: smoothed white noise σ_s = σ·factor.
 
@@ -97,52 +99,57 @@ def scale_bank(min_area_px: float, max_area_px: float, max_s_px: float) -> tuple
 
 def contrast_at_scales(
     residual: np.ndarray, valid: np.ndarray, scales_px: tuple[float, ...], gains: list | None = None,
-    pyramid: dict | None = None,
+    pyramid: dict | None = None, weights: dict | None = None,
 ) -> list[np.ndarray]:
     """``R_s`` for each scale (normalized convolution, so invalid pixels do not pull it to zero).
 
     Scales above 3 px are computed on a block-reduced copy (factor ``⌊s/2⌋`` rounded down to a
     power of two) and brought back bilinearly; the reduction adds ``f²/12`` px² of variance to
     the window, which is taken off the reduced std. ``pyramid`` (a dict the caller keeps for one
-    residual) holds the reduced copies between calls.
+    residual) holds the reduced copies between calls; ``weights`` (a dict the caller keeps for one
+    ``valid``) holds what depends on the valid pixels only (their reduced copies, the smoothed
+    weights and the edge gains), so further residuals on the same pixels reuse it.
     """
     m, n = residual.shape
-    r32 = np.where(valid, residual, 0.0).astype(np.float32)
-    v32 = valid.astype(np.float32)
-    out = []
     if pyramid is None:
         pyramid = {}
-    if 1 not in pyramid:  # (Σ r·v, Σ v) per block, as means; kept by the caller for further scales
-        pyramid[1] = (r32 * v32, v32)
+    if weights is None:
+        weights = {}
+    if 1 not in weights:
+        weights[1] = valid.astype(np.float32)
+    if 1 not in pyramid:  # Σ r·v per block, as means (r is 0 off the valid pixels); kept for further scales
+        pyramid[1] = np.where(valid, residual, 0.0).astype(np.float32)
+    out = []
 
-    def level(f: int) -> tuple[np.ndarray, np.ndarray]:
-        if f not in pyramid:
-            a, c = level(f // 2)
-            mb, nb = -(-a.shape[0] // 2), -(-a.shape[1] // 2)
-            aa = np.zeros((2 * mb, 2 * nb), np.float32)
-            cc = np.zeros((2 * mb, 2 * nb), np.float32)
-            aa[: a.shape[0], : a.shape[1]] = a
-            cc[: c.shape[0], : c.shape[1]] = c
-            pyramid[f] = (0.25 * aa.reshape(mb, 2, nb, 2).sum(axis=(1, 3)),
-                          0.25 * cc.reshape(mb, 2, nb, 2).sum(axis=(1, 3)))
-        return pyramid[f]
+    def level(store: dict, f: int) -> np.ndarray:
+        if f not in store:
+            a = level(store, f // 2)
+            if a.shape[0] % 2 or a.shape[1] % 2:  # an odd side: padded with a zero row or column
+                aa = np.zeros((a.shape[0] + a.shape[0] % 2, a.shape[1] + a.shape[1] % 2), np.float32)
+                aa[: a.shape[0], : a.shape[1]] = a
+                a = aa
+            # the mean of each 2×2 block, summed as (top pair) + (bottom pair)
+            store[f] = 0.25 * ((a[0::2, 0::2] + a[0::2, 1::2]) + (a[1::2, 0::2] + a[1::2, 1::2]))
+        return store[f]
 
     for s in scales_px:
-        if s <= FULL_RES_MAX_S:
-            num, den = _gblur(r32 * v32, s), _gblur(v32, s)
-            out.append(num / np.maximum(den, 1e-6))
-            if gains is not None:
-                gains.append(_edge_gain(v32, s))
-            continue
-        f = 1 << max(0, int(math.floor(math.log2(s / 2.0))))
-        rv, vv = level(f)
-        sc = math.sqrt(max(s * s - f * f / 12.0, 0.25)) / f
-        small = _gblur(rv, sc) / np.maximum(_gblur(vv, sc), 1e-6)
-        up = cv2.resize(small, (small.shape[1] * f, small.shape[0] * f), interpolation=cv2.INTER_LINEAR)
-        out.append(up[:m, :n])
+        full = s <= FULL_RES_MAX_S
+        f = 1 if full else 1 << max(0, int(math.floor(math.log2(s / 2.0))))
+        sc = s if full else math.sqrt(max(s * s - f * f / 12.0, 0.25)) / f
+        vv = level(weights, f)
+        if ("den", s) not in weights:
+            weights[("den", s)] = np.maximum(_gblur(vv, sc), 1e-6)
+        field = _gblur(level(pyramid, f), sc) / weights[("den", s)]
+        if not full:
+            field = cv2.resize(field, (field.shape[1] * f, field.shape[0] * f), interpolation=cv2.INTER_LINEAR)[:m, :n]
+        out.append(field)
         if gains is not None:
-            gs = _edge_gain(vv, sc)
-            gains.append(cv2.resize(gs, (gs.shape[1] * f, gs.shape[0] * f), interpolation=cv2.INTER_LINEAR)[:m, :n])
+            if ("gain", s) not in weights:
+                gs = _edge_gain(vv, sc)
+                if not full:
+                    gs = cv2.resize(gs, (gs.shape[1] * f, gs.shape[0] * f), interpolation=cv2.INTER_LINEAR)[:m, :n]
+                weights[("gain", s)] = gs
+            gains.append(weights[("gain", s)])
     return out
 
 
@@ -198,14 +205,62 @@ def without_lines(v: np.ndarray, line_px: float) -> np.ndarray:
 def long_lines(mask: np.ndarray, line_px: float) -> np.ndarray:
     """The parts of ``mask`` that are long lines: components at least three times ``line_px`` long
     (the opening also clips the corners of a broad anomaly, small pieces that are not members)."""
-    lab, k = ndimage.label(mask)
-    if k == 0:
+    k, lab, stats, _ = cv2.connectedComponentsWithStats(np.ascontiguousarray(mask, dtype=bool).view(np.uint8),
+                                                        connectivity=4, ltype=cv2.CV_32S)
+    if k <= 1:
         return mask
-    keep = np.zeros(k + 1, bool)
-    for i, sl in enumerate(ndimage.find_objects(lab), start=1):
-        if sl is not None and max(sl[0].stop - sl[0].start, sl[1].stop - sl[1].start) >= 3.0 * line_px:
-            keep[i] = True
+    # each 4-connected component's bounding box (the components scipy.ndimage.label finds)
+    keep = np.maximum(stats[:, cv2.CC_STAT_WIDTH], stats[:, cv2.CC_STAT_HEIGHT]) >= 3.0 * line_px
+    keep[0] = False
     return keep[lab]
+
+
+_SQUARE_3 = np.ones((3, 3), np.uint8)
+
+
+def label8(mask: np.ndarray) -> np.ndarray:
+    """Labels of the 8-connected components of ``mask`` (0 off it), int32, numbered in no particular order:
+    the components of ``scipy.ndimage.label(mask, structure=np.ones((3, 3)))``, for uses that only compare
+    labels (OpenCV's labelling, several times faster)."""
+    return cv2.connectedComponents(np.ascontiguousarray(mask, dtype=bool).view(np.uint8), connectivity=8,
+                                   ltype=cv2.CV_32S)[1]
+
+
+def _reconstruct(seed: np.ndarray, mask: np.ndarray) -> np.ndarray:
+    """Grey reconstruction by dilation of ``seed`` under ``mask`` (``seed <= mask``), 8-neighbourhood.
+
+    Geodesic dilations (a 3×3 dilation, then the minimum with ``mask``) repeated until nothing
+    changes: the same fixed point as :func:`skimage.morphology.reconstruction` (``method="dilation"``),
+    value for value (only maxima and minima of the given values are formed), and faster on the
+    small reduced copies :func:`dome_of` works on. Checked for a change every fourth step (steps
+    past the fixed point change nothing); non-finite values are left to scikit-image.
+    """
+    if not (np.isfinite(seed).all() and np.isfinite(mask).all()):
+        from skimage.morphology import reconstruction
+
+        return reconstruction(seed, mask, method="dilation")
+    mask = np.ascontiguousarray(mask, dtype=np.float64)
+    out = np.minimum(seed, mask)
+    before, grown = np.empty_like(out), np.empty_like(out)
+    while True:
+        before[...] = out
+        for _ in range(4):
+            cv2.dilate(out, _SQUARE_3, dst=grown, borderType=cv2.BORDER_CONSTANT, borderValue=-np.inf)
+            cv2.min(grown, mask, dst=out)
+        if np.array_equal(out, before):
+            return out
+
+
+def _group_max(keys: np.ndarray, values: np.ndarray, n: int) -> np.ndarray:
+    """The largest of ``values`` at each key ``0 .. n-1`` (−inf where a key has none): ``np.maximum.at`` on a
+    −inf array, by one stable sort and a reduction per run of equal keys."""
+    out = np.full(n, -np.inf)
+    if keys.size:
+        order = np.argsort(keys, kind="stable")
+        k = keys[order]
+        starts = np.flatnonzero(np.r_[True, k[1:] != k[:-1]])
+        out[k[starts]] = np.maximum.reduceat(values[order], starts)
+    return out
 
 
 def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, line_px: float) -> np.ndarray:
@@ -217,9 +272,6 @@ def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, li
     running between two defects is not a ridge joining them. Computed on a copy reduced by
     ``⌊line_px/4⌋`` (a member is about 4 px across there: domes are broad).
     """
-    from skimage.morphology import reconstruction
-    from skimage.segmentation import watershed
-
     m, n = field.shape
     f = max(1, int(line_px // 4))
     if m // f < 3 or n // f < 3:
@@ -232,14 +284,17 @@ def dome_of(field: np.ndarray, region: np.ndarray, top: int, *, dip_k: float, li
     # h-domes: f − reconstruction(f − h) is positive on every dome; a dome standing h above its
     # saddle reaches h (equal maxima joined above the saddle are one dome, not several markers)
     f64 = small.astype(np.float64)
-    domes = f64 - reconstruction(f64 - dip_k, f64, method="dilation")
+    domes = f64 - _reconstruct(f64 - dip_k, f64)
     comp, k = ndimage.label(domes > 1e-9 * max(dip_k, 1e-12))
     if k <= 1:
         return region
-    tall = np.flatnonzero(ndimage.maximum(domes, comp, index=np.arange(1, k + 1)) >= 0.999 * dip_k) + 1
+    at = np.flatnonzero(comp)  # the highest point of each dome (scipy.ndimage.maximum of its labels)
+    tall = np.flatnonzero(_group_max(comp.ravel()[at], domes.ravel()[at], k + 1)[1:] >= 0.999 * dip_k) + 1
     markers, k = ndimage.label(np.isin(comp, tall) & inside)
     if k <= 1:
         return region
+    from skimage.segmentation import watershed  # only here: scikit-image is loaded when two domes are split
+
     basins = watershed(-small, markers, mask=inside)
     tr, tc = divmod(int(top), n)
     own = basins[min(tr // f, basins.shape[0] - 1), min(tc // f, basins.shape[1] - 1)]

@@ -12,8 +12,6 @@ from dataclasses import dataclass
 
 import cv2
 import numpy as np
-from scipy import ndimage
-from scipy.stats import theilslopes
 
 from .._shared import robust_sigma
 
@@ -105,7 +103,7 @@ def shape_features(
     """
     rr, cc = np.nonzero(region)
     area = int(rr.size)
-    boundary = region & ~ndimage.binary_erosion(region)
+    boundary = region & ~_eroded(region)
     perimeter = int(boundary.sum())
     br, bc = np.nonzero(boundary)
     pts = np.column_stack([bc, br]).astype(np.float32)
@@ -150,21 +148,40 @@ def shape_features(
     )
 
 
+_CROSS = np.array([[0, 1, 0], [1, 1, 1], [0, 1, 0]], np.uint8)
+
+
+def _eroded(region: np.ndarray) -> np.ndarray:
+    """Binary erosion by the 4-neighbourhood cross, pixels off the array counted as background: the result of
+    :func:`scipy.ndimage.binary_erosion` with its defaults, by OpenCV."""
+    img = np.ascontiguousarray(region, dtype=bool).view(np.uint8)
+    return cv2.erode(img, _CROSS, borderType=cv2.BORDER_CONSTANT, borderValue=0).astype(bool)
+
+
 def _upper_roughness(rr: np.ndarray, cc: np.ndarray) -> float:
     """Robust spread (1.4826·MAD) of the topmost row of each column about a straight line through
     them (Theil-Sen), px, the outer tenth of the columns at each end left out (rounded corners): about
     0 for a straight edge, the wave of a tide line for a damp zone."""
     if rr.size < 3:
         return 0.0
-    cols = np.unique(cc)
+    order = np.argsort(rr, kind="stable") if rr.size > 1 and bool(np.any(rr[1:] < rr[:-1])) else None
+    if order is not None:  # pixels in raster order (as np.nonzero gives them): the first of a column is its top
+        rr, cc = rr[order], cc[order]
+    cols, first = np.unique(cc, return_index=True)
     if cols.size < 10:
         return 0.0
-    top = np.full(int(cc.max()) + 1, np.iinfo(np.int64).max)
-    np.minimum.at(top, cc, rr)
     trim = max(1, cols.size // 10)
     cols = cols[trim:-trim]
-    top = top[cols].astype(float)
+    top = rr[first[trim:-trim]].astype(float)
     step = max(1, cols.size // 200)  # Theil-Sen on at most ~200 columns
-    slope = float(theilslopes(top[::step], cols[::step].astype(float))[0])
+    slope = _theil_sen_slope(top[::step], cols[::step].astype(float))
     resid = top - slope * cols
     return float(robust_sigma(resid - np.median(resid)))
+
+
+def _theil_sen_slope(y: np.ndarray, x: np.ndarray) -> float:
+    """The Theil-Sen slope: the median of the slopes between all pairs of points with different ``x``
+    (the slope :func:`scipy.stats.theilslopes` returns, formed the same way, without its confidence interval)."""
+    deltax = x[:, np.newaxis] - x
+    deltay = y[:, np.newaxis] - y
+    return float(np.median(deltay[deltax > 0] / deltax[deltax > 0]))

@@ -216,7 +216,7 @@ def detect_regions(
                            sound_length_m=sound_length_m, min_contrast_k=min_contrast_k, k_hi=k_hi, k_lo=k_lo,
                            extent_fraction=extent_fraction, split_plateaus=split_plateaus, filled=filled)
     t = t.astype(float, copy=False)
-    t = np.where(valid, t, np.nanmedian(t[valid]) if valid.any() else 0.0)
+    t = np.where(valid, t, np.median(t[valid], overwrite_input=True) if valid.any() else 0.0)  # finite: no NaN
     if pixel_m is not None and pixel_m > 0:
         line_px = LINE_WIDTH_M / pixel_m
         min_area_px = max(9, int(round(min_area_m2 / pixel_m**2)))
@@ -236,6 +236,7 @@ def detect_regions(
     # (the whole grown component, tails included), so soft tails cannot pull the surface toward a defect
     exclude = np.zeros((m, n), bool)
     surf = None
+    weights: dict = {}  # what depends on the valid pixels only: the same in both passes and for fine()
     for _ in range(2):
         surf = fit_sound_surface(t, invalid=~valid | exclude, length_px=length_px, noise_k=noise,
                                  edge_length_px=edge_px, start=surf)
@@ -243,20 +244,14 @@ def detect_regions(
         if noise_k is None or noise_k <= 0:
             noise = max(pixel_noise_k(resid, valid), 1e-6)
         gains: list[np.ndarray] = []
-        fields = contrast_at_scales(resid, valid, scales, gains)
+        pyramid: dict = {}  # the residual's reduced copies: the last pass's serve fine() below
+        fields = contrast_at_scales(resid, valid, scales, gains, pyramid=pyramid, weights=weights)
         sound = valid & ~exclude & (surf.weight > 0.5)
         if sound.sum() < 0.1 * valid.sum():
             sound = valid
-        step = max(1, int(sound.sum() // 40_000))
-        sig, sig_w = [], []
-        for s, f, g in zip(scales, fields, gains):
-            sw = noise * gaussian_noise_factor(s)
-            vals = (f[sound] / g[sound]).ravel()[::step]  # g > 0 on valid pixels; 0 deep inside a masked area
-            emp = MAD_TO_SIGMA * float(np.median(np.abs(vals - np.median(vals))))
-            sig.append(max(sw, emp))
-            sig_w.append(sw)
+        sig, sig_w = _sigmas(fields, gains, scales, sound, noise)
         zs = [_ratio(f, sg * g) for f, sg, g in zip(fields, sig, gains)]
-        grown = {sign: _grown(zs, sign, k_hi, k_lo, valid) for sign in (-1, 1)}
+        grown = _hysteresis(zs, k_hi, k_lo, valid)
         found = (grown[-1][0] > 0) | (grown[1][0] > 0)
         found &= True if filled is None else ~np.asarray(filled, bool)  # a fill is no measurement: kept
         if not found.any() or exclude.any():
@@ -273,11 +268,9 @@ def detect_regions(
 
     fine_cache: dict[float, np.ndarray] = {}
 
-    pyramid: dict = {}
-
     def fine(s: float) -> np.ndarray:
         if s not in fine_cache:
-            fine_cache[s] = contrast_at_scales(resid, valid, (s,), pyramid=pyramid)[0]
+            fine_cache[s] = contrast_at_scales(resid, valid, (s,), pyramid=pyramid, weights=weights)[0]
         return fine_cache[s]
 
     labels = np.zeros((m, n), np.int32)
@@ -358,28 +351,55 @@ def _narrow(a: np.ndarray) -> np.ndarray:
     return a.astype(np.int16) if a.size == 0 or int(np.abs(a).max()) < 2**15 else a
 
 
-def _grown(zs, sign, k_hi, k_lo, valid) -> tuple[np.ndarray, np.ndarray]:
-    """Hysteresis of one sign over all scales of ``z = R_s/σ_s``: (component labels, components with a seed)."""
-    m, n = valid.shape
-    seed = np.zeros((m, n), bool)
-    grow = np.zeros((m, n), bool)
-    for zz in zs:
-        z = sign * zz
-        seed |= z >= k_hi
-        grow |= z >= k_lo
+def _sigmas(fields: list[np.ndarray], gains: list[np.ndarray], scales: tuple[float, ...], sound: np.ndarray,
+            noise: float) -> tuple[list[float], list[float]]:
+    """σ_s used at each scale (the larger of the white-noise value and the robust spread of ``R_s`` over a regular
+    subsample of the sound pixels, at most about 40 000) and the white-noise values."""
+    step = max(1, int(sound.sum() // 40_000))
+    flat = np.flatnonzero(sound)[::step]  # raster order
+    sr, sc = np.divmod(flat, sound.shape[1])
+
+    def at(a: np.ndarray) -> np.ndarray:
+        return np.take(a.reshape(-1), flat) if a.flags.c_contiguous else a[sr, sc]
+
+    sig, sig_w = [], []
+    for s, f, g in zip(scales, fields, gains):
+        sw = noise * gaussian_noise_factor(s)
+        vals = at(f) / at(g)  # g > 0 on valid pixels; 0 deep inside a masked area
+        emp = MAD_TO_SIGMA * float(np.median(np.abs(vals - np.median(vals))))
+        sig.append(max(sw, emp))
+        sig_w.append(sw)
+    return sig, sig_w
+
+
+def _hysteresis(zs: list[np.ndarray], k_hi: float, k_lo: float, valid: np.ndarray) -> dict:
+    """:func:`_grown` of each sign (−1, +1) from the highest and lowest ``z`` over the scales (a pixel passes a
+    threshold at some scale when its extreme does)."""
+    z_hi, z_lo = zs[0].copy(), zs[0].copy()
+    for zz in zs[1:]:
+        np.fmax(z_hi, zz, out=z_hi)
+        np.fmin(z_lo, zz, out=z_lo)
+    return {-1: _grown(z_lo <= -k_hi, z_lo <= -k_lo, valid), 1: _grown(z_hi >= k_hi, z_hi >= k_lo, valid)}
+
+
+def _grown(seed: np.ndarray, grow: np.ndarray, valid: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Hysteresis of one sign over all scales of ``z = R_s/σ_s``, given where ``z`` reaches ``k_hi`` (``seed``) and
+    ``k_lo`` (``grow``) at some scale: (component labels, components with a seed)."""
     seed &= valid
     grow &= valid
     comp, nc = ndimage.label(grow, structure=_SQUARE)
     has_seed = np.zeros(nc + 1, bool)
     if nc:
-        has_seed[np.unique(comp[seed])] = True
+        has_seed[comp[seed]] = True
     has_seed[0] = False
-    comp[~has_seed[comp]] = 0
+    np.multiply(comp, np.take(has_seed, comp), out=comp)  # components without a seed set to 0
     return comp, has_seed
 
 
 def _ratio(f: np.ndarray, g: np.ndarray) -> np.ndarray:
     """``f / g``, 0 where ``g`` is 0 (pixels deep inside a masked area that no valid pixel reaches)."""
+    if g.min() > 0:  # no such pixel: the plain division gives the same values
+        return f / g
     out = np.zeros_like(f)
     np.divide(f, g, out=out, where=g > 0)
     return out

@@ -43,7 +43,8 @@ from .._shared import robust_sigma
 from ._candidates import Candidate
 from ._framing import BAND_ELONGATION, BAND_MAX_WIDTH_M, is_band
 from ._geometry import MIN_SPOT_PX
-from ._reach import near_sources, within_reach
+from ._reach import distance_to_zeros, near_sources, within_reach
+from ._scales import _dilate, _fill_holes, _group_max, label8
 from ._reference import Plane, RingReference
 from ._shape import Shape, shape_features
 from ._significance import DetectionInfo
@@ -102,7 +103,7 @@ def _fades_from(idx: np.ndarray, core: np.ndarray, *, sign: int, u: np.ndarray, 
     cr, cc = np.nonzero(core)
     r0, r1 = min(int(rows.min()), int(cr.min())), max(int(rows.max()), int(cr.max())) + 1
     c0, c1 = min(int(cols.min()), int(cc.min())), max(int(cols.max()), int(cc.max())) + 1
-    dist = ndimage.distance_transform_edt(~core[r0:r1, c0:c1])[rows - r0, cols - c0]
+    dist = distance_to_zeros(~core[r0:r1, c0:c1])[rows - r0, cols - c0]
     contrast = sign * (u.flat[idx] - surface_c.flat[idx])
     far = dist > float(np.median(dist))
     if far.all() or not far.any():
@@ -243,7 +244,7 @@ def join_detections(
     for k, idx in ext.items():
         if k not in dropped:
             taken[idx] = True
-    blocked = ndimage.binary_dilation(taken.reshape(shape), structure=np.ones((3, 3), bool))
+    blocked = _dilate(taken.reshape(shape), 1)  # 3×3 binary dilation
     extents: dict[int, np.ndarray] = {}
     mine = x = None
     for lab in soft:
@@ -384,7 +385,7 @@ def _measure(
     rr, cc = rows - r0, cols - c0
     region[rr, cc] = True
     rr, cc = np.nonzero(region)  # raster order
-    dist = ndimage.distance_transform_edt(~region)
+    dist = distance_to_zeros(~region)
     s_crop = surface_c[crop]
     t_crop = t[crop]
     ref_in = s_crop[rr, cc]
@@ -433,9 +434,11 @@ def _shape(region: np.ndarray, dist: np.ndarray, rim_crop: np.ndarray, *, delta:
     sgn = 1.0 if delta >= 0 else -1.0
     contrast = sgn * (u_crop - s_crop)
     low = (region | rim_crop) & (contrast >= QUARTER * peak_k)
-    lab, _ = ndimage.label(low | region, structure=np.ones((3, 3), bool))
-    keep = np.unique(lab[region])
-    reg = ndimage.binary_fill_holes(np.isin(lab, keep[keep > 0]) | region)
+    lab = label8(low | region)  # its 8-connected components that hold the extent, holes filled
+    keep = np.zeros(int(lab.max()) + 1, bool)
+    keep[lab[region]] = True
+    keep[0] = False
+    reg = _fill_holes(keep[lab] | region)
     shp = shape_features(region, u_crop=u_crop, reference_crop=s_crop, dist_crop=dist, delta_k=delta,
                          noise_k=noise_k, row_offset=offset[0], col_offset=offset[1])
     rr, cc = np.nonzero(reg)
@@ -447,8 +450,7 @@ def _shape(region: np.ndarray, dist: np.ndarray, rim_crop: np.ndarray, *, delta:
     axis = evecs[:, int(np.argmax(evals))]
     along = np.round((cc - cc.mean()) * axis[0] + (rr - rr.mean()) * axis[1]).astype(int)
     along -= int(along.min())
-    profile = np.full(int(along.max()) + 1, -np.inf)
-    np.maximum.at(profile, along, contrast[rr, cc])
+    profile = _group_max(along, contrast[rr, cc], int(along.max()) + 1)
     profile = profile[np.isfinite(profile)]
     mean = float(profile.mean())
     spread = robust_sigma(profile) if profile.size > 1 else 0.0
@@ -469,8 +471,7 @@ def _fades_from_end(contrast: np.ndarray, rr: np.ndarray, cc: np.ndarray) -> boo
         n = int(a.max()) + 1
         if n < 8:
             continue
-        profile = np.full(n, -np.inf)
-        np.maximum.at(profile, a, contrast[rr, cc])
+        profile = _group_max(a, contrast[rr, cc], n)
         profile = np.where(np.isfinite(profile), profile, np.nan)
         top = float(np.nanmax(profile))
         i = int(np.nanargmax(profile))
@@ -480,3 +481,4 @@ def _fades_from_end(contrast: np.ndarray, rr: np.ndarray, cc: np.ndarray) -> boo
         if i >= n - n // 4 and float(np.nanmean(profile[:tail])) <= 0.5 * top:
             return True
     return False
+

@@ -174,7 +174,7 @@ def _rad_air_warning(meta: SurveyMeta, obj: np.ndarray, mask: np.ndarray, reflec
     if not known or mask.all():
         return None
     lo, hi = min(*known, reflected), max(*known, reflected)
-    med = float(np.median(obj[~mask]))
+    med = float(np.median(obj[~mask], overwrite_input=True))  # a copy: partitioned in place
     if lo - AIR_MARGIN_K <= med <= hi + AIR_MARGIN_K:
         return None
     given = ", ".join(f"{k} {t:g} °C" for k, t in (("inside", air.inside_c), ("outside", air.outside_c))

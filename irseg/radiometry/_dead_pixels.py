@@ -122,7 +122,7 @@ def mask_dead_pixels(image, *, invalid=None, floor_k: float = _DEAD_FLOOR_K) -> 
     for blk in _rad_blocks(m):
         np.subtract(filled[blk], _rad_median3(filled, blk, offset), out=resid[blk])
     r_valid = np.abs(resid[~bad])
-    sigma = MAD_TO_SIGMA * float(np.median(r_valid)) if r_valid.size else 0.0
+    sigma = MAD_TO_SIGMA * float(np.median(r_valid, overwrite_input=True)) if r_valid.size else 0.0  # a copy
     del r_valid
     thr = max(_DEAD_K_SIGMA * sigma, float(floor_k))
     cand = np.zeros(x.shape, dtype=bool)

@@ -233,7 +233,9 @@ def _hysteresis(v: np.ndarray, valid: np.ndarray, strong: float, weak: float) ->
     if weak <= strong:
         return core
     cand = ((v < weak) & valid & _valley(v)) | core
-    lab, n = ndi.label(cand, structure=np.ones((3, 3), bool))
+    # its 8-connected components (those of scipy.ndimage.label; only which hold a core pixel matters)
+    n, lab = cv2.connectedComponents(cand.view(np.uint8), connectivity=8, ltype=cv2.CV_32S)
+    n -= 1
     if n == 0:
         return core
     keep = np.zeros(n + 1, dtype=bool)

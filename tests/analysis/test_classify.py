@@ -337,3 +337,35 @@ def test_a_member_touching_an_area_of_its_temperature_stays_in_the_framing_anoma
     res = _run(t, d)
     framing = [a for a in res.anomalies if "summarised" in a.reason]
     assert len(framing) == 1 and "6 parallel" in framing[0].reason, [a.reason for a in res.anomalies]
+
+
+def test_theil_sen_slope_and_top_outline_agree_with_their_reference_forms():
+    # reference library: scipy.stats.theilslopes (its slope, the median of the pairwise slopes); the
+    # top outline of a region is the smallest row of each column (NumPy's minimum.at, common practice)
+    from scipy.stats import theilslopes
+
+    from irseg.analysis._shape import _theil_sen_slope, _upper_roughness
+
+    rng = np.random.default_rng(8)
+    for n in (2, 3, 10, 57, 200):
+        x = np.sort(rng.choice(500, n, replace=False)).astype(float)
+        y = 0.3 * x + rng.normal(0.0, 2.0, n)
+        y[::7] = np.round(y[::7])  # some repeated values
+        assert _theil_sen_slope(y, x) == float(theilslopes(y, x)[0])
+    # a wavy tide line: the same roughness from the pixels in raster order and shuffled
+    rows, cols = np.mgrid[:60, :90]
+    region = rows >= 30 + np.round(4.0 * np.sin(cols / 5.0))
+    rr, cc = np.nonzero(region)
+    perm = rng.permutation(rr.size)
+    rough = _upper_roughness(rr, cc)
+    assert rough == _upper_roughness(rr[perm], cc[perm])
+    top = np.full(90, 10**9)
+    np.minimum.at(top, cc, rr)
+    inner = top[9:-9].astype(float)
+    line = np.arange(9, 81, dtype=float)
+    slope = float(theilslopes(inner, line)[0])
+    r = inner - slope * line
+    r = r - np.median(r)
+    expected = 1.4826 * float(np.median(np.abs(r - np.median(r))))  # [CP] 1.4826·MAD
+    assert rough == pytest.approx(expected, rel=1e-4)
+    assert rough > 1.0  # [C] a 4-px sine wave about a straight line: MAD·1.4826 of its samples

@@ -104,6 +104,37 @@ def test_a_candidate_forms_its_pixels_distances_and_reference_as_the_held_arrays
     held = Candidate(7, 11, 33, lazy.crop, region, np.zeros(region.shape), ref, 18.0, 20.0, -2.0, 2.0,
                      rr[:3], cc[:3], np.ones(3))
     assert held.n_px == 3 and held.dist.sum() == 0.0 and held.ref_in.tolist() == [1.0, 1.0, 1.0]  # kept as given
+    # reads of two candidates in turn (the last one read keeps what it formed) give each its own arrays
+    other_region = np.zeros((5, 6), bool)
+    other_region[1:4, 2] = True
+    other = Candidate(8, 0, 0, (slice(0, 5), slice(0, 6)), other_region, None, ref, 18.0, 20.0, -2.0, 2.0)
+    for _ in range(2):
+        np.testing.assert_array_equal(other.dist, ndimage.distance_transform_edt(~other_region))
+        np.testing.assert_array_equal(lazy.dist, ndimage.distance_transform_edt(~region))
+        np.testing.assert_array_equal(other.rr, np.nonzero(other_region)[0])
+        np.testing.assert_array_equal(lazy.ref_in, plane.evaluate(rr + 11.0, cc + 33.0))
+        np.testing.assert_array_equal(other.ref_in, plane.evaluate(np.nonzero(other_region)[0] + 0.0,
+                                                                   np.nonzero(other_region)[1] + 0.0))
+
+
+@pytest.mark.parametrize("shape", [(1, 1), (1, 17), (23, 1), (61, 97), (700, 900)])
+def test_distance_to_zeros_is_scipys_exact_distance_transform_value_for_value(shape):
+    # [C] scipy.ndimage.distance_transform_edt is the reference exact Euclidean distance transform
+    # (float64 square roots of integer squared distances); the OpenCV-based form must equal it bit for bit
+    from scipy import ndimage
+
+    from irseg.analysis._reach import distance_to_zeros
+
+    rng = np.random.default_rng(sum(shape))
+    for density in (0.0005, 0.02, 0.6):
+        mask = rng.random(shape) > density
+        mask.flat[rng.integers(0, mask.size)] = False  # at least one zero
+        assert np.array_equal(distance_to_zeros(mask), ndimage.distance_transform_edt(mask))
+    yy, xx = np.mgrid[: shape[0], : shape[1]]
+    disk = (yy - shape[0] / 3) ** 2 + (xx - shape[1] / 2) ** 2 > (0.2 * min(shape)) ** 2
+    assert np.array_equal(distance_to_zeros(disk), ndimage.distance_transform_edt(disk))
+    ones = np.ones(shape, bool)  # no zero at all: scipy's own answer
+    assert np.array_equal(distance_to_zeros(ones), ndimage.distance_transform_edt(ones))
 
 
 def test_near_sources_agrees_with_scipys_exact_distance_transform():
@@ -128,3 +159,59 @@ def test_near_sources_agrees_with_scipys_exact_distance_transform():
     pix = rng.choice(shape[0] * shape[1], 2000, replace=False)
     whole = ndimage.distance_transform_edt(far.astype(bool)).ravel()[pix] <= 11.6
     assert np.array_equal(within_reach(idx, pix, 11.6, shape), whole)
+
+
+def test_group_max_is_numpys_maximum_at(rng):
+    # the per-slice profiles of a detected anomaly's shape: NumPy's unbuffered np.maximum.at into a −inf
+    # array is the reference (its semantics, NaN propagation included, common practice)
+    from irseg.analysis._scales import _group_max
+
+    for k in range(60):
+        n = int(rng.integers(1, 40))
+        size = int(rng.integers(0, 250))
+        keys = rng.integers(0, n, size)
+        values = rng.normal(0.0, 1.0, size).astype(np.float32 if k % 2 else np.float64)
+        if k % 5 == 0 and size:
+            values[rng.integers(0, size)] = np.nan
+        expected = np.full(n, -np.inf)
+        with np.errstate(invalid="ignore"):
+            np.maximum.at(expected, keys, values)
+            got = _group_max(keys, values, n)
+        assert np.array_equal(got, expected, equal_nan=True)
+
+
+def test_shape_outline_erosion_is_scipys_binary_erosion(rng):
+    # reference library: scipy.ndimage.binary_erosion with its defaults (cross, border_value=0)
+    from scipy import ndimage
+
+    from irseg.analysis._shape import _eroded
+
+    for shape in ((1, 1), (1, 9), (7, 1), (2, 2), (31, 47)):
+        for density in (0.3, 0.8, 1.0):
+            region = rng.random(shape) < density
+            assert np.array_equal(_eroded(region), ndimage.binary_erosion(region))
+
+
+def test_gradient_at_some_pixels_is_numpys_gradient_there(rng):
+    # NumPy's np.gradient (central differences inside, one-sided at the border) is the reference
+    from irseg.analysis._components import _gradient_at
+
+    for shape in ((2, 2), (2, 9), (9, 2), (17, 23), (64, 48)):
+        for dtype in (np.float32, np.float64):
+            f = rng.normal(0.0, 3.0, shape).astype(dtype)
+            rr, cc = np.nonzero(rng.random(shape) < 0.4)
+            gr, gc = np.gradient(f)
+            got_r, got_c = _gradient_at(f, rr, cc)
+            assert got_r.dtype == dtype and np.array_equal(got_r, gr[rr, cc]) and np.array_equal(got_c, gc[rr, cc])
+
+
+def test_fill_holes_is_scipys(rng):
+    # reference library: scipy.ndimage.binary_fill_holes with its defaults (background 4-connected to the border)
+    from scipy import ndimage
+
+    from irseg.analysis._scales import _fill_holes
+
+    for shape in ((1, 1), (3, 1), (1, 5), (25, 31), (80, 60)):
+        for density in (0.3, 0.55, 0.7):
+            mask = rng.random(shape) < density
+            assert np.array_equal(_fill_holes(mask), ndimage.binary_fill_holes(mask))

@@ -170,3 +170,62 @@ def test_a_large_masked_area_leaves_the_defect_beside_it_found_without_warnings(
     assert len(cold) == 1
     pixel_m = 2 * 3.0 * np.tan(np.radians(45.0) / 2) / 320
     assert cold[0].area_m2 == pytest.approx(80 * 80 * pixel_m**2, rel=0.15)
+
+
+@pytest.mark.parametrize("seed", [0, 1, 2])
+def test_grey_reconstruction_agrees_with_scikit_image(seed):
+    # reference library: skimage.morphology.reconstruction (method "dilation", 3×3 footprint); the
+    # domes of the extent rule are f − reconstruction(f − h, f), so they must agree value for value
+    from skimage.morphology import reconstruction
+
+    from irseg.analysis._scales import _reconstruct
+
+    rng = np.random.default_rng(seed)
+    m, n = 37 + 11 * seed, 53 - 7 * seed
+    yy, xx = np.mgrid[:m, :n]
+    field = np.sin(yy / 5.0) * np.cos(xx / 7.0) + 0.3 * rng.normal(size=(m, n))
+    field[::9, :] = field.min()  # flat valleys cutting the domes apart
+    for h in (0.05, 0.3, 1.0):
+        expected = reconstruction(field - h, field, method="dilation")
+        assert np.array_equal(_reconstruct(field - h, field), expected)
+
+
+def test_contrast_fields_reuse_their_valid_weights_unchanged():
+    # the weights kept for one set of valid pixels (second pass, fine fields) give the fields a fresh call gives
+    rng = np.random.default_rng(3)
+    valid = np.ones((120, 170), bool)
+    valid[30:60, 40:90] = False
+    scales = (1.0, 2.8, 4.5, 9.0)
+    weights: dict = {}
+    first = rng.normal(0.0, 0.1, valid.shape)
+    contrast_at_scales(first, valid, scales, [], weights=weights)
+    second = rng.normal(0.0, 0.1, valid.shape)
+    gains_kept: list = []
+    kept = contrast_at_scales(second, valid, scales, gains_kept, weights=weights)
+    gains_fresh: list = []
+    fresh = contrast_at_scales(second, valid, scales, gains_fresh)
+    for a, b in zip(kept + gains_kept, fresh + gains_fresh):
+        assert np.array_equal(a, b)
+
+
+def test_opencv_components_are_scipys():
+    # reference library: scipy.ndimage.label (8-connectivity for label8, its default 4-connectivity for
+    # long_lines, whose rule is the components' bounding boxes from scipy.ndimage.find_objects)
+    from scipy import ndimage
+
+    from irseg.analysis._scales import label8, long_lines
+
+    rng = np.random.default_rng(12)
+    for shape, density in (((1, 1), 0.5), ((1, 40), 0.5), ((33, 1), 0.5), ((64, 90), 0.45), ((120, 80), 0.6)):
+        mask = rng.random(shape) < density
+        ours = label8(mask)
+        ref, k = ndimage.label(mask, structure=np.ones((3, 3), bool))
+        assert ((ours > 0) == mask).all()
+        pairs = set(zip(ours[mask].tolist(), ref[mask].tolist()))  # a one-to-one map between the labellings
+        assert len(pairs) == k == len({a for a, _ in pairs}) == len({b for _, b in pairs})
+        for line_px in (0.5, 2.0, 7.0):
+            lab, _ = ndimage.label(mask)
+            keep = np.zeros(lab.max() + 1, bool)
+            for i, sl in enumerate(ndimage.find_objects(lab), start=1):
+                keep[i] = max(sl[0].stop - sl[0].start, sl[1].stop - sl[1].start) >= 3.0 * line_px
+            assert np.array_equal(long_lines(mask, line_px), keep[lab] if lab.max() else mask)
