@@ -50,12 +50,9 @@ rejected blocks, every block connected to them whose residual has their sign and
 exceeds one scale, and a margin of a quarter of the sound length around them are
 held out of it (``HOLD_K``, ``HOLD_MARGIN``), as long as a fifth of the blocks
 stays (``HOLD_MAX``). A fit started from this one holds them out from its first
-pass; its caller leaves the anomalies themselves out, so there the blocks bordering
-the left-out area that exceed one scale seed the tails. An edge decay that the held-out blocks leave
-unconfirmed is switched off before the refit (the confirmation counts sound data
-only). Only the surface changes: the robust scale and the weights returned are those
-of every block (what the detector measures the noise on), so the tails are left out
-of the fit without being declared anomalous.
+pass. Only the surface changes: the robust scale and the weights returned are
+those of every block (what the detector measures the noise on), so the tails are
+left out of the fit without being declared anomalous.
 
 Scale choice: the sound length is a physical length (``length_px`` comes from
 ``sound_length_m`` and the pixel footprint when the geometry is known, else a
@@ -337,15 +334,6 @@ def _backfit(*, x_design: np.ndarray, y: np.ndarray, ok: np.ndarray, base: np.nd
     return beta, local, w, scale
 
 
-def _unconfirmed(x_design: np.ndarray, w: np.ndarray, base: np.ndarray, ok: np.ndarray, beta: np.ndarray,
-                 scale: float) -> np.ndarray:
-    """Edge decays (bool per edge) with less than :data:`EDGE_CONFIRM` of their energy on the blocks weighted
-    ``w`` and a coefficient beyond the biweight's cut: fitted from the far tail, an extrapolation."""
-    energy = x_design[:, 7:] ** 2
-    support = (w[ok][:, None] * energy).sum(axis=0) / np.maximum((base[ok][:, None] * energy).sum(axis=0), 1e-12)
-    return (support < EDGE_CONFIRM) & (np.abs(beta[7:]) > TUKEY_C * scale)
-
-
 def _held_out(resid: np.ndarray, w: np.ndarray, ok: np.ndarray, scale: float, margin_blocks: float) -> np.ndarray:
     """Blocks held out of a refit: the anomalies, their soft tails and a margin around them.
 
@@ -445,7 +433,9 @@ def fit_sound_surface(
         # an edge decay must be confirmed by sound data at its own edge: one fitted from the far tail
         # while the blocks along the edge are excluded (an anomaly lying along that edge) is an
         # extrapolation; it is switched off and the surface refitted
-        off = _unconfirmed(x_design, w, base, ok, beta, scale)
+        energy = x_design[:, 7:] ** 2
+        support = (w[ok][:, None] * energy).sum(axis=0) / np.maximum((base[ok][:, None] * energy).sum(axis=0), 1e-12)
+        off = (support < EDGE_CONFIRM) & (np.abs(beta[7:]) > TUKEY_C * scale)
         if off.any():
             ridge[7:][off] = 1e9 * max(float(base.sum()), 1.0)
             beta, local, w, scale = _backfit(w0=w0, ridge=ridge, **fit)
@@ -453,18 +443,8 @@ def fit_sound_surface(
     # the anomalies with their soft tails and a margin held out, the surface refitted at the final length
     resid = np.zeros_like(y)
     resid[ok] = yv - x_design @ beta - local[ok]
-    seeds = w
-    if start is not None:
-        # a fit started from another: its caller leaves the anomalies found there out (no blocks here), so
-        # the blocks bordering them that stand out by the tail's measure seed the tails as rejected blocks
-        # would (else a halo beside them, up to a frame edge, would come back into the fit)
-        border = ok & ndimage.binary_dilation(~ok, structure=np.ones((3, 3), bool)) & (np.abs(resid) > HOLD_K * scale)
-        seeds = np.where(border, 0.0, w)
-    held = _held_out(resid, seeds, ok, scale, HOLD_MARGIN * lb)
+    held = _held_out(resid, w, ok, scale, HOLD_MARGIN * lb)
     keep = (~held).astype(float) if held.any() and (ok & ~held).sum() >= (1.0 - HOLD_MAX) * ok.sum() else None
-    if edge_length_px is not None and keep is not None:
-        # the held-out blocks are no sound data either: an edge decay they leave unconfirmed is switched off
-        ridge[7:][_unconfirmed(x_design, w * keep, base, ok, beta, scale)] = 1e9 * max(float(base.sum()), 1.0)
     beta, local, w, scale_held = _backfit(w0=w if keep is None else w * keep, ridge=ridge, keep=keep,
                                           **dict(fit, lengths=[steps[-1] * lb]))
     if keep is None:
