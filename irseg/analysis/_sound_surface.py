@@ -50,9 +50,12 @@ rejected blocks, every block connected to them whose residual has their sign and
 exceeds one scale, and a margin of a quarter of the sound length around them are
 held out of it (``HOLD_K``, ``HOLD_MARGIN``), as long as a fifth of the blocks
 stays (``HOLD_MAX``). A fit started from this one holds them out from its first
-pass. Only the surface changes: the robust scale and the weights returned are
-those of every block (what the detector measures the noise on), so the tails are
-left out of the fit without being declared anomalous.
+pass; its caller leaves the anomalies themselves out, so there the blocks bordering
+the left-out area that exceed one scale seed the tails. An edge decay that the held-out blocks leave
+unconfirmed is switched off before the refit (the confirmation counts sound data
+only). Only the surface changes: the robust scale and the weights returned are those
+of every block (what the detector measures the noise on), so the tails are left out
+of the fit without being declared anomalous.
 
 Scale choice: the sound length is a physical length (``length_px`` comes from
 ``sound_length_m`` and the pixel footprint when the geometry is known, else a
@@ -100,6 +103,7 @@ EDGE_CONFIRM = 0.5  # an edge decay needs half of its energy on blocks kept as s
 HOLD_K = 1.0  # an anomaly's soft tail: blocks connected to it whose residual of its sign exceeds this many scales
 HOLD_MARGIN = 0.25  # ... and a margin of this many sound lengths (0.05 m) around it, held out of the refit
 HOLD_MAX = 0.8  # at most this share of the fitted blocks is held out (the frame-tied terms need sound data)
+EDGE_REACH = 3.0  # an edge decay's reach, decay lengths (exp(-3): 5 % of it left; common practice)
 
 
 @dataclass(frozen=True)
@@ -334,6 +338,28 @@ def _backfit(*, x_design: np.ndarray, y: np.ndarray, ok: np.ndarray, base: np.nd
     return beta, local, w, scale
 
 
+def _unconfirmed(x_design: np.ndarray, w: np.ndarray, base: np.ndarray, ok: np.ndarray, beta: np.ndarray,
+                 scale: float) -> np.ndarray:
+    """Edge decays (bool per edge) with less than :data:`EDGE_CONFIRM` of their energy on the blocks weighted
+    ``w`` and a coefficient beyond the biweight's cut: fitted from the far tail, an extrapolation."""
+    energy = x_design[:, 7:] ** 2
+    support = (w[ok][:, None] * energy).sum(axis=0) / np.maximum((base[ok][:, None] * energy).sum(axis=0), 1e-12)
+    return (support < EDGE_CONFIRM) & (np.abs(beta[7:]) > TUKEY_C * scale)
+
+
+def _edge_reach(beta: np.ndarray, scale: float, yp: np.ndarray, xp: np.ndarray, m: int, n: int,
+                lam: float | None) -> np.ndarray:
+    """Blocks within :data:`EDGE_REACH` decay lengths of an edge whose decay is in use (past the biweight cut)."""
+    reach = np.zeros(yp.shape, bool)
+    if lam is None:
+        return reach
+    terms = _edge_terms(xp, n, lam) + _edge_terms(yp, m, lam)  # left, right, top, bottom (as in the design)
+    for term, coef in zip(terms, beta[7:]):
+        if abs(coef) > TUKEY_C * scale:
+            reach |= term >= np.exp(-EDGE_REACH)
+    return reach
+
+
 def _held_out(resid: np.ndarray, w: np.ndarray, ok: np.ndarray, scale: float, margin_blocks: float) -> np.ndarray:
     """Blocks held out of a refit: the anomalies, their soft tails and a margin around them.
 
@@ -433,9 +459,7 @@ def fit_sound_surface(
         # an edge decay must be confirmed by sound data at its own edge: one fitted from the far tail
         # while the blocks along the edge are excluded (an anomaly lying along that edge) is an
         # extrapolation; it is switched off and the surface refitted
-        energy = x_design[:, 7:] ** 2
-        support = (w[ok][:, None] * energy).sum(axis=0) / np.maximum((base[ok][:, None] * energy).sum(axis=0), 1e-12)
-        off = (support < EDGE_CONFIRM) & (np.abs(beta[7:]) > TUKEY_C * scale)
+        off = _unconfirmed(x_design, w, base, ok, beta, scale)
         if off.any():
             ridge[7:][off] = 1e9 * max(float(base.sum()), 1.0)
             beta, local, w, scale = _backfit(w0=w0, ridge=ridge, **fit)
@@ -443,8 +467,20 @@ def fit_sound_surface(
     # the anomalies with their soft tails and a margin held out, the surface refitted at the final length
     resid = np.zeros_like(y)
     resid[ok] = yv - x_design @ beta - local[ok]
-    held = _held_out(resid, w, ok, scale, HOLD_MARGIN * lb)
+    seeds = w
+    if start is not None:
+        # a fit started from another: its caller leaves the anomalies found there out (no blocks here), so
+        # the blocks bordering them that stand out by the tail's measure seed the tails as rejected blocks
+        # would, in the reach of an edge decay in use (else a halo running to that edge comes back into the
+        # fit and the decay follows it); not elsewhere: every framing member's rim stands out by one scale
+        border = ok & ndimage.binary_dilation(~ok, structure=np.ones((3, 3), bool)) & (np.abs(resid) > HOLD_K * scale)
+        border &= _edge_reach(beta, scale, yp, xp, m, n, edge_length_px)
+        seeds = np.where(border, 0.0, w)
+    held = _held_out(resid, seeds, ok, scale, HOLD_MARGIN * lb)
     keep = (~held).astype(float) if held.any() and (ok & ~held).sum() >= (1.0 - HOLD_MAX) * ok.sum() else None
+    if edge_length_px is not None and keep is not None:
+        # the held-out blocks are no sound data either: an edge decay they leave unconfirmed is switched off
+        ridge[7:][_unconfirmed(x_design, w * keep, base, ok, beta, scale)] = 1e9 * max(float(base.sum()), 1.0)
     beta, local, w, scale_held = _backfit(w0=w if keep is None else w * keep, ridge=ridge, keep=keep,
                                           **dict(fit, lengths=[steps[-1] * lb]))
     if keep is None:

@@ -23,6 +23,7 @@ from scipy import ndimage
 from tests.support.fakes import make_frame, make_meta, make_seg
 
 from irseg.analysis import analyse
+from irseg.analysis._significance import detect_regions
 from irseg.analysis._sound_surface import fit_sound_surface
 
 
@@ -75,3 +76,31 @@ def test_ring_running_into_the_shaded_corners_is_referenced_on_the_sound_surface
     assert a.reference_c == pytest.approx(float(sound[mine].mean()), abs=0.05)  # [C] truth, [CP] tolerance
     total_w = res.h_w_m2k * float(-contrast.sum()) * pixel_m**2  # [C] h·Σ(T_sound − T)·A_px
     assert a.excess_w == pytest.approx(total_w, rel=0.03)  # [CP]
+
+
+@pytest.mark.parametrize("seed", [1, 2])
+def test_diffuse_halo_running_to_the_frame_edges_stays_out_of_the_sound_surface(seed):
+    # a wall 2.15 m across (240 × 320 px), cold air falling from a gap: a core 0.4 m wide, 0.9 K colder,
+    # its right side 0.3 m from the frame's right edge, and a halo of the air spreading below and beside
+    # it (lateral mixing, Gaussian σ 0.15–0.3 m) that runs out of the frame at its bottom and right edges.
+    # The detector's second sound surface leaves the significant area out; the halo beside it must still
+    # be held out of the fit as its tail, and an edge decay the held-out blocks leave unconfirmed is
+    # switched off (without either the surface sat 0.19 K into the core)
+    m, n = 240, 320
+    pixel_m = 2.15 / n
+    sound = _shaded(m, n, tilt_k=0.3)
+    yy, xx = np.mgrid[:m, :n].astype(float)
+    c1 = int(n - 1 - 0.3 / pixel_m)
+    c0 = int(c1 - 0.4 / pixel_m)
+    core = np.zeros((m, n))
+    core[70:160, c0:c1] = -0.9
+    halo = ndimage.gaussian_filter(np.where((yy >= 70) & (xx >= c0) & (xx < c1), -0.5, 0.0), 0.3 / pixel_m,
+                                   mode="nearest")
+    halo += ndimage.gaussian_filter(np.where((yy > 70) & (xx > c0 - 30), -0.2, 0.0), 0.15 / pixel_m, mode="nearest")
+    contrast = ndimage.gaussian_filter(core, 0.04 / pixel_m) + halo
+    t = sound + contrast + np.random.default_rng(seed).normal(0.0, 0.05, (m, n))
+    _, surface, _ = detect_regions(t, None, noise_k=0.05, pixel_m=pixel_m)
+    half = contrast < 0.5 * contrast.min()  # the half-peak extent: where the cold air holds half its contrast
+    # [C] truth; [CP] tolerance: a ninth of the 1.33 K peak (measured 0.14 K with both seeds; the halo at the frame
+    # edge cannot be told from the sound wall, so part of it may stay in the surface)
+    assert abs(float((surface - sound)[half].mean())) < 0.15

@@ -22,12 +22,7 @@ pytestmark = pytest.mark.slow
 
 # What this version does not reach, each explained in docs/validation.md; kept exact: a fix must take its
 # entry out, a regression fails.
-KNOWN_MISSES = {
-    # the cold-air fan beside the corner, seen at 45°: found as air leakage with IoU 0.84 but 16 % too
-    # small (the area target is 10 %; 14 % without the corner's field, 2 % with the frame 0.14 m further
-    # on: the fan's side lies 0.3 m from the frame's edge); the corner meets its own targets
-    ("con7_corner_cold_air", "defects"),
-}
+KNOWN_MISSES: set[tuple[str, str]] = set()
 
 
 @pytest.fixture(scope="module")
