@@ -41,7 +41,7 @@ from scipy import ndimage
 from .._shared import robust_sigma
 from ._bridges import LINEAR_CAUSE, linear_figures, straight_band_loss
 from ._confidence import BandInputs, confidence_bands
-from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
+from ._measure import FRSI_PERCENTILE, annual_energy_kwh, excess_heat_w, temperature_factor
 from ._shape import Shape
 from ._types import Anomaly, severity_score
 
@@ -291,7 +291,7 @@ def _lintel_record(band: HeadBand, own: np.ndarray, reference_c: np.ndarray, pan
     kwh = annual_energy_kwh(excess_w, inside_c=air.inside_c, outside_c=air.outside_c, degree_days=an.degree_days)
     f_rsi = mould = None
     if surf.view == "interior":
-        f_rsi = temperature_factor(float(np.percentile(vals, 5.0)), inside_c=air.inside_c, outside_c=air.outside_c)
+        f_rsi = temperature_factor(float(np.percentile(vals, FRSI_PERCENTILE)), inside_c=air.inside_c, outside_c=air.outside_c)
         mould = None if f_rsi is None else bool(f_rsi < an.frsi_limit)
     bands = BandInputs(
         area_px=int(vals.size), perimeter_px=shape.perimeter_px, loss_sum_kpx=loss_sum,

@@ -12,7 +12,9 @@ import math
 
 from ._conditions import MIN_AIR_DIFFERENCE_K
 
-__all__ = ["excess_heat_w", "annual_energy_kwh", "temperature_factor"]
+__all__ = ["excess_heat_w", "annual_energy_kwh", "temperature_factor", "FRSI_PERCENTILE"]
+
+FRSI_PERCENTILE = 5.0  # an anomaly's surface temperature for f_Rsi: this percentile of its pixels (its coldest part, not one noisy pixel)
 
 
 def excess_heat_w(*, h_w_m2k: float, loss_sum_kpx: float, pixel_area_m2: float) -> float:

@@ -17,13 +17,12 @@ from ._classify import GEOMETRIC_REASON, GLAZING_REASON, classify_cause, framing
 from ._confidence import BandInputs, confidence_bands
 from ._framing import LineInfo
 from ._glazing import is_framed_pane, pane_profile
-from ._measure import annual_energy_kwh, excess_heat_w, temperature_factor
+from ._measure import FRSI_PERCENTILE, annual_energy_kwh, excess_heat_w, temperature_factor
 from ._thermal_region import Measured
 from ._types import Anomaly, severity_key, severity_score
 
 __all__ = ["ImageContext", "group_units", "anomaly_record", "rank_by_severity", "FRSI_PERCENTILE", "EDGE_NOTE"]
 
-FRSI_PERCENTILE = 5.0
 EDGE_NOTE = "touches the frame edge: its area may be cut"
 
 
